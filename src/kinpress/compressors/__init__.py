@@ -1,0 +1,72 @@
+"""The compressor registry: specs like ``zstd:level=19,window=27`` in, adapters out."""
+
+from __future__ import annotations
+
+from .base import Compressor, Param, Primed, SpecError
+from .brotli import Brotli
+from .bz2 import Bz2
+from .lzma import Lzma
+from .ppmd import Ppmd
+from .zlib import Zlib
+from .zstd import Zstd
+
+ADAPTERS: dict[str, type[Compressor]] = {
+    cls.name: cls for cls in (Zstd, Brotli, Lzma, Bz2, Zlib, Ppmd)
+}
+NAME_ALIASES = {"xz": "lzma", "deflate": "zlib", "bzip2": "bz2", "brotli": "brotli"}
+
+__all__ = [
+    "ADAPTERS",
+    "Compressor",
+    "Param",
+    "Primed",
+    "SpecError",
+    "compressor",
+    "describe",
+    "parse_spec",
+]
+
+
+def parse_spec(text: str) -> tuple[type[Compressor], dict[str, int]]:
+    """Split ``NAME[:key=value[,key=value]]`` into an adapter class and integer settings."""
+    name, _, rest = text.strip().partition(":")
+    name = NAME_ALIASES.get(name.lower(), name.lower())
+    cls = ADAPTERS.get(name)
+    if cls is None:
+        raise SpecError(
+            f"unknown compressor {text.partition(':')[0]!r}; valid names: {', '.join(ADAPTERS)}"
+        )
+    settings: dict[str, int] = {}
+    for part in filter(None, (p.strip() for p in rest.split(","))):
+        key, eq, value = part.partition("=")
+        if not eq or not key.strip():
+            raise SpecError(f"{text!r}: expected key=value, got {part!r}")
+        try:
+            settings[key.strip().lower()] = int(value)
+        except ValueError:
+            raise SpecError(f"{text!r}: {key.strip()} takes a whole number, got {value!r}") from None
+    return cls, settings
+
+
+def compressor(spec: str | Compressor) -> Compressor:
+    """Build a compressor from a spec string such as ``lzma:level=9,extreme=1``."""
+    if isinstance(spec, Compressor):
+        return spec
+    cls, settings = parse_spec(spec)
+    return cls(**settings)
+
+
+def describe(comp: Compressor) -> dict[str, object]:
+    """One row of ``kinpress compressors``: what a user needs to pick and trust a compressor."""
+    level = comp.level_param()
+    return {
+        "name": comp.name,
+        "spec": comp.spec,
+        "levels": [level.low, level.high],
+        "window_bytes": comp.window_bytes,
+        "primed": comp.primable,
+        "overhead_bytes": comp.overhead_bytes,
+        "keys": {p.name: {"range": [p.low, p.high], "help": p.help} for p in comp.params},
+        "window_source": comp.window_source,
+        "summary": comp.summary,
+    }

@@ -1,0 +1,121 @@
+"""Tiles of the size computation: pure functions of item bytes, compressor spec and tile.
+
+A tile lists single items or (first, second) pairs by index. For a pair the value is the size of
+compressing `second` knowing `first`: C(first + second) by concatenation, or `second` compressed
+with a compressor primed by `first`. With strand="both", `first` is also tried reverse-complemented
+and the smaller size kept. Any engine (threads, processes, a cluster) runs the same function.
+"""
+
+from __future__ import annotations
+
+import threading
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..compressors import Compressor, Primed, compressor
+from ..items import reverse_complement
+
+_local = threading.local()
+
+
+@dataclass(frozen=True)
+class SizeJob:
+    """What every tile of one run shares: the compressor, the conditional method, the strand."""
+
+    spec: str
+    method: str = "concat"
+    strand: str = "one"
+
+    @property
+    def pair_method(self) -> str:
+        """The cache's name for pair sizes under this job."""
+        return self.method + ("+revcomp" if self.strand == "both" else "")
+
+
+@dataclass(frozen=True)
+class Tile:
+    """Indices into the item list; `second` is empty for a tile of single items."""
+
+    first: tuple[int, ...]
+    second: tuple[int, ...] = ()
+
+    @property
+    def singles(self) -> bool:
+        return not self.second
+
+
+def compressor_for(spec: str) -> Compressor:
+    """One compressor per thread and spec, reused across tiles so contexts are built once."""
+    cached: dict[str, Compressor] | None = getattr(_local, "compressors", None)
+    if cached is None:
+        cached = _local.compressors = {}
+    if spec not in cached:
+        cached[spec] = compressor(spec)
+    return cached[spec]
+
+
+def tile_bytes(items: Sequence[bytes], tile: Tile) -> int:
+    """How many input bytes a tile feeds to the compressor (reverse complements not counted)."""
+    if tile.singles:
+        return sum(len(items[i]) for i in tile.first)
+    return sum(len(items[f]) + len(items[s]) for f, s in zip(tile.first, tile.second, strict=True))
+
+
+def run_tile(items: Sequence[bytes], job: SizeJob, tile: Tile) -> np.ndarray:
+    """The sizes a tile asks for, in tile order, as int64."""
+    comp = compressor_for(job.spec)
+    if tile.singles:
+        return np.array([comp.size(items[i]) for i in tile.first], dtype=np.int64)
+    out = np.empty(len(tile.first), dtype=np.int64)
+    both = job.strand == "both"
+    if job.method == "primed":
+        primers: dict[int, list[Primed]] = {}
+        for k, (f, s) in enumerate(zip(tile.first, tile.second, strict=True)):
+            if f not in primers:
+                refs = [items[f], reverse_complement(items[f])] if both else [items[f]]
+                primers = {f: [comp.primed(r) for r in refs]}
+            out[k] = min(p.size(items[s]) for p in primers[f])
+        return out
+    reversed_first: dict[int, bytes] = {}
+    for k, (f, s) in enumerate(zip(tile.first, tile.second, strict=True)):
+        size = comp.size(items[f] + items[s])
+        if both:
+            if f not in reversed_first:
+                reversed_first = {f: reverse_complement(items[f])}
+            size = min(size, comp.size(reversed_first[f] + items[s]))
+        out[k] = size
+    return out
+
+
+def plan_tiles(
+    items: Sequence[bytes],
+    first: Sequence[int],
+    second: Sequence[int] | None,
+    workers: int,
+    *,
+    target_bytes: int = 16 << 20,
+) -> list[Tile]:
+    """Cut a work list into tiles: about `target_bytes` each, and at least 4 per worker.
+
+    Pairs should arrive sorted by `first`, so a tile reuses a primed compressor for its run.
+    """
+    n = len(first)
+    if n == 0:
+        return []
+    lengths = np.array([len(data) for data in items], dtype=np.int64)
+    sizes = lengths[np.asarray(first)]
+    if second is not None:
+        sizes = sizes + lengths[np.asarray(second)]
+    total = int(sizes.sum())
+    per_tile = max(1, min(target_bytes, total // max(1, 4 * workers)))
+    bounds = np.searchsorted(np.cumsum(sizes), np.arange(per_tile, total, per_tile), side="left")
+    cuts = [0, *sorted(set(int(b) + 1 for b in bounds if int(b) + 1 < n)), n]
+    tiles = []
+    for lo, hi in zip(cuts[:-1], cuts[1:], strict=True):
+        if hi > lo:
+            tiles.append(
+                Tile(tuple(first[lo:hi]), tuple(second[lo:hi]) if second is not None else ())
+            )
+    return tiles

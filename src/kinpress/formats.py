@@ -1,0 +1,276 @@
+"""Readers and writers for distance matrices (TSV, CSV, PHYLIP, JSON); atomic file writes."""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import os
+import re
+import sys
+import tempfile
+import warnings
+from collections.abc import Sequence
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from .distance import DistanceMatrix, MatrixStats
+from .items import InputError
+
+MATRIX_FORMATS = ("tsv", "csv", "phylip", "json")
+_EXTENSIONS = {
+    ".tsv": "tsv", ".txt": "tsv", ".csv": "csv", ".phy": "phylip", ".phylip": "phylip",
+    ".dist": "phylip", ".json": "json",
+}  # fmt: skip
+_PHYLIP_UNSAFE = re.compile(r"[\s():;,\[\]']")
+
+
+class FormatWarning(UserWarning):
+    """Something was changed to fit a file format (names shortened or made safe)."""
+
+
+def atomic_write(path: str | os.PathLike[str], text: str) -> None:
+    """Write text to `path` through a temporary file in the same folder, then rename it.
+
+    A reader never sees a half-written file, and an interrupted write leaves the old one intact.
+    """
+    target = Path(path)
+    handle, temporary = tempfile.mkstemp(dir=target.parent or ".", prefix=f".{target.name}.")
+    try:
+        with os.fdopen(handle, "w", encoding="utf-8", newline="") as out:
+            out.write(text)
+            out.flush()
+            os.fsync(out.fileno())
+        os.chmod(temporary, 0o644)
+        os.replace(temporary, target)
+    except BaseException:
+        Path(temporary).unlink(missing_ok=True)
+        raise
+
+
+def emit(text: str, path: str | os.PathLike[str] | None) -> None:
+    """Write to a file atomically, or to stdout when `path` is None or '-'."""
+    if path is None or os.fspath(path) == "-":
+        sys.stdout.write(text)
+        sys.stdout.flush()
+    else:
+        atomic_write(path, text)
+
+
+def format_for(path: str | os.PathLike[str] | None, given: str | None) -> str:
+    """The format asked for, else the one the file extension implies, else TSV."""
+    if given:
+        if given not in MATRIX_FORMATS:
+            raise ValueError(f"unknown format {given!r}; use {', '.join(MATRIX_FORMATS)}")
+        return given
+    if path is None:
+        return "tsv"
+    return _EXTENSIONS.get(Path(path).suffix.lower(), "tsv")
+
+
+def _number(value: float) -> str:
+    return f"{value:.6f}"
+
+
+def _plain_label(label: str) -> str:
+    return re.sub(r"[\t\r\n]", " ", label)
+
+
+def matrix_to_tsv(dm: DistanceMatrix) -> str:
+    """Header row with an empty first cell and the labels, then one row per item."""
+    labels = [_plain_label(label) for label in dm.labels]
+    lines = ["\t".join(["", *labels])]
+    for label, row in zip(labels, dm.distances, strict=True):
+        lines.append("\t".join([label, *map(_number, row)]))
+    return "\n".join(lines) + "\n"
+
+
+def matrix_to_csv(dm: DistanceMatrix) -> str:
+    """Like TSV, comma-separated with RFC 4180 quoting."""
+    out = io.StringIO()
+    writer = csv.writer(out, lineterminator="\n")
+    writer.writerow(["", *dm.labels])
+    for label, row in zip(dm.labels, dm.distances, strict=True):
+        writer.writerow([label, *map(_number, row)])
+    return out.getvalue()
+
+
+def phylip_names(labels: Sequence[str]) -> list[str]:
+    """Names safe in PHYLIP: characters that end or quote a name become '_', then made unique."""
+    names: list[str] = []
+    for label in labels:
+        base = _PHYLIP_UNSAFE.sub("_", label) or "item"
+        name, n = base, 1
+        while name in names:
+            n += 1
+            name = f"{base}~{n}"
+        names.append(name)
+    changed = sum(a != b for a, b in zip(labels, names, strict=True))
+    if changed:
+        warnings.warn(
+            f"PHYLIP: {changed} names changed to be safe (white space and ():;,[]' become _)",
+            FormatWarning,
+            stacklevel=3,
+        )
+    return names
+
+
+def matrix_to_phylip(dm: DistanceMatrix) -> str:
+    """The square PHYLIP distance format: the count, then a name and a row per line.
+
+    Names of up to 10 characters are padded to 10, which strict readers need; longer names are
+    written whole and followed by spaces (the relaxed form most programs read).
+    """
+    names = phylip_names(dm.labels)
+    width = max(10, max(len(n) + 1 for n in names))
+    lines = [f"{len(names):>5}"]
+    for name, row in zip(names, dm.distances, strict=True):
+        lines.append(name.ljust(width) + " ".join(map(_number, row)))
+    return "\n".join(lines) + "\n"
+
+
+def matrix_to_json(dm: DistanceMatrix) -> str:
+    """Labels, rows, the compressor and method, per-item C(x) and NCD(x, x), and run stats."""
+    from . import __version__
+
+    doc: dict[str, Any] = {
+        "labels": list(dm.labels),
+        "distances": [[round(float(v), 8) for v in row] for row in dm.distances],
+        "compressor": dm.compressor,
+        "conditional": dm.conditional,
+        "strand": dm.strand,
+        "sizes": {} if dm.sizes is None else dict(zip(dm.labels, map(int, dm.sizes), strict=True)),
+        "self_distances": {}
+        if dm.self_distances is None
+        else {k: round(float(v), 8) for k, v in zip(dm.labels, dm.self_distances, strict=True)},
+        "stats": dm.stats.as_dict(),
+        "kinpress": __version__,
+    }
+    if dm.classes is not None:
+        doc["classes"] = dict(zip(dm.labels, dm.classes, strict=True))
+    return json.dumps(doc, indent=1) + "\n"
+
+
+WRITERS = {
+    "tsv": matrix_to_tsv,
+    "csv": matrix_to_csv,
+    "phylip": matrix_to_phylip,
+    "json": matrix_to_json,
+}
+
+
+def write_matrix(
+    dm: DistanceMatrix, path: str | os.PathLike[str] | None = None, fmt: str | None = None
+) -> None:
+    """Write a matrix in `fmt` (default: from the extension, else TSV); None or '-' is stdout."""
+    emit(WRITERS[format_for(path, fmt)](dm), path)
+
+
+def _square(rows: list[list[str]], labels: list[str], source: str, first_line: int) -> np.ndarray:
+    n = len(labels)
+    if n < 2:
+        raise InputError(f"{source}: a distance matrix needs at least two items")
+    if len(rows) != n:
+        raise InputError(f"{source}: {n} labels but {len(rows)} rows")
+    values = np.empty((n, n))
+    for k, row in enumerate(rows):
+        if len(row) != n:
+            raise InputError(
+                f"{source}:{first_line + k}: expected {n} values, found {len(row)}"
+            )
+        try:
+            values[k] = [float(v) for v in row]
+        except ValueError:
+            raise InputError(f"{source}:{first_line + k}: values must be numbers") from None
+    if not np.all(np.isfinite(values)):
+        raise InputError(f"{source}: distances must be finite numbers")
+    if not np.allclose(values, values.T, atol=1e-6):
+        raise InputError(f"{source}: the matrix is not symmetric")
+    return values
+
+
+def _read_delimited(text: str, source: str, delimiter: str) -> DistanceMatrix:
+    rows = list(csv.reader(io.StringIO(text), delimiter=delimiter))
+    rows = [r for r in rows if r]
+    if not rows:
+        raise InputError(f"{source}: empty matrix file")
+    labels = rows[0][1:]
+    body = rows[1:]
+    row_labels = [r[0] for r in body]
+    if row_labels != labels:
+        raise InputError(f"{source}: row labels do not match the header")
+    return DistanceMatrix(tuple(labels), _square([r[1:] for r in body], labels, source, 2))
+
+
+def _read_phylip(text: str, source: str) -> DistanceMatrix:
+    lines = [line for line in text.splitlines() if line.strip()]
+    try:
+        n = int(lines[0].split()[0])
+    except (IndexError, ValueError):
+        raise InputError(f"{source}:1: PHYLIP starts with the number of items") from None
+    labels, rows = [], []
+    for k, line in enumerate(lines[1 : n + 1], start=2):
+        fields = line.split()
+        if len(fields) == n:  # strict PHYLIP: a 10-character name may touch the first value
+            name, values = line[:10].strip(), line[10:].split()
+        else:
+            name, values = fields[0], fields[1:]
+        labels.append(name)
+        rows.append(values)
+    if len(labels) != n:
+        raise InputError(f"{source}: PHYLIP says {n} items but holds {len(labels)} rows")
+    return DistanceMatrix(tuple(labels), _square(rows, labels, source, 2))
+
+
+def _read_json(text: str, source: str) -> DistanceMatrix:
+    try:
+        doc = json.loads(text)
+        labels = [str(label) for label in doc["labels"]]
+        rows = [[str(v) for v in row] for row in doc["distances"]]
+    except (json.JSONDecodeError, KeyError, TypeError) as error:
+        raise InputError(f"{source}: not a kinpress matrix JSON ({error})") from None
+    distances = _square(rows, labels, source, 1)
+    sizes = doc.get("sizes") or {}
+    selfs = doc.get("self_distances") or {}
+    classes = doc.get("classes")
+    known = set(MatrixStats.__dataclass_fields__)
+    return DistanceMatrix(
+        tuple(labels),
+        distances,
+        sizes=np.array([sizes[k] for k in labels]) if len(sizes) == len(labels) else None,
+        self_distances=np.array([selfs[k] for k in labels]) if len(selfs) == len(labels) else None,
+        compressor=str(doc.get("compressor", "")),
+        conditional=str(doc.get("conditional", "")),
+        strand=str(doc.get("strand", "one")),
+        classes=tuple(classes.get(k) for k in labels) if isinstance(classes, dict) else None,
+        stats=MatrixStats(**{k: v for k, v in (doc.get("stats") or {}).items() if k in known}),
+    )
+
+
+def read_matrix(path: str | os.PathLike[str], fmt: str | None = None) -> DistanceMatrix:
+    """Read a matrix written by `write_matrix` (or any square TSV, CSV, PHYLIP file)."""
+    source = os.fspath(path)
+    try:
+        text = Path(path).read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise InputError(f"{source}: no such file") from None
+    except (OSError, UnicodeDecodeError) as error:
+        raise InputError(f"{source}: cannot read: {error}") from None
+    if fmt is None:
+        head = text.lstrip()[:200]
+        first = head.splitlines()[0] if head else ""
+        if head.startswith("{"):
+            fmt = "json"
+        elif first.strip().isdigit():
+            fmt = "phylip"
+        elif "\t" in first:
+            fmt = "tsv"
+        else:
+            fmt = format_for(path, None)
+    if fmt == "json":
+        return _read_json(text, source)
+    if fmt == "phylip":
+        return _read_phylip(text, source)
+    return _read_delimited(text, source, "," if fmt == "csv" else "\t")

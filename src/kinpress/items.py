@@ -1,0 +1,342 @@
+"""Inputs to items: files, folders, stdin and sequence formats, split into the things compared.
+
+An item is a name and bytes. Sequence formats (FASTA, FASTQ, GenBank, EMBL) contribute their
+sequence letters only, uppercase, with no headers, gaps or line breaks, so that line wrapping and
+deposit conventions do not change distances.
+"""
+
+from __future__ import annotations
+
+import gzip
+import io
+import os
+import re
+import sys
+import warnings
+from collections.abc import Iterable, Iterator, Mapping, Sequence
+from dataclasses import dataclass, replace
+from pathlib import Path
+from typing import BinaryIO
+
+
+class InputError(ValueError):
+    """An input cannot be read: the message names the file, and the line for parse errors."""
+
+
+class InputWarning(UserWarning):
+    """An input was left out or changed on the way in (empty file, empty record, ...)."""
+
+
+@dataclass(frozen=True)
+class Item:
+    """One thing compared: a unique readable name, its bytes, where it came from, a known label."""
+
+    name: str
+    data: bytes
+    source: str
+    label: str | None = None
+    nucleotide: bool = False
+
+
+SEQUENCE_FORMATS = {
+    ".fa": "fasta", ".fasta": "fasta", ".fna": "fasta", ".ffn": "fasta", ".faa": "fasta",
+    ".frn": "fasta", ".fas": "fasta", ".fsa": "fasta", ".mfa": "fasta",
+    ".fq": "fastq", ".fastq": "fastq",
+    ".gb": "genbank", ".gbk": "genbank", ".gbff": "genbank", ".genbank": "genbank",
+    ".embl": "embl", ".emb": "embl",
+}  # fmt: skip
+
+_SEQUENCE_CHARS = re.compile(rb"[^A-Za-z*.\-]")
+_NUCLEOTIDE_LETTERS = frozenset(b"ACGTUN")
+_COMPLEMENT = bytes.maketrans(b"ACGTURYKMSWBDHVN", b"TGCAAYRMKSWVHDBN")
+
+
+@dataclass(frozen=True)
+class Split:
+    """How a file becomes items: `auto`, `records`, `file`, `lines:N` or `bytes:N`."""
+
+    mode: str
+    size: int = 0
+
+    @classmethod
+    def parse(cls, text: str) -> Split:
+        mode, _, size = text.partition(":")
+        if mode in ("auto", "records", "file") and not size:
+            return cls(mode)
+        if mode in ("lines", "bytes") and size.isdigit() and int(size) > 0:
+            return cls(mode, int(size))
+        raise InputError(
+            f"bad split {text!r}: use auto, records, file, lines:N or bytes:N (N a positive number)"
+        )
+
+    def __str__(self) -> str:
+        return f"{self.mode}:{self.size}" if self.size else self.mode
+
+
+def reverse_complement(letters: bytes) -> bytes:
+    """Reverse complement of nucleotide letters, IUPAC ambiguity codes included."""
+    return letters.translate(_COMPLEMENT)[::-1]
+
+
+def is_nucleotide(letters: bytes) -> bool:
+    """True when at least 90 % of the letters are A, C, G, T, U or N (common practice)."""
+    if not letters:
+        return False
+    sample = letters[:100_000]
+    counts = sum(sample.count(bytes([b])) for b in _NUCLEOTIDE_LETTERS)
+    return counts >= 0.9 * len(sample)
+
+
+def sequence_format(path: str) -> str | None:
+    """The sequence format a file name implies (a trailing .gz is looked through), or None."""
+    name = path.lower().removesuffix(".gz")
+    return SEQUENCE_FORMATS.get(os.path.splitext(name)[1])
+
+
+def _sniff_format(data: bytes) -> str | None:
+    head = data.lstrip()[:6]
+    if head.startswith(b">"):
+        return "fasta"
+    if head.startswith(b"LOCUS"):
+        return "genbank"
+    if head.startswith(b"ID   "):
+        return "embl"
+    return None
+
+
+def parse_fasta(data: bytes, source: str) -> Iterator[tuple[str, bytes]]:
+    """(id, letters) per FASTA record; malformed input raises InputError naming file and line."""
+    name: str | None = None
+    chunks: list[bytes] = []
+    for number, raw in enumerate(data.split(b"\n"), start=1):
+        line = raw.strip()
+        if not line:
+            continue
+        if line.startswith(b">"):
+            if name is not None:
+                yield name, b"".join(chunks).upper()
+            fields = line[1:].split(None, 1)
+            if not fields:
+                raise InputError(f"{source}:{number}: FASTA header has no identifier")
+            name, chunks = fields[0].decode("utf-8", "replace"), []
+        elif name is None:
+            if line.startswith(b";"):
+                continue
+            raise InputError(f"{source}:{number}: expected a FASTA header line starting with '>'")
+        else:
+            bad = _SEQUENCE_CHARS.search(line)
+            if bad:
+                char = bad.group().decode("latin-1")
+                raise InputError(
+                    f"{source}:{number}: unexpected character {char!r} in FASTA sequence"
+                )
+            chunks.append(line.translate(None, b"*.-"))
+    if name is not None:
+        yield name, b"".join(chunks).upper()
+    elif data.strip():
+        raise InputError(f"{source}:1: no FASTA record found")
+
+
+def _parse_with_biopython(data: bytes, fmt: str, source: str) -> Iterator[tuple[str, bytes]]:
+    from Bio import SeqIO
+    from Bio.Seq import UndefinedSequenceError
+
+    handle = io.StringIO(data.decode("utf-8", "replace"))
+    number = 0
+    try:
+        for number, record in enumerate(SeqIO.parse(handle, fmt), start=1):
+            try:
+                letters = str(record.seq).encode("ascii", "replace")
+            except UndefinedSequenceError:
+                warnings.warn(
+                    f"{source}: record {record.id} has no sequence letters; left out",
+                    InputWarning,
+                    stacklevel=2,
+                )
+                continue
+            yield record.id, _SEQUENCE_CHARS.sub(b"", letters).translate(None, b"*.-").upper()
+    except (ValueError, AssertionError, IndexError) as error:
+        raise InputError(f"{source}: {fmt} parse error after record {number}: {error}") from None
+
+
+def sequence_records(data: bytes, fmt: str, source: str) -> Iterator[tuple[str, bytes]]:
+    """(id, letters) for each record of a sequence file in the given format."""
+    if fmt == "fasta":
+        return parse_fasta(data, source)
+    return _parse_with_biopython(data, fmt, source)
+
+
+def _chunks(data: bytes, split: Split) -> list[bytes]:
+    if split.mode == "bytes":
+        return [data[i : i + split.size] for i in range(0, len(data), split.size)]
+    lines = data.splitlines(keepends=True)
+    return [b"".join(lines[i : i + split.size]) for i in range(0, len(lines), split.size)]
+
+
+def _read(path: str, stdin: BinaryIO | None) -> bytes:
+    if path == "-":
+        return (stdin or sys.stdin.buffer).read()
+    try:
+        if path.lower().endswith(".gz"):
+            with gzip.open(path, "rb") as handle:
+                return handle.read()
+        with open(path, "rb") as handle:
+            return handle.read()
+    except FileNotFoundError:
+        raise InputError(f"{path}: no such file or directory") from None
+    except PermissionError:
+        raise InputError(f"{path}: permission denied") from None
+    except (OSError, EOFError) as error:
+        raise InputError(f"{path}: cannot read: {error}") from None
+
+
+def _file_items(path: str, split: Split, stdin: BinaryIO | None) -> Iterator[Item]:
+    data = _read(path, stdin)
+    base = "stdin" if path == "-" else os.path.basename(path).removesuffix(".gz")
+    if not data:
+        warnings.warn(f"{path}: empty file; left out", InputWarning, stacklevel=2)
+        return
+    fmt = sequence_format(path)
+    if fmt is None and path == "-" and split.mode in ("auto", "records"):
+        fmt = _sniff_format(data)
+    if fmt is None:
+        if split.mode == "records":
+            raise InputError(
+                f"{path}: --split records needs a sequence file (FASTA, FASTQ, GenBank or EMBL)"
+            )
+        if split.mode in ("lines", "bytes"):
+            pieces = _chunks(data, split)
+            for number, piece in enumerate(pieces, start=1):
+                yield Item(f"{base}#{number}", piece, path)
+        else:
+            yield Item(base, data, path)
+        return
+    if split.mode == "lines":
+        raise InputError(
+            f"{path}: lines:N splits text; for sequence files use records, file or bytes:N"
+        )
+    records = [(rid, seq) for rid, seq in sequence_records(data, fmt, path)]
+    for rid, seq in records:
+        if not seq:
+            warnings.warn(f"{path}: record {rid} is empty; left out", InputWarning, stacklevel=2)
+    records = [(rid, seq) for rid, seq in records if seq]
+    if not records:
+        warnings.warn(f"{path}: no sequence letters; left out", InputWarning, stacklevel=2)
+        return
+    if split.mode == "file":
+        letters = b"".join(seq for _, seq in records)
+        yield Item(base, letters, path, nucleotide=is_nucleotide(letters))
+        return
+    for rid, seq in records:
+        nucleotide = is_nucleotide(seq)
+        if split.mode == "bytes":
+            for number, piece in enumerate(_chunks(seq, split), start=1):
+                yield Item(f"{rid}#{number}", piece, path, nucleotide=nucleotide)
+        else:
+            yield Item(rid, seq, path, nucleotide=nucleotide)
+
+
+def expand_paths(paths: Iterable[str | os.PathLike[str]], exclude: Iterable[str] = ()) -> list[str]:
+    """Files named and files below folders named, each folder's files in sorted order.
+
+    Hidden files and folders (names starting with '.') below a folder are skipped, as are the
+    paths in `exclude` (a run's own output file, say).
+    """
+    skip = {os.path.realpath(p) for p in exclude}
+    files: list[str] = []
+    for given in map(os.fspath, paths):
+        if given == "-":
+            files.append(given)
+        elif os.path.isdir(given):
+            found = []
+            for root, dirs, names in os.walk(given):
+                dirs[:] = sorted(d for d in dirs if not d.startswith("."))
+                found += [os.path.join(root, n) for n in names if not n.startswith(".")]
+            found = sorted(f for f in found if os.path.isfile(f))
+            if not found:
+                raise InputError(f"{given}: folder holds no files")
+            files += found
+        elif os.path.exists(given):
+            files.append(given)
+        else:
+            raise InputError(f"{given}: no such file or directory")
+    return [f for f in files if f == "-" or os.path.realpath(f) not in skip]
+
+
+def unique_names(items: Sequence[Item]) -> list[Item]:
+    """Give a repeated name a stable suffix (~2, ~3, ...) in input order; the first keeps it."""
+    reserved = {item.name for item in items}
+    used: set[str] = set()
+    out = []
+    for item in items:
+        name, n = item.name, 1
+        while name in used or (n > 1 and name in reserved):
+            n += 1
+            name = f"{item.name}~{n}"
+        used.add(name)
+        out.append(item if name == item.name else replace(item, name=name))
+    return out
+
+
+def read_labels(path: str | os.PathLike[str]) -> dict[str, str]:
+    """Known labels from a TSV of `item<TAB>label` (an optional header row, # comments)."""
+    try:
+        text = Path(path).read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise InputError(f"{path}: no such file") from None
+    except (OSError, UnicodeDecodeError) as error:
+        raise InputError(f"{path}: cannot read labels: {error}") from None
+    labels: dict[str, str] = {}
+    for number, line in enumerate(text.splitlines(), start=1):
+        if not line.strip() or line.startswith("#"):
+            continue
+        fields = line.rstrip("\r").split("\t")
+        if len(fields) < 2 or not fields[0].strip():
+            raise InputError(f"{path}:{number}: expected item<TAB>label")
+        if number == 1 and fields[0].strip().lower() in ("item", "name", "id", "file"):
+            continue
+        labels[fields[0].strip()] = fields[1].strip()
+    return labels
+
+
+def attach_labels(items: Sequence[Item], labels: Mapping[str, str]) -> list[Item]:
+    """Give items their known labels, matched by item name, then record or file name.
+
+    A label given for a file applies to all its chunks (`app.log` labels `app.log#3`).
+    """
+    out = []
+    used: set[str] = set()
+    for item in items:
+        candidates = (item.name, item.name.partition("#")[0], os.path.basename(item.source))
+        key = next((c for c in candidates if c in labels), None)
+        if key is not None:
+            used.add(key)
+            item = replace(item, label=labels[key])
+        out.append(item)
+    unused = len(set(labels) - used)
+    if unused:
+        warnings.warn(f"{unused} labels name no item; ignored", InputWarning, stacklevel=2)
+    return out
+
+
+def load_items(
+    paths: Iterable[str | os.PathLike[str]],
+    split: str | Split = "auto",
+    labels: Mapping[str, str] | str | os.PathLike[str] | None = None,
+    *,
+    exclude: Iterable[str] = (),
+    stdin: BinaryIO | None = None,
+) -> list[Item]:
+    """Read paths (files, folders, '-' for stdin) into uniquely named items.
+
+    >>> items = load_items(["genomes/"], split="records")  # doctest: +SKIP
+    """
+    mode = split if isinstance(split, Split) else Split.parse(split)
+    items: list[Item] = []
+    for path in expand_paths(paths, exclude):
+        items.extend(_file_items(path, mode, stdin))
+    items = unique_names(items)
+    if labels is not None:
+        known = labels if isinstance(labels, Mapping) else read_labels(labels)
+        items = attach_labels(items, known)
+    return items
