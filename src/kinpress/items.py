@@ -319,6 +319,18 @@ def attach_labels(items: Sequence[Item], labels: Mapping[str, str]) -> list[Item
     return out
 
 
+def _warn_mixed(items: Sequence[Item]) -> None:
+    """Sequence records beside plain files usually means a stray file in a genome folder."""
+    plain = [i for i in items if i.source != "-" and sequence_format(i.source) is None]
+    if plain and len(plain) < len(items) and any(i.nucleotide for i in items):
+        warnings.warn(
+            f"{len(plain)} items are not from sequence files (first: {plain[0].source});"
+            " they are compared as raw bytes",
+            InputWarning,
+            stacklevel=3,
+        )
+
+
 def load_items(
     paths: Iterable[str | os.PathLike[str]],
     split: str | Split = "auto",
@@ -336,6 +348,7 @@ def load_items(
     for path in expand_paths(paths, exclude):
         items.extend(_file_items(path, mode, stdin))
     items = unique_names(items)
+    _warn_mixed(items)
     if labels is not None:
         known = labels if isinstance(labels, Mapping) else read_labels(labels)
         items = attach_labels(items, known)

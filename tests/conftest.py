@@ -1,0 +1,65 @@
+"""Shared fixtures: generated text inputs and the open datasets beside the repository."""
+
+from __future__ import annotations
+
+import random
+import sysconfig
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+SHARED_DATA = Path(__file__).resolve().parents[2] / "shared" / "datasets-real"
+DATASETS = Path(__file__).resolve().parents[1] / "datasets"
+
+_WORDS = (
+    "alpha beta gamma delta epsilon zeta theta kappa lambda sigma omega request response "
+    "error warning info debug user session timeout retry connect close open read write"
+).split()
+
+
+def generated_text(seed: int, lines: int = 60) -> bytes:
+    """Deterministic log-like text; each seed draws from its own slice of the vocabulary."""
+    rng = random.Random(seed)
+    vocabulary = _WORDS[seed % 5 :] + _WORDS[: seed % 5]
+    vocabulary = vocabulary[: 12 + seed % 7]
+    rows = (
+        f"{n:04d} " + " ".join(rng.choice(vocabulary) for _ in range(rng.randint(4, 10)))
+        for n in range(lines)
+    )
+    return ("\n".join(rows) + "\n").encode()
+
+
+@pytest.fixture
+def text_folder(tmp_path: Path) -> Path:
+    """A folder of four generated text files, a.txt .. d.txt."""
+    folder = tmp_path / "texts"
+    folder.mkdir()
+    for seed, name in enumerate("abcd"):
+        (folder / f"{name}.txt").write_bytes(generated_text(seed))
+    return folder
+
+
+def random_bytes(n: int, seed: int = 12345) -> bytes:
+    """Incompressible bytes, the same for a seed on every machine."""
+    return np.random.default_rng(seed).bytes(n)
+
+
+@pytest.fixture(scope="session")
+def text_corpus() -> bytes:
+    """About 2 MB of real text: the Python standard library's own sources, in sorted order."""
+    stdlib = Path(sysconfig.get_paths()["stdlib"])
+    out = bytearray()
+    for path in sorted(stdlib.glob("*.py")):
+        out += path.read_bytes()
+        if len(out) > 2_000_000:
+            break
+    return bytes(out)
+
+
+@pytest.fixture(scope="session")
+def shared_data() -> Path:
+    """The open datasets in ../shared/datasets-real; the test is skipped where they are absent."""
+    if not SHARED_DATA.is_dir():
+        pytest.skip(f"open datasets not found at {SHARED_DATA} (outside the repository)")
+    return SHARED_DATA

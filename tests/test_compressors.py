@@ -1,0 +1,206 @@
+"""Compressor adapters: specs, overheads, and the documented windows checked by behaviour."""
+
+from __future__ import annotations
+
+import lzma as stdlib_lzma
+
+import pytest
+import zstandard
+from conftest import random_bytes
+from hypothesis import given
+from hypothesis import strategies as st
+
+from kinpress.compressors import ADAPTERS, Compressor, SpecError, compressor, parse_spec
+
+
+def self_distance(comp: Compressor, x: bytes) -> float:
+    """NCD(x, x) = (C(xx) - C(x)) / C(x)."""
+    return (comp.size(x + x) - comp.size(x)) / comp.size(x)
+
+
+def independent_distance(comp: Compressor, x: bytes, y: bytes) -> float:
+    cx, cy = comp.size(x), comp.size(y)
+    return (comp.size(x + y) - min(cx, cy)) / max(cx, cy)
+
+
+def test_every_adapter_has_a_level_and_a_canonical_spec() -> None:
+    for name, cls in ADAPTERS.items():
+        comp = cls()
+        assert comp.spec.startswith(name)
+        assert compressor(comp.spec).spec == comp.spec
+        assert compressor(f"{name}:level={cls.params[0].low}").settings[cls.params[0].name] == (
+            cls.params[0].low
+        )
+
+
+def test_spec_parses_keys_and_aliases() -> None:
+    assert compressor("zstd:level=19,window=27").spec == "zstd:level=19,window=27"
+    assert compressor("lzma:level=9,extreme=1").spec == "lzma:level=9,extreme=1"
+    assert compressor("ppmd:order=6").spec == compressor("ppmd:level=6").spec
+    assert compressor("brotli:quality=5,lgwin=18").spec == "brotli:level=5,window=18"
+    assert compressor("xz:preset=3").name == "lzma"
+    assert compressor(" ZSTD:LEVEL=3 ").spec == "zstd:level=3"
+
+
+@pytest.mark.parametrize(
+    ("spec", "message"),
+    [
+        ("gzipper", "valid names: zstd, brotli, lzma, bz2, zlib, ppmd"),
+        ("zstd:speed=3", "valid keys: level, window"),
+        ("zstd:level=23", "out of range 1-22"),
+        ("brotli:window=25", "out of range 10-24"),
+        ("zlib:level=high", "whole number"),
+        ("bz2:level", "key=value"),
+    ],
+)
+def test_bad_spec_says_what_is_valid(spec: str, message: str) -> None:
+    with pytest.raises(SpecError, match=message):
+        compressor(spec)
+
+
+@given(st.sampled_from(sorted(ADAPTERS)), st.data())
+def test_any_in_range_level_is_accepted(name: str, data: st.DataObject) -> None:
+    param = ADAPTERS[name].params[0]
+    level = data.draw(st.integers(param.low, param.high))
+    cls, settings = parse_spec(f"{name}:level={level}")
+    assert cls(**settings).settings[param.name] == level
+
+
+def test_headers_and_checksums_are_stripped() -> None:
+    # Container sizes of empty input, for comparison, from the formats' own layouts: a zstd frame
+    # has a 4-byte magic number (RFC 8878 section 3.1.1); zlib adds a 2-byte header and a 4-byte
+    # Adler-32 (RFC 1950); the xz container adds stream header and footer of 12 bytes each.
+    assert compressor("zstd").overhead_bytes == len(zstandard.ZstdCompressor().compress(b"")) - 4
+    assert compressor("zlib").overhead_bytes == 2  # raw deflate: one empty final block
+    assert compressor("lzma").overhead_bytes == 1  # raw LZMA2: the end marker only
+    assert compressor("lzma").overhead_bytes < len(stdlib_lzma.compress(b"")) - 24
+    for name in ADAPTERS:
+        assert compressor(name).overhead_bytes <= 14, name
+
+
+def test_windows_are_the_documented_ones() -> None:
+    # RFC 1951 section 2: deflate distances reach back at most 32 KiB.
+    assert compressor("zlib").window_bytes == 32768
+    # bzip2 manual, "-1 (or --fast) to -9 (or --best): set the block size to 100 k, 200 k ..
+    # 900 k" (k = 1000 in bzip2's code, recalled from memory).
+    assert [compressor(f"bz2:level={k}").window_bytes for k in (1, 5, 9)] == [
+        100_000,
+        500_000,
+        900_000,
+    ]
+    # RFC 7932 section 9.1: the sliding window size is (1 << WBITS) - 16.
+    assert compressor("brotli:window=16").window_bytes == 65536 - 16
+    assert compressor("brotli:window=24").window_bytes == (1 << 24) - 16
+    # RFC 8878 section 3.1.1.1.2: Window_Size = 2^Window_Log; the level's window_log from the
+    # library's own parameter table (zstandard.ZstdCompressionParameters.from_level).
+    for level in (1, 3, 9, 19, 22):
+        expected = 1 << zstandard.ZstdCompressionParameters.from_level(level).window_log
+        assert compressor(f"zstd:level={level}").window_bytes == expected
+    assert compressor("zstd:level=3,window=27").window_bytes == 1 << 27
+
+
+def _lzma2_dictionary(preset: int) -> int:
+    """Dictionary size liblzma itself encodes for a preset (LZMA2 property byte, xz file format
+    specification section 5.3.1: size = (2 | (b & 1)) << (b // 2 + 11))."""
+    props = stdlib_lzma._encode_filter_properties({"id": stdlib_lzma.FILTER_LZMA2, "preset": preset})
+    b = props[0]
+    return (2 | (b & 1)) << (b // 2 + 11)
+
+
+@pytest.mark.parametrize("preset", range(10))
+def test_lzma_windows_match_the_xz_manual_presets(preset: int) -> None:
+    # xz(1) manual, preset table (from memory): DictSize -0 256 KiB, -1 1 MiB, -2 2 MiB,
+    # -3/-4 4 MiB, -5/-6 8 MiB, -7 16 MiB, -8 32 MiB, -9 64 MiB; and liblzma agrees.
+    manual = [256 << 10, 1 << 20, 2 << 20, 4 << 20, 4 << 20, 8 << 20, 8 << 20, 16 << 20,
+              32 << 20, 64 << 20]  # fmt: skip
+    assert compressor(f"lzma:level={preset}").window_bytes == manual[preset]
+    assert _lzma2_dictionary(preset) == manual[preset]
+
+
+def test_identity_distance_breaks_beyond_deflate_window() -> None:
+    # RFC 1951: a second copy further back than 32 KiB cannot be referenced.
+    comp = compressor("zlib:level=6")
+    assert self_distance(comp, random_bytes(16 << 10)) < 0.05
+    assert self_distance(comp, random_bytes(64 << 10)) > 0.95
+
+
+def test_identity_distance_breaks_beyond_bzip2_block() -> None:
+    # bzip2 manual: level 1 sorts blocks of 100 k; x + x must fit in one block.
+    comp = compressor("bz2:level=1")
+    inside = self_distance(comp, random_bytes(30_000))
+    beyond = self_distance(comp, random_bytes(150_000))
+    assert inside < 0.35  # block sorting is never idempotent; 0.24 measured here
+    assert beyond > 0.9
+
+
+def test_identity_distance_breaks_beyond_xz_preset_dictionary() -> None:
+    # xz manual: preset -0 has a 256 KiB dictionary.
+    comp = compressor("lzma:level=0")
+    assert self_distance(comp, random_bytes(100_000)) < 0.05
+    assert self_distance(comp, random_bytes(400_000)) > 0.9
+
+
+def test_identity_distance_breaks_beyond_zstd_level_window() -> None:
+    # RFC 8878 windows: level 1 has window_log 19 (512 KiB) in libzstd's table.
+    comp = compressor("zstd:level=1")
+    assert comp.window_bytes == 1 << 19
+    assert self_distance(comp, random_bytes(200_000)) < 0.05
+    assert self_distance(comp, random_bytes(1_000_000)) > 0.95
+    # The window key widens it and long-distance matching finds the far copy.
+    assert self_distance(compressor("zstd:level=1,window=22"), random_bytes(1_000_000)) < 0.05
+
+
+def test_identity_distance_breaks_at_brotli_window_edge() -> None:
+    # RFC 7932 section 9.1: window = 2^lgwin - 16 bytes.
+    comp = compressor("brotli:level=5,window=16")
+    edge = comp.window_bytes
+    assert self_distance(comp, random_bytes(edge)) < 0.05
+    assert self_distance(comp, random_bytes(edge + 64)) > 0.95
+
+
+def test_independent_random_strings_are_at_distance_one() -> None:
+    # Li et al. 2004: NCD of incompressible, independent strings is about 1.
+    x, y = random_bytes(20_000, seed=1), random_bytes(20_000, seed=2)
+    for name in ADAPTERS:
+        d = independent_distance(compressor(name), x, y)
+        assert 0.95 < d < 1.1, (name, d)
+
+
+def test_primed_size_approximates_concatenation(text_corpus: bytes) -> None:
+    comp = compressor("zstd:level=19")
+    for k in range(5):
+        y = text_corpus[k * 40_000 : k * 40_000 + 16_000]
+        x = text_corpus[k * 40_000 + 8_000 : k * 40_000 + 24_000]  # overlaps y by half
+        concat = comp.size(y + x) - comp.size(y)
+        primed = comp.primed(y).size(x)
+        assert abs(primed - concat) <= 0.1 * concat + 16
+        assert primed < 0.7 * comp.size(x)  # the overlap is found through the dictionary
+
+
+def test_zstd_priming_reaches_a_large_reference() -> None:
+    # libzstd loads only a suffix of a dictionary unless its tables are wide enough.
+    reference = random_bytes(4 << 20)
+    comp = compressor("zstd:level=3")
+    assert comp.primed(reference).size(reference[:100_000]) < 1_000
+
+
+def test_zlib_priming_sees_only_the_last_window(text_corpus: bytes) -> None:
+    # RFC 1951: a preset dictionary is history, and history reaches back 32 KiB.
+    comp = compressor("zlib:level=9")
+    reference = text_corpus[:50_000]
+    x = text_corpus[60_000:70_000]
+    assert comp.primed(reference).size(x) == comp.primed(reference[-32768:]).size(x)
+
+
+@pytest.mark.parametrize("name", ["brotli", "lzma", "bz2", "ppmd"])
+def test_unprimable_compressors_say_so(name: str) -> None:
+    comp = compressor(name)
+    assert not comp.primable
+    with pytest.raises(SpecError, match="cannot be primed"):
+        comp.primed(b"reference")
+
+
+def test_cache_key_changes_with_every_setting() -> None:
+    keys = {compressor(s).cache_key for s in ("zstd:level=3", "zstd:level=4", "zstd:level=3,window=20")}
+    assert len(keys) == 3
+    assert compressor("zstd").cache_key.endswith("@libzstd-" + ".".join(map(str, zstandard.ZSTD_VERSION)))
