@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import random
 import sysconfig
 from pathlib import Path
@@ -12,10 +13,41 @@ import pytest
 SHARED_DATA = Path(__file__).resolve().parents[2] / "shared" / "datasets-real"
 DATASETS = Path(__file__).resolve().parents[1] / "datasets"
 
-_WORDS = (
-    "alpha beta gamma delta epsilon zeta theta kappa lambda sigma omega request response "
-    "error warning info debug user session timeout retry connect close open read write"
-).split()
+
+@pytest.fixture(autouse=True, scope="session")
+def _private_cache_home(tmp_path_factory: pytest.TempPathFactory) -> None:
+    """Keep the default size cache of commands under test out of the user's cache directory."""
+    os.environ["XDG_CACHE_HOME"] = str(tmp_path_factory.mktemp("cache-home"))
+
+
+_WORDS = [
+    "alpha",
+    "beta",
+    "gamma",
+    "delta",
+    "epsilon",
+    "zeta",
+    "theta",
+    "kappa",
+    "lambda",
+    "sigma",
+    "omega",
+    "request",
+    "response",
+    "error",
+    "warning",
+    "info",
+    "debug",
+    "user",
+    "session",
+    "timeout",
+    "retry",
+    "connect",
+    "close",
+    "open",
+    "read",
+    "write",
+]
 
 
 def generated_text(seed: int, lines: int = 60) -> bytes:

@@ -6,10 +6,10 @@ import lzma as stdlib_lzma
 
 import pytest
 import zstandard
-from conftest import random_bytes
 from hypothesis import given
 from hypothesis import strategies as st
 
+from conftest import random_bytes
 from kinpress.compressors import ADAPTERS, Compressor, SpecError, compressor, parse_spec
 
 
@@ -102,7 +102,9 @@ def test_windows_are_the_documented_ones() -> None:
 def _lzma2_dictionary(preset: int) -> int:
     """Dictionary size liblzma itself encodes for a preset (LZMA2 property byte, xz file format
     specification section 5.3.1: size = (2 | (b & 1)) << (b // 2 + 11))."""
-    props = stdlib_lzma._encode_filter_properties({"id": stdlib_lzma.FILTER_LZMA2, "preset": preset})
+    props = stdlib_lzma._encode_filter_properties(
+        {"id": stdlib_lzma.FILTER_LZMA2, "preset": preset}
+    )
     b = props[0]
     return (2 | (b & 1)) << (b // 2 + 11)
 
@@ -201,6 +203,10 @@ def test_unprimable_compressors_say_so(name: str) -> None:
 
 
 def test_cache_key_changes_with_every_setting() -> None:
-    keys = {compressor(s).cache_key for s in ("zstd:level=3", "zstd:level=4", "zstd:level=3,window=20")}
+    keys = {
+        compressor(s).cache_key for s in ("zstd:level=3", "zstd:level=4", "zstd:level=3,window=20")
+    }
     assert len(keys) == 3
-    assert compressor("zstd").cache_key.endswith("@libzstd-" + ".".join(map(str, zstandard.ZSTD_VERSION)))
+    assert compressor("zstd").cache_key.endswith(
+        "@libzstd-" + ".".join(map(str, zstandard.ZSTD_VERSION))
+    )

@@ -8,10 +8,10 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from conftest import random_bytes
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+from conftest import random_bytes
 from kinpress import (
     InputError,
     Item,

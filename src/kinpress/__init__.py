@@ -1,9 +1,9 @@
 """kinpress: how related sequences, logs and files are, measured by real compressors.
 
-    >>> import kinpress
-    >>> items = kinpress.load_items(["genomes/"], split="records")       # doctest: +SKIP
-    >>> dm = kinpress.distance_matrix(items, kinpress.compressor("zstd:level=19"))  # doctest: +SKIP
-    >>> kinpress.write_matrix(dm, "dist.phy", "phylip")                  # doctest: +SKIP
+>>> import kinpress
+>>> items = kinpress.load_items(["genomes/"], split="records")       # doctest: +SKIP
+>>> dm = kinpress.distance_matrix(items, kinpress.compressor("zstd:level=19"))  # doctest: +SKIP
+>>> kinpress.write_matrix(dm, "dist.phy", "phylip")                  # doctest: +SKIP
 """
 
 from __future__ import annotations

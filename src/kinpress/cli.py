@@ -3,12 +3,15 @@
 from __future__ import annotations
 
 import argparse
+import dataclasses
+import difflib
 import json
 import os
 import sys
 import warnings
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
+from functools import partial
 from typing import Any, TextIO
 
 from . import __version__
@@ -16,8 +19,8 @@ from .cache import SizeCache, default_cache_path
 from .compressors import ADAPTERS, SpecError, compressor, describe
 from .distance import CONDITIONALS, STRANDS, DistanceMatrix, Progress, distance_matrix
 from .engine import LocalEngine
-from .formats import MATRIX_FORMATS, format_for, write_matrix
-from .items import InputError, Item, load_items
+from .formats import MATRIX_FORMATS, emit, format_for, read_matrix, write_matrix
+from .items import InputError, Item, load_items, read_labels
 
 DEFAULT_COMPRESSOR = "zstd:level=19"
 
@@ -130,6 +133,75 @@ def build_parser() -> argparse.ArgumentParser:
         "--format", choices=MATRIX_FORMATS, help="default: from the file extension, else tsv"
     )
     _common(matrix)
+
+    tree = commands.add_parser(
+        "tree",
+        help="a tree of the items from their compression distances",
+        description="Build a tree (Newick) from the NCD matrix of the inputs, or from a saved "
+        "matrix: neighbour joining (default, midpoint-rooted unless --outgroup) or a "
+        "hierarchical linkage. A tree from compression distances is a hypothesis to check, "
+        "not a phylogeny on its own.",
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+        epilog=_examples(
+            "kinpress tree genomes/ --outgroup danio_rerio -o tree.nwk --plot tree.png",
+            "kinpress tree --matrix dist.phy --method average -o tree.nwk",
+            "kinpress tree genomes/ --bootstrap 100 -o tree.nwk",
+        ),
+    )
+    tree.add_argument("inputs", nargs="*", metavar="INPUT", help="files, folders, or - (stdin)")
+    tree.add_argument("--matrix", metavar="FILE", help="a matrix written by 'kinpress matrix'")
+    _matrix_options(tree)
+    shape = tree.add_argument_group("tree")
+    shape.add_argument(
+        "--method",
+        choices=("nj", "average", "complete", "single"),
+        default="nj",
+        help="nj: neighbour joining (default); average: UPGMA; complete, single: linkage",
+    )
+    shape.add_argument("--outgroup", metavar="LABELS", help="root on these items (comma list)")
+    shape.add_argument(
+        "--bootstrap", type=int, default=0, metavar="N", help="support from N block replicates"
+    )
+    shape.add_argument(
+        "--block-fraction",
+        type=float,
+        default=0.02,
+        metavar="F",
+        help="bootstrap block size as a fraction of each item (default 0.02)",
+    )
+    shape.add_argument("--seed", type=int, default=1, help="bootstrap random seed (default 1)")
+    tout = tree.add_argument_group("output")
+    tout.add_argument("-o", "--output", metavar="FILE", help="write the Newick tree here")
+    tout.add_argument("--plot", metavar="FILE", help="draw the tree (.png, .svg or .pdf)")
+    tout.add_argument("--json", action="store_true", help="a JSON report on stdout")
+    _common(tree)
+
+    groups = commands.add_parser(
+        "groups",
+        help="flat groups of the items (the number chosen from the data, or --k)",
+        description="Group the items by their NCD matrix: density-based groups (HDBSCAN*) with "
+        "the count chosen by silhouette, or exactly --k groups, or a --cut distance. Items "
+        "that fit no group join their nearest one unless --outliers.",
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+        epilog=_examples(
+            "kinpress groups logs/ --split lines:200 -o groups.tsv",
+            "kinpress groups logs/ --split lines:200 --k 8 --labels truth.tsv --json",
+            "kinpress groups --matrix dist.json --cut 0.8",
+        ),
+    )
+    groups.add_argument("inputs", nargs="*", metavar="INPUT", help="files, folders, or - (stdin)")
+    groups.add_argument("--matrix", metavar="FILE", help="a matrix written by 'kinpress matrix'")
+    _matrix_options(groups)
+    how = groups.add_argument_group("groups")
+    how.add_argument("--k", type=int, metavar="N", help="exactly N groups")
+    how.add_argument("--cut", type=float, metavar="DISTANCE", help="groups joined below DISTANCE")
+    how.add_argument(
+        "--outliers", action="store_true", help="report outliers as group -1 instead of joining"
+    )
+    gout = groups.add_argument_group("output")
+    gout.add_argument("-o", "--output", metavar="FILE", help="write the TSV here")
+    gout.add_argument("--json", action="store_true", help="a JSON report on stdout")
+    _common(groups)
     return parser
 
 
@@ -188,7 +260,7 @@ def _cache(args: argparse.Namespace) -> SizeCache | None:
     return SizeCache(args.cache or default_cache_path())
 
 
-def compute_matrix(args: argparse.Namespace, console: Console) -> DistanceMatrix:
+def compute_matrix(args: argparse.Namespace, console: Console) -> tuple[DistanceMatrix, list[Item]]:
     """Load the inputs and compute their matrix as the command line asks, reporting on stderr."""
     items = _load(args)
     comp = compressor(args.compressor)
@@ -208,7 +280,22 @@ def compute_matrix(args: argparse.Namespace, console: Console) -> DistanceMatrix
         if cache is not None:
             cache.close()
     console.say(summary(dm))
-    return dm
+    return dm, items
+
+
+def matrix_for(args: argparse.Namespace, console: Console) -> tuple[DistanceMatrix, list[Item]]:
+    """The matrix a command works on: read with --matrix FILE, else computed from the inputs."""
+    if args.matrix:
+        if args.inputs:
+            raise UsageError("give inputs or --matrix FILE, not both")
+        dm = read_matrix(args.matrix)
+        if args.labels:
+            known = read_labels(args.labels)
+            dm = dataclasses.replace(dm, classes=tuple(known.get(n) for n in dm.labels))
+        return dm, []
+    if not args.inputs:
+        raise UsageError("give inputs to compare, or --matrix FILE")
+    return compute_matrix(args, console)
 
 
 def summary(dm: DistanceMatrix) -> str:
@@ -232,18 +319,17 @@ def summary(dm: DistanceMatrix) -> str:
 def run_compressors(args: argparse.Namespace, console: Console) -> int:
     rows = [describe(cls()) for cls in ADAPTERS.values()]
     if args.json:
-        keys = ("name", "spec", "levels", "window_bytes", "primed", "overhead_bytes")
-        print(json.dumps([{k: row[k] for k in keys} for row in rows], indent=1))
+        print(json.dumps([row.as_json() for row in rows], indent=1))
         return 0
     header = ("name", "default spec", "levels", "window/block", "primed", "overhead")
     table = [header] + [
         (
-            str(r["name"]),
-            str(r["spec"]),
-            "{}-{}".format(*r["levels"]),  # type: ignore[str-format]
-            _human(r["window_bytes"]),  # type: ignore[arg-type]
-            "yes" if r["primed"] else "no",
-            f"{r['overhead_bytes']} B",
+            r.name,
+            r.spec,
+            f"{r.levels[0]}-{r.levels[1]}",
+            _human(r.window_bytes),
+            "yes" if r.primed else "no",
+            f"{r.overhead_bytes} B",
         )
         for r in rows
     ]
@@ -252,21 +338,212 @@ def run_compressors(args: argparse.Namespace, console: Console) -> int:
         print("  ".join(cell.ljust(w) for cell, w in zip(row, widths, strict=True)).rstrip())
     print()
     for r in rows:
-        keys = ", ".join(f"{k} {v['range'][0]}-{v['range'][1]}" for k, v in r["keys"].items())  # type: ignore[attr-defined]
-        print(f"{r['name']}: {r['summary']}. Keys: {keys}. Limit: {r['window_source']}.")
+        keys = ", ".join(f"{p.name} {p.low}-{p.high}" for p in r.keys)
+        print(f"{r.name}: {r.summary}. Keys: {keys}. Limit: {r.window_source}.")
     return 0
 
 
 def run_matrix(args: argparse.Namespace, console: Console) -> int:
     fmt = format_for(args.output, args.format)
-    dm = compute_matrix(args, console)
+    dm, _ = compute_matrix(args, console)
     write_matrix(dm, args.output, fmt)
     return 0
+
+
+def _outgroup(text: str | None, labels: Sequence[str]) -> list[str] | None:
+    if not text:
+        return None
+    wanted = [t.strip() for t in text.split(",") if t.strip()]
+    missing = [t for t in wanted if t not in labels]
+    if missing:
+        close = difflib.get_close_matches(missing[0], labels, n=3)
+        hint = f"; did you mean {', '.join(close)}?" if close else ""
+        raise UsageError(f"--outgroup: no item named {missing[0]!r}{hint}")
+    return wanted
+
+
+def run_tree(args: argparse.Namespace, console: Console) -> int:
+    from .support import bootstrap_support
+    from .trees import build_tree, fit_correlation, outgroup_root, to_newick
+
+    if args.bootstrap and args.matrix:
+        raise UsageError("--bootstrap resamples the items, so it needs inputs, not --matrix")
+    dm, items = matrix_for(args, console)
+    outgroup = _outgroup(args.outgroup, dm.labels)
+    try:
+        tree = build_tree(dm.labels, dm.distances, method=args.method, outgroup=outgroup)
+        if args.bootstrap:
+            with console.progress() as progress:
+                tree = bootstrap_support(
+                    tree,
+                    items,
+                    compressor(args.compressor),
+                    replicates=args.bootstrap,
+                    block_fraction=args.block_fraction,
+                    seed=args.seed,
+                    method=args.method,
+                    conditional=args.conditional,
+                    strand=args.strand,
+                    engine=LocalEngine(args.jobs),
+                    progress=None if progress is None else partial(progress, "replicates"),
+                )
+    except ValueError as error:
+        raise UsageError(str(error)) from None
+    if outgroup is not None and args.bootstrap:
+        tree = outgroup_root(tree, outgroup)
+    fit = fit_correlation(tree, dm.labels, dm.distances)
+    rooting = (
+        f"on {', '.join(outgroup)}"
+        if outgroup
+        else "at the midpoint"
+        if args.method == "nj"
+        else "by construction"
+    )
+    console.say(
+        f"tree: {args.method}, {len(dm)} leaves, rooted {rooting}; fit: path lengths correlate"
+        f" with distances at r = {fit:.3f}"
+    )
+    newick = to_newick(tree) + "\n"
+    if args.output:
+        emit(newick, args.output)
+    if args.plot:
+        from .plots import plot_tree
+
+        plot_tree(tree, args.plot, classes=_classes(dm), scale_label="NCD")
+    if args.json:
+        report = {
+            "newick": newick.strip(),
+            "method": args.method,
+            "rooting": rooting,
+            "outgroup": outgroup,
+            "leaves": len(dm),
+            "fit": round(fit, 6),
+            "bootstrap": None
+            if not args.bootstrap
+            else {
+                "replicates": args.bootstrap,
+                "block_fraction": args.block_fraction,
+                "seed": args.seed,
+            },
+            "compressor": dm.compressor,
+            "conditional": dm.conditional,
+            "strand": dm.strand,
+        }
+        emit(json.dumps(report, indent=1) + "\n", None)
+    elif not args.output:
+        emit(newick, None)
+    return 0
+
+
+def run_groups(args: argparse.Namespace, console: Console) -> int:
+    from .groups import agreement, find_groups
+
+    if args.k is not None and args.cut is not None:
+        raise UsageError("give --k or --cut, not both")
+    dm, _ = matrix_for(args, console)
+    try:
+        grouping = find_groups(dm.distances, k=args.k, cut=args.cut, report_outliers=args.outliers)
+    except ValueError as error:
+        raise UsageError(str(error)) from None
+    rows = ["item\tgroup\tmedoid\toutlier"]
+    for name, group, is_medoid, outlier in zip(
+        dm.labels, grouping.assignment, grouping.is_medoid, grouping.is_outlier, strict=True
+    ):
+        rows.append(
+            f"{name}\t{group}\t{'yes' if is_medoid else 'no'}\t{'yes' if outlier else 'no'}"
+        )
+    table = "\n".join(rows) + "\n"
+    outliers = int(sum(grouping.is_outlier))
+    console.say(
+        f"groups: {grouping.k} by {grouping.method}; mean silhouette {grouping.silhouette:.3f};"
+        f" {outliers} outliers {'reported' if args.outliers else 'joined their nearest group'}"
+    )
+    scores = None
+    if dm.classes is not None and any(c is not None for c in dm.classes):
+        scores = agreement(list(grouping.assignment), list(dm.classes))
+        console.say(
+            f"against known labels ({scores.scored} items): adjusted Rand index"
+            f" {scores.adjusted_rand:.3f}, purity {scores.purity:.3f}"
+        )
+        if not args.json and not args.quiet:
+            print(_confusion_text(scores), file=sys.stderr)
+    if args.output:
+        emit(table, args.output)
+    if args.json:
+        report: dict[str, Any] = {
+            "items": [
+                {"item": n, "group": int(g), "medoid": bool(m), "outlier": bool(o)}
+                for n, g, m, o in zip(
+                    dm.labels,
+                    grouping.assignment,
+                    grouping.is_medoid,
+                    grouping.is_outlier,
+                    strict=True,
+                )
+            ],
+            "groups": [
+                {
+                    "group": g.index,
+                    "size": g.size,
+                    "medoid": dm.labels[g.medoid],
+                    "silhouette": _rounded(g.silhouette),
+                }
+                for g in grouping.groups
+            ],
+            "k": grouping.k,
+            "method": grouping.method,
+            "silhouette": _rounded(grouping.silhouette),
+            "compressor": dm.compressor,
+            "conditional": dm.conditional,
+        }
+        if scores is not None:
+            report["agreement"] = {
+                "adjusted_rand": round(scores.adjusted_rand, 6),
+                "purity": round(scores.purity, 6),
+                "scored": scores.scored,
+                "confusion": {
+                    "labels": list(scores.known_labels),
+                    "groups": [int(g) for g in scores.group_ids],
+                    "counts": [[int(c) for c in row] for row in scores.confusion],
+                },
+            }
+        emit(json.dumps(report, indent=1) + "\n", None)
+    elif not args.output:
+        emit(table, None)
+    return 0
+
+
+def _rounded(value: float) -> float | None:
+    return None if value != value else round(float(value), 6)  # NaN: undefined silhouette
+
+
+def _confusion_text(scores: Any) -> str:
+    head = ["known \\ group", *(str(g) for g in scores.group_ids)]
+    body = [
+        [label, *(str(int(c)) for c in row)]
+        for label, row in zip(scores.known_labels, scores.confusion, strict=True)
+    ]
+    widths = [max(len(r[k]) for r in [head, *body]) for k in range(len(head))]
+    return "\n".join(
+        "  ".join(
+            cell.rjust(w) if k else cell.ljust(w)
+            for k, (cell, w) in enumerate(zip(row, widths, strict=True))
+        )
+        for row in [head, *body]
+    )
+
+
+def _classes(dm: DistanceMatrix) -> dict[str, str] | None:
+    if dm.classes is None:
+        return None
+    return {n: c for n, c in zip(dm.labels, dm.classes, strict=True) if c is not None}
 
 
 COMMANDS: dict[str, Callable[[argparse.Namespace, Console], int]] = {
     "compressors": run_compressors,
     "matrix": run_matrix,
+    "tree": run_tree,
+    "groups": run_groups,
 }
 
 
@@ -301,20 +578,26 @@ def main(argv: Sequence[str] | None = None) -> int:
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return 1
     except KeyboardInterrupt:
-        print("kinpress: interrupted; finished tiles are in the cache, rerun to resume",
-              file=sys.stderr)
+        print(
+            "kinpress: interrupted; finished tiles are in the cache, rerun to resume",
+            file=sys.stderr,
+        )
         return 130
     except OSError as error:
         if args.debug:
             raise
-        print(f"kinpress: error: {error.filename or ''}: {error.strerror or error}",
-              file=sys.stderr)
+        print(
+            f"kinpress: error: {error.filename or ''}: {error.strerror or error}", file=sys.stderr
+        )
         return 1
     except Exception as error:
         if args.debug:
             raise
-        print(f"kinpress: internal error: {type(error).__name__}: {error} "
-              "(run again with --debug for the traceback)", file=sys.stderr)
+        print(
+            f"kinpress: internal error: {type(error).__name__}: {error} "
+            "(run again with --debug for the traceback)",
+            file=sys.stderr,
+        )
         return 1
 
 

@@ -184,8 +184,10 @@ def _warn_beyond_window(comp: Compressor, lengths: np.ndarray) -> None:
     order = np.sort(lengths)
     # Pairs (i, j) with len_i + len_j > window, counted from the sorted lengths.
     over = len(order) * (len(order) - 1) // 2 - int(
-        sum(np.searchsorted(order[k + 1 :], window - order[k], side="right")
-            for k in range(len(order)))
+        sum(
+            np.searchsorted(order[k + 1 :], window - order[k], side="right")
+            for k in range(len(order))
+        )
     )
     if over:
         warnings.warn(

@@ -144,7 +144,8 @@ def _parse_with_biopython(data: bytes, fmt: str, source: str) -> Iterator[tuple[
     handle = io.StringIO(data.decode("utf-8", "replace"))
     number = 0
     try:
-        for number, record in enumerate(SeqIO.parse(handle, fmt), start=1):
+        for record in SeqIO.parse(handle, fmt):  # type: ignore[no-untyped-call]
+            number += 1
             try:
                 letters = str(record.seq).encode("ascii", "replace")
             except UndefinedSequenceError:
@@ -225,15 +226,18 @@ def _file_items(path: str, split: Split, stdin: BinaryIO | None) -> Iterator[Ite
         return
     if split.mode == "file":
         letters = b"".join(seq for _, seq in records)
-        yield Item(base, letters, path, nucleotide=is_nucleotide(letters))
+        yield Item(os.path.splitext(base)[0], letters, path, nucleotide=is_nucleotide(letters))
         return
+    # A file holding one record (a genome per file) is named for the file, as people name them.
+    stem = os.path.splitext(base)[0] if len(records) == 1 else None
     for rid, seq in records:
         nucleotide = is_nucleotide(seq)
+        name = stem or rid
         if split.mode == "bytes":
             for number, piece in enumerate(_chunks(seq, split), start=1):
-                yield Item(f"{rid}#{number}", piece, path, nucleotide=nucleotide)
+                yield Item(f"{name}#{number}", piece, path, nucleotide=nucleotide)
         else:
-            yield Item(rid, seq, path, nucleotide=nucleotide)
+            yield Item(name, seq, path, nucleotide=nucleotide)
 
 
 def expand_paths(paths: Iterable[str | os.PathLike[str]], exclude: Iterable[str] = ()) -> list[str]:
@@ -244,7 +248,7 @@ def expand_paths(paths: Iterable[str | os.PathLike[str]], exclude: Iterable[str]
     """
     skip = {os.path.realpath(p) for p in exclude}
     files: list[str] = []
-    for given in map(os.fspath, paths):
+    for given in [os.fspath(p) for p in paths]:
         if given == "-":
             files.append(given)
         elif os.path.isdir(given):
@@ -302,16 +306,22 @@ def read_labels(path: str | os.PathLike[str]) -> dict[str, str]:
 def attach_labels(items: Sequence[Item], labels: Mapping[str, str]) -> list[Item]:
     """Give items their known labels, matched by item name, then record or file name.
 
-    A label given for a file applies to all its chunks (`app.log` labels `app.log#3`).
+    A label given for a file applies to all its chunks (`app.log` labels `app.log#3`), and a
+    key written as a path (`logs/app.log`) matches by its file name.
     """
+    # A key may be a path (logs/app.log): it also answers to its file name.
+    by_name = dict(labels)
+    for key, value in labels.items():
+        by_name.setdefault(os.path.basename(key), value)
+    origin = {os.path.basename(key): key for key in labels}
     out = []
     used: set[str] = set()
     for item in items:
         candidates = (item.name, item.name.partition("#")[0], os.path.basename(item.source))
-        key = next((c for c in candidates if c in labels), None)
+        key = next((c for c in candidates if c in by_name), None)
         if key is not None:
-            used.add(key)
-            item = replace(item, label=labels[key])
+            used.add(origin.get(key, key) if key not in labels else key)
+            item = replace(item, label=by_name[key])
         out.append(item)
     unused = len(set(labels) - used)
     if unused:

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 from .base import Compressor, Param, Primed, SpecError
 from .brotli import Brotli
 from .bz2 import Bz2
@@ -18,6 +20,7 @@ NAME_ALIASES = {"xz": "lzma", "deflate": "zlib", "bzip2": "bz2", "brotli": "brot
 __all__ = [
     "ADAPTERS",
     "Compressor",
+    "CompressorInfo",
     "Param",
     "Primed",
     "SpecError",
@@ -44,7 +47,9 @@ def parse_spec(text: str) -> tuple[type[Compressor], dict[str, int]]:
         try:
             settings[key.strip().lower()] = int(value)
         except ValueError:
-            raise SpecError(f"{text!r}: {key.strip()} takes a whole number, got {value!r}") from None
+            raise SpecError(
+                f"{text!r}: {key.strip()} takes a whole number, got {value!r}"
+            ) from None
     return cls, settings
 
 
@@ -56,17 +61,43 @@ def compressor(spec: str | Compressor) -> Compressor:
     return cls(**settings)
 
 
-def describe(comp: Compressor) -> dict[str, object]:
-    """One row of ``kinpress compressors``: what a user needs to pick and trust a compressor."""
+@dataclass(frozen=True)
+class CompressorInfo:
+    """What a user needs to pick and trust a compressor: one row of ``kinpress compressors``."""
+
+    name: str
+    spec: str
+    levels: tuple[int, int]
+    window_bytes: int | None
+    primed: bool
+    overhead_bytes: int
+    keys: tuple[Param, ...]
+    window_source: str
+    summary: str
+
+    def as_json(self) -> dict[str, object]:
+        """The documented JSON row: name, spec, levels, window_bytes, primed, overhead_bytes."""
+        return {
+            "name": self.name,
+            "spec": self.spec,
+            "levels": list(self.levels),
+            "window_bytes": self.window_bytes,
+            "primed": self.primed,
+            "overhead_bytes": self.overhead_bytes,
+        }
+
+
+def describe(comp: Compressor) -> CompressorInfo:
+    """The facts about one compressor at its current settings."""
     level = comp.level_param()
-    return {
-        "name": comp.name,
-        "spec": comp.spec,
-        "levels": [level.low, level.high],
-        "window_bytes": comp.window_bytes,
-        "primed": comp.primable,
-        "overhead_bytes": comp.overhead_bytes,
-        "keys": {p.name: {"range": [p.low, p.high], "help": p.help} for p in comp.params},
-        "window_source": comp.window_source,
-        "summary": comp.summary,
-    }
+    return CompressorInfo(
+        name=comp.name,
+        spec=comp.spec,
+        levels=(level.low, level.high),
+        window_bytes=comp.window_bytes,
+        primed=comp.primable,
+        overhead_bytes=comp.overhead_bytes,
+        keys=comp.params,
+        window_source=comp.window_source,
+        summary=comp.summary,
+    )

@@ -61,9 +61,7 @@ class Compressor(ABC):
             key = aliases.get(given, given)
             param = known.get(key)
             if param is None:
-                raise SpecError(
-                    f"{self.name} has no key {given!r}; valid keys: {', '.join(known)}"
-                )
+                raise SpecError(f"{self.name} has no key {given!r}; valid keys: {', '.join(known)}")
             if not param.low <= value <= param.high:
                 raise SpecError(
                     f"{self.name}: {key}={value} is out of range {param.low}-{param.high}"
@@ -113,8 +111,12 @@ class Compressor(ABC):
     def size(self, data: bytes) -> int:
         """C(x): the compressed size of `data` in bytes."""
 
-    def primed(self, reference: bytes) -> Primed:
-        """A compressor that knows `reference` already; only where `primable` is true."""
+    def primed(self, reference: bytes, data_size: int = 0) -> Primed:
+        """A compressor that knows `reference` already; only where `primable` is true.
+
+        `data_size` is the largest input it will be asked to compress (0: as large as the
+        reference), so the adapter can size its window to reach back over both.
+        """
         raise SpecError(
             f"{self.name} cannot be primed with a reference; use the concatenation method"
         )

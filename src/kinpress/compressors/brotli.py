@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from importlib.metadata import version
+from typing import ClassVar
 
 import brotli
 
@@ -16,7 +17,7 @@ class Brotli(Compressor):
         Param("level", 0, 11, 11, "quality"),
         Param("window", 10, 24, 24, "lgwin: log2 of the window"),
     )
-    aliases = {"quality": "level", "lgwin": "window"}
+    aliases: ClassVar[dict[str, str]] = {"quality": "level", "lgwin": "window"}
     window_source = "RFC 7932 section 9.1: window = 2^lgwin - 16"
 
     @property
@@ -28,4 +29,6 @@ class Brotli(Compressor):
         return "brotli-" + version("brotli")
 
     def size(self, data: bytes) -> int:
-        return len(brotli.compress(data, quality=self.setting("level"), lgwin=self.setting("window")))
+        return len(
+            brotli.compress(data, quality=self.setting("level"), lgwin=self.setting("window"))
+        )

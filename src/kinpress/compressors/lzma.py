@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import lzma
 import sys
+from typing import ClassVar
 
 from .base import Compressor, Param
 
@@ -19,7 +20,7 @@ class Lzma(Compressor):
         Param("extreme", 0, 1, 0, "1 adds the extreme flag (slower, slightly smaller)"),
         Param("window", 12, 30, None, "log2 dictionary size; default from the preset"),
     )
-    aliases = {"preset": "level"}
+    aliases: ClassVar[dict[str, str]] = {"preset": "level"}
     window_source = "xz manual: preset dictionary sizes 256 KiB (-0) .. 64 MiB (-9)"
 
     @property

@@ -35,7 +35,7 @@ class Zlib(Compressor):
         stream = self._stream()
         return len(stream.compress(data)) + len(stream.flush())
 
-    def primed(self, reference: bytes) -> Primed:
+    def primed(self, reference: bytes, data_size: int = 0) -> Primed:
         return _ZlibPrimed(self, reference)
 
 

@@ -54,27 +54,28 @@ class Zstd(Compressor):
     def size(self, data: bytes) -> int:
         return len(self._context.compress(data))
 
-    def primed(self, reference: bytes) -> Primed:
-        return _ZstdPrimed(self, reference)
+    def primed(self, reference: bytes, data_size: int = 0) -> Primed:
+        return _ZstdPrimed(self, reference, data_size or len(reference))
 
 
 class _ZstdPrimed(Primed):
     """x compressed with y as a raw-content dictionary, its match tables built once.
 
-    libzstd only reaches the last min(window, 2^max(hashLog+3, chainLog+1)) bytes of a
-    dictionary, so for large references the tables are widened to cover it all; the window stays
-    at least the level's own, so x can still match itself as far back as when compressed alone.
+    The window covers y and the largest x to come. libzstd only reaches the last
+    min(window, 2^max(hashLog+3, chainLog+1)) bytes of a dictionary, so for large references the
+    tables are widened to cover it all; parameters otherwise follow the level for that size.
     """
 
-    def __init__(self, owner: Zstd, reference: bytes) -> None:
-        need = _log2_ceil(2 * max(len(reference), 1))
-        sized = owner._parameters(source_size=len(reference), dict_size=len(reference))
+    def __init__(self, owner: Zstd, reference: bytes, data_size: int) -> None:
+        span = _log2_ceil(len(reference) + data_size)
+        need = _log2_ceil(max(len(reference), 1))
+        sized = owner._parameters(source_size=data_size, dict_size=len(reference))
         params = owner._parameters(
-            source_size=len(reference),
+            source_size=data_size,
             dict_size=len(reference),
-            window_log=max(owner._params.window_log, min(need, 31)),
-            hash_log=max(sized.hash_log, min(need - 4, 30)),
-            chain_log=max(sized.chain_log, min(need - 2, 30)),
+            window_log=min(max(sized.window_log, span), 31),
+            hash_log=max(sized.hash_log, min(need - 3, 30)),
+            chain_log=max(sized.chain_log, min(need - 1, 30)),
         )
         dictionary = zstandard.ZstdCompressionDict(
             reference, dict_type=zstandard.DICT_TYPE_RAWCONTENT

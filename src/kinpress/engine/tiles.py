@@ -8,6 +8,7 @@ and the smaller size kept. Any engine (threads, processes, a cluster) runs the s
 
 from __future__ import annotations
 
+import itertools
 import threading
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -71,11 +72,14 @@ def run_tile(items: Sequence[bytes], job: SizeJob, tile: Tile) -> np.ndarray:
     out = np.empty(len(tile.first), dtype=np.int64)
     both = job.strand == "both"
     if job.method == "primed":
+        largest: dict[int, int] = {}
+        for f, s in zip(tile.first, tile.second, strict=True):
+            largest[f] = max(largest.get(f, 0), len(items[s]))
         primers: dict[int, list[Primed]] = {}
         for k, (f, s) in enumerate(zip(tile.first, tile.second, strict=True)):
             if f not in primers:
                 refs = [items[f], reverse_complement(items[f])] if both else [items[f]]
-                primers = {f: [comp.primed(r) for r in refs]}
+                primers = {f: [comp.primed(r, largest[f]) for r in refs]}
             out[k] = min(p.size(items[s]) for p in primers[f])
         return out
     reversed_first: dict[int, bytes] = {}
@@ -113,7 +117,7 @@ def plan_tiles(
     bounds = np.searchsorted(np.cumsum(sizes), np.arange(per_tile, total, per_tile), side="left")
     cuts = [0, *sorted(set(int(b) + 1 for b in bounds if int(b) + 1 < n)), n]
     tiles = []
-    for lo, hi in zip(cuts[:-1], cuts[1:], strict=True):
+    for lo, hi in itertools.pairwise(cuts):
         if hi > lo:
             tiles.append(
                 Tile(tuple(first[lo:hi]), tuple(second[lo:hi]) if second is not None else ())
