@@ -48,8 +48,11 @@ def _examples(*lines: str) -> str:
 
 
 def _common(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("--quiet", action="store_true", help="no progress bar or summary")
-    parser.add_argument("--debug", action="store_true", help="show a traceback on errors")
+    # SUPPRESS: a command's copy, when not given, must not reset the global option to False.
+    quiet = "no progress bar or summary"
+    parser.add_argument("--quiet", action="store_true", default=argparse.SUPPRESS, help=quiet)
+    debug = "show a traceback on errors"
+    parser.add_argument("--debug", action="store_true", default=argparse.SUPPRESS, help=debug)
 
 
 def _matrix_options(parser: argparse.ArgumentParser) -> None:
@@ -100,6 +103,7 @@ def build_parser() -> argparse.ArgumentParser:
     )
     parser.add_argument("--version", action="version", version=f"kinpress {__version__}")
     _common(parser)
+    parser.set_defaults(quiet=False, debug=False)
     commands = parser.add_subparsers(dest="command", metavar="COMMAND")
 
     listing = commands.add_parser(
@@ -129,6 +133,9 @@ def build_parser() -> argparse.ArgumentParser:
     _matrix_options(matrix)
     out = matrix.add_argument_group("output")
     out.add_argument("-o", "--output", metavar="FILE", help="write here (default: stdout)")
+    out.add_argument(
+        "--plot", metavar="FILE", help="also draw a heatmap in tree order (.png, .svg or .pdf)"
+    )
     out.add_argument(
         "--format", choices=MATRIX_FORMATS, help="default: from the file extension, else tsv"
     )
@@ -244,14 +251,28 @@ class Console:
             yield update
 
 
-def _load(args: argparse.Namespace) -> list[Item]:
-    inputs = list(args.inputs)
-    output = getattr(args, "output", None)
-    if output and output != "-":
-        real = os.path.realpath(output)
+def _written(args: argparse.Namespace) -> list[str]:
+    """The files this command will write (its output and picture)."""
+    return [p for p in (getattr(args, "output", None), getattr(args, "plot", None)) if p]
+
+
+def _check_outputs(args: argparse.Namespace) -> None:
+    """Refuse, before any work, to write over an input or into a folder that does not exist."""
+    inputs = list(getattr(args, "inputs", None) or [])
+    for path in _written(args):
+        if path == "-":
+            continue
+        real = os.path.realpath(path)
         if any(os.path.isfile(p) and os.path.realpath(p) == real for p in inputs):
-            raise UsageError(f"{output}: is also an input; refusing to overwrite it")
-    return load_items(inputs, args.split, args.labels, exclude=[output] if output else [])
+            raise UsageError(f"{path}: is also an input; refusing to overwrite it")
+        folder = os.path.dirname(os.path.abspath(path))
+        if not os.path.isdir(folder):
+            raise UsageError(f"{path}: folder {folder} does not exist")
+
+
+def _load(args: argparse.Namespace) -> list[Item]:
+    _check_outputs(args)
+    return load_items(args.inputs, args.split, args.labels, exclude=_written(args))
 
 
 def _cache(args: argparse.Namespace) -> SizeCache | None:
@@ -262,6 +283,8 @@ def _cache(args: argparse.Namespace) -> SizeCache | None:
 
 def compute_matrix(args: argparse.Namespace, console: Console) -> tuple[DistanceMatrix, list[Item]]:
     """Load the inputs and compute their matrix as the command line asks, reporting on stderr."""
+    if args.jobs is not None and args.jobs < 1:
+        raise UsageError(f"--jobs {args.jobs}: the worker count must be at least 1")
     items = _load(args)
     comp = compressor(args.compressor)
     cache = _cache(args)
@@ -343,10 +366,29 @@ def run_compressors(args: argparse.Namespace, console: Console) -> int:
     return 0
 
 
+def _check_plot(path: str | None) -> None:
+    """Refuse a picture name we cannot write before any work is done."""
+    if path:
+        from .plots import figure_format
+
+        try:
+            figure_format(path)
+        except ValueError as error:
+            raise UsageError(f"--plot {path}: {error}") from None
+
+
 def run_matrix(args: argparse.Namespace, console: Console) -> int:
     fmt = format_for(args.output, args.format)
+    _check_plot(args.plot)
     dm, _ = compute_matrix(args, console)
     write_matrix(dm, args.output, fmt)
+    if args.plot:
+        from .plots import plot_heatmap
+        from .trees import build_tree, leaf_order
+
+        # Average-linkage leaf order puts near items side by side, so groups show as blocks.
+        order = leaf_order(build_tree(dm.labels, dm.distances, method="average"))
+        plot_heatmap(dm, args.plot, order=order)
     return 0
 
 
@@ -368,6 +410,7 @@ def run_tree(args: argparse.Namespace, console: Console) -> int:
 
     if args.bootstrap and args.matrix:
         raise UsageError("--bootstrap resamples the items, so it needs inputs, not --matrix")
+    _check_plot(args.plot)
     dm, items = matrix_for(args, console)
     outgroup = _outgroup(args.outgroup, dm.labels)
     try:

@@ -87,14 +87,20 @@ def matrix_to_tsv(dm: DistanceMatrix) -> str:
     return "\n".join(lines) + "\n"
 
 
+def _csv_cell(text: str) -> str:
+    # RFC 4180: quote a field holding a comma, a quote, CR or LF. (Python 3.11's csv writer
+    # leaves a lone CR unquoted when the line terminator is "\n", which its reader then rejects.)
+    if any(c in text for c in ',"\r\n'):
+        return '"' + text.replace('"', '""') + '"'
+    return text
+
+
 def matrix_to_csv(dm: DistanceMatrix) -> str:
     """Like TSV, comma-separated with RFC 4180 quoting."""
-    out = io.StringIO()
-    writer = csv.writer(out, lineterminator="\n")
-    writer.writerow(["", *dm.labels])
+    lines = [",".join(["", *map(_csv_cell, dm.labels)])]
     for label, row in zip(dm.labels, dm.distances, strict=True):
-        writer.writerow([label, *map(_number, row)])
-    return out.getvalue()
+        lines.append(",".join([_csv_cell(label), *map(_number, row)]))
+    return "\n".join(lines) + "\n"
 
 
 def phylip_names(labels: Sequence[str]) -> list[str]:
@@ -177,22 +183,28 @@ def _square(rows: list[list[str]], labels: list[str], source: str, first_line: i
     values = np.empty((n, n))
     for k, row in enumerate(rows):
         if len(row) != n:
-            raise InputError(
-                f"{source}:{first_line + k}: expected {n} values, found {len(row)}"
-            )
+            raise InputError(f"{source}:{first_line + k}: expected {n} values, found {len(row)}")
         try:
             values[k] = [float(v) for v in row]
         except ValueError:
             raise InputError(f"{source}:{first_line + k}: values must be numbers") from None
     if not np.all(np.isfinite(values)):
         raise InputError(f"{source}: distances must be finite numbers")
-    if not np.allclose(values, values.T, atol=1e-6):
-        raise InputError(f"{source}: the matrix is not symmetric")
+    skew = np.argwhere(~np.isclose(values, values.T, atol=1e-6))
+    if skew.size:
+        i, j = skew[0]
+        raise InputError(
+            f"{source}:{first_line + i}: the matrix is not symmetric: row {i + 1} column {j + 1}"
+            f" is {values[i, j]:g} but row {j + 1} column {i + 1} is {values[j, i]:g}"
+        )
     return values
 
 
 def _read_delimited(text: str, source: str, delimiter: str) -> DistanceMatrix:
-    rows = list(csv.reader(io.StringIO(text), delimiter=delimiter))
+    if delimiter == "\t":  # TSV is written unquoted: a '"' in it is a character, not a quote
+        rows = list(csv.reader(io.StringIO(text), delimiter="\t", quoting=csv.QUOTE_NONE))
+    else:
+        rows = list(csv.reader(io.StringIO(text), delimiter=delimiter))
     rows = [r for r in rows if r]
     if not rows:
         raise InputError(f"{source}: empty matrix file")
@@ -211,7 +223,7 @@ def _read_phylip(text: str, source: str) -> DistanceMatrix:
     except (IndexError, ValueError):
         raise InputError(f"{source}:1: PHYLIP starts with the number of items") from None
     labels, rows = [], []
-    for k, line in enumerate(lines[1 : n + 1], start=2):
+    for line in lines[1 : n + 1]:
         fields = line.split()
         if len(fields) == n:  # strict PHYLIP: a 10-character name may touch the first value
             name, values = line[:10].strip(), line[10:].split()
@@ -253,7 +265,9 @@ def read_matrix(path: str | os.PathLike[str], fmt: str | None = None) -> Distanc
     """Read a matrix written by `write_matrix` (or any square TSV, CSV, PHYLIP file)."""
     source = os.fspath(path)
     try:
-        text = Path(path).read_text(encoding="utf-8")
+        # newline="": line ends inside quoted CSV fields are kept as written (csv module docs)
+        with open(path, encoding="utf-8", newline="") as handle:
+            text = handle.read()
     except FileNotFoundError:
         raise InputError(f"{source}: no such file") from None
     except (OSError, UnicodeDecodeError) as error:
@@ -265,7 +279,7 @@ def read_matrix(path: str | os.PathLike[str], fmt: str | None = None) -> Distanc
             fmt = "json"
         elif first.strip().isdigit():
             fmt = "phylip"
-        elif "\t" in first:
+        elif "\t" in first and format_for(path, None) != "csv":
             fmt = "tsv"
         else:
             fmt = format_for(path, None)

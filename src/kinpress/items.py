@@ -318,10 +318,10 @@ def attach_labels(items: Sequence[Item], labels: Mapping[str, str]) -> list[Item
     used: set[str] = set()
     for item in items:
         candidates = (item.name, item.name.partition("#")[0], os.path.basename(item.source))
-        key = next((c for c in candidates if c in by_name), None)
-        if key is not None:
-            used.add(origin.get(key, key) if key not in labels else key)
-            item = replace(item, label=by_name[key])
+        found = next((c for c in candidates if c in by_name), None)
+        if found is not None:
+            used.add(found if found in labels else origin[found])
+            item = replace(item, label=by_name[found])
         out.append(item)
     unused = len(set(labels) - used)
     if unused:

@@ -2,24 +2,15 @@
 
 from __future__ import annotations
 
-import multiprocessing
 import os
 from collections.abc import Iterator, Sequence
-from concurrent.futures import (
-    FIRST_COMPLETED,
-    Executor,
-    Future,
-    ProcessPoolExecutor,
-    ThreadPoolExecutor,
-    wait,
-)
+from concurrent.futures import FIRST_COMPLETED, Future, ThreadPoolExecutor, wait
 
 import numpy as np
 
 from ..compressors import compressor
+from .processes import WorkerProcesses
 from .tiles import SizeJob, Tile, run_tile
-
-_worker_items: Sequence[bytes] = ()
 
 
 def available_cores() -> int:
@@ -30,20 +21,12 @@ def available_cores() -> int:
         return os.cpu_count() or 1
 
 
-def _init_worker(items: Sequence[bytes]) -> None:
-    global _worker_items
-    _worker_items = items
-
-
-def _run_in_worker(job: SizeJob, tile: Tile) -> np.ndarray:
-    return run_tile(_worker_items, job, tile)
-
-
 class LocalEngine:
     """All cores of this machine (`jobs`, default: every core this process may use).
 
-    Items travel to each worker process once, at start-up; tasks carry only tile indices.
-    At most two tiles per worker are in flight, so an interrupted run loses little.
+    Threads run compressors that release the GIL; the others run in worker processes, which get
+    the items once, at start-up, so tasks carry only tile indices. At most two tiles per worker
+    are in flight, so an interrupted run loses little.
     """
 
     def __init__(self, jobs: int | None = None) -> None:
@@ -61,34 +44,20 @@ class LocalEngine:
             return
         yield from self._pooled(items, job, tiles)
 
-    def _executor(self, items: Sequence[bytes], job: SizeJob) -> Executor:
-        if compressor(job.spec).releases_gil:
-            return ThreadPoolExecutor(max_workers=self.jobs, thread_name_prefix="kinpress")
-        # A fresh interpreter per worker: forking a process that runs a progress thread is unsafe.
-        context = multiprocessing.get_context("spawn")
-        return ProcessPoolExecutor(
-            max_workers=self.jobs, mp_context=context, initializer=_init_worker, initargs=(items,)
-        )
-
     def _pooled(
         self, items: Sequence[bytes], job: SizeJob, tiles: Sequence[Tile]
     ) -> Iterator[tuple[Tile, np.ndarray]]:
-        executor = self._executor(items, job)
-        threads = isinstance(executor, ThreadPoolExecutor)
+        if not compressor(job.spec).releases_gil:
+            with WorkerProcesses(self.jobs, items) as workers:
+                yield from workers.run(job, tiles)
+            return
+        executor = ThreadPoolExecutor(max_workers=self.jobs, thread_name_prefix="kinpress")
         pending: dict[Future[np.ndarray], Tile] = {}
         queue = iter(tiles)
         try:
             while True:
-                while len(pending) < 2 * self.jobs:
-                    tile = next(queue, None)
-                    if tile is None:
-                        break
-                    future = (
-                        executor.submit(run_tile, items, job, tile)
-                        if threads
-                        else executor.submit(_run_in_worker, job, tile)
-                    )
-                    pending[future] = tile
+                while len(pending) < 2 * self.jobs and (tile := next(queue, None)) is not None:
+                    pending[executor.submit(run_tile, items, job, tile)] = tile
                 if not pending:
                     return
                 done, _ = wait(pending, return_when=FIRST_COMPLETED)

@@ -1,0 +1,100 @@
+"""Worker processes for compressors that do not release the GIL (pyppmd)."""
+
+from __future__ import annotations
+
+import os
+import queue
+import subprocess
+import sys
+import threading
+from collections.abc import Iterator, Sequence
+from typing import IO, Any
+
+import numpy as np
+
+from .tiles import SizeJob, Tile
+from .wire import receive, send
+
+
+class WorkerError(RuntimeError):
+    """A worker process failed or died."""
+
+
+class WorkerProcesses:
+    """`count` processes running `kinpress.engine.worker`, each holding the items."""
+
+    def __init__(self, count: int, items: Sequence[bytes]) -> None:
+        env = dict(os.environ, PYTHONPATH=os.pathsep.join(p for p in sys.path if p))
+        self._procs = [
+            subprocess.Popen(
+                [sys.executable, "-m", "kinpress.engine.worker"],
+                stdin=subprocess.PIPE,
+                stdout=subprocess.PIPE,
+                env=env,
+            )
+            for _ in range(count)
+        ]
+        self._answers: queue.Queue[tuple[int, Any]] = queue.Queue()
+        self._readers = []
+        payload = list(items)
+        for index, proc in enumerate(self._procs):
+            assert proc.stdin is not None and proc.stdout is not None
+            send(proc.stdin, payload)
+            reader = threading.Thread(
+                target=self._read, args=(index, proc.stdout), daemon=True, name="kinpress-reader"
+            )
+            reader.start()
+            self._readers.append(reader)
+
+    def _read(self, index: int, stream: IO[bytes]) -> None:
+        try:
+            while True:
+                self._answers.put((index, receive(stream)))
+        except (EOFError, OSError):
+            self._answers.put((index, None))
+
+    def run(self, job: SizeJob, tiles: Sequence[Tile]) -> Iterator[tuple[Tile, np.ndarray]]:
+        """Yield (tile, sizes) as workers finish them, two tiles in flight per worker."""
+        waiting = list(enumerate(tiles))[::-1]
+        load = [0] * len(self._procs)
+        in_flight = 0
+        while waiting or in_flight:
+            for index, proc in enumerate(self._procs):
+                while load[index] < 2 and waiting:
+                    task, tile = waiting.pop()
+                    assert proc.stdin is not None
+                    send(proc.stdin, (task, job, tile))
+                    load[index] += 1
+                    in_flight += 1
+            index, answer = self._answers.get()
+            if answer is None:
+                code = self._procs[index].wait()
+                raise WorkerError(f"a worker process ended unexpectedly (exit code {code})")
+            task, result = answer
+            if isinstance(result, str):
+                raise WorkerError(f"a worker process failed:\n{result}")
+            load[index] -= 1
+            in_flight -= 1
+            yield tiles[task], result
+
+    def close(self) -> None:
+        """Ask every worker to stop; end any that do not within a few seconds."""
+        for proc in self._procs:
+            try:
+                assert proc.stdin is not None
+                send(proc.stdin, None)
+                proc.stdin.close()
+            except (BrokenPipeError, OSError):
+                pass
+        for proc in self._procs:
+            try:
+                proc.wait(timeout=5)
+            except subprocess.TimeoutExpired:
+                proc.kill()
+                proc.wait()
+
+    def __enter__(self) -> WorkerProcesses:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()

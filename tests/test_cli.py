@@ -1,0 +1,338 @@
+"""The command line: compressors, matrix, output formats, errors, warnings, summary and cache."""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import re
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from conftest import generated_text
+from kinpress import InputError, read_matrix
+from kinpress.cli import main
+
+NAMES = ("zstd", "brotli", "lzma", "bz2", "zlib", "ppmd")
+FAST = ["-c", "zlib:level=6", "--no-cache"]
+SUMMARY = re.compile(r"(\d+) items, .*: (\d+) pairs computed, (\d+) from cache")
+
+
+def run(capsys: pytest.CaptureFixture[str], *argv: str) -> tuple[int, str, str]:
+    code = main(list(argv))
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def parse_tsv(text: str) -> tuple[list[str], np.ndarray]:
+    rows = list(csv.reader(io.StringIO(text), delimiter="\t"))
+    assert rows[0][0] == ""
+    labels = rows[0][1:]
+    assert [r[0] for r in rows[1:]] == labels
+    return labels, np.array([[float(v) for v in r[1:]] for r in rows[1:]])
+
+
+# --- compressors ---------------------------------------------------------------------------
+
+
+def test_compressors_json_is_one_object_per_compressor_with_exactly_the_documented_keys(
+    capsys: pytest.CaptureFixture[str],
+) -> None:
+    code, out, err = run(capsys, "compressors", "--json")
+    assert code == 0 and err == ""
+    rows = json.loads(out)
+    assert [row["name"] for row in rows] == list(NAMES)
+    keys = {"name", "spec", "levels", "window_bytes", "primed", "overhead_bytes"}
+    for row in rows:
+        assert set(row) == keys
+        low, high = row["levels"]
+        assert isinstance(low, int) and low <= high
+        assert row["spec"].startswith(row["name"])
+        assert isinstance(row["primed"], bool)
+        assert isinstance(row["overhead_bytes"], int) and row["overhead_bytes"] >= 0
+    by_name = {row["name"]: row for row in rows}
+    assert by_name["zlib"]["window_bytes"] == 32 * 1024  # RFC 1951: distances up to 32K bytes
+    # bzip2 manual, from memory: -9 sets the block size to 900,000 bytes
+    assert by_name["bz2"]["window_bytes"] == 900_000
+    assert by_name["ppmd"]["window_bytes"] is None
+    assert by_name["zlib"]["primed"] and by_name["zstd"]["primed"]
+
+
+def test_compressors_table_lists_all_six(capsys: pytest.CaptureFixture[str]) -> None:
+    code, out, _ = run(capsys, "compressors")
+    assert code == 0
+    lines = out.splitlines()
+    assert lines[0].split()[0] == "name"
+    assert [line.split()[0] for line in lines[1:7]] == list(NAMES)
+    for name in NAMES:  # and a paragraph on each
+        assert any(line.startswith(f"{name}: ") for line in lines[7:])
+
+
+# --- matrix --------------------------------------------------------------------------------
+
+
+def test_matrix_writes_tsv_to_stdout_by_default(
+    capsys: pytest.CaptureFixture[str], text_folder: Path
+) -> None:
+    code, out, err = run(capsys, "matrix", str(text_folder), *FAST)
+    assert code == 0, err
+    labels, d = parse_tsv(out)
+    assert labels == ["a.txt", "b.txt", "c.txt", "d.txt"]
+    assert np.array_equal(d, d.T) and np.all(np.diag(d) == 0)
+    off = d[np.triu_indices(4, 1)]
+    assert np.all((off > 0) & (off < 1.2))
+
+
+@pytest.mark.parametrize("fmt", ["tsv", "csv", "phylip", "json"])
+def test_matrix_output_in_each_format_holds_the_stdout_matrix(
+    capsys: pytest.CaptureFixture[str], text_folder: Path, tmp_path: Path, fmt: str
+) -> None:
+    _, out, _ = run(capsys, "matrix", str(text_folder), *FAST)
+    labels, d = parse_tsv(out)
+    path = tmp_path / "result.out"
+    code, out, err = run(
+        capsys, "matrix", str(text_folder), *FAST, "-o", str(path), "--format", fmt
+    )
+    assert code == 0, err
+    assert out == ""
+    back = read_matrix(path, fmt)
+    assert list(back.labels) == labels
+    np.testing.assert_allclose(back.distances, d, atol=1e-6)
+
+
+@pytest.mark.parametrize(
+    ("suffix", "looks_like"),
+    [
+        (".tsv", lambda text: text.startswith("\t")),
+        (".csv", lambda text: text.startswith(",")),
+        (".phy", lambda text: text.splitlines()[0].strip() == "4"),
+        (".json", lambda text: isinstance(json.loads(text), dict)),
+    ],
+)
+def test_matrix_output_format_follows_the_file_extension(
+    capsys: pytest.CaptureFixture[str], text_folder: Path, tmp_path: Path, suffix: str, looks_like
+) -> None:
+    path = tmp_path / f"dist{suffix}"
+    code, _, err = run(capsys, "matrix", str(text_folder), *FAST, "-o", str(path))
+    assert code == 0, err
+    assert looks_like(path.read_text())
+    assert read_matrix(path).labels == ("a.txt", "b.txt", "c.txt", "d.txt")
+
+
+def test_matrix_output_inside_an_input_folder_is_not_an_input(
+    capsys: pytest.CaptureFixture[str], text_folder: Path
+) -> None:
+    path = text_folder / "dist.tsv"
+    for _ in range(2):  # the second run finds the first run's output in the folder
+        code, _, err = run(capsys, "matrix", str(text_folder), *FAST, "-o", str(path))
+        assert code == 0, err
+    assert "dist.tsv" not in read_matrix(path).labels
+
+
+def test_matrix_split_lines_compares_chunks_of_a_file(
+    capsys: pytest.CaptureFixture[str], tmp_path: Path
+) -> None:
+    (tmp_path / "app.log").write_bytes(generated_text(4, lines=40))
+    code, out, err = run(capsys, "matrix", str(tmp_path / "app.log"), *FAST, "--split", "lines:10")
+    assert code == 0, err
+    labels, _ = parse_tsv(out)
+    assert labels == ["app.log#1", "app.log#2", "app.log#3", "app.log#4"]
+    assert SUMMARY.search(err).group(1, 2) == ("4", "6")  # type: ignore[union-attr]
+
+
+def test_matrix_labels_become_json_classes(
+    capsys: pytest.CaptureFixture[str], text_folder: Path, tmp_path: Path
+) -> None:
+    labels = tmp_path / "labels.tsv"
+    labels.write_text("item\tlabel\na.txt\tweb\nb.txt\tweb\nc.txt\tdb\n")
+    path = tmp_path / "m.json"
+    code, _, err = run(
+        capsys, "matrix", str(text_folder), *FAST, "--labels", str(labels), "-o", str(path)
+    )
+    assert code == 0, err
+    assert json.loads(path.read_text())["classes"] == {
+        "a.txt": "web",
+        "b.txt": "web",
+        "c.txt": "db",
+        "d.txt": None,
+    }
+
+
+def test_matrix_reads_fasta_from_stdin_and_compares_both_strands(
+    capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch
+) -> None:
+    rng = np.random.default_rng(7)
+    seqs = ["".join(rng.choice(list("ACGT"), 400)) for _ in range(3)]
+    fasta = "".join(f">s{k} sample\n{s}\n" for k, s in enumerate(seqs)).encode()
+    monkeypatch.setattr(sys, "stdin", io.TextIOWrapper(io.BytesIO(fasta)))
+    code, out, err = run(capsys, "matrix", "-", *FAST, "--strand", "both")
+    assert code == 0, err
+    assert parse_tsv(out)[0] == ["s0", "s1", "s2"]
+
+
+# --- errors --------------------------------------------------------------------------------
+
+
+def _inputs(tmp_path: Path) -> dict[str, str]:
+    (tmp_path / "a.txt").write_bytes(generated_text(1))
+    (tmp_path / "b.txt").write_bytes(generated_text(2))
+    (tmp_path / "bad.fa").write_bytes(b">ok\nACGT\nAC%GT\n")
+    return {"a": str(tmp_path / "a.txt"), "b": str(tmp_path / "b.txt"), "dir": str(tmp_path)}
+
+
+ERRORS = {
+    "missing path": (["{dir}/nowhere.txt", "{a}"], ["nowhere.txt: no such file"]),
+    "unknown compressor": (["{a}", "{b}", "-c", "snappy"], ["'snappy'", *NAMES]),
+    "unknown key": (["{a}", "{b}", "-c", "zlib:speed=3"], ["speed", "valid keys", "level"]),
+    "value out of range": (["{a}", "{b}", "-c", "zlib:level=99"], ["level=99", "0-9"]),
+    "malformed fasta": (["{dir}/bad.fa", "{a}"], ["bad.fa:3:", "'%'"]),
+    "one item": (["{a}"], ["at least two items", "got 1"]),
+    "primed brotli": (["{a}", "{b}", "-c", "brotli", "--conditional", "primed"], ["primed"]),
+    "strand both on text": (["{a}", "{b}", "--strand", "both"], ["nucleotide", "a.txt"]),
+    "bad split": (["{a}", "{b}", "--split", "lines:zero"], ["bad split 'lines:zero'"]),
+    "records of text": (["{a}", "{b}", "--split", "records"], ["a.txt: --split records"]),
+    "missing labels": (["{a}", "{b}", "--labels", "{dir}/none.tsv"], ["none.tsv: no such"]),
+    "jobs below one": (["{a}", "{b}", "--jobs", "0"], ["--jobs"]),
+    "output folder missing": (["{a}", "{b}", "-o", "{dir}/no/such/out.tsv"], ["no/such"]),
+}
+
+
+@pytest.mark.parametrize("case", list(ERRORS))
+def test_bad_input_is_a_one_line_error_with_exit_code_2(
+    capsys: pytest.CaptureFixture[str], tmp_path: Path, case: str
+) -> None:
+    where = _inputs(tmp_path)
+    argv, expected = ERRORS[case]
+    args = [a.format(**where) for a in argv]
+    extra = [] if "-c" in args else ["-c", "zlib:level=6"]
+    code, out, err = run(capsys, "matrix", *args, *extra, "--no-cache")
+    assert code == 2
+    assert out == ""
+    assert err.startswith("kinpress: error: ") and err.count("\n") == 1, err
+    assert "Traceback" not in err
+    for text in expected:
+        assert text in err, (text, err)
+
+
+def test_output_that_is_an_input_is_refused_and_left_untouched(
+    capsys: pytest.CaptureFixture[str], text_folder: Path
+) -> None:
+    target = text_folder / "a.txt"
+    before = target.read_bytes()
+    code, out, err = run(
+        capsys, "matrix", str(target), str(text_folder / "b.txt"), *FAST, "-o", str(target)
+    )
+    assert code == 2 and out == ""
+    assert err.startswith("kinpress: error: ") and "is also an input" in err
+    assert target.read_bytes() == before
+
+
+def test_debug_raises_the_error_instead_of_a_message(
+    capsys: pytest.CaptureFixture[str], tmp_path: Path
+) -> None:
+    with pytest.raises(InputError, match=r"nowhere\.txt"):
+        main(["matrix", str(tmp_path / "nowhere.txt"), *FAST, "--debug"])
+    with pytest.raises(InputError, match=r"nowhere\.txt"):
+        main(["--debug", "matrix", str(tmp_path / "nowhere.txt"), *FAST])
+
+
+def test_no_command_prints_help_on_stderr_and_exits_2(capsys: pytest.CaptureFixture[str]) -> None:
+    code, out, err = run(capsys)
+    assert code == 2 and out == ""
+    assert "matrix" in err and "compressors" in err
+
+
+# --- warnings, summary, cache, quiet ----------------------------------------------------------
+
+
+def test_empty_input_file_warns_and_the_run_still_succeeds(
+    capsys: pytest.CaptureFixture[str], text_folder: Path
+) -> None:
+    (text_folder / "empty.txt").write_bytes(b"")
+    code, out, err = run(capsys, "matrix", str(text_folder), *FAST)
+    assert code == 0
+    assert re.search(r"^kinpress: warning: .*empty\.txt: empty file; left out$", err, re.M)
+    assert parse_tsv(out)[0] == ["a.txt", "b.txt", "c.txt", "d.txt"]
+
+
+def test_summary_counts_pairs_and_a_rerun_takes_all_from_the_cache(
+    capsys: pytest.CaptureFixture[str], text_folder: Path, tmp_path: Path
+) -> None:
+    cache = tmp_path / "cache" / "sizes.sqlite"
+    argv = ["matrix", str(text_folder), "-c", "zlib:level=6", "--cache", str(cache)]
+    code, first_out, err = run(capsys, *argv)
+    assert code == 0
+    assert SUMMARY.search(err).groups() == ("4", "6", "0")  # type: ignore[union-attr]
+    code, second_out, err = run(capsys, *argv)
+    assert code == 0
+    assert SUMMARY.search(err).groups() == ("4", "0", "6")  # type: ignore[union-attr]
+    assert second_out == first_out
+    (text_folder / "e.txt").write_bytes(generated_text(9))
+    _, _, err = run(capsys, *argv)
+    assert SUMMARY.search(err).groups() == ("5", "4", "6")  # type: ignore[union-attr]
+
+
+@pytest.mark.parametrize("where", ["after", "before"])
+def test_quiet_prints_nothing_on_stderr(
+    capsys: pytest.CaptureFixture[str], text_folder: Path, where: str
+) -> None:
+    argv = ["matrix", str(text_folder), *FAST, "--quiet"]
+    if where == "before":  # the global option, given before the command
+        argv = ["--quiet", *argv[:-1]]
+    code, out, err = run(capsys, *argv)
+    assert code == 0
+    assert err == ""
+    assert parse_tsv(out)[0] == ["a.txt", "b.txt", "c.txt", "d.txt"]
+
+
+# --- the installed console script ------------------------------------------------------------
+
+
+def _script() -> list[str]:
+    script = shutil.which("kinpress", path=str(Path(sys.executable).parent))
+    assert script is not None, "the kinpress console script is not installed beside python"
+    return [script]
+
+
+def test_console_script_exit_codes_and_messages(text_folder: Path, tmp_path: Path) -> None:
+    out = tmp_path / "dist.phy"
+    ok = subprocess.run(
+        [*_script(), "matrix", str(text_folder), *FAST, "-o", str(out)],
+        capture_output=True,
+        text=True,
+        timeout=60,
+    )
+    assert ok.returncode == 0, ok.stderr
+    assert "Traceback" not in ok.stderr
+    assert SUMMARY.search(ok.stderr).groups() == ("4", "6", "0")  # type: ignore[union-attr]
+    assert read_matrix(out).labels == ("a.txt", "b.txt", "c.txt", "d.txt")
+
+    (tmp_path / "bad.fa").write_bytes(b"ACGT before any header\n>x\nACGT\n")
+    bad = subprocess.run(
+        [*_script(), "matrix", str(tmp_path / "bad.fa"), str(text_folder), *FAST],
+        capture_output=True,
+        text=True,
+        timeout=60,
+    )
+    assert bad.returncode == 2
+    assert bad.stdout == ""
+    assert bad.stderr.startswith("kinpress: error: ") and bad.stderr.count("\n") == 1
+    assert "bad.fa:1:" in bad.stderr and "Traceback" not in bad.stderr
+
+
+def test_console_script_debug_shows_the_traceback(tmp_path: Path) -> None:
+    missing = str(tmp_path / "nowhere.txt")
+    result = subprocess.run(
+        [*_script(), "--debug", "matrix", missing, *FAST],
+        capture_output=True,
+        text=True,
+        timeout=60,
+    )
+    assert result.returncode != 0
+    assert "Traceback (most recent call last)" in result.stderr
+    assert "InputError: " in result.stderr and "nowhere.txt" in result.stderr

@@ -1,0 +1,77 @@
+"""The local engine: threads and worker processes give the same sizes, and failures surface."""
+
+from __future__ import annotations
+
+import os
+import signal
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from kinpress import LocalEngine
+from kinpress.engine import SizeJob, Tile, plan_tiles, run_tile
+from kinpress.engine.processes import WorkerError, WorkerProcesses
+
+
+def test_plan_tiles_covers_every_pair_once_and_balances_work() -> None:
+    items = [bytes(100 + k) for k in range(40)]
+    first, second = np.triu_indices(40, 1)
+    tiles = plan_tiles(items, first.tolist(), second.tolist(), workers=2)
+    assert len(tiles) >= 8
+    covered = [(f, s) for t in tiles for f, s in zip(t.first, t.second, strict=True)]
+    assert covered == list(zip(first.tolist(), second.tolist(), strict=True))
+
+
+def test_worker_processes_agree_with_running_tiles_here(text_corpus: bytes) -> None:
+    items = [text_corpus[k * 3000 : k * 3000 + 2000] for k in range(8)]
+    job = SizeJob("ppmd:order=6,memory=16")
+    tiles = [Tile((0, 1, 2), (3, 4, 5)), Tile((6,), (7,)), Tile((0, 1))]
+    with WorkerProcesses(2, items) as workers:
+        got = dict(workers.run(job, tiles))
+    for tile in tiles:
+        assert np.array_equal(got[tile], run_tile(items, job, tile))
+
+
+def test_a_failing_tile_raises_instead_of_hanging() -> None:
+    with WorkerProcesses(1, [b"abc"]) as workers, pytest.raises(WorkerError, match="IndexError"):
+        list(workers.run(SizeJob("ppmd:order=6,memory=16"), [Tile((5,))]))
+
+
+def test_a_worker_that_dies_raises_instead_of_hanging() -> None:
+    workers = WorkerProcesses(1, [b"abc" * 1000])
+    try:
+        os.kill(workers._procs[0].pid, signal.SIGKILL)
+        with pytest.raises(WorkerError, match="ended unexpectedly"):
+            list(workers.run(SizeJob("ppmd:order=6,memory=16"), [Tile((0,))] * 3))
+    finally:
+        workers.close()
+
+
+def test_processes_work_from_a_script_without_a_main_guard(tmp_path: Path) -> None:
+    # multiprocessing's spawn would re-run such a script in every worker and hang.
+    script = tmp_path / "plain.py"
+    script.write_text(
+        "import kinpress\n"
+        "items = [kinpress.Item(f'i{k}', bytes([k]) * 3000 + b'x' * k, 't') for k in range(6)]\n"
+        "dm = kinpress.distance_matrix(items, 'ppmd:order=6,memory=16', jobs=2)\n"
+        "print(len(dm))\n"
+    )
+    done = subprocess.run(
+        [sys.executable, str(script)], capture_output=True, text=True, timeout=120
+    )
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.strip() == "6"
+    assert "Warning" not in done.stderr
+
+
+def test_threads_and_serial_give_identical_sizes(text_corpus: bytes) -> None:
+    items = [text_corpus[k * 3000 : k * 3000 + 2500] for k in range(10)]
+    first, second = np.triu_indices(10, 1)
+    tiles = plan_tiles(items, first.tolist(), second.tolist(), workers=2)
+    job = SizeJob("zstd:level=3")
+    threaded = dict(LocalEngine(2).run(items, job, tiles))
+    serial = dict(LocalEngine(1).run(items, job, tiles))
+    assert all(np.array_equal(threaded[t], serial[t]) for t in tiles)
