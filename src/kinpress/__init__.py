@@ -8,8 +8,6 @@
 
 from __future__ import annotations
 
-from importlib.metadata import PackageNotFoundError, version
-
 from .cache import SizeCache, default_cache_path
 from .compressors import Compressor, SpecError, compressor
 from .distance import DistanceMatrix, MatrixStats, MeasurementWarning, distance_matrix
@@ -17,10 +15,18 @@ from .engine import LocalEngine
 from .formats import read_matrix, write_matrix
 from .items import InputError, InputWarning, Item, load_items
 
-try:
-    __version__ = version("kinpress")
-except PackageNotFoundError:  # running from a source tree that is not installed
-    __version__ = "0+unknown"
+
+def __getattr__(name: str) -> str:
+    # The installed version, looked up on first use: importlib.metadata is slow to import.
+    if name == "__version__":
+        from importlib.metadata import PackageNotFoundError, version
+
+        try:
+            return version("kinpress")
+        except PackageNotFoundError:  # a source tree that is not installed
+            return "0+unknown"
+    raise AttributeError(f"module 'kinpress' has no attribute {name!r}")
+
 
 __all__ = [
     "Compressor",

@@ -14,7 +14,6 @@ from contextlib import contextmanager
 from functools import partial
 from typing import Any, TextIO
 
-from . import __version__
 from .cache import SizeCache, default_cache_path
 from .compressors import ADAPTERS, SpecError, compressor, describe
 from .distance import CONDITIONALS, STRANDS, DistanceMatrix, Progress, distance_matrix
@@ -41,6 +40,18 @@ def _human(n: int | None) -> str:
         if n >= size:
             return f"{n / size:g} {unit}"
     return f"{n} B"
+
+
+class _ShowVersion(argparse.Action):
+    """--version, looking the version up only when asked (importlib.metadata is slow to load)."""
+
+    def __init__(self, option_strings: Sequence[str], dest: str, help: str | None = None) -> None:
+        super().__init__(option_strings, dest, nargs=0, help=help)
+
+    def __call__(self, parser: argparse.ArgumentParser, *args: object) -> None:
+        from . import __version__
+
+        parser.exit(message=f"kinpress {__version__}\n")
 
 
 def _examples(*lines: str) -> str:
@@ -101,7 +112,7 @@ def build_parser() -> argparse.ArgumentParser:
             "kinpress matrix logs/ --split lines:200 --format json -o dist.json",
         ),
     )
-    parser.add_argument("--version", action="version", version=f"kinpress {__version__}")
+    parser.add_argument("--version", action=_ShowVersion, help="print the version and exit")
     _common(parser)
     parser.set_defaults(quiet=False, debug=False)
     commands = parser.add_subparsers(dest="command", metavar="COMMAND")

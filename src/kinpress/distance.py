@@ -19,7 +19,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .cache import SizeCache
-from .compressors import Compressor, SpecError, compressor
+from .compressors import ADAPTERS, Compressor, SpecError, compressor
 from .engine import Engine, LocalEngine, SizeJob, Tile, plan_tiles, tile_bytes
 from .items import InputError, Item
 
@@ -163,7 +163,7 @@ def _check_job(comp: Compressor, conditional: str, strand: str, items: Sequence[
     if conditional not in CONDITIONALS:
         raise SpecError(f"unknown conditional {conditional!r}; use {' or '.join(CONDITIONALS)}")
     if conditional == "primed" and not comp.primable:
-        names = "zstd or zlib"
+        names = " or ".join(name for name, cls in ADAPTERS.items() if cls.primable)
         raise SpecError(f"{comp.name} cannot be primed; use --conditional concat or {names}")
     if strand not in STRANDS:
         raise SpecError(f"unknown strand {strand!r}; use {' or '.join(STRANDS)}")

@@ -10,6 +10,7 @@ C(x|y) without compressing y again.
 from __future__ import annotations
 
 from abc import ABC, abstractmethod
+from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import ClassVar
 
@@ -35,6 +36,10 @@ class Primed(ABC):
     @abstractmethod
     def size(self, data: bytes) -> int:
         """Compressed size of `data` with the reference already known to the compressor."""
+
+    def sizes(self, datas: Sequence[bytes]) -> list[int]:
+        """`size` of each input; adapters may batch the calls."""
+        return [self.size(data) for data in datas]
 
 
 class Compressor(ABC):
@@ -110,6 +115,10 @@ class Compressor(ABC):
     @abstractmethod
     def size(self, data: bytes) -> int:
         """C(x): the compressed size of `data` in bytes."""
+
+    def sizes(self, datas: Sequence[bytes]) -> list[int]:
+        """C(x) of each input; adapters may batch the calls."""
+        return [self.size(data) for data in datas]
 
     def primed(self, reference: bytes, data_size: int = 0) -> Primed:
         """A compressor that knows `reference` already; only where `primable` is true.

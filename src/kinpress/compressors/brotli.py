@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-from importlib.metadata import version
 from typing import ClassVar
 
 import brotli
@@ -26,7 +25,7 @@ class Brotli(Compressor):
 
     @staticmethod
     def library_version() -> str:
-        return "brotli-" + version("brotli")
+        return "brotli-" + str(brotli.__version__)
 
     def size(self, data: bytes) -> int:
         return len(

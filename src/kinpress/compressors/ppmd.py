@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-from importlib.metadata import version
-
 import pyppmd
 
 from .base import Compressor, Param
@@ -26,7 +24,7 @@ class Ppmd(Compressor):
 
     @staticmethod
     def library_version() -> str:
-        return "pyppmd-" + version("pyppmd")
+        return "pyppmd-" + str(pyppmd.__version__)
 
     def size(self, data: bytes) -> int:
         encoder = pyppmd.Ppmd7Encoder(self.setting("order"), self.setting("memory") << 20)

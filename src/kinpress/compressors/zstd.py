@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from typing import Any
 
 import zstandard
@@ -14,6 +15,15 @@ _STRIPPED: dict[str, Any] = {
     "write_dict_id": False,
     "format": zstandard.FORMAT_ZSTD1_MAGICLESS,
 }
+
+
+def _batch_sizes(context: zstandard.ZstdCompressor, datas: Sequence[bytes]) -> list[int]:
+    # One call for the batch: frames identical to compress(), with the GIL released throughout
+    # and far fewer allocations, which is what lets threads scale on small items.
+    if len(datas) < 2:
+        return [len(context.compress(data)) for data in datas]
+    frames = context.multi_compress_to_buffer(list(datas), threads=1)
+    return [len(frames[k]) for k in range(len(frames))]
 
 
 def _log2_ceil(n: int) -> int:
@@ -54,6 +64,9 @@ class Zstd(Compressor):
     def size(self, data: bytes) -> int:
         return len(self._context.compress(data))
 
+    def sizes(self, datas: Sequence[bytes]) -> list[int]:
+        return _batch_sizes(self._context, datas)
+
     def primed(self, reference: bytes, data_size: int = 0) -> Primed:
         return _ZstdPrimed(self, reference, data_size or len(reference))
 
@@ -85,3 +98,6 @@ class _ZstdPrimed(Primed):
 
     def size(self, data: bytes) -> int:
         return len(self._context.compress(data))
+
+    def sizes(self, datas: Sequence[bytes]) -> list[int]:
+        return _batch_sizes(self._context, datas)

@@ -15,7 +15,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..compressors import Compressor, Primed, compressor
+from ..compressors import Compressor, compressor
 from ..items import reverse_complement
 
 _local = threading.local()
@@ -68,29 +68,31 @@ def run_tile(items: Sequence[bytes], job: SizeJob, tile: Tile) -> np.ndarray:
     """The sizes a tile asks for, in tile order, as int64."""
     comp = compressor_for(job.spec)
     if tile.singles:
-        return np.array([comp.size(items[i]) for i in tile.first], dtype=np.int64)
-    out = np.empty(len(tile.first), dtype=np.int64)
+        return np.array(comp.sizes([items[i] for i in tile.first]), dtype=np.int64)
     both = job.strand == "both"
-    if job.method == "primed":
-        largest: dict[int, int] = {}
-        for f, s in zip(tile.first, tile.second, strict=True):
-            largest[f] = max(largest.get(f, 0), len(items[s]))
-        primers: dict[int, list[Primed]] = {}
-        for k, (f, s) in enumerate(zip(tile.first, tile.second, strict=True)):
-            if f not in primers:
-                refs = [items[f], reverse_complement(items[f])] if both else [items[f]]
-                primers = {f: [comp.primed(r, largest[f]) for r in refs]}
-            out[k] = min(p.size(items[s]) for p in primers[f])
-        return out
-    reversed_first: dict[int, bytes] = {}
-    for k, (f, s) in enumerate(zip(tile.first, tile.second, strict=True)):
-        size = comp.size(items[f] + items[s])
-        if both:
-            if f not in reversed_first:
-                reversed_first = {f: reverse_complement(items[f])}
-            size = min(size, comp.size(reversed_first[f] + items[s]))
-        out[k] = size
+    out = np.empty(len(tile.first), dtype=np.int64)
+    # Runs of pairs that share their first item: one primer, or one reverse complement, per run.
+    for f, start, stop in _runs(tile.first):
+        seconds = [items[s] for s in tile.second[start:stop]]
+        references = [items[f], reverse_complement(items[f])] if both else [items[f]]
+        if job.method == "primed":
+            largest = max(len(x) for x in seconds)
+            found = [comp.primed(ref, largest).sizes(seconds) for ref in references]
+        else:
+            found = [comp.sizes([ref + x for x in seconds]) for ref in references]
+        out[start:stop] = np.min(np.array(found, dtype=np.int64), axis=0)
     return out
+
+
+def _runs(values: Sequence[int]) -> list[tuple[int, int, int]]:
+    """(value, start, stop) for each run of equal consecutive values."""
+    runs = []
+    start = 0
+    for k in range(1, len(values) + 1):
+        if k == len(values) or values[k] != values[start]:
+            runs.append((values[start], start, k))
+            start = k
+    return runs
 
 
 def plan_tiles(
