@@ -210,3 +210,24 @@ def test_related_mitogenomes_are_nearer_than_distant_ones(shared_data: Path) -> 
                 assert d[i, j] < np.median(d[i, rest])
                 checked += 1
     assert checked >= 5  # Hominidae (3 pairs), Bovidae, Leporidae
+
+
+def test_conditional_sizes_give_both_directions_and_agree_with_the_matrix(
+    tmp_path: Path, text_corpus: bytes
+) -> None:
+    from kinpress import SizeCache, conditional_sizes
+
+    big, excerpt = text_corpus[:12_000], text_corpus[3_000:6_000]
+    other = text_corpus[50_000:56_000]
+    items = items_of(big, excerpt, other)
+    with SizeCache(tmp_path / "c.sqlite") as cache:
+        cond = conditional_sizes(items, [(0, 1), (1, 0), (2, 1)], "zstd:level=19", cache=cache)
+        dm = distance_matrix(items, "zstd:level=19", cache=cache, jobs=1)
+    sizes = cond.sizes
+    excerpt_given_big, big_given_excerpt, excerpt_given_other = cond.conditional
+    assert excerpt_given_big < 0.1 * sizes[1]  # the excerpt is all in the big text
+    assert big_given_excerpt > 0.6 * sizes[0]  # most of the big text is not in the excerpt
+    assert excerpt_given_other > 0.8 * sizes[1]
+    # the matrix conditions the larger item (big) on the smaller (excerpt)
+    assert dm.distances[0, 1] == pytest.approx(big_given_excerpt / sizes[0])
+    assert dm.stats.pairs_from_cache == 1  # that pair came from conditional_sizes' run

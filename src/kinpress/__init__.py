@@ -10,7 +10,14 @@ from __future__ import annotations
 
 from .cache import SizeCache, default_cache_path
 from .compressors import Compressor, SpecError, compressor
-from .distance import DistanceMatrix, MatrixStats, MeasurementWarning, distance_matrix
+from .distance import (
+    ConditionalSizes,
+    DistanceMatrix,
+    MatrixStats,
+    MeasurementWarning,
+    conditional_sizes,
+    distance_matrix,
+)
 from .engine import LocalEngine
 from .formats import read_matrix, write_matrix
 from .items import InputError, InputWarning, Item, load_items
@@ -30,6 +37,7 @@ def __getattr__(name: str) -> str:
 
 __all__ = [
     "Compressor",
+    "ConditionalSizes",
     "DistanceMatrix",
     "InputError",
     "InputWarning",
@@ -41,6 +49,7 @@ __all__ = [
     "SpecError",
     "__version__",
     "compressor",
+    "conditional_sizes",
     "default_cache_path",
     "distance_matrix",
     "load_items",

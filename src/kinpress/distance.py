@@ -198,6 +198,82 @@ def _warn_beyond_window(comp: Compressor, lengths: np.ndarray) -> None:
         )
 
 
+def _distinct(items: Sequence[Item]) -> tuple[list[bytes], list[bytes], np.ndarray]:
+    """Distinct contents, their digests, and for each item the index of its content."""
+    unique: dict[bytes, int] = {}
+    data: list[bytes] = []
+    index = np.empty(len(items), dtype=np.int64)
+    for k, item in enumerate(items):
+        digest = content_digest(item.data)
+        if digest not in unique:
+            unique[digest] = len(data)
+            data.append(item.data)
+        index[k] = unique[digest]
+    return data, list(unique), index
+
+
+@dataclass(frozen=True)
+class ConditionalSizes:
+    """C(x) of every item and C(x|y) of requested ordered pairs (y given, x compressed)."""
+
+    sizes: np.ndarray
+    given: np.ndarray
+    target: np.ndarray
+    conditional: np.ndarray
+    stats: MatrixStats
+
+
+def conditional_sizes(
+    items: Sequence[Item],
+    pairs: Sequence[tuple[int, int]],
+    comp: Compressor | str = "zstd",
+    *,
+    conditional: str = "concat",
+    strand: str = "one",
+    engine: Engine | None = None,
+    jobs: int | None = None,
+    cache: SizeCache | None = None,
+    progress: Progress | None = None,
+) -> ConditionalSizes:
+    """C(x|y) for each (y, x) index pair into `items`, both directions as asked, and every C(x).
+
+    By concatenation C(x|y) = C(yx) - C(y); primed, x compressed by a compressor primed with y.
+    Sizes come from the cache where possible and are computed in tiles by the engine otherwise.
+    """
+    started = time.perf_counter()
+    comp = compressor(comp)
+    _check_job(comp, conditional, strand, items)
+    engine = engine or LocalEngine(jobs)
+    data, digests, index = _distinct(items)
+    sizes = _Sizes(data, digests, comp, SizeJob(comp.spec, conditional, strand), engine, cache,
+                   progress)  # fmt: skip
+    single, singles_cached = sizes.fetch("single items", np.arange(len(data)), None)
+    requested = np.asarray(pairs, dtype=np.int64).reshape(-1, 2)
+    given, target = index[requested[:, 0]], index[requested[:, 1]]
+    order = np.lexsort((target, given))
+    found, cached = sizes.fetch("pairs", given[order], target[order])
+    paired = np.empty_like(found)
+    paired[order] = found
+    if conditional == "concat":
+        paired = paired - single[given]
+    stats = MatrixStats(
+        pairs_computed=len(requested) - cached,
+        pairs_from_cache=cached,
+        singles_computed=len(data) - singles_cached,
+        singles_from_cache=singles_cached,
+        bytes_compressed=sizes.bytes_compressed,
+        seconds=time.perf_counter() - started,
+        identical_items=len(items) - len(data),
+    )
+    return ConditionalSizes(
+        sizes=single[index],
+        given=requested[:, 0],
+        target=requested[:, 1],
+        conditional=paired,
+        stats=stats,
+    )
+
+
 def distance_matrix(
     items: Sequence[Item],
     comp: Compressor | str = "zstd",
@@ -221,15 +297,7 @@ def distance_matrix(
     comp = compressor(comp)
     _check_job(comp, conditional, strand, items)
     engine = engine or LocalEngine(jobs)
-    digests_all = [content_digest(item.data) for item in items]
-    unique: dict[bytes, int] = {}
-    data: list[bytes] = []
-    for item, digest in zip(items, digests_all, strict=True):
-        if digest not in unique:
-            unique[digest] = len(data)
-            data.append(item.data)
-    index = np.array([unique[d] for d in digests_all], dtype=np.int64)
-    digests = list(unique)
+    data, digests, index = _distinct(items)
     lengths = np.array([len(d) for d in data], dtype=np.int64)
     _warn_beyond_window(comp, lengths)
 
