@@ -204,3 +204,25 @@ def test_real_mitogenome_tree_keeps_mammalian_orders_together(shared_data: Path)
     eutheria = {n for n, c in klass.items() if c == "Mammalia"} - {"didelphis_virginiana"}
     assert clade(eutheria)
     assert clade({n for n, c in klass.items() if c == "Mammalia"})
+
+
+@pytest.mark.shared
+@pytest.mark.xfail(
+    strict=True,
+    reason="measured: no compressor tried (zstd 19/22, lzma 9, brotli 11, ppmd 16/48, bz2, zlib; "
+    "concat and primed; NJ and UPGMA) recovers Chiroptera and Rodentia together from these 19 "
+    "whole mitogenomes; Rodentia is a known hard case (dataset notes; Graur, Hide & Li 1991, "
+    "recalled from memory)",
+)
+@pytest.mark.parametrize("order", ["Chiroptera", "Rodentia"])
+def test_real_mitogenome_tree_keeps_bats_and_rodents_together(
+    shared_data: Path, order: str
+) -> None:
+    # Taxonomy as above (NCBI Taxonomy via labels.tsv). Strict: passing would mean a change
+    # fixed a known failure, and this marker must then go.
+    root = shared_data / "genomes" / "mitogenomes"
+    orders, _ = _orders(root)
+    dm = distance_matrix(load_items(sorted(root.glob("*.fa"))), "zstd:level=19", strand="both")
+    tree = build_tree(dm.labels, dm.distances, method="nj", outgroup="danio_rerio")
+    members = frozenset(n for n, o in orders.items() if o == order)
+    assert members in splits(tree) or frozenset(dm.labels) - members in splits(tree)
