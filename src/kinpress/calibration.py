@@ -805,9 +805,11 @@ def estimate_job_seconds(
     return (n + 2) * total / (result.throughput_mb_s * 1e6) / (jobs or _cores())
 
 
+def _estimate(seconds: float) -> str:
+    return "under 1 s" if seconds < 1 else f"about {_duration(seconds)}"
+
+
 def _duration(seconds: float) -> str:
-    if seconds < 1:
-        return "under 1 s"
     if seconds < 90:
         return f"{seconds:.0f} s"
     if seconds < 5400:
@@ -838,7 +840,7 @@ def choose_compressor(
         if seconds <= budget_seconds:
             return None
         return (
-            f"the whole job would take about {_duration(seconds)} on {cores} cores, over the "
+            f"the whole job would take {_estimate(seconds)} on {cores} cores, over the "
             f"{_duration(budget_seconds)} budget"
         )
 
@@ -847,8 +849,8 @@ def choose_compressor(
         raise ValueError("no candidate compressors to choose from")
     chosen = report.result(recommended)
     estimate = (
-        f"estimated job time with {recommended}: about "
-        f"{_duration(estimate_job_seconds(chosen, lengths, cores))} on {cores} cores "
+        f"estimated job time with {recommended}: "
+        f"{_estimate(estimate_job_seconds(chosen, lengths, cores))} on {cores} cores "
         f"(budget {_duration(budget_seconds)})"
     )
     report = replace(report, recommended=recommended, reasons=(*reasons, estimate))

@@ -74,7 +74,15 @@ def _matrix_options(parser: argparse.ArgumentParser) -> None:
         "--compressor",
         default=DEFAULT_COMPRESSOR,
         metavar="SPEC",
-        help=f"NAME[:key=value,...] (default {DEFAULT_COMPRESSOR}); see 'kinpress compressors'",
+        help=f"NAME[:key=value,...] or auto (calibrate on the inputs and choose); default "
+        f"{DEFAULT_COMPRESSOR}; see 'kinpress compressors'",
+    )
+    group.add_argument(
+        "--budget",
+        type=float,
+        default=600.0,
+        metavar="SECONDS",
+        help="with -c auto: the run time the choice may aim for (default 600)",
     )
     group.add_argument(
         "--conditional",
@@ -220,6 +228,36 @@ def build_parser() -> argparse.ArgumentParser:
     gout.add_argument("-o", "--output", metavar="FILE", help="write the TSV here")
     gout.add_argument("--json", action="store_true", help="a JSON report on stdout")
     _common(groups)
+
+    calibration = commands.add_parser(
+        "calibrate",
+        help="measure each compressor's bias on controls and recommend one for your data",
+        description="Measure each compressor on controls (x against itself, against unrelated "
+        "data, against its own shuffled symbols, against mutated copies, and identity across "
+        "sizes) made from your inputs when given, and recommend the one to trust.",
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+        epilog=_examples(
+            "kinpress calibrate",
+            "kinpress calibrate genomes/ --json -o calib.json",
+            "kinpress calibrate logs/ -c zlib:level=9 -c zstd:level=19 --plot calib.png",
+        ),
+    )
+    calibration.add_argument("inputs", nargs="*", metavar="INPUT", help="files, folders, or -")
+    calibration.add_argument(
+        "-c", "--compressor", action="append", metavar="SPEC", help="compressor to calibrate "
+        "(repeat; default: a handful of strong and fast ones)"
+    )  # fmt: skip
+    calibration.add_argument("--split", default="auto", help="how inputs become items, as matrix")
+    calibration.add_argument("--seed", type=int, default=2005, help="controls' seed (default 2005)")
+    calibration.add_argument(
+        "--max-bytes", type=int, default=64 << 20, metavar="N",
+        help="cap of the size sweep in bytes (default 64 MiB)",
+    )  # fmt: skip
+    cout = calibration.add_argument_group("output")
+    cout.add_argument("-o", "--output", metavar="FILE", help="write the report here")
+    cout.add_argument("--json", action="store_true", help="the report as JSON")
+    cout.add_argument("--plot", metavar="FILE", help="draw identity vs size and vs mutation")
+    _common(calibration)
     return parser
 
 
@@ -297,7 +335,7 @@ def compute_matrix(args: argparse.Namespace, console: Console) -> tuple[Distance
     if args.jobs is not None and args.jobs < 1:
         raise UsageError(f"--jobs {args.jobs}: the worker count must be at least 1")
     items = _load(args)
-    comp = compressor(args.compressor)
+    comp = compressor(resolve_compressor(args, items, console))
     cache = _cache(args)
     try:
         with console.progress() as progress:
@@ -315,6 +353,19 @@ def compute_matrix(args: argparse.Namespace, console: Console) -> tuple[Distance
             cache.close()
     console.say(summary(dm))
     return dm, items
+
+
+def resolve_compressor(args: argparse.Namespace, items: Sequence[Item], console: Console) -> str:
+    """The spec to use: as given, or with -c auto the one calibration recommends for the items."""
+    if args.compressor != "auto":
+        return str(args.compressor)
+    from .calibration import choose_compressor
+
+    console.say("auto: calibrating the compressors on these inputs ...")
+    spec, report = choose_compressor(items, budget_seconds=args.budget, jobs=args.jobs)
+    console.say(f"auto: chose {spec}: {report.reasons[-1] if report.reasons else ''}")
+    args.compressor = spec
+    return spec
 
 
 def matrix_for(args: argparse.Namespace, console: Console) -> tuple[DistanceMatrix, list[Item]]:
@@ -431,7 +482,7 @@ def run_tree(args: argparse.Namespace, console: Console) -> int:
                 tree = bootstrap_support(
                     tree,
                     items,
-                    compressor(args.compressor),
+                    compressor(dm.compressor),
                     replicates=args.bootstrap,
                     block_fraction=args.block_fraction,
                     seed=args.seed,
@@ -587,6 +638,58 @@ def _confusion_text(scores: Any) -> str:
     )
 
 
+def run_calibrate(args: argparse.Namespace, console: Console) -> int:
+    from .calibration import DEFAULT_CANDIDATES, calibrate
+
+    _check_plot(args.plot)
+    _check_outputs(args)
+    items = load_items(args.inputs, args.split, exclude=_written(args)) if args.inputs else None
+    candidates = args.compressor or list(DEFAULT_CANDIDATES)
+    for spec in candidates:
+        compressor(spec)  # a bad spec fails before any work
+    report = calibrate(items, candidates, seed=args.seed, max_bytes=args.max_bytes)
+    if args.json:
+        emit(json.dumps(report.as_json(), indent=1) + "\n", args.output)
+    else:
+        emit(_calibration_text(report), args.output)
+    if args.plot:
+        from .plots import plot_calibration
+
+        plot_calibration(report, args.plot)
+    return 0
+
+
+def _calibration_text(report: Any) -> str:
+    header = ("compressor", "identity", "independent", "shuffle", "monotone", "resolves",
+              "reliable to", "MB/s")  # fmt: skip
+    rows = [header]
+    for r in report.compressors:
+        rows.append(
+            (
+                r.spec,
+                f"{r.identity_bias:.3f}",
+                f"{r.independence:.3f}",
+                f"{r.shuffle_similarity:.3f}",
+                f"{r.mutation_monotonicity:.2f}",
+                "-" if r.mutation_resolution is None else f"{r.mutation_resolution:.0%}",
+                ("≥" if r.reliable_capped else "") + _human(r.reliable_up_to_bytes),
+                f"{r.throughput_mb_s:.3g}",
+            )
+        )
+    widths = [max(len(row[k]) for row in rows) for k in range(len(header))]
+    lines = [
+        "  ".join(c.ljust(w) for c, w in zip(row, widths, strict=True)).rstrip() for row in rows
+    ]
+    lines += ["", f"recommended: {report.recommended}", *(f"  {r}" for r in report.reasons)]
+    lines += [
+        "",
+        "identity: mean NCD(x,x), ideal 0; independent: NCD of unrelated data, ideal 1; shuffle:"
+        " 1 - NCD(x, shuffled x), ideal 0; monotone: rank correlation of distance with mutation"
+        f" rate, ideal 1; resolves: smallest mutation rate told from identity (seed {report.seed})",
+    ]
+    return "\n".join(lines) + "\n"
+
+
 def _classes(dm: DistanceMatrix) -> dict[str, str] | None:
     if dm.classes is None:
         return None
@@ -598,6 +701,7 @@ COMMANDS: dict[str, Callable[[argparse.Namespace, Console], int]] = {
     "matrix": run_matrix,
     "tree": run_tree,
     "groups": run_groups,
+    "calibrate": run_calibrate,
 }
 
 

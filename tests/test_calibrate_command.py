@@ -1,0 +1,52 @@
+"""The calibrate command and -c auto, end to end on the demo frogs."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+
+from conftest import DATASETS
+from kinpress import cli
+
+GENOMES = DATASETS / "karsvell-frogs" / "genomes"
+QUICK = ["-c", "zlib:level=9", "-c", "zstd:level=3", "-c", "bz2:level=9", "--quiet"]
+
+
+def test_calibrate_report_passes_over_compressors_too_small_for_the_pairs(
+    capsys: pytest.CaptureFixture[str], tmp_path: Path
+) -> None:
+    plot = tmp_path / "calib.png"
+    assert cli.main(["calibrate", str(GENOMES), *QUICK, "--json", "--plot", str(plot)]) == 0
+    report = json.loads(capsys.readouterr().out)
+    assert list(report) == ["seed", "inputs", "compressors", "recommended", "reasons"]
+    assert [c["spec"] for c in report["compressors"]] == [
+        "zlib:level=9,window=15", "zstd:level=3", "bz2:level=9",
+    ]  # fmt: skip
+    # 16 kB genomes, 33 kB pairs: past deflate's 32 KiB window (RFC 1951) for the pair
+    assert report["recommended"] == "zstd:level=3"
+    assert any(r.startswith("zlib") and "passed over" in r for r in report["reasons"])
+    assert plot.read_bytes()[:4] == b"\x89PNG"
+
+
+def test_calibrate_text_names_the_recommendation(capsys: pytest.CaptureFixture[str]) -> None:
+    assert cli.main(["calibrate", str(GENOMES), *QUICK]) == 0
+    out = capsys.readouterr().out
+    assert "recommended: zstd:level=3" in out
+    assert out.splitlines()[0].split()[:2] == ["compressor", "identity"]
+
+
+def test_auto_compressor_is_chosen_and_used(capsys: pytest.CaptureFixture[str]) -> None:
+    code = cli.main(["matrix", str(GENOMES), "-c", "auto", "--budget", "60", "--no-cache",
+                     "--format", "json"])  # fmt: skip
+    captured = capsys.readouterr()
+    assert code == 0
+    chosen = json.loads(captured.out)["compressor"]
+    assert f"auto: chose {chosen}" in captured.err
+    assert not chosen.startswith(("zlib", "bz2"))  # their windows are too small for the pairs
+
+
+def test_calibrate_rejects_a_bad_spec_before_any_work(capsys: pytest.CaptureFixture[str]) -> None:
+    assert cli.main(["calibrate", "-c", "zstd:level=40"]) == 2
+    assert "out of range" in capsys.readouterr().err
