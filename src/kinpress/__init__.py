@@ -22,8 +22,19 @@ from .engine import LocalEngine
 from .formats import read_matrix, write_matrix
 from .items import InputError, InputWarning, Item, load_items
 
+_LAZY = {
+    # scikit-learn is slow to import; the classifier loads it only when asked for.
+    "CompressionClassifier": "origins",
+    "classify": "origins",
+    "pairwise_distances": "origins",
+}
 
-def __getattr__(name: str) -> str:
+
+def __getattr__(name: str) -> object:
+    if name in _LAZY:
+        from importlib import import_module
+
+        return getattr(import_module(f".{_LAZY[name]}", __name__), name)
     # The installed version, looked up on first use: importlib.metadata is slow to import.
     if name == "__version__":
         from importlib.metadata import PackageNotFoundError, version
@@ -36,6 +47,7 @@ def __getattr__(name: str) -> str:
 
 
 __all__ = [
+    "CompressionClassifier",
     "Compressor",
     "ConditionalSizes",
     "DistanceMatrix",
@@ -48,11 +60,13 @@ __all__ = [
     "SizeCache",
     "SpecError",
     "__version__",
+    "classify",
     "compressor",
     "conditional_sizes",
     "default_cache_path",
     "distance_matrix",
     "load_items",
+    "pairwise_distances",
     "read_matrix",
     "write_matrix",
 ]

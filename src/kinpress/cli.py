@@ -66,8 +66,8 @@ def _common(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--debug", action="store_true", default=argparse.SUPPRESS, help=debug)
 
 
-def _matrix_options(parser: argparse.ArgumentParser) -> None:
-    """Options of every command that computes a distance matrix from inputs."""
+def _matrix_options(parser: argparse.ArgumentParser, conditional: str = "concat") -> None:
+    """Options of every command that computes distances from inputs."""
     group = parser.add_argument_group("measuring")
     group.add_argument(
         "-c",
@@ -86,9 +86,11 @@ def _matrix_options(parser: argparse.ArgumentParser) -> None:
     )
     group.add_argument(
         "--conditional",
-        choices=CONDITIONALS,
-        default="concat",
-        help="C(x|y) as C(yx)-C(y) (concat, default) or x compressed primed with y (primed)",
+        choices=(*CONDITIONALS, "auto") if conditional == "auto" else CONDITIONALS,
+        default=conditional,
+        help="C(x|y) as C(yx)-C(y) (concat) or x compressed primed with y (primed)"
+        + ("; auto: primed where the compressor can be" if conditional == "auto" else "")
+        + f"; default {conditional}",
     )
     group.add_argument(
         "--split",
@@ -258,6 +260,42 @@ def build_parser() -> argparse.ArgumentParser:
     cout.add_argument("--json", action="store_true", help="the report as JSON")
     cout.add_argument("--plot", metavar="FILE", help="draw identity vs size and vs mutation")
     _common(calibration)
+
+    origin = commands.add_parser(
+        "classify",
+        help="name the origin of unknown streams from a reference of known ones",
+        description="Classify unknown items by origin against a reference folder with one "
+        "subfolder per origin (or a folder and --labels): by how much better each compresses "
+        "given an origin's whole reference (conditional, default) or by nearest neighbours "
+        "under NCD (knn). Items that fit no origin come back unknown; the threshold comes "
+        "from the reference itself. An origin is evidence to review, not proof.",
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+        epilog=_examples(
+            "kinpress classify --reference known/ unknown1.bin unknown2.log --json",
+            "kinpress classify --reference known/ --evaluate",
+            "kinpress classify --reference chunks/ --labels origins.tsv new.log --split lines:100",
+        ),
+    )
+    origin.add_argument("inputs", nargs="*", metavar="INPUT", help="unknown files, folders or -")
+    origin.add_argument(
+        "--reference",
+        required=True,
+        metavar="FOLDER",
+        help="known/<origin>/<files>, or a folder labelled by --labels",
+    )
+    _matrix_options(origin, conditional="auto")
+    decide = origin.add_argument_group("deciding")
+    decide.add_argument("--method", choices=("conditional", "knn"), default="conditional",
+                        help="conditional (default) or knn")  # fmt: skip
+    decide.add_argument("--k", type=int, default=1, metavar="N", help="neighbours for knn")
+    decide.add_argument("--threshold", type=float, metavar="SCORE",
+                        help="unknown above this score (default: from the reference)")  # fmt: skip
+    decide.add_argument("--evaluate", action="store_true",
+                        help="leave-one-out on the reference instead")  # fmt: skip
+    oout = origin.add_argument_group("output")
+    oout.add_argument("-o", "--output", metavar="FILE", help="write the result here")
+    oout.add_argument("--json", action="store_true", help="a JSON list of predictions")
+    _common(origin)
     return parser
 
 
@@ -690,6 +728,103 @@ def _calibration_text(report: Any) -> str:
     return "\n".join(lines) + "\n"
 
 
+def run_classify(args: argparse.Namespace, console: Console) -> int:
+    from .origins import classify, evaluate, reference_items
+
+    _check_outputs(args)
+    if args.labels:
+        reference = load_items([args.reference], args.split, args.labels)
+        missing = [i.name for i in reference if i.label is None]
+        if missing:
+            raise UsageError(f"{args.labels}: no label for reference item {missing[0]}")
+    else:
+        reference = reference_items(args.reference, args.split)
+    if not args.evaluate and not args.inputs:
+        raise UsageError("give unknown inputs to classify, or --evaluate")
+    spec = resolve_compressor(args, reference, console)
+    options: dict[str, Any] = {
+        "method": args.method,
+        "k": args.k,
+        "threshold": args.threshold,
+        "conditional": args.conditional,
+        "engine": LocalEngine(args.jobs),
+    }
+    cache = _cache(args)
+    try:
+        with console.progress() as progress:
+            if args.evaluate:
+                result = evaluate(reference, spec, cache=cache, progress=progress, **options)
+            else:
+                unknowns = load_items(args.inputs, args.split, exclude=_written(args))
+                found = classify(unknowns, reference, spec, cache=cache, progress=progress,
+                                 **options)  # fmt: skip
+    except ValueError as error:
+        if isinstance(error, (InputError, SpecError)):
+            raise
+        raise UsageError(str(error)) from None
+    finally:
+        if cache is not None:
+            cache.close()
+    if args.evaluate:
+        emit(_evaluation_text(result) if not args.json else json.dumps(
+            _evaluation_json(result), indent=1) + "\n", args.output)  # fmt: skip
+        return 0
+    t = found.threshold
+    console.say(
+        f"classify: {found.method} with {found.compressor}; unknown above"
+        f" {t.value:.3f} ({'from the reference' if t.derived else 'given'})"
+    )
+    if args.json:
+        emit(json.dumps(found.as_json(), indent=1) + "\n", args.output)
+    else:
+        rows = [("item", "origin", "confidence", "nearest", "distance")]
+        rows += [
+            (p.item, p.predicted or "unknown", f"{p.confidence:.3f}", p.nearest or "-",
+             f"{p.distance:.3f}")
+            for p in found.predictions
+        ]  # fmt: skip
+        emit(_table(rows), args.output)
+    return 0
+
+
+def _table(rows: Sequence[Sequence[str]]) -> str:
+    widths = [max(len(row[k]) for row in rows) for k in range(len(rows[0]))]
+    return (
+        "\n".join(
+            "  ".join(cell.ljust(w) for cell, w in zip(row, widths, strict=True)).rstrip()
+            for row in rows
+        )
+        + "\n"
+    )
+
+
+def _evaluation_json(result: Any) -> dict[str, Any]:
+    return {
+        "accuracy": round(result.accuracy, 6),
+        "abstention_rate": round(result.abstention_rate, 6),
+        "threshold": result.threshold.value,
+        "origins": list(result.origins),
+        "confusion": {
+            "rows": list(result.origins),
+            "columns": [*result.origins, "unknown"],
+            "counts": [[int(c) for c in row] for row in result.confusion],
+        },
+    }
+
+
+def _evaluation_text(result: Any) -> str:
+    head = [
+        f"leave-one-out on the reference: accuracy {result.accuracy:.3f},"
+        f" abstention rate {result.abstention_rate:.3f} (threshold {result.threshold.value:.3f},"
+        " derived from the same scores: an in-sample figure)",
+        "",
+    ]
+    rows = [("true \\ predicted", *result.origins, "unknown")]
+    rows += [(o, *(str(int(c)) for c in row)) for o, row in zip(
+        result.origins, result.confusion, strict=True)]  # fmt: skip
+    return "\n".join(head) + "\n" + _table(rows)
+
+
 def _classes(dm: DistanceMatrix) -> dict[str, str] | None:
     if dm.classes is None:
         return None
@@ -702,6 +837,7 @@ COMMANDS: dict[str, Callable[[argparse.Namespace, Console], int]] = {
     "tree": run_tree,
     "groups": run_groups,
     "calibrate": run_calibrate,
+    "classify": run_classify,
 }
 
 
