@@ -296,6 +296,36 @@ def build_parser() -> argparse.ArgumentParser:
     oout.add_argument("-o", "--output", metavar="FILE", help="write the result here")
     oout.add_argument("--json", action="store_true", help="a JSON list of predictions")
     _common(origin)
+
+    derived = commands.add_parser(
+        "derived",
+        help="find files copied from or derived from other files",
+        description="For every candidate pair, how much of a is explained by b and of b by a "
+        "(1 - C(a|b)/C(a)), judged against a null of the set's own items with their content "
+        "block-shuffled: identical, near_copy, a_contains_b, b_contains_a or partial_overlap. "
+        "A MinHash prefilter proposes candidates unless --exhaustive. " + DERIVED_CAUTION,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+        epilog=_examples(
+            "kinpress derived exports/ --json -o findings.json",
+            "kinpress derived big-share/ --exhaustive",
+        ),
+    )
+    derived.add_argument("inputs", nargs="+", metavar="INPUT", help="files, folders, or - (stdin)")
+    _matrix_options(derived)
+    judge = derived.add_argument_group("judging")
+    judge.add_argument("--exhaustive", action="store_true", help="check all pairs, no prefilter")
+    judge.add_argument(
+        "--max-fpr",
+        type=float,
+        default=0.01,
+        metavar="RATE",
+        help="report pairs whose estimated false-positive rate is at most RATE (default 0.01)",
+    )
+    judge.add_argument("--seed", type=int, default=0, help="seed of the null and the sketches")
+    dout = derived.add_argument_group("output")
+    dout.add_argument("-o", "--output", metavar="FILE", help="write the findings here")
+    dout.add_argument("--json", action="store_true", help="a JSON list of findings")
+    _common(derived)
     return parser
 
 
@@ -825,6 +855,62 @@ def _evaluation_text(result: Any) -> str:
     return "\n".join(head) + "\n" + _table(rows)
 
 
+def run_derived(args: argparse.Namespace, console: Console) -> int:
+    from .derived import families, find_derived
+
+    items = _load(args)
+    spec = resolve_compressor(args, items, console)
+    cache = _cache(args)
+    try:
+        with console.progress() as progress:
+            report = find_derived(
+                items,
+                spec,
+                exhaustive=args.exhaustive,
+                max_fpr=args.max_fpr,
+                seed=args.seed,
+                engine=LocalEngine(args.jobs),
+                cache=cache,
+                progress=progress,
+            )
+    except ValueError as error:
+        if isinstance(error, (InputError, SpecError)):
+            raise
+        raise UsageError(str(error)) from None
+    finally:
+        if cache is not None:
+            cache.close()
+    c = report.counts
+    console.say(
+        f"derived: {len(report.findings)} findings among {c.possible} pairs; {c.candidates}"
+        f" candidates checked, {c.pruned} pruned by the prefilter"
+        + (" (exhaustive)" if report.exhaustive else "")
+        + f"; reported where the false-positive rate is at most {report.max_fpr:g}"
+    )
+    if args.json:
+        emit(json.dumps(report.as_json(), indent=1) + "\n", args.output)
+        return 0
+    lines = []
+    for number, family in enumerate(families(report.findings), start=1):
+        lines.append(f"family {number}: {', '.join(family.members)}")
+        for f in family.findings:
+            lines.append(
+                f"  {f.a}  {f.relation}  {f.b}   explained: a by b {f.a_explained_by_b:.2f},"
+                f" b by a {f.b_explained_by_a:.2f}; score {f.score:.3f}, fpr {f.fpr:.2g}"
+            )
+    if not lines:
+        lines.append("no related pairs found")
+    lines += ["", DERIVED_CAUTION]
+    emit("\n".join(lines) + "\n", args.output)
+    return 0
+
+
+DERIVED_CAUTION = (
+    "A finding is evidence for a person to review, not proof of copying: files can share content"
+    " through common templates, licences, generated code or a common source."
+)
+
+
 def _classes(dm: DistanceMatrix) -> dict[str, str] | None:
     if dm.classes is None:
         return None
@@ -838,6 +924,7 @@ COMMANDS: dict[str, Callable[[argparse.Namespace, Console], int]] = {
     "groups": run_groups,
     "calibrate": run_calibrate,
     "classify": run_classify,
+    "derived": run_derived,
 }
 
 

@@ -1,0 +1,541 @@
+"""Copied or derived files: which pairs of items came from one another, and how.
+
+For a pair (a, b) the fraction of a explained by b is
+
+    e(a|b) = 1 - C(a|b) / C(a)        (C(a|b) = C(ba) - C(b) by concatenation)
+
+near 1 when b holds all of a, near 0 when b tells the compressor nothing about a. Both directions
+are measured. A pair is reported when its score
+
+    score(a, b) = max(e(a|b), e(b|a))
+
+is unusually high for the set: the estimated false-positive rate
+
+    fpr(s) = (1 + #{null pairs with score >= s}) / (1 + N)
+
+is at most `max_fpr`, where the N null pairs are the set's own items set against block-shuffled
+material of other items at matching sizes (see `find_derived`). Reported pairs get a relation
+(see `relation`).
+
+A finding is evidence of shared content, for a person to review; it is not proof that one file
+was copied from the other. Files of a common template, generated from one source, or quoting the
+same third file are related without either being derived from the other.
+"""
+
+from __future__ import annotations
+
+import math
+import random
+from collections.abc import Callable, Iterator, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+from datasketch import MinHash, MinHashLSHEnsemble
+
+from .cache import SizeCache
+from .compressors import Compressor
+from .compressors import compressor as make_compressor
+from .distance import MatrixStats, Progress, conditional_sizes, content_digest
+from .engine import Engine
+from .items import InputError, Item
+
+RELATIONS = ("identical", "near_copy", "a_contains_b", "b_contains_a", "partial_overlap")
+
+COVERED = 0.7
+"""e(x|y) >= COVERED: y explains most of x (what an edited copy or an excerpt gives)."""
+
+SIMILAR_SIZE = 0.8
+"""C(smaller) / C(larger) >= SIMILAR_SIZE: the two carry about the same amount of information."""
+
+BLOCK_BYTES = 64
+"""Null material is cut into blocks of whole lines of about this many bytes, then shuffled."""
+
+DONOR_OVERLAP = 0.5
+"""A donor sharing this fraction of the smaller shingle set with a is a likely relative of a."""
+
+_FNV_OFFSET = np.uint64(0xCBF29CE484222325)
+_FNV_PRIME = np.uint64(0x100000001B3)
+_BATCH = 1 << 12
+
+
+@dataclass(frozen=True)
+class Prefilter:
+    """Candidate pairs from MinHash sketches of byte shingles, indexed for containment.
+
+    Each item becomes the set S(x) of its `shingle`-byte substrings, hashed to 32 bits, and a
+    `num_perm`-value MinHash of it, h_k(S) = min over s in S of (a_k s + b_k) mod 2^32 (odd a_k).
+    An LSH Ensemble (Zhu et al. 2016; `num_part` size partitions, at most `rows` rows a band)
+    proposes (x, y) when the containment |S(x) ∩ S(y)| / |S(x)| reaches about `containment`,
+    queried from every item, so a short excerpt of a long file is proposed although the Jaccard
+    index |S(x) ∩ S(y)| / |S(x) ∪ S(y)| of the two is small. Set sizes are rounded up to steps of
+    5 % for the index's partitioning. Items with identical bytes are always proposed.
+
+    16-byte shingles are rarely shared by unrelated files of one kind (shared words and short
+    phrases are shorter), while an edit touches only the shingles that overlap it: with one edited
+    word in ten (one edit in about 60 bytes, each breaking about 22 shingles) some three in five
+    survive, so edited copies stay well above the threshold. Proposals are then checked on the
+    sketches (see `candidate_pairs`).
+    """
+
+    shingle: int = 16
+    containment: float = 0.3
+    num_perm: int = 128
+    num_part: int = 8
+    rows: int = 4
+
+
+@dataclass(frozen=True)
+class DerivedFinding:
+    """One related pair: names, relation, both explained fractions, score and its estimated fpr."""
+
+    a: str
+    b: str
+    relation: str
+    a_explained_by_b: float
+    b_explained_by_a: float
+    score: float
+    fpr: float
+
+    def as_json(self) -> dict[str, object]:
+        return {
+            "a": self.a,
+            "b": self.b,
+            "relation": self.relation,
+            "a_explained_by_b": self.a_explained_by_b,
+            "b_explained_by_a": self.b_explained_by_a,
+            "score": self.score,
+            "fpr": self.fpr,
+        }
+
+
+@dataclass(frozen=True)
+class PairCounts:
+    """Pairs possible n(n-1)/2, candidates proposed, pruned (possible - candidates), verified."""
+
+    possible: int
+    candidates: int
+    pruned: int
+    verified: int
+
+
+@dataclass(frozen=True)
+class NullSummary:
+    """The null scores: how many pairs, the block size, quantiles, and the score cut they give.
+
+    A score passes the `max_fpr` cut when it is above `cut` (infinity when no score can, with too
+    few null pairs for so small a rate).
+    """
+
+    pairs: int
+    block_bytes: int
+    median: float
+    p90: float
+    p99: float
+    max: float
+    cut: float
+
+    def as_json(self) -> dict[str, object]:
+        return dict(self.__dict__)
+
+
+@dataclass(frozen=True)
+class DerivedReport:
+    """Findings sorted by score (highest first), pair counts, the null, and how it was measured."""
+
+    findings: tuple[DerivedFinding, ...]
+    counts: PairCounts
+    null: NullSummary
+    compressor: str
+    max_fpr: float
+    exhaustive: bool
+    stats: MatrixStats
+
+    def as_json(self) -> list[dict[str, object]]:
+        """Per finding: a, b, relation, a_explained_by_b, b_explained_by_a, score, fpr."""
+        return [finding.as_json() for finding in self.findings]
+
+
+@dataclass(frozen=True)
+class Family:
+    """Files linked by findings (a connected component), and the findings inside it."""
+
+    members: tuple[str, ...]
+    findings: tuple[DerivedFinding, ...]
+
+
+def relation(
+    a_explained_by_b: float, b_explained_by_a: float, size_a: int, size_b: int, same: bool
+) -> str:
+    """The relation of a pair already judged related, from e(a|b), e(b|a), C(a) and C(b).
+
+    With s the item of smaller C(x) and l the other, r = C(s) / C(l):
+      identical        same bytes
+      near_copy        e(s|l) >= COVERED and r >= SIMILAR_SIZE
+      l_contains_s     e(s|l) >= COVERED and r < SIMILAR_SIZE (s is an excerpt of l, or l an
+                       extension of s): reported as a_contains_b or b_contains_a
+      partial_overlap  otherwise: they share a part, neither explains the other
+    """
+    if same:
+        return "identical"
+    a_small = size_a <= size_b
+    small_explained = a_explained_by_b if a_small else b_explained_by_a
+    if small_explained < COVERED:
+        return "partial_overlap"
+    if min(size_a, size_b) >= SIMILAR_SIZE * max(size_a, size_b):
+        return "near_copy"
+    return "b_contains_a" if a_small else "a_contains_b"
+
+
+def families(findings: Sequence[DerivedFinding]) -> tuple[Family, ...]:
+    """Connected components of the findings' graph, largest first, then by first member name."""
+    parent: dict[str, str] = {}
+
+    def root(name: str) -> str:
+        parent.setdefault(name, name)
+        while parent[name] != name:
+            parent[name] = parent[parent[name]]
+            name = parent[name]
+        return name
+
+    for finding in findings:
+        parent[root(finding.a)] = root(finding.b)
+    members: dict[str, list[str]] = {}
+    for name in parent:
+        members.setdefault(root(name), []).append(name)
+    grouped = [
+        Family(
+            members=tuple(sorted(names)),
+            findings=tuple(f for f in findings if root(f.a) == key),
+        )
+        for key, names in members.items()
+    ]
+    return tuple(sorted(grouped, key=lambda family: (-len(family.members), family.members[0])))
+
+
+def shingle_hashes(data: bytes, shingle: int) -> np.ndarray:
+    """Distinct 32-bit FNV-1a hashes of every `shingle`-byte substring (of all, when shorter)."""
+    array = np.frombuffer(data, dtype=np.uint8)
+    width = min(shingle, len(array))
+    if width == 0:
+        return np.zeros(0, dtype=np.uint32)
+    windows = np.lib.stride_tricks.sliding_window_view(array, width)
+    hashes = np.full(len(windows), _FNV_OFFSET, dtype=np.uint64)
+    for column in range(width):
+        hashes = (hashes ^ windows[:, column]) * _FNV_PRIME
+    return np.unique((hashes ^ (hashes >> np.uint64(32))).astype(np.uint32))
+
+
+@dataclass(frozen=True)
+class Sketch:
+    """An item's MinHash and the number of distinct shingles it summarises."""
+
+    minhash: MinHash
+    size: int
+
+
+def sketches(items: Sequence[Item], prefilter: Prefilter, seed: int) -> list[Sketch]:
+    """The MinHash of every item's shingle set (see `Prefilter`), permutations drawn from seed."""
+    rng = np.random.default_rng(seed)
+    multiply = rng.integers(0, 1 << 32, prefilter.num_perm, dtype=np.uint64).astype(np.uint32)
+    multiply |= np.uint32(1)
+    add = rng.integers(0, 1 << 32, prefilter.num_perm, dtype=np.uint64).astype(np.uint32)
+    out = []
+    for item in items:
+        hashes = shingle_hashes(item.data, prefilter.shingle)
+        values = np.full(prefilter.num_perm, np.iinfo(np.uint32).max, dtype=np.uint32)
+        for start in range(0, len(hashes), _BATCH):
+            chunk = hashes[start : start + _BATCH, None] * multiply + add
+            np.minimum(values, chunk.min(axis=0), out=values)
+        minhash = MinHash(seed=seed, hashvalues=values, scheme="affine32")
+        out.append(Sketch(minhash, len(hashes)))
+    return out
+
+
+def _rounded(size: int) -> int:
+    """Up to the next step of a 5 % geometric grid, so the index sees few distinct sizes."""
+    return math.ceil(1.05 ** math.ceil(math.log(max(size, 1), 1.05) - 1e-9))
+
+
+def _overlap(first: Sketch, second: Sketch) -> float:
+    """Estimated |S ∩ T| / min(|S|, |T|) from the Jaccard estimate J: |S ∩ T| = J(|S|+|T|)/(1+J)."""
+    jaccard = float(first.minhash.jaccard(second.minhash))
+    shared = jaccard * (first.size + second.size) / (1 + jaccard)
+    return shared / max(min(first.size, second.size), 1)
+
+
+def candidate_pairs(
+    sketched: Sequence[Sketch], digests: Sequence[bytes], prefilter: Prefilter
+) -> set[tuple[int, int]]:
+    """Index pairs (i < j) the prefilter proposes: containment either way, or the same bytes.
+
+    The index's proposals are then checked on the sketches themselves: a pair is kept when its
+    estimated overlap |S ∩ T| / min(|S|, |T|) is at least half the containment threshold (the
+    margin absorbs the estimate's error), which drops most of the banding's chance collisions.
+    """
+    ensemble = MinHashLSHEnsemble(
+        threshold=prefilter.containment,
+        num_perm=prefilter.num_perm,
+        num_part=prefilter.num_part,
+        m=prefilter.rows,
+    )
+    ensemble.index([(k, s.minhash, _rounded(s.size)) for k, s in enumerate(sketched)])
+    proposed = {
+        (min(k, j), max(k, j))
+        for k, s in enumerate(sketched)
+        for j in ensemble.query(s.minhash, _rounded(s.size))
+        if j != k
+    }
+    pairs = {
+        (i, j)
+        for i, j in proposed
+        if _overlap(sketched[i], sketched[j]) >= prefilter.containment / 2
+    }
+    by_digest: dict[bytes, list[int]] = {}
+    for k, digest in enumerate(digests):
+        by_digest.setdefault(digest, []).append(k)
+    for same in by_digest.values():
+        pairs.update((i, j) for n, i in enumerate(same) for j in same[n + 1 :])
+    return pairs
+
+
+def _all_pairs(n: int) -> Iterator[tuple[int, int]]:
+    return ((i, j) for i in range(n) for j in range(i + 1, n))
+
+
+def line_blocks(data: bytes, size: int) -> list[bytes]:
+    """Cut after the first line break at or beyond every `size` bytes (hard cuts in long lines)."""
+    blocks: list[bytes] = []
+    start = 0
+    while start < len(data):
+        end = data.find(b"\n", start + size - 1, start + 4 * size)
+        stop = len(data) if start + size >= len(data) else (end + 1 if end >= 0 else start + size)
+        blocks.append(data[start:stop])
+        start = stop
+    return blocks
+
+
+def _null_material(
+    a: int, length: int, data: Sequence[bytes], relative: Callable[[int], bool], rng: random.Random
+) -> bytes:
+    """`length` bytes of other items' shuffled line blocks, donor after random donor.
+
+    Donors are items other than a and not `relative` to it, each used once.
+    """
+    out = bytearray()
+    used = {a}
+    for _ in range(4 * len(data)):
+        if len(out) >= length:
+            break
+        donor = rng.randrange(len(data))
+        if donor in used or relative(donor):
+            continue
+        used.add(donor)
+        blocks = line_blocks(data[donor], BLOCK_BYTES)
+        rng.shuffle(blocks)
+        out += b"".join(blocks)
+    return bytes(out[:length])
+
+
+@dataclass(frozen=True)
+class _NullPlan:
+    """Null items (appended after the real ones) and, for each, the real item it is set against."""
+
+    items: tuple[Item, ...]
+    partners: tuple[int, ...]
+
+
+def _plan_null(
+    items: Sequence[Item],
+    pairs: Sequence[tuple[int, int]],
+    sketched: Sequence[Sketch],
+    count: int,
+    rng: random.Random,
+) -> _NullPlan:
+    """Null pairs shaped like the pairs tested: a real item of a pair against material the size
+    of its partner, from donors with other bytes not sharing DONOR_OVERLAP of their shingles."""
+    data = [item.data for item in items]
+    digests = [content_digest(d) for d in data]
+    made: list[Item] = []
+    partners: list[int] = []
+    for k in range(count):
+        first, second = pairs[rng.randrange(len(pairs))]
+        a, b = (first, second) if rng.random() < 0.5 else (second, first)
+
+        def relative(j: int, a: int = a) -> bool:
+            same = digests[j] == digests[a]
+            return same or _overlap(sketched[a], sketched[j]) >= DONOR_OVERLAP
+
+        material = _null_material(a, len(data[b]), data, relative, rng)
+        if material:
+            made.append(Item(name=f"null#{k}", data=material, source="null model"))
+            partners.append(a)
+    return _NullPlan(items=tuple(made), partners=tuple(partners))
+
+
+def _fpr(scores: np.ndarray, null_sorted: np.ndarray) -> np.ndarray:
+    """(1 + #{null >= s}) / (1 + N) for each score s."""
+    above = len(null_sorted) - np.searchsorted(null_sorted, scores, side="left")
+    return np.asarray((1 + above) / (1 + len(null_sorted)), dtype=np.float64)
+
+
+def _summary(null_sorted: np.ndarray, max_fpr: float) -> NullSummary:
+    """Quantiles of the null scores and the cut: fpr(s) <= max_fpr exactly when s > cut.
+
+    fpr(s) <= max_fpr needs #{null >= s} <= A = floor(max_fpr (1 + N)) - 1, so s must exceed
+    the (N - A)-th smallest null score (every s passes when A >= N, none when A < 0).
+    """
+    size = int(null_sorted.size)
+    allowed = math.floor(max_fpr * (1 + size) + 1e-9) - 1
+    if allowed < 0:
+        cut = math.inf
+    elif allowed >= size:
+        cut = -math.inf
+    else:
+        cut = float(null_sorted[size - allowed - 1])
+    quantiles = np.quantile(null_sorted, [0.5, 0.9, 0.99, 1.0]) if size else [math.nan] * 4
+    return NullSummary(
+        pairs=size,
+        block_bytes=BLOCK_BYTES,
+        median=float(quantiles[0]),
+        p90=float(quantiles[1]),
+        p99=float(quantiles[2]),
+        max=float(quantiles[3]),
+        cut=cut,
+    )
+
+
+@dataclass(frozen=True)
+class _Measured:
+    """Both explained fractions of every candidate, C(x) of the real items, the null scores."""
+
+    a_by_b: np.ndarray
+    b_by_a: np.ndarray
+    sizes: np.ndarray
+    null_sorted: np.ndarray
+    stats: MatrixStats
+
+
+def _measure(
+    items: Sequence[Item],
+    pairs: Sequence[tuple[int, int]],
+    plan: _NullPlan,
+    comp: Compressor,
+    engine: Engine | None,
+    cache: SizeCache | None,
+    progress: Progress | None,
+) -> _Measured:
+    """e(x|y) = 1 - C(x|y) / C(x) both ways for the candidates and the null pairs, in one run."""
+    n, m, z = len(items), len(pairs), len(plan.partners)
+    null = [(n + k, a) for k, a in enumerate(plan.partners)]
+    requested = [(j, i) for i, j in pairs] + [(i, j) for i, j in pairs]
+    requested += null + [(a, b) for b, a in null]
+    measured = conditional_sizes(
+        [*items, *plan.items], requested, comp, engine=engine, cache=cache, progress=progress
+    )
+    target_sizes = np.maximum(measured.sizes[measured.target], 1)
+    explained = 1.0 - measured.conditional / target_sizes
+    return _Measured(
+        a_by_b=explained[:m],
+        b_by_a=explained[m : 2 * m],
+        sizes=measured.sizes[:n],
+        null_sorted=np.sort(np.maximum(explained[2 * m : 2 * m + z], explained[2 * m + z :])),
+        stats=measured.stats,
+    )
+
+
+def _findings(
+    items: Sequence[Item],
+    pairs: Sequence[tuple[int, int]],
+    measured: _Measured,
+    digests: Sequence[bytes],
+    max_fpr: float,
+) -> tuple[DerivedFinding, ...]:
+    """Candidates whose fpr is at most max_fpr, or with the same bytes; highest score first."""
+    scores = np.maximum(measured.a_by_b, measured.b_by_a)
+    fprs = _fpr(scores, measured.null_sorted)
+    found = []
+    for k, (i, j) in enumerate(pairs):
+        same = digests[i] == digests[j]
+        if fprs[k] > max_fpr and not same:
+            continue
+        a_by_b, b_by_a = float(measured.a_by_b[k]), float(measured.b_by_a[k])
+        sizes = int(measured.sizes[i]), int(measured.sizes[j])
+        found.append(
+            DerivedFinding(
+                a=items[i].name,
+                b=items[j].name,
+                relation=relation(a_by_b, b_by_a, *sizes, same),
+                a_explained_by_b=a_by_b,
+                b_explained_by_a=b_by_a,
+                score=float(scores[k]),
+                fpr=float(fprs[k]),
+            )
+        )
+    return tuple(sorted(found, key=lambda f: (-f.score, f.a, f.b)))
+
+
+def find_derived(
+    items: Sequence[Item],
+    compressor: Compressor | str = "zstd",
+    *,
+    exhaustive: bool = False,
+    max_fpr: float = 0.01,
+    seed: int = 0,
+    null_pairs: int | None = None,
+    prefilter: Prefilter | None = None,
+    engine: Engine | None = None,
+    cache: SizeCache | None = None,
+    progress: Progress | None = None,
+) -> DerivedReport:
+    """Pairs of items where one is copied from, or derived from, the other.
+
+    1. Candidates: every pair with `exhaustive`, else the pairs the `Prefilter` proposes.
+    2. Each candidate is measured both ways, e(a|b) = 1 - C(a|b)/C(a) and e(b|a), through
+       `conditional_sizes` (engine and cache as for a matrix).
+    3. The null: N = `null_pairs` (default ceil(3 / max_fpr): enough to tell an fpr at max_fpr
+    from zero, each null pair being as costly as a real one) pairs drawn to the candidates'
+       shapes. For a candidate (a, b) drawn at random, a (or b) is set against null material as
+       long as b (or a): other items' contents cut into blocks of whole lines (about BLOCK_BYTES)
+       and shuffled, donor by donor, skipping donors with the same bytes as a or sharing
+       DONOR_OVERLAP of their shingles with it. Blocks keep each donor's vocabulary, line
+       structure and short phrases, so the null is "a file of the same kind as this set, of the
+       same size"; shuffling breaks every run longer than a block, which is what copying leaves.
+    4. A candidate is reported when fpr(score) <= max_fpr (identical bytes always), with the
+       relation of `relation`.
+
+    max_fpr is a rate per pair verified: about max_fpr times the unrelated pairs verified are
+    expected among the findings, which is why the prefilter, by verifying few unrelated pairs,
+    also keeps findings precise (for an exhaustive run, choose max_fpr well below one over the
+    number of pairs). The null mixes the set's kinds as random pairs do: in a set of several
+    kinds (languages, formats), files of one kind share boilerplate the mixed null lacks and
+    score above it more often than max_fpr says. Findings are evidence for a person to review,
+    not proof of copying; pairs longer together than the compressor's window look unrelated,
+    as they do in a matrix.
+    """
+    if not 0 < max_fpr <= 1:
+        raise ValueError(f"max_fpr must be in (0, 1], got {max_fpr}")
+    if len(items) < 2:
+        raise InputError(f"need at least two items to compare, got {len(items)}")
+    comp, prefilter = make_compressor(compressor), prefilter or Prefilter()
+    digests = [content_digest(item.data) for item in items]
+    sketched = sketches(items, prefilter, seed)
+    n = len(items)
+    pairs = sorted(_all_pairs(n) if exhaustive else candidate_pairs(sketched, digests, prefilter))
+    count = (null_pairs if null_pairs is not None else math.ceil(3 / max_fpr)) if pairs else 0
+    plan = _plan_null(items, pairs, sketched, count, random.Random(seed))
+    possible = n * (n - 1) // 2
+    counts = PairCounts(possible, len(pairs), possible - len(pairs), len(pairs))
+    if not pairs:
+        empty = np.zeros(0)
+        measured = _Measured(empty, empty, empty, empty, MatrixStats())
+    else:
+        measured = _measure(items, pairs, plan, comp, engine, cache, progress)
+    return DerivedReport(
+        findings=_findings(items, pairs, measured, digests, max_fpr),
+        counts=counts,
+        null=_summary(measured.null_sorted, max_fpr),
+        compressor=comp.spec,
+        max_fpr=max_fpr,
+        exhaustive=exhaustive,
+        stats=measured.stats,
+    )

@@ -1,0 +1,427 @@
+"""Finding copied or derived files: relation rules, the null, the prefilter, a generated corpus.
+
+The corpus is generated here with a fixed seed: prose-like and log-like files of one shared,
+Zipf-weighted invented vocabulary (so unrelated files share words, phrases and line shapes), and
+pairs made from an original by a known transformation, which is the ground truth.
+"""
+
+from __future__ import annotations
+
+import random
+import re
+import textwrap
+from collections.abc import Callable
+from dataclasses import dataclass
+from pathlib import Path
+
+import pytest
+
+from kinpress import SizeCache
+from kinpress.derived import (
+    COVERED,
+    RELATIONS,
+    DerivedFinding,
+    DerivedReport,
+    families,
+    find_derived,
+    line_blocks,
+    relation,
+    shingle_hashes,
+)
+from kinpress.items import Item, load_items
+
+_SYLLABLES = (
+    "ka",
+    "ri",
+    "so",
+    "ten",
+    "mar",
+    "vel",
+    "dun",
+    "ash",
+    "or",
+    "ith",
+    "bel",
+    "cor",
+    "dra",
+    "fen",
+    "gal",
+    "hor",
+    "lin",
+    "mos",
+    "nar",
+    "pel",
+    "qua",
+    "ros",
+    "sel",
+    "tor",
+    "ul",
+    "vin",
+    "wen",
+    "yar",
+    "zor",
+    "an",
+    "el",
+    "in",
+    "on",
+    "un",
+    "ber",
+    "cal",
+    "dor",
+    "er",
+    "fal",
+    "gor",
+)
+_LEVELS = ("INFO", "INFO", "INFO", "DEBUG", "WARN", "ERROR")
+
+
+def vocabulary(rng: random.Random, size: int = 1200) -> list[str]:
+    """Invented words of one to three syllables, most frequent first."""
+    words: dict[str, None] = {}
+    while len(words) < size:
+        words["".join(rng.choice(_SYLLABLES) for _ in range(rng.choice((1, 2, 2, 3))))] = None
+    return list(words)
+
+
+@dataclass(frozen=True)
+class Kind:
+    """What files of a corpus share: the vocabulary and its Zipf weights (1 / (rank + 2.7))."""
+
+    words: list[str]
+    weights: list[float]
+
+    @classmethod
+    def make(cls, seed: int) -> Kind:
+        words = vocabulary(random.Random(seed))
+        return cls(words, [1 / (rank + 2.7) for rank in range(len(words))])
+
+    def draw(self, rng: random.Random, n: int, topic: list[str]) -> list[str]:
+        """n words, a quarter of them from the file's own topic words."""
+        common = rng.choices(self.words, self.weights, k=n)
+        return [rng.choice(topic) if rng.random() < 0.25 else w for w in common]
+
+    def topic(self, rng: random.Random) -> list[str]:
+        return rng.sample(self.words[100:], 25)
+
+
+def prose(kind: Kind, rng: random.Random, size: int, width: int = 72) -> bytes:
+    """Paragraphs of sentences, wrapped at `width`, until about `size` bytes."""
+    topic, out = kind.topic(rng), []
+    while sum(len(p) for p in out) < size:
+        sentences = []
+        for _ in range(rng.randint(3, 6)):
+            words = kind.draw(rng, rng.randint(6, 16), topic)
+            sentences.append(" ".join(words).capitalize() + rng.choice(".....?!"))
+        out.append(textwrap.fill(" ".join(sentences), width) + "\n\n")
+    return "".join(out).encode()
+
+
+def log_text(kind: Kind, rng: random.Random, size: int) -> bytes:
+    """Service log lines with timestamps, levels, a few fields and words, about `size` bytes."""
+    topic, out = kind.topic(rng), []
+    service = "-".join(rng.sample(kind.words[:60], 2))
+    clock = rng.randrange(86_400_000)
+    while sum(len(line) for line in out) < size:
+        clock += rng.randrange(1, 5_000)
+        seconds, millis = divmod(clock, 1000)
+        stamp = f"2024-05-17T{seconds // 3600 % 24:02d}:{seconds // 60 % 60:02d}:{seconds % 60:02d}"
+        words = " ".join(kind.draw(rng, rng.randint(3, 9), topic))
+        field = rng.choice(kind.words[:40])
+        out.append(
+            f"{stamp}.{millis:03d}Z {rng.choice(_LEVELS):5} {service}[{rng.randrange(90, 999)}]: "
+            f"{words} {field}={rng.randrange(10_000)} req={rng.getrandbits(32):08x}\n"
+        )
+    return "".join(out).encode()
+
+
+def fresh(kind: Kind, rng: random.Random, size: int, log: bool) -> bytes:
+    return log_text(kind, rng, size) if log else prose(kind, rng, size)
+
+
+def edited(kind: Kind, rng: random.Random, data: bytes, rate: float) -> bytes:
+    """A `rate` share of the words (at least one) replaced, deleted or doubled."""
+    tokens = re.split(rb"(\s+)", data)
+    words = [k for k, token in enumerate(tokens) if token.strip()]
+    for k in rng.sample(words, max(1, round(rate * len(words)))):
+        action = rng.randrange(3)
+        tokens[k] = (rng.choice(kind.words).encode(), b"", tokens[k] + b" " + tokens[k])[action]
+    return b"".join(tokens)
+
+
+def lines_slice(data: bytes, start: float, length: float) -> bytes:
+    lines = data.splitlines(keepends=True)
+    first = int(start * len(lines))
+    return b"".join(lines[first : first + max(1, int(length * len(lines)))])
+
+
+def excerpt(rng: random.Random, data: bytes) -> bytes:
+    """A run of whole lines, 25-60 % of the file."""
+    length = rng.uniform(0.25, 0.6)
+    return lines_slice(data, rng.uniform(0, 1 - length), length)
+
+
+def extended(kind: Kind, rng: random.Random, data: bytes, log: bool) -> bytes:
+    """The file with 50-120 % new material before it, after it, or in its middle."""
+    extra = fresh(kind, rng, int(len(data) * rng.uniform(0.5, 1.2)), log)
+    where = rng.choice(("before", "after", "middle"))
+    if where == "before":
+        return extra + data
+    if where == "after":
+        return data + extra
+    lines = data.splitlines(keepends=True)
+    half = len(lines) // 2
+    return b"".join(lines[:half]) + extra + b"".join(lines[half:])
+
+
+def reordered(rng: random.Random, data: bytes) -> bytes:
+    """Blocks of 3-8 lines in shuffled order."""
+    lines, blocks = data.splitlines(keepends=True), []
+    while lines:
+        cut = rng.randint(3, 8)
+        blocks.append(b"".join(lines[:cut]))
+        lines = lines[cut:]
+    rng.shuffle(blocks)
+    return b"".join(blocks)
+
+
+def rewrapped(rng: random.Random, data: bytes) -> bytes:
+    """Prose paragraphs refilled at another width (48-64 or 84-100 columns)."""
+    width = rng.choice((rng.randint(48, 64), rng.randint(84, 100)))
+    paragraphs = data.decode().split("\n\n")
+    return "\n\n".join(textwrap.fill(" ".join(p.split()), width) for p in paragraphs).encode()
+
+
+def shared_part(kind: Kind, rng: random.Random, data: bytes, log: bool) -> bytes:
+    """Half of the file (its first or second half) joined to new material of the same size."""
+    half = lines_slice(data, rng.choice((0.0, 0.5)), 0.5)
+    return half + fresh(kind, rng, len(half), log)
+
+
+@dataclass(frozen=True)
+class Corpus:
+    """Items, the true derived pairs by name with their transformation, and which contain which."""
+
+    items: list[Item]
+    truth: dict[frozenset[str], str]
+    contains: dict[frozenset[str], tuple[str, str]]
+
+
+TRANSFORMS = {
+    "copy": 3,
+    "edit": 8,
+    "excerpt": 6,
+    "extend": 6,
+    "reorder": 4,
+    "rewrap": 4,
+    "shared": 3,
+}
+
+
+def make_corpus(
+    seed: int, unrelated: int, per_transform: dict[str, int], size: tuple[int, int]
+) -> Corpus:
+    """`unrelated` independent files plus one original and one derived file per transformation.
+
+    Files are prose or logs (rewrapped files are always prose), `size` bytes (uniform range).
+    Each original has exactly one derived file, so the truth is exactly the listed pairs.
+    """
+    rng = random.Random(seed)
+    kind = Kind.make(seed)
+    items: list[Item] = []
+    truth: dict[frozenset[str], str] = {}
+    contains: dict[frozenset[str], tuple[str, str]] = {}
+
+    def add(name: str, data: bytes) -> str:
+        items.append(Item(name=name, data=data, source=name))
+        return name
+
+    for k in range(unrelated):
+        log = rng.random() < 0.5
+        add(f"file{k:05d}.{'log' if log else 'txt'}", fresh(kind, rng, rng.randint(*size), log))
+    derive: dict[str, Callable[[bytes, bool], bytes]] = {
+        "copy": lambda d, log: d,
+        "edit": lambda d, log: edited(kind, rng, d, rng.uniform(0.01, 0.10)),
+        "excerpt": lambda d, log: excerpt(rng, d),
+        "extend": lambda d, log: extended(kind, rng, d, log),
+        "reorder": lambda d, log: reordered(rng, d),
+        "rewrap": lambda d, log: rewrapped(rng, d),
+        "shared": lambda d, log: shared_part(kind, rng, d, log),
+    }
+    for transform, count in per_transform.items():
+        for k in range(count):
+            log = transform != "rewrap" and rng.random() < 0.5
+            original = fresh(kind, rng, rng.randint(*size), log)
+            a = add(f"{transform}{k:04d}-orig.{'log' if log else 'txt'}", original)
+            b = add(f"{transform}{k:04d}-derived.{'log' if log else 'txt'}", derive[transform](
+                original, log))  # fmt: skip
+            truth[frozenset((a, b))] = transform
+            if transform in ("excerpt", "extend"):
+                contains[frozenset((a, b))] = (a, b) if transform == "excerpt" else (b, a)
+    random.Random(seed + 1).shuffle(items)
+    return Corpus(items, truth, contains)
+
+
+def small_corpus() -> Corpus:
+    """116 files of 2-4 KB: 48 unrelated and 34 derived pairs (every transformation)."""
+    return make_corpus(7, 48, TRANSFORMS, (2000, 4000))
+
+
+@pytest.fixture(scope="module")
+def corpus() -> Corpus:
+    return small_corpus()
+
+
+@pytest.fixture(scope="module")
+def cache(tmp_path_factory: pytest.TempPathFactory) -> SizeCache:
+    return SizeCache(tmp_path_factory.mktemp("derived") / "sizes.sqlite")
+
+
+@pytest.fixture(scope="module")
+def exhaustive(corpus: Corpus, cache: SizeCache) -> DerivedReport:
+    return find_derived(corpus.items, exhaustive=True, cache=cache)
+
+
+@pytest.fixture(scope="module")
+def prefiltered(corpus: Corpus, cache: SizeCache, exhaustive: DerivedReport) -> DerivedReport:
+    # After the exhaustive run, so every candidate pair comes from the cache.
+    return find_derived(corpus.items, cache=cache)
+
+
+def pair(finding: DerivedFinding) -> frozenset[str]:
+    return frozenset((finding.a, finding.b))
+
+
+def container(finding: DerivedFinding) -> str | None:
+    """The name the finding says contains the other, if it is a containment."""
+    return {"a_contains_b": finding.a, "b_contains_a": finding.b}.get(finding.relation)
+
+
+def test_relation_rules_follow_explained_fractions_and_sizes() -> None:
+    assert relation(1.0, 1.0, 500, 500, True) == "identical"
+    assert relation(0.9, 0.88, 500, 480, False) == "near_copy"
+    # b is a third of a and fully explained by it: a contains b (b an excerpt or a an extension).
+    assert relation(0.35, 0.98, 1500, 500, False) == "a_contains_b"
+    assert relation(0.98, 0.35, 500, 1500, False) == "b_contains_a"
+    assert relation(0.5, 0.45, 1000, 900, False) == "partial_overlap"
+    assert relation(0.4, COVERED - 0.01, 1500, 500, False) == "partial_overlap"
+
+
+def test_families_are_connected_components() -> None:
+    def link(a: str, b: str) -> DerivedFinding:
+        return DerivedFinding(a, b, "near_copy", 0.9, 0.9, 0.9, 0.001)
+
+    found = families([link("x", "y"), link("p", "q"), link("y", "z")])
+    assert [f.members for f in found] == [("x", "y", "z"), ("p", "q")]
+    assert len(found[0].findings) == 2
+
+
+def test_line_blocks_cut_after_line_breaks_and_keep_every_byte() -> None:
+    data = b"".join(b"line %d with some words\n" % k for k in range(40)) + b"tail"
+    blocks = line_blocks(data, 64)
+    assert b"".join(blocks) == data
+    assert all(block.endswith(b"\n") and len(block) >= 64 for block in blocks[:-1])
+    no_breaks = bytes(range(11, 256)) * 4  # 980 bytes without a line break: hard cuts
+    assert [len(b) for b in line_blocks(no_breaks, 64)] == [64] * 15 + [20]
+
+
+def test_shingles_of_an_excerpt_are_a_subset() -> None:
+    text = prose(Kind.make(1), random.Random(2), 3000)
+    whole, part = shingle_hashes(text, 16), shingle_hashes(text[1000:2000], 16)
+    assert set(part.tolist()) <= set(whole.tolist())
+    assert len(shingle_hashes(b"short", 16)) == 1
+
+
+def test_derived_pairs_found_with_precision_recall_and_direction(
+    corpus: Corpus, prefiltered: DerivedReport
+) -> None:
+    found = {pair(f): f for f in prefiltered.findings}
+    true_found = [p for p in found if p in corpus.truth]
+    precision, recall = len(true_found) / len(found), len(true_found) / len(corpus.truth)
+    assert precision >= 0.9 and recall >= 0.9, (precision, recall)
+    right = [
+        p for p, (big, _) in corpus.contains.items() if p in found and container(found[p]) == big
+    ]
+    assert len(right) / len(corpus.contains) >= 0.9
+    copies = [p for p, t in corpus.truth.items() if t == "copy"]
+    assert all(found[p].relation == "identical" for p in copies)
+    assert all(f.relation in RELATIONS for f in prefiltered.findings)
+    keys = {"a", "b", "relation", "a_explained_by_b", "b_explained_by_a", "score", "fpr"}
+    assert all(set(row) == keys for row in prefiltered.as_json())
+
+
+def test_unrelated_pairs_are_flagged_at_about_max_fpr(
+    corpus: Corpus, exhaustive: DerivedReport
+) -> None:
+    # Exhaustive: every unrelated same-kind pair is tested against the null, so the share of
+    # them reported is the realised false-positive rate, which max_fpr bounds (with slack for
+    # the estimate from the default ceil(3 / max_fpr) = 300 null pairs).
+    assert exhaustive.counts.verified == exhaustive.counts.possible == 116 * 115 // 2
+    assert exhaustive.null.pairs == 300
+    unrelated = exhaustive.counts.possible - len(corpus.truth)
+    false = [f for f in exhaustive.findings if pair(f) not in corpus.truth]
+    assert len(false) / unrelated <= 1.5 * exhaustive.max_fpr
+    assert all(0 < f.fpr <= exhaustive.max_fpr for f in exhaustive.findings)
+    assert all(f.score > exhaustive.null.cut for f in exhaustive.findings)
+    assert all(f.relation == "partial_overlap" for f in false)
+
+
+def test_a_stricter_max_fpr_reports_a_subset(
+    corpus: Corpus, cache: SizeCache, prefiltered: DerivedReport
+) -> None:
+    # Both runs draw the same 1,000 null pairs (same seed and shapes): the second takes all its
+    # sizes from the cache.
+    loose = find_derived(corpus.items, cache=cache, max_fpr=0.05, null_pairs=1000)
+    strict = find_derived(corpus.items, cache=cache, max_fpr=0.003, null_pairs=1000)
+    assert {pair(f) for f in strict.findings} <= {pair(f) for f in loose.findings}
+    assert all(f.fpr <= 0.003 or f.relation == "identical" for f in strict.findings)
+    assert strict.null.cut >= loose.null.cut
+    assert strict.stats.pairs_computed == 0
+
+
+def test_prefilter_misses_under_two_percent_of_true_pairs_found_exhaustively(
+    corpus: Corpus, exhaustive: DerivedReport, prefiltered: DerivedReport
+) -> None:
+    by_all = {pair(f) for f in exhaustive.findings} & corpus.truth.keys()
+    by_prefilter = {pair(f) for f in prefiltered.findings}
+    assert len(by_all - by_prefilter) / len(by_all) < 0.02
+    counts = prefiltered.counts
+    assert counts.possible == counts.candidates + counts.pruned
+    assert counts.pruned > 0.9 * counts.possible
+
+
+def test_unrelated_random_bytes_give_no_candidates() -> None:
+    items = [Item(f"r{k}", random.Random(k).randbytes(3000), "random") for k in range(4)]
+    report = find_derived(items)
+    assert report.findings == () and report.counts.candidates == 0 and report.null.pairs == 0
+
+
+def test_bad_arguments_are_refused() -> None:
+    items = [Item("a", b"x" * 100, "a"), Item("b", b"y" * 100, "b")]
+    with pytest.raises(ValueError, match="max_fpr"):
+        find_derived(items, max_fpr=0)
+    with pytest.raises(ValueError, match="two items"):
+        find_derived(items[:1])
+
+
+@pytest.mark.shared
+def test_same_task_in_other_languages_is_mostly_not_derived(shared_data: Path) -> None:
+    # Open datasets (../shared/datasets-real/code, Rosetta Code via ad-si/RosettaGit): 40 tasks
+    # solved in 8 languages. Solutions of one task in two languages share names and literals
+    # but neither is derived from the other.
+    folder = shared_data / "code"
+    rows = (line.split("\t") for line in (folder / "labels.tsv").read_text().splitlines()[1:])
+    labels = {Path(row[0]).name: (row[1], row[2]) for row in rows}
+    report = find_derived(load_items([folder], split="file"))
+    cross = [
+        f
+        for f in report.findings
+        if labels[f.a][1] == labels[f.b][1] and labels[f.a][0] != labels[f.b][0]
+    ]
+    same_task_pairs = sum(
+        1
+        for x in labels
+        for y in labels
+        if x < y and labels[x][1] == labels[y][1] and labels[x][0] != labels[y][0]
+    )
+    assert len(cross) / same_task_pairs <= 0.02
+    assert all(f.relation == "partial_overlap" for f in cross)

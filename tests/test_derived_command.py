@@ -1,0 +1,70 @@
+"""The derived command: a copy and an excerpt found among unrelated files, with the caution."""
+
+from __future__ import annotations
+
+import json
+import random
+from pathlib import Path
+
+import pytest
+
+from kinpress import cli
+
+WORDS = [f"w{k}" for k in range(400)]
+FAST = ["-c", "zstd:level=3", "--no-cache", "--quiet"]
+
+
+def _text(seed: int, lines: int = 120) -> str:
+    rng = random.Random(seed)
+    weights = [1 / (k + 1) for k in range(len(WORDS))]  # Zipf-like: one shared vocabulary
+    return "".join(" ".join(rng.choices(WORDS, weights, k=10)) + "\n" for _ in range(lines))
+
+
+@pytest.fixture
+def share(tmp_path: Path) -> Path:
+    folder = tmp_path / "share"
+    folder.mkdir()
+    for k in range(8):
+        (folder / f"doc{k}.txt").write_text(_text(k))
+    original = _text(100)
+    (folder / "report.txt").write_text(original)
+    (folder / "report-copy.txt").write_text(original)
+    (folder / "report-part.txt").write_text("".join(original.splitlines(True)[30:70]))
+    return folder
+
+
+def _pair(finding: dict[str, object]) -> frozenset[object]:
+    return frozenset((finding["a"], finding["b"]))
+
+
+def test_copies_and_excerpts_are_found_with_their_direction(
+    share: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    assert cli.main(["derived", str(share), "--json", *FAST]) == 0
+    findings = json.loads(capsys.readouterr().out)
+    keys = {"a", "b", "relation", "a_explained_by_b", "b_explained_by_a", "score", "fpr"}
+    assert all(set(f) == keys for f in findings)
+    by_pair = {_pair(f): f for f in findings}
+    copy = by_pair[frozenset(("report.txt", "report-copy.txt"))]
+    assert copy["relation"] == "identical"
+    part = by_pair[frozenset(("report.txt", "report-part.txt"))]
+    container = part["a"] if part["relation"] == "a_contains_b" else part["b"]
+    assert part["relation"] in ("a_contains_b", "b_contains_a")
+    assert container == "report.txt"
+    assert not any(f["a"].startswith("doc") and f["b"].startswith("doc") for f in findings)
+
+
+def test_text_output_groups_families_and_carries_the_caution(
+    share: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    assert cli.main(["derived", str(share), "--exhaustive", *FAST]) == 0
+    out = capsys.readouterr().out
+    assert out.startswith("family 1: ")
+    assert "report-copy.txt" in out.splitlines()[0]
+    assert "evidence for a person to review, not proof of copying" in out
+
+
+def test_help_carries_the_caution(capsys: pytest.CaptureFixture[str]) -> None:
+    with pytest.raises(SystemExit):
+        cli.main(["derived", "--help"])
+    assert "not proof of copying" in " ".join(capsys.readouterr().out.split())
