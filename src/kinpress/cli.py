@@ -111,6 +111,13 @@ def _matrix_options(parser: argparse.ArgumentParser, conditional: str = "concat"
     run.add_argument("--no-cache", action="store_true", help="compute everything afresh")
 
 
+def _inputs_or_matrix(parser: argparse.ArgumentParser) -> None:
+    """Inputs to measure, or a matrix saved by `kinpress matrix`, and the measuring options."""
+    parser.add_argument("inputs", nargs="*", metavar="INPUT", help="files, folders, or - (stdin)")
+    parser.add_argument("--matrix", metavar="FILE", help="a matrix written by 'kinpress matrix'")
+    _matrix_options(parser)
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="kinpress",
@@ -176,9 +183,7 @@ def build_parser() -> argparse.ArgumentParser:
             "kinpress tree genomes/ --bootstrap 100 -o tree.nwk",
         ),
     )
-    tree.add_argument("inputs", nargs="*", metavar="INPUT", help="files, folders, or - (stdin)")
-    tree.add_argument("--matrix", metavar="FILE", help="a matrix written by 'kinpress matrix'")
-    _matrix_options(tree)
+    _inputs_or_matrix(tree)
     shape = tree.add_argument_group("tree")
     shape.add_argument(
         "--method",
@@ -217,9 +222,7 @@ def build_parser() -> argparse.ArgumentParser:
             "kinpress groups --matrix dist.json --cut 0.8",
         ),
     )
-    groups.add_argument("inputs", nargs="*", metavar="INPUT", help="files, folders, or - (stdin)")
-    groups.add_argument("--matrix", metavar="FILE", help="a matrix written by 'kinpress matrix'")
-    _matrix_options(groups)
+    _inputs_or_matrix(groups)
     how = groups.add_argument_group("groups")
     how.add_argument("--k", type=int, metavar="N", help="exactly N groups")
     how.add_argument("--cut", type=float, metavar="DISTANCE", help="groups joined below DISTANCE")

@@ -31,16 +31,18 @@ class FormatWarning(UserWarning):
     """Something was changed to fit a file format (names shortened or made safe)."""
 
 
-def atomic_write(path: str | os.PathLike[str], text: str) -> None:
-    """Write text to `path` through a temporary file in the same folder, then rename it.
+def atomic_write(path: str | os.PathLike[str], content: str | bytes) -> None:
+    """Write text (as UTF-8, line ends as given) or bytes to `path` through a temporary file in
+    the same folder, then rename it.
 
     A reader never sees a half-written file, and an interrupted write leaves the old one intact.
     """
+    data = content.encode("utf-8") if isinstance(content, str) else content
     target = Path(path)
     handle, temporary = tempfile.mkstemp(dir=target.parent or ".", prefix=f".{target.name}.")
     try:
-        with os.fdopen(handle, "w", encoding="utf-8", newline="") as out:
-            out.write(text)
+        with os.fdopen(handle, "wb") as out:
+            out.write(data)
             out.flush()
             os.fsync(out.fileno())
         os.chmod(temporary, 0o644)

@@ -13,7 +13,6 @@ import io
 import math
 import os
 import re
-import tempfile
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -32,6 +31,7 @@ from matplotlib.transforms import offset_copy
 
 from .calibration import RELIABLE_NCD, CalibrationReport
 from .distance import DistanceMatrix
+from .formats import atomic_write
 from .trees import Node, leaf_order, postorder, preorder
 
 __all__ = [
@@ -95,22 +95,7 @@ def write_figure(fig: Figure, path: str | os.PathLike[str]) -> None:
         facecolor="white",
         metadata=_METADATA[fmt],
     )
-    _write_bytes(Path(path), buffer.getvalue())
-
-
-def _write_bytes(target: Path, data: bytes) -> None:
-    """Write ``data`` to a temporary file beside ``target``, then rename it over ``target``."""
-    handle, temporary = tempfile.mkstemp(dir=target.parent, prefix=f".{target.name}.")
-    try:
-        with os.fdopen(handle, "wb") as out:
-            out.write(data)
-            out.flush()
-            os.fsync(out.fileno())
-        os.chmod(temporary, 0o644)
-        os.replace(temporary, target)
-    except BaseException:
-        Path(temporary).unlink(missing_ok=True)
-        raise
+    atomic_write(path, buffer.getvalue())
 
 
 # Text, colours and placement
