@@ -50,3 +50,39 @@ def test_auto_compressor_is_chosen_and_used(capsys: pytest.CaptureFixture[str]) 
 def test_calibrate_rejects_a_bad_spec_before_any_work(capsys: pytest.CaptureFixture[str]) -> None:
     assert cli.main(["calibrate", "-c", "zstd:level=40"]) == 2
     assert "out of range" in capsys.readouterr().err
+
+
+def test_auto_is_the_default_and_its_choice_is_cached(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    cache = tmp_path / "c.sqlite"
+    args = ["matrix", str(GENOMES), "--cache", str(cache), "--format", "json", "--budget", "60"]
+    assert cli.main(args) == 0
+    first = capsys.readouterr()
+    assert "auto: calibrating" in first.err
+    assert cli.main(args) == 0
+    again = capsys.readouterr()
+    assert "auto: the choice for these inputs is in the cache" in again.err
+    assert json.loads(again.out)["compressor"] == json.loads(first.out)["compressor"]
+
+
+def test_auto_warns_when_even_its_choice_cannot_hold_the_largest_pair(
+    monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
+) -> None:
+    import kinpress.calibration as calibration
+
+    class Result:
+        reliable_up_to_bytes = 1000
+
+    class Report:
+        reasons = ("estimated job time with zlib:level=9: under 1 s",)
+
+        def result(self, spec: str) -> Result:
+            return Result()
+
+    monkeypatch.setattr(
+        calibration, "choose_compressor", lambda *a, **k: ("zlib:level=9", Report())
+    )
+    assert cli.main(["matrix", str(GENOMES), "--no-cache", "--format", "json"]) == 0
+    err = capsys.readouterr().err
+    assert "warning: zlib:level=9: reliable up to 1,000 bytes, below the largest pair" in err

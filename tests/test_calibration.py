@@ -213,3 +213,17 @@ def test_plot_calibration_writes_a_png(small_report: CalibrationReport, tmp_path
     plot_calibration(small_report, path, title="generic controls")
     assert path.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     assert path.stat().st_size > 20_000
+
+
+def test_mutation_distance_shows_how_much_shared_content_a_compressor_finds() -> None:
+    # An order-0 coder sees no shared content between a text and its lightly mutated copy
+    # (Cilibrasi & Vitanyi 2005: only symbol statistics), so NCD stays near 1; LZ and PPM coders
+    # find the copy, and their mutation distance is what the recommendation rewards.
+    items = _items([_dna(12_000, seed) for seed in (5, 6)], nucleotide=True)
+    report = calibrate(items, [HuffmanOnly(), "lzma:level=9", "ppmd:order=16"], samples=2,
+                       sample_bytes=8192)  # fmt: skip
+    order0, lzma, ppmd = report.compressors
+    assert order0.mutation_distance > 0.9
+    assert lzma.mutation_distance < 0.5 and ppmd.mutation_distance < 0.6
+    assert report.recommended != order0.spec
+    assert "mutation_distance" in lzma.as_json()

@@ -358,3 +358,23 @@ def test_atomic_write_keeps_line_ends_as_given(tmp_path: Path) -> None:
     target = tmp_path / "crlf.csv"
     atomic_write(target, "a\r\nb\n")
     assert target.read_bytes() == b"a\r\nb\n"
+
+
+def test_writing_to_a_device_or_pipe_keeps_it_what_it_is(tmp_path: Path) -> None:
+    import os
+    import stat
+    import threading
+
+    from kinpress.formats import atomic_write
+
+    fifo = tmp_path / "pipe"
+    os.mkfifo(fifo)
+    received: list[bytes] = []
+    reader = threading.Thread(target=lambda: received.append(fifo.read_bytes()))
+    reader.start()
+    atomic_write(fifo, "through the pipe\n")
+    reader.join(timeout=10)
+    assert received == [b"through the pipe\n"]
+    assert stat.S_ISFIFO(os.stat(fifo).st_mode)
+    atomic_write("/dev/null", "nothing\n")
+    assert stat.S_ISCHR(os.stat("/dev/null").st_mode)

@@ -25,6 +25,7 @@ CREATE TABLE IF NOT EXISTS sizes (
     PRIMARY KEY (compressor, method, a, b)
 ) WITHOUT ROWID;
 CREATE TABLE IF NOT EXISTS meta (key TEXT PRIMARY KEY, value TEXT NOT NULL);
+CREATE TABLE IF NOT EXISTS choices (key TEXT PRIMARY KEY, value TEXT NOT NULL);
 """
 
 
@@ -122,6 +123,24 @@ class SizeCache:
             with self._db:
                 self._db.execute("BEGIN IMMEDIATE")
                 self._db.executemany("INSERT OR IGNORE INTO sizes VALUES (?, ?, ?, ?, ?)", values)
+        except sqlite3.DatabaseError as error:
+            self._recover(error)
+
+    def get_choice(self, key: str) -> str | None:
+        """A stored decision (such as the compressor calibration chose), or None."""
+        try:
+            row = self._db.execute("SELECT value FROM choices WHERE key = ?", (key,)).fetchone()
+        except sqlite3.DatabaseError as error:
+            self._recover(error)
+            return None
+        return None if row is None else str(row[0])
+
+    def put_choice(self, key: str, value: str) -> None:
+        """Store a decision so that a rerun on the same inputs need not decide again."""
+        try:
+            with self._db:
+                self._db.execute("BEGIN IMMEDIATE")
+                self._db.execute("INSERT OR REPLACE INTO choices VALUES (?, ?)", (key, value))
         except sqlite3.DatabaseError as error:
             self._recover(error)
 

@@ -36,10 +36,11 @@ Rules (the constants below hold the numbers):
 * recommendation: a compressor qualifies when the two largest items together fit its reliable size
   (so does every item and every pair, and each item's own x+x); among those the lowest quality
   score |identity bias| + max(shuffle similarity, 0) + (1 - monotonicity) + resolution (1 when
-  none) wins; scores within ``QUALITY_TIE`` (0.02) of the best count as equal and the fastest of
-  them is taken. The reliable-size test is conservative: an LZ match from y back into x may lie
-  up to |x| + |y| back, while a block sorter needs only |x| + |y| <= its block, twice the item
-  size the sweep reports. :func:`choose_compressor` also drops those whose whole job would
+  none) + mutation distance (mean NCD to copies with 1-10 % substituted) wins; scores within
+  ``QUALITY_TIE`` (0.02) of the best count as equal and the fastest of them is taken. The
+  reliable-size test is conservative: an LZ match from y back into x may lie up to |x| + |y|
+  back, while a block sorter needs only |x| + |y| <= its block, twice the item size the sweep
+  reports. :func:`choose_compressor` also drops those whose whole job would
   overrun a time budget (estimated from the measured throughput).
 """
 
@@ -111,6 +112,7 @@ RESOLUTION_MARGIN = 0.02
 TOLERANCE_BYTES = 16
 TOLERANCE_FRACTION = 0.02
 QUALITY_TIE = 0.02
+RELATED_RATE = 0.10
 
 _DNA = b"ACGT"
 # Streams of the seed: each control draws from its own, so adding a candidate or a sample does
@@ -492,16 +494,26 @@ class CompressorCalibration:
     seconds: float
 
     @property
+    def mutation_distance(self) -> float:
+        """Mean NCD of x to its copies with 1-10 % of symbols substituted: how much of the shared
+        content the compressor finds between close relatives. C only ever overestimates the
+        Kolmogorov complexity, so at equal rates the lower distance is nearer the ideal (the
+        independence and shuffle controls guard against a compressor low on everything)."""
+        near = [d for rate, d in self.mutation_ladder if 0 < rate <= RELATED_RATE]
+        return float(np.mean(near)) if near else 1.0
+
+    @property
     def quality(self) -> float:
         """|identity bias| + max(shuffle similarity, 0) + (1 - monotonicity) + resolution (1 if
-        none): 0 for an ideal compressor, lower is better. A negative shuffle similarity is
-        overshoot (NCD above 1), which ``independence`` reports, not similarity."""
+        none) + mutation distance: lower is better. A negative shuffle similarity is overshoot
+        (NCD above 1), which ``independence`` reports, not similarity."""
         resolution = 1.0 if self.mutation_resolution is None else self.mutation_resolution
         return (
             abs(self.identity_bias)
             + max(self.shuffle_similarity, 0.0)
             + (1.0 - self.mutation_monotonicity)
             + resolution
+            + self.mutation_distance
         )
 
     def as_json(self) -> dict[str, object]:
@@ -513,6 +525,7 @@ class CompressorCalibration:
             "shuffle_similarity": self.shuffle_similarity,
             "mutation_monotonicity": self.mutation_monotonicity,
             "mutation_resolution": self.mutation_resolution,
+            "mutation_distance": self.mutation_distance,
             "reliable_up_to_bytes": self.reliable_up_to_bytes,
             "reliable_capped": self.reliable_capped,
             "overhead_bytes": self.overhead_bytes,
@@ -676,7 +689,8 @@ def _summary(result: CompressorCalibration) -> str:
     return (
         f"identity bias {result.identity_bias:.3f}, shuffle similarity "
         f"{result.shuffle_similarity:.3f}, monotonicity {result.mutation_monotonicity:.2f}, "
-        f"{resolution}, {result.throughput_mb_s:.3g} MB/s"
+        f"{resolution}, distance {result.mutation_distance:.3f} to copies with 1-10 % "
+        f"substituted, {result.throughput_mb_s:.3g} MB/s"
     )
 
 

@@ -5,6 +5,7 @@ from __future__ import annotations
 import argparse
 import dataclasses
 import difflib
+import hashlib
 import json
 import os
 import sys
@@ -16,12 +17,19 @@ from typing import Any, TextIO
 
 from .cache import SizeCache, default_cache_path
 from .compressors import ADAPTERS, SpecError, compressor, describe
-from .distance import CONDITIONALS, STRANDS, DistanceMatrix, Progress, distance_matrix
+from .distance import (
+    CONDITIONALS,
+    STRANDS,
+    DistanceMatrix,
+    MeasurementWarning,
+    Progress,
+    distance_matrix,
+)
 from .engine import LocalEngine
 from .formats import MATRIX_FORMATS, emit, format_for, read_matrix, write_matrix
 from .items import InputError, Item, load_items, read_labels
 
-DEFAULT_COMPRESSOR = "zstd:level=19"
+DEFAULT_COMPRESSOR = "auto"
 
 
 class UsageError(Exception):
@@ -427,16 +435,60 @@ def compute_matrix(args: argparse.Namespace, console: Console) -> tuple[Distance
 
 
 def resolve_compressor(args: argparse.Namespace, items: Sequence[Item], console: Console) -> str:
-    """The spec to use: as given, or with -c auto the one calibration recommends for the items."""
+    """The spec to use: as given, or with auto the one calibration recommends for the items.
+
+    The choice is kept in the cache, keyed by the items' contents, the candidates (with their
+    library versions), the seed, the budget and the cores, so a rerun does not calibrate again.
+    """
     if args.compressor != "auto":
         return str(args.compressor)
-    from .calibration import choose_compressor
+    from .calibration import DEFAULT_CANDIDATES, DEFAULT_SEED, choose_compressor
+    from .distance import content_digest
+    from .engine import available_cores
 
-    console.say("auto: calibrating the compressors on these inputs ...")
-    spec, report = choose_compressor(items, budget_seconds=args.budget, jobs=args.jobs)
-    console.say(f"auto: chose {spec}: {report.reasons[-1] if report.reasons else ''}")
-    args.compressor = spec
-    return spec
+    cores = args.jobs or available_cores()
+    key = (
+        "auto:"
+        + hashlib.blake2b(
+            "\n".join(
+                [
+                    *sorted(content_digest(item.data).hex() for item in items),
+                    *(compressor(spec).cache_key for spec in DEFAULT_CANDIDATES),
+                    f"seed={DEFAULT_SEED} budget={args.budget} cores={cores}",
+                ]
+            ).encode(),
+            digest_size=16,
+        ).hexdigest()
+    )
+    cache = _cache(args)
+    try:
+        stored = cache.get_choice(key) if cache is not None else None
+        if stored is None:
+            console.say("auto: calibrating the compressors on these inputs ...")
+            spec, report = choose_compressor(items, budget_seconds=args.budget, jobs=args.jobs)
+            pair = int(sum(sorted((len(item.data) for item in items), reverse=True)[:2]))
+            reliable = report.result(spec).reliable_up_to_bytes
+            stored = json.dumps(
+                {"spec": spec, "why": report.reasons[-1], "reliable": reliable, "pair": pair}
+            )
+            if cache is not None:
+                cache.put_choice(key, stored)
+        else:
+            console.say("auto: the choice for these inputs is in the cache")
+    finally:
+        if cache is not None:
+            cache.close()
+    choice = json.loads(stored)
+    console.say(f"auto: chose {choice['spec']}: {choice['why']}")
+    if choice["reliable"] < choice["pair"]:
+        warnings.warn(
+            f"{choice['spec']}: reliable up to {choice['reliable']:,} bytes, below the largest"
+            f" pair of items ({choice['pair']:,} bytes); their distances drift towards 1",
+            MeasurementWarning,
+            stacklevel=2,
+        )
+    args.compressor = choice["spec"]
+    return str(choice["spec"])
 
 
 def matrix_for(args: argparse.Namespace, console: Console) -> tuple[DistanceMatrix, list[Item]]:
@@ -732,7 +784,7 @@ def run_calibrate(args: argparse.Namespace, console: Console) -> int:
 
 def _calibration_text(report: Any) -> str:
     header = ("compressor", "identity", "independent", "shuffle", "monotone", "resolves",
-              "reliable to", "MB/s")  # fmt: skip
+              "related", "reliable to", "MB/s")  # fmt: skip
     rows = [header]
     for r in report.compressors:
         rows.append(
@@ -743,6 +795,7 @@ def _calibration_text(report: Any) -> str:
                 f"{r.shuffle_similarity:.3f}",
                 f"{r.mutation_monotonicity:.2f}",
                 "-" if r.mutation_resolution is None else f"{r.mutation_resolution:.0%}",
+                f"{r.mutation_distance:.3f}",
                 ("≥" if r.reliable_capped else "") + _human(r.reliable_up_to_bytes),
                 f"{r.throughput_mb_s:.3g}",
             )
@@ -756,7 +809,8 @@ def _calibration_text(report: Any) -> str:
         "",
         "identity: mean NCD(x,x), ideal 0; independent: NCD of unrelated data, ideal 1; shuffle:"
         " 1 - NCD(x, shuffled x), ideal 0; monotone: rank correlation of distance with mutation"
-        f" rate, ideal 1; resolves: smallest mutation rate told from identity (seed {report.seed})",
+        f" rate, ideal 1; resolves: smallest mutation rate told from identity; related: mean NCD to"
+        f" copies with 1-10 % substituted, lower finds more shared content (seed {report.seed})",
     ]
     return "\n".join(lines) + "\n"
 

@@ -36,9 +36,15 @@ def atomic_write(path: str | os.PathLike[str], content: str | bytes) -> None:
     the same folder, then rename it.
 
     A reader never sees a half-written file, and an interrupted write leaves the old one intact.
+    Devices and pipes are written to directly.
     """
     data = content.encode("utf-8") if isinstance(content, str) else content
     target = Path(path)
+    if target.exists() and not target.is_file():
+        # A device or pipe (/dev/null, a FIFO): renaming over it would replace it with a file.
+        with open(target, "wb") as out:
+            out.write(data)
+        return
     handle, temporary = tempfile.mkstemp(dir=target.parent or ".", prefix=f".{target.name}.")
     try:
         with os.fdopen(handle, "wb") as out:
