@@ -73,6 +73,8 @@ def test_auto_warns_when_even_its_choice_cannot_hold_the_largest_pair(
 
     class Result:
         reliable_up_to_bytes = 1000
+        reliable_capped = False
+        window_bytes = 32768
 
     class Report:
         reasons = ("estimated job time with zlib:level=9: under 1 s",)

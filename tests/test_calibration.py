@@ -227,3 +227,22 @@ def test_mutation_distance_shows_how_much_shared_content_a_compressor_finds() ->
     assert lzma.mutation_distance < 0.5 and ppmd.mutation_distance < 0.6
     assert report.recommended != order0.spec
     assert "mutation_distance" in lzma.as_json()
+
+
+def test_a_sweep_stopped_for_time_falls_back_on_the_documented_window() -> None:
+    from dataclasses import replace
+
+    from kinpress.calibration import holds, size_sweep
+
+    # A slow compressor is not swept up to a large pair: the time guard stops it early.
+    sweep = size_sweep("brotli:level=11", need=8 << 20, seconds=0.5)
+    assert sweep.capped and sweep.reliable_up_to_bytes < 8 << 20
+    items = _items([_dna(4000, seed) for seed in range(2)], nucleotide=True)
+    zstd = calibrate(items, ["zstd:level=3"], samples=1, sample_bytes=2048).compressors[0]
+    # RFC 8878 and libzstd's table: level 3 has a 2 MiB window, which holds a 1 MB pair.
+    capped = replace(zstd, reliable_up_to_bytes=4096, reliable_capped=True)
+    assert holds(capped, 1_000_000)
+    assert not holds(capped, 4_000_000)  # beyond the documented window
+    broken = replace(capped, reliable_capped=False)  # a measured break wins
+    assert not holds(broken, 1_000_000)
+    assert not holds(replace(capped, window_bytes=None), 1_000_000)  # no window documented

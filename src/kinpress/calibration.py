@@ -377,15 +377,17 @@ def size_sweep(
     doubling from 1 KiB until it breaks down (module rules) or reaches ``max_bytes``.
 
     With ``need`` (the size of the largest pair of a job) the sweep ends at that size instead.
-    Beyond ``need`` a step is skipped when, at twice the previous step's time, it would take the
-    sweep past ``seconds``; brotli at quality 11 and PPMd compress random data at a few MB/s.
+    A step is skipped when, at twice the previous step's time, it would take the sweep past
+    ``seconds`` (brotli at quality 11 and PPMd compress random data at a few MB/s): then the
+    sweep is capped and its reliable size a lower bound. Below ``need`` that means a compressor
+    too slow to show, within the calibration's time, that it holds the job's largest pair; with
+    a few large items, sweeping every candidate up to the pair would cost more than the job.
     """
     meter = _Meter(compressor(comp))
     points: list[tuple[int, float]] = []
     reliable, floor, previous = 0, None, 0.0
     for size in _sweep_sizes(max_bytes, need):
-        beyond_need = need is None or size > need
-        if beyond_need and meter.seconds + 2 * previous > seconds:
+        if points and meter.seconds + 2 * previous > seconds:
             return SizeSweep(tuple(points), reliable, capped=True)
         started = meter.seconds
         x = _random_over(_rng(seed, _STREAM_SWEEP, size), alphabet, size)
@@ -666,8 +668,15 @@ def _binary(n: int) -> str:
     return _size(n)
 
 
-def _fits(result: CompressorCalibration, need: int | None) -> bool:
-    return need is None or result.reliable_up_to_bytes >= need
+def holds(result: CompressorCalibration, need: int | None) -> bool:
+    """Whether a compressor holds a pair of `need` bytes: by its measured reliable size, or, when
+    its sweep was stopped for time before reaching `need`, by its documented window (checked
+    against the standards in the tests); a measured break always wins over the documentation."""
+    if need is None or result.reliable_up_to_bytes >= need:
+        return True
+    return (
+        result.reliable_capped and result.window_bytes is not None and result.window_bytes >= need
+    )
 
 
 def _too_small(result: CompressorCalibration, largest: int, need: int) -> str:
@@ -727,7 +736,7 @@ def _recommend(
     """The recommended spec and why, in plain words; ``slow`` says why a candidate is too slow
     for the job (None: quick enough)."""
     pair = need.pair if need else None
-    fitting = [r for r in results if _fits(r, pair)]
+    fitting = [r for r in results if holds(r, pair)]
     verdicts = {r.spec: slow(r) for r in fitting}
     quick = [r for r in fitting if verdicts[r.spec] is None]
     reasons = [_too_small(r, need.largest, need.pair) for r in results if need and r not in fitting]

@@ -442,7 +442,7 @@ def resolve_compressor(args: argparse.Namespace, items: Sequence[Item], console:
     """
     if args.compressor != "auto":
         return str(args.compressor)
-    from .calibration import DEFAULT_CANDIDATES, DEFAULT_SEED, choose_compressor
+    from .calibration import DEFAULT_CANDIDATES, DEFAULT_SEED, choose_compressor, holds
     from .distance import content_digest
     from .engine import available_cores
 
@@ -467,9 +467,15 @@ def resolve_compressor(args: argparse.Namespace, items: Sequence[Item], console:
             console.say("auto: calibrating the compressors on these inputs ...")
             spec, report = choose_compressor(items, budget_seconds=args.budget, jobs=args.jobs)
             pair = int(sum(sorted((len(item.data) for item in items), reverse=True)[:2]))
-            reliable = report.result(spec).reliable_up_to_bytes
+            result = report.result(spec)
             stored = json.dumps(
-                {"spec": spec, "why": report.reasons[-1], "reliable": reliable, "pair": pair}
+                {
+                    "spec": spec,
+                    "why": report.reasons[-1],
+                    "holds": holds(result, pair),
+                    "reliable": result.reliable_up_to_bytes,
+                    "pair": pair,
+                }
             )
             if cache is not None:
                 cache.put_choice(key, stored)
@@ -480,7 +486,7 @@ def resolve_compressor(args: argparse.Namespace, items: Sequence[Item], console:
             cache.close()
     choice = json.loads(stored)
     console.say(f"auto: chose {choice['spec']}: {choice['why']}")
-    if choice["reliable"] < choice["pair"]:
+    if not choice["holds"]:
         warnings.warn(
             f"{choice['spec']}: reliable up to {choice['reliable']:,} bytes, below the largest"
             f" pair of items ({choice['pair']:,} bytes); their distances drift towards 1",
