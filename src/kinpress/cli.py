@@ -403,10 +403,28 @@ def _load(args: argparse.Namespace) -> list[Item]:
     return load_items(args.inputs, args.split, args.labels, exclude=_written(args))
 
 
-def _cache(args: argparse.Namespace) -> SizeCache | None:
+@contextmanager
+def _opened_cache(args: argparse.Namespace) -> Iterator[SizeCache | None]:
+    """The size cache the command line names (None with --no-cache), closed afterwards."""
     if args.no_cache:
-        return None
-    return SizeCache(args.cache or default_cache_path())
+        yield None
+        return
+    cache = SizeCache(args.cache or default_cache_path())
+    try:
+        yield cache
+    finally:
+        cache.close()
+
+
+@contextmanager
+def _as_usage_errors() -> Iterator[None]:
+    """Library ValueErrors about the user's request become usage errors (exit 2, one line)."""
+    try:
+        yield
+    except (InputError, SpecError):
+        raise
+    except ValueError as error:
+        raise UsageError(str(error)) from None
 
 
 def compute_matrix(args: argparse.Namespace, console: Console) -> tuple[DistanceMatrix, list[Item]]:
@@ -415,21 +433,16 @@ def compute_matrix(args: argparse.Namespace, console: Console) -> tuple[Distance
         raise UsageError(f"--jobs {args.jobs}: the worker count must be at least 1")
     items = _load(args)
     comp = compressor(resolve_compressor(args, items, console))
-    cache = _cache(args)
-    try:
-        with console.progress() as progress:
-            dm = distance_matrix(
-                items,
-                comp,
-                conditional=args.conditional,
-                strand=args.strand,
-                engine=LocalEngine(args.jobs),
-                cache=cache,
-                progress=progress,
-            )
-    finally:
-        if cache is not None:
-            cache.close()
+    with _opened_cache(args) as cache, console.progress() as progress:
+        dm = distance_matrix(
+            items,
+            comp,
+            conditional=args.conditional,
+            strand=args.strand,
+            engine=LocalEngine(args.jobs),
+            cache=cache,
+            progress=progress,
+        )
     console.say(summary(dm))
     return dm, items
 
@@ -460,8 +473,7 @@ def resolve_compressor(args: argparse.Namespace, items: Sequence[Item], console:
             digest_size=16,
         ).hexdigest()
     )
-    cache = _cache(args)
-    try:
+    with _opened_cache(args) as cache:
         stored = cache.get_choice(key) if cache is not None else None
         if stored is None:
             console.say("auto: calibrating the compressors on these inputs ...")
@@ -481,9 +493,6 @@ def resolve_compressor(args: argparse.Namespace, items: Sequence[Item], console:
                 cache.put_choice(key, stored)
         else:
             console.say("auto: the choice for these inputs is in the cache")
-    finally:
-        if cache is not None:
-            cache.close()
     choice = json.loads(stored)
     console.say(f"auto: chose {choice['spec']}: {choice['why']}")
     if not choice["holds"]:
@@ -604,7 +613,7 @@ def run_tree(args: argparse.Namespace, console: Console) -> int:
     _check_plot(args.plot)
     dm, items = matrix_for(args, console)
     outgroup = _outgroup(args.outgroup, dm.labels)
-    try:
+    with _as_usage_errors():
         tree = build_tree(dm.labels, dm.distances, method=args.method, outgroup=outgroup)
         if args.bootstrap:
             with console.progress() as progress:
@@ -621,8 +630,6 @@ def run_tree(args: argparse.Namespace, console: Console) -> int:
                     engine=LocalEngine(args.jobs),
                     progress=None if progress is None else partial(progress, "replicates"),
                 )
-    except ValueError as error:
-        raise UsageError(str(error)) from None
     if outgroup is not None and args.bootstrap:
         tree = outgroup_root(tree, outgroup)
     fit = fit_correlation(tree, dm.labels, dm.distances)
@@ -675,10 +682,8 @@ def run_groups(args: argparse.Namespace, console: Console) -> int:
     if args.k is not None and args.cut is not None:
         raise UsageError("give --k or --cut, not both")
     dm, _ = matrix_for(args, console)
-    try:
+    with _as_usage_errors():
         grouping = find_groups(dm.distances, k=args.k, cut=args.cut, report_outliers=args.outliers)
-    except ValueError as error:
-        raise UsageError(str(error)) from None
     rows = ["item\tgroup\tmedoid\toutlier"]
     for name, group, is_medoid, outlier in zip(
         dm.labels, grouping.assignment, grouping.is_medoid, grouping.is_outlier, strict=True
@@ -842,22 +847,12 @@ def run_classify(args: argparse.Namespace, console: Console) -> int:
         "conditional": args.conditional,
         "engine": LocalEngine(args.jobs),
     }
-    cache = _cache(args)
-    try:
-        with console.progress() as progress:
-            if args.evaluate:
-                result = evaluate(reference, spec, cache=cache, progress=progress, **options)
-            else:
-                unknowns = load_items(args.inputs, args.split, exclude=_written(args))
-                found = classify(unknowns, reference, spec, cache=cache, progress=progress,
-                                 **options)  # fmt: skip
-    except ValueError as error:
-        if isinstance(error, (InputError, SpecError)):
-            raise
-        raise UsageError(str(error)) from None
-    finally:
-        if cache is not None:
-            cache.close()
+    with _as_usage_errors(), _opened_cache(args) as cache, console.progress() as progress:
+        if args.evaluate:
+            result = evaluate(reference, spec, cache=cache, progress=progress, **options)
+        else:
+            unknowns = load_items(args.inputs, args.split, exclude=_written(args))
+            found = classify(unknowns, reference, spec, cache=cache, progress=progress, **options)
     if args.evaluate:
         emit(_evaluation_text(result) if not args.json else json.dumps(
             _evaluation_json(result), indent=1) + "\n", args.output)  # fmt: skip
@@ -923,26 +918,17 @@ def run_derived(args: argparse.Namespace, console: Console) -> int:
 
     items = _load(args)
     spec = resolve_compressor(args, items, console)
-    cache = _cache(args)
-    try:
-        with console.progress() as progress:
-            report = find_derived(
-                items,
-                spec,
-                exhaustive=args.exhaustive,
-                max_fpr=args.max_fpr,
-                seed=args.seed,
-                engine=LocalEngine(args.jobs),
-                cache=cache,
-                progress=progress,
-            )
-    except ValueError as error:
-        if isinstance(error, (InputError, SpecError)):
-            raise
-        raise UsageError(str(error)) from None
-    finally:
-        if cache is not None:
-            cache.close()
+    with _as_usage_errors(), _opened_cache(args) as cache, console.progress() as progress:
+        report = find_derived(
+            items,
+            spec,
+            exhaustive=args.exhaustive,
+            max_fpr=args.max_fpr,
+            seed=args.seed,
+            engine=LocalEngine(args.jobs),
+            cache=cache,
+            progress=progress,
+        )
     c = report.counts
     console.say(
         f"derived: {len(report.findings)} findings among {c.possible} pairs; {c.candidates}"
