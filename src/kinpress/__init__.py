@@ -8,6 +8,7 @@
 
 from __future__ import annotations
 
+from ._version import __version__
 from .cache import SizeCache, default_cache_path
 from .compressors import Compressor, SpecError, compressor
 from .distance import (
@@ -35,14 +36,6 @@ def __getattr__(name: str) -> object:
         from importlib import import_module
 
         return getattr(import_module(f".{_LAZY[name]}", __name__), name)
-    # The installed version, looked up on first use: importlib.metadata is slow to import.
-    if name == "__version__":
-        from importlib.metadata import PackageNotFoundError, version
-
-        try:
-            return version("kinpress")
-        except PackageNotFoundError:  # a source tree that is not installed
-            return "0+unknown"
     raise AttributeError(f"module 'kinpress' has no attribute {name!r}")
 
 

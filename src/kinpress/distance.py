@@ -20,7 +20,7 @@ import numpy as np
 
 from .cache import SizeCache
 from .compressors import ADAPTERS, Compressor, SpecError, compressor
-from .engine import Engine, LocalEngine, SizeJob, Tile, plan_tiles, tile_bytes
+from .engine import Engine, LocalEngine, SizeJob, Tile, plan_tiles
 from .items import InputError, Item
 
 CONDITIONALS = ("concat", "primed")
@@ -105,6 +105,8 @@ class _Sizes:
         self.data, self.digests, self.comp, self.job = data, digests, comp, job
         self.engine, self.cache, self.progress = engine, cache, progress
         self.bytes_compressed = 0
+        self.last_cached = np.zeros(0, dtype=bool)  # which of the last fetch's keys were cached
+        self._lengths = np.array([len(d) for d in data], dtype=np.int64)
 
     def fetch(
         self, phase: str, first: np.ndarray, second: np.ndarray | None
@@ -118,6 +120,7 @@ class _Sizes:
         stored = self.cache.get_many(self.comp.cache_key, method, keys) if self.cache else {}
         out = np.array([stored.get(k, -1) for k in keys], dtype=np.int64)
         todo = np.flatnonzero(out < 0)
+        self.last_cached = out >= 0
         if todo.size:
             self._compute(phase, method, first, second, todo, keys, out)
         return out, len(keys) - int(todo.size)
@@ -148,9 +151,11 @@ class _Sizes:
         for tile, sizes in self.engine.run(self.data, self.job, tiles):
             slots = where[tile]
             out[slots] = sizes
-            self.bytes_compressed += tile_bytes(self.data, tile) * (
-                2 if self.job.strand == "both" and not tile.singles else 1
-            )
+            fed = int(self._lengths[list(tile.first)].sum())
+            if not tile.singles:  # pairs feed both sides, twice when both strands are tried
+                fed += int(self._lengths[list(tile.second)].sum())
+                fed *= 2 if self.job.strand == "both" else 1
+            self.bytes_compressed += fed
             if self.cache is not None:
                 rows = [(*keys[k], int(out[k])) for k in slots]
                 self.cache.put_many(self.comp.cache_key, method, rows)
@@ -315,11 +320,15 @@ def distance_matrix(
     ii, jj = np.triu_indices(m, k=1)
     swap = position[ii] > position[jj]
     small, large = np.where(swap, jj, ii), np.where(swap, ii, jj)
-    order = np.argsort(small, kind="stable")
-    small, large = small[order], large[order]
-
-    self_sizes, self_cached = sizes.fetch("self pairs", diag, diag)
-    pair_sizes, pairs_cached = sizes.fetch("pairs", small, large)
+    # Self pairs C(xx) join the pairs in one pass: no second wait for the slowest tile.
+    given, target = np.concatenate([diag, small]), np.concatenate([diag, large])
+    order = np.argsort(given, kind="stable")
+    found = np.empty(len(given), dtype=np.int64)
+    found[order], _ = sizes.fetch("pairs", given[order], target[order])
+    cached = np.zeros(len(given), dtype=bool)
+    cached[order] = sizes.last_cached
+    self_sizes, pair_sizes = found[:m], found[m:]
+    self_cached, pairs_cached = int(cached[:m].sum()), int(cached[m:].sum())
     if conditional == "concat":
         self_sizes = self_sizes - single
         pair_sizes = pair_sizes - single[small]

@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-import pyppmd
-
 from .base import Compressor, Param
 
 
@@ -24,8 +22,12 @@ class Ppmd(Compressor):
 
     @staticmethod
     def library_version() -> str:
+        import pyppmd  # imported on use: it costs more start-up time than every other adapter
+
         return "pyppmd-" + str(pyppmd.__version__)
 
     def size(self, data: bytes) -> int:
+        import pyppmd
+
         encoder = pyppmd.Ppmd7Encoder(self.setting("order"), self.setting("memory") << 20)
         return len(encoder.encode(data)) + len(encoder.flush(endmark=False))

@@ -8,7 +8,7 @@ from typing import Protocol
 import numpy as np
 
 from .local import LocalEngine, available_cores
-from .tiles import SizeJob, Tile, plan_tiles, run_tile, tile_bytes
+from .tiles import SizeJob, Tile, plan_tiles, run_tile
 
 __all__ = [
     "Engine",
@@ -18,7 +18,6 @@ __all__ = [
     "available_cores",
     "plan_tiles",
     "run_tile",
-    "tile_bytes",
 ]
 
 

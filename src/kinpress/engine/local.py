@@ -9,7 +9,6 @@ from concurrent.futures import FIRST_COMPLETED, Future, ThreadPoolExecutor, wait
 import numpy as np
 
 from ..compressors import compressor
-from .processes import WorkerProcesses
 from .tiles import SizeJob, Tile, run_tile
 
 
@@ -48,6 +47,8 @@ class LocalEngine:
         self, items: Sequence[bytes], job: SizeJob, tiles: Sequence[Tile]
     ) -> Iterator[tuple[Tile, np.ndarray]]:
         if not compressor(job.spec).releases_gil:
+            from .processes import WorkerProcesses  # subprocess is slow to import; rarely needed
+
             with WorkerProcesses(self.jobs, items) as workers:
                 yield from workers.run(job, tiles)
             return

@@ -57,13 +57,6 @@ def compressor_for(spec: str) -> Compressor:
     return cached[spec]
 
 
-def tile_bytes(items: Sequence[bytes], tile: Tile) -> int:
-    """How many input bytes a tile feeds to the compressor (reverse complements not counted)."""
-    if tile.singles:
-        return sum(len(items[i]) for i in tile.first)
-    return sum(len(items[f]) + len(items[s]) for f, s in zip(tile.first, tile.second, strict=True))
-
-
 def run_tile(items: Sequence[bytes], job: SizeJob, tile: Tile) -> np.ndarray:
     """The sizes a tile asks for, in tile order, as int64."""
     comp = compressor_for(job.spec)
