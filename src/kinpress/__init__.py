@@ -19,7 +19,7 @@ from .distance import (
     conditional_sizes,
     distance_matrix,
 )
-from .engine import LocalEngine
+from .engine import DaskEngine, LocalEngine
 from .formats import read_matrix, write_matrix
 from .items import InputError, InputWarning, Item, load_items
 
@@ -43,6 +43,7 @@ __all__ = [
     "CompressionClassifier",
     "Compressor",
     "ConditionalSizes",
+    "DaskEngine",
     "DistanceMatrix",
     "InputError",
     "InputWarning",

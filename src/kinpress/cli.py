@@ -25,7 +25,7 @@ from .distance import (
     Progress,
     distance_matrix,
 )
-from .engine import LocalEngine
+from .engine import ClusterError, DaskEngine, Engine, LocalEngine
 from .formats import MATRIX_FORMATS, emit, format_for, read_matrix, write_matrix
 from .items import InputError, Item, load_items, read_labels
 
@@ -115,6 +115,12 @@ def _matrix_options(parser: argparse.ArgumentParser, conditional: str = "concat"
     group.add_argument("--labels", metavar="FILE", help="TSV of item<TAB>label: known labels")
     run = parser.add_argument_group("running")
     run.add_argument("--jobs", type=int, metavar="N", help="worker count (default: all cores)")
+    run.add_argument(
+        "--cluster",
+        metavar="ADDRESS",
+        help="run on the Dask cluster whose scheduler is at ADDRESS (tcp://host:8786) instead of "
+        "this machine's cores; needs the dask extra",
+    )
     run.add_argument("--cache", metavar="PATH", help=f"size cache (default {default_cache_path()})")
     run.add_argument("--no-cache", action="store_true", help="compute everything afresh")
 
@@ -417,6 +423,21 @@ def _opened_cache(args: argparse.Namespace) -> Iterator[SizeCache | None]:
 
 
 @contextmanager
+def _opened_engine(args: argparse.Namespace) -> Iterator[Engine]:
+    """This machine's cores (--jobs) or a Dask cluster (--cluster), closed afterwards."""
+    jobs, cluster = getattr(args, "jobs", None), getattr(args, "cluster", None)
+    if jobs is not None and jobs < 1:
+        raise UsageError(f"--jobs {jobs}: the worker count must be at least 1")
+    if cluster is None:
+        yield LocalEngine(jobs)
+        return
+    if jobs is not None:
+        raise UsageError("--jobs counts this machine's workers; a --cluster brings its own")
+    with DaskEngine(cluster) as engine:
+        yield engine
+
+
+@contextmanager
 def _as_usage_errors() -> Iterator[None]:
     """Library ValueErrors about the user's request become usage errors (exit 2, one line)."""
     try:
@@ -429,8 +450,6 @@ def _as_usage_errors() -> Iterator[None]:
 
 def compute_matrix(args: argparse.Namespace, console: Console) -> tuple[DistanceMatrix, list[Item]]:
     """Load the inputs and compute their matrix as the command line asks, reporting on stderr."""
-    if args.jobs is not None and args.jobs < 1:
-        raise UsageError(f"--jobs {args.jobs}: the worker count must be at least 1")
     items = _load(args)
     comp = compressor(resolve_compressor(args, items, console))
     with _opened_cache(args) as cache, console.progress() as progress:
@@ -439,7 +458,7 @@ def compute_matrix(args: argparse.Namespace, console: Console) -> tuple[Distance
             comp,
             conditional=args.conditional,
             strand=args.strand,
-            engine=LocalEngine(args.jobs),
+            engine=args.engine,
             cache=cache,
             progress=progress,
         )
@@ -627,7 +646,7 @@ def run_tree(args: argparse.Namespace, console: Console) -> int:
                     method=args.method,
                     conditional=args.conditional,
                     strand=args.strand,
-                    engine=LocalEngine(args.jobs),
+                    engine=args.engine,
                     progress=None if progress is None else partial(progress, "replicates"),
                 )
     if outgroup is not None and args.bootstrap:
@@ -845,7 +864,7 @@ def run_classify(args: argparse.Namespace, console: Console) -> int:
         "k": args.k,
         "threshold": args.threshold,
         "conditional": args.conditional,
-        "engine": LocalEngine(args.jobs),
+        "engine": args.engine,
     }
     with _as_usage_errors(), _opened_cache(args) as cache, console.progress() as progress:
         if args.evaluate:
@@ -925,7 +944,7 @@ def run_derived(args: argparse.Namespace, console: Console) -> int:
             exhaustive=args.exhaustive,
             max_fpr=args.max_fpr,
             seed=args.seed,
-            engine=LocalEngine(args.jobs),
+            engine=args.engine,
             cache=cache,
             progress=progress,
         )
@@ -997,7 +1016,8 @@ def main(argv: Sequence[str] | None = None) -> int:
     console = Console(args.quiet)
     warnings.showwarning = _show_warning
     try:
-        return COMMANDS[args.command](args, console)
+        with _opened_engine(args) as args.engine:
+            return COMMANDS[args.command](args, console)
     except (InputError, SpecError, UsageError) as error:
         if args.debug:
             raise
@@ -1013,6 +1033,11 @@ def main(argv: Sequence[str] | None = None) -> int:
             file=sys.stderr,
         )
         return 130
+    except ClusterError as error:
+        if args.debug:
+            raise
+        print(f"kinpress: error: {error}", file=sys.stderr)
+        return 1
     except OSError as error:
         if args.debug:
             raise

@@ -7,10 +7,13 @@ from typing import Protocol
 
 import numpy as np
 
+from .cluster import ClusterError, DaskEngine
 from .local import LocalEngine, available_cores
 from .tiles import SizeJob, Tile, plan_tiles, run_tile
 
 __all__ = [
+    "ClusterError",
+    "DaskEngine",
     "Engine",
     "LocalEngine",
     "SizeJob",
@@ -24,7 +27,8 @@ __all__ = [
 class Engine(Protocol):
     """Anything that can run tiles: `jobs` workers, results as they finish."""
 
-    jobs: int
+    @property
+    def jobs(self) -> int: ...
 
     def run(
         self, items: Sequence[bytes], job: SizeJob, tiles: Sequence[Tile]
