@@ -319,6 +319,26 @@ def test_folders_are_read_recursively_sorted_and_without_hidden_files(tmp_path: 
     assert [i.name for i in load_items([root])] == ["c.txt", "z.txt", "b.txt"]
 
 
+def test_side_files_in_a_folder_of_sequences_are_left_out_unless_named(tmp_path: Path) -> None:
+    genomes = tmp_path / "genomes"
+    genomes.mkdir()
+    for name in ("ab.fa", "cd.fasta", "ef.gb.gz"):
+        (genomes / name).write_bytes(b"")
+    (genomes / "labels.tsv").write_bytes(b"ab.fa\tfrog\n")
+    (genomes / "notes").mkdir()
+    (genomes / "notes" / "README.md").write_bytes(b"# notes\n")
+    with pytest.warns(InputWarning, match=r"left out 2 file\(s\).*labels\.tsv, notes/README\.md"):
+        found = expand_paths([genomes])
+    assert found == [str(genomes / n) for n in ("ab.fa", "cd.fasta", "ef.gb.gz")]
+    # Named on its own, a side file is kept; in a folder of mostly other files nothing is dropped.
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        assert expand_paths([genomes / "ab.fa", genomes / "labels.tsv"])[-1].endswith("labels.tsv")
+        (genomes / "more.txt").write_bytes(b"x")
+        (genomes / "extra.txt").write_bytes(b"y")
+        assert len(expand_paths([genomes])) == 7
+
+
 def test_hidden_file_named_explicitly_is_read(tmp_path: Path) -> None:
     (tmp_path / ".env.txt").write_bytes(b"x=1\n")
     assert [i.name for i in load_items([tmp_path / ".env.txt"])] == [".env.txt"]

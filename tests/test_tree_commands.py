@@ -209,10 +209,13 @@ def test_real_mitogenome_tree_keeps_mammalian_orders_together(shared_data: Path)
 @pytest.mark.shared
 @pytest.mark.xfail(
     strict=True,
-    reason="measured: no compressor tried (zstd 19/22, lzma 9, brotli 11, ppmd 16/48, bz2, zlib; "
-    "concat and primed; NJ and UPGMA) recovers Chiroptera and Rodentia together from these 19 "
-    "whole mitogenomes; Rodentia is a known hard case (dataset notes; Graur, Hide & Li 1991, "
-    "recalled from memory)",
+    reason="measured: no compressor tried (zstd 15-22, lzma 6/9, brotli 9/11, ppmd 8-48, bz2, "
+    "zlib; concat and primed; NJ and UPGMA; NCD, Li et al. 2001's sum distance, CDM; with and "
+    "without -log(1-d); purine/pyrimidine recoding; an order-2..20 DNA context-mixing model) "
+    "recovers Chiroptera and Rodentia together from these 19 whole mitogenomes, but for a few "
+    "purine/pyrimidine-recoded zstd 19-22 runs in which the mouse is still nearer cattle than "
+    "the squirrel: by chance, not signal. Rodentia is a known hard "
+    "case (dataset notes; Graur, Hide & Li 1991, recalled from memory)",
 )
 @pytest.mark.parametrize("order", ["Chiroptera", "Rodentia"])
 def test_real_mitogenome_tree_keeps_bats_and_rodents_together(
@@ -235,14 +238,14 @@ def test_real_mitogenome_tree_with_the_calibrated_compressor_keeps_bats_together
     # Taxonomy as above (NCBI Taxonomy via labels.tsv). The default compressor is the one
     # calibration chooses for these genomes; with it five of the six orders with two or more
     # species are clades (Rodentia, the known hard case, is not).
+    # The folder as the issue's own example gives it: its labels.tsv is left out, with a warning.
     root = shared_data / "genomes" / "mitogenomes"
-    for genome in root.glob("*.fa"):
-        (tmp_path / genome.name).write_bytes(genome.read_bytes())  # a folder without labels.tsv
     out = tmp_path / "tree.nwk"
-    code = cli.main(["tree", str(tmp_path), "--strand", "both", "--outgroup", "danio_rerio",
+    code = cli.main(["tree", str(root), "--strand", "both", "--outgroup", "danio_rerio",
                      "-o", str(out), "--cache", str(tmp_path / "c.sqlite")])  # fmt: skip
     assert code == 0
-    assert "auto: chose" in capsys.readouterr().err
+    err = capsys.readouterr().err
+    assert "auto: chose" in err and "left out 1 file(s)" in err and "(labels.tsv)" in err
     orders, _ = _orders(root)
     tree = parse_newick(out.read_text())
     found, leaves = splits(tree), frozenset(leaf_order(tree))

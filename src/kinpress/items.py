@@ -244,7 +244,9 @@ def expand_paths(paths: Iterable[str | os.PathLike[str]], exclude: Iterable[str]
     """Files named and files below folders named, each folder's files in sorted order.
 
     Hidden files and folders (names starting with '.') below a folder are skipped, as are the
-    paths in `exclude` (a run's own output file, say).
+    paths in `exclude` (a run's own output file, say). In a folder of mostly sequence files the
+    other files (labels, notes, trees kept beside the genomes) are left out with a warning;
+    files named on their own are always kept.
     """
     skip = {os.path.realpath(p) for p in exclude}
     files: list[str] = []
@@ -259,12 +261,29 @@ def expand_paths(paths: Iterable[str | os.PathLike[str]], exclude: Iterable[str]
             found = sorted(f for f in found if os.path.isfile(f))
             if not found:
                 raise InputError(f"{given}: folder holds no files")
-            files += found
+            files += _sequence_files_if_mostly(given, found)
         elif os.path.exists(given):
             files.append(given)
         else:
             raise InputError(f"{given}: no such file or directory")
     return [f for f in files if f == "-" or os.path.realpath(f) not in skip]
+
+
+def _sequence_files_if_mostly(folder: str, found: list[str]) -> list[str]:
+    """A folder's files, without the few that are not sequence files in a folder of sequences."""
+    other = [f for f in found if sequence_format(f) is None]
+    if not other or 2 * len(other) >= len(found):
+        return found
+    shown = ", ".join(os.path.relpath(f, folder) for f in other[:3]) + (
+        ", ..." if len(other) > 3 else ""
+    )
+    warnings.warn(
+        f"{folder}: left out {len(other)} file(s) that are not sequence files beside its "
+        f"{len(found) - len(other)} sequence files ({shown}); name a file to include it",
+        InputWarning,
+        stacklevel=3,
+    )
+    return [f for f in found if sequence_format(f) is not None]
 
 
 def unique_names(items: Sequence[Item]) -> list[Item]:
