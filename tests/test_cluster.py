@@ -142,6 +142,12 @@ def test_the_command_line_runs_matrix_and_bootstrap_on_a_cluster(
         == 0
     )
     assert (tmp_path / "c.tsv").read_bytes() == (tmp_path / "local.tsv").read_bytes()
+    capsys.readouterr()
+    loud = [a for a in common if a != "--quiet"]
+    assert (
+        main(["matrix", str(logs), *loud, "--cluster", cluster, "-o", str(tmp_path / "d.tsv")]) == 0
+    )
+    assert f"on the Dask cluster at {cluster} (2 worker threads)" in capsys.readouterr().err
 
     frogs = DATASETS / "karsvell-frogs" / "genomes"
     tree = ["tree", str(frogs), "-c", "zstd:level=9", "--no-cache", "--quiet", "--bootstrap", "4"]

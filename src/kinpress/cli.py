@@ -462,7 +462,7 @@ def compute_matrix(args: argparse.Namespace, console: Console) -> tuple[Distance
             cache=cache,
             progress=progress,
         )
-    console.say(summary(dm))
+    console.say(summary(dm, args.engine))
     return dm, items
 
 
@@ -476,9 +476,8 @@ def resolve_compressor(args: argparse.Namespace, items: Sequence[Item], console:
         return str(args.compressor)
     from .calibration import DEFAULT_CANDIDATES, DEFAULT_SEED, choose_compressor, holds
     from .distance import content_digest
-    from .engine import available_cores
 
-    cores = args.jobs or available_cores()
+    cores = args.engine.jobs  # where the job will run: this machine's cores or the cluster's
     key = (
         "auto:"
         + hashlib.blake2b(
@@ -496,7 +495,7 @@ def resolve_compressor(args: argparse.Namespace, items: Sequence[Item], console:
         stored = cache.get_choice(key) if cache is not None else None
         if stored is None:
             console.say("auto: calibrating the compressors on these inputs ...")
-            spec, report = choose_compressor(items, budget_seconds=args.budget, jobs=args.jobs)
+            spec, report = choose_compressor(items, budget_seconds=args.budget, jobs=cores)
             pair = int(sum(sorted((len(item.data) for item in items), reverse=True)[:2]))
             result = report.result(spec)
             stored = json.dumps(
@@ -540,7 +539,7 @@ def matrix_for(args: argparse.Namespace, console: Console) -> tuple[DistanceMatr
     return compute_matrix(args, console)
 
 
-def summary(dm: DistanceMatrix) -> str:
+def summary(dm: DistanceMatrix, engine: Engine | None = None) -> str:
     """The one-line account of a run: what was computed, what came from the cache, how fast."""
     s = dm.stats
     mb = s.bytes_compressed / 1e6
@@ -550,6 +549,8 @@ def summary(dm: DistanceMatrix) -> str:
         extra.append(f"{s.clipped_below_zero} negative distances clipped to 0")
     if s.identical_items:
         extra.append(f"{s.identical_items} items identical to another")
+    if isinstance(engine, DaskEngine) and s.pairs_computed + s.singles_computed:
+        extra.append(f"on the Dask cluster at {engine.address} ({engine.jobs} worker threads)")
     tail = "; " + "; ".join(extra) if extra else ""
     how = dm.conditional + (", both strands" if dm.strand == "both" else "")
     return (
