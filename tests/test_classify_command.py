@@ -11,8 +11,6 @@ from conftest import DATASETS
 from kinpress import cli
 
 LOGS = DATASETS / "quendle-logs" / "logs"
-# zstd level 19, primed: at level 9 the noisy JSON-lines system's own
-# scores rise above the single reference-wide threshold and its chunks are refused.
 FAST = ["-c", "zstd:level=19", "--no-cache", "--quiet", "--split", "lines:200"]
 
 
@@ -64,6 +62,31 @@ def test_known_systems_are_named_and_a_stranger_is_unknown(
         assert sum(p == expected for p in predicted) >= 4, (name, predicted)
 
 
+def test_a_spread_out_origin_gets_its_own_cut_and_keeps_its_items(
+    reference: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # At zstd level 9 the noisy JSON-lines system (brisquet) and fenmeter score above the cut
+    # shared by all origins; their own cuts are raised and their later chunks are still named.
+    unknowns = [_odd_blocks(n, tmp_path) for n in ("brisquet", "fenmeter", "siltcache")]
+    argv = ["classify", "--reference", str(reference), *map(str, unknowns), "--json",
+            "-c", "zstd:level=9", "--no-cache", "--split", "lines:200"]  # fmt: skip
+    assert cli.main(argv) == 0
+    out, err = capsys.readouterr()
+    assert "raised for brisquet" in err and "keeps 90% of its own reference items" in err
+    found = json.loads(out)
+    for name, expected in (("brisquet", "brisquet"), ("fenmeter", "fenmeter"), ("siltcache", None)):
+        predicted = [p["predicted"] for p in found if p["item"].startswith(f"{name}-later.log#")]
+        assert sum(p == expected for p in predicted) >= 4, (name, predicted)
+    # Leave-one-out on the reference: one cut for all (--min-accepted 0) refuses more.
+    evaluate = ["classify", "--reference", str(reference), "--evaluate", "--json",
+                "-c", "zstd:level=9", "--no-cache", "--quiet", "--split", "lines:200"]  # fmt: skip
+    rates = []
+    for share in ("0.9", "0"):
+        assert cli.main([*evaluate, "--min-accepted", share]) == 0
+        rates.append(json.loads(capsys.readouterr().out)["abstention_rate"])
+    assert rates[0] < rates[1]
+
+
 def test_evaluate_reports_accuracy_and_a_confusion_table(
     reference: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:
@@ -72,6 +95,9 @@ def test_evaluate_reports_accuracy_and_a_confusion_table(
     report = json.loads(capsys.readouterr().out)
     assert report["accuracy"] >= 0.9
     assert report["confusion"]["columns"][-1] == "unknown"
+    cuts = report["threshold"]["per_origin"]
+    assert set(cuts) == set(report["origins"])
+    assert all(c >= report["threshold"]["value"] for c in cuts.values())
     chunks = sum(-(-len(p.read_text().splitlines()) // 200) for p in reference.glob("*/even.log"))
     assert sum(map(sum, report["confusion"]["counts"])) == chunks
 

@@ -307,6 +307,9 @@ def build_parser() -> argparse.ArgumentParser:
     decide.add_argument("--k", type=int, default=1, metavar="N", help="neighbours for knn")
     decide.add_argument("--threshold", type=float, metavar="SCORE",
                         help="unknown above this score (default: from the reference)")  # fmt: skip
+    decide.add_argument("--min-accepted", type=float, default=0.9, metavar="FRACTION",
+                        help="raise an origin's cut until this share of its own reference items "
+                        "passes (leave-one-out; default 0.9; 0: one cut for all)")  # fmt: skip
     decide.add_argument("--evaluate", action="store_true",
                         help="leave-one-out on the reference instead")  # fmt: skip
     oout = origin.add_argument_group("output")
@@ -864,6 +867,7 @@ def run_classify(args: argparse.Namespace, console: Console) -> int:
         "method": args.method,
         "k": args.k,
         "threshold": args.threshold,
+        "min_accepted": args.min_accepted,
         "conditional": args.conditional,
         "engine": args.engine,
     }
@@ -874,13 +878,12 @@ def run_classify(args: argparse.Namespace, console: Console) -> int:
             unknowns = load_items(args.inputs, args.split, exclude=_written(args))
             found = classify(unknowns, reference, spec, cache=cache, progress=progress, **options)
     if args.evaluate:
-        emit(_evaluation_text(result) if not args.json else json.dumps(
+        emit(_evaluation_text(result, args.min_accepted) if not args.json else json.dumps(
             _evaluation_json(result), indent=1) + "\n", args.output)  # fmt: skip
         return 0
-    t = found.threshold
     console.say(
-        f"classify: {found.method} with {found.compressor}; unknown above"
-        f" {t.value:.3f} ({'from the reference' if t.derived else 'given'})"
+        f"classify: {found.method} with {found.compressor}; "
+        + _threshold_text(found.threshold, found.origins, args.min_accepted)
     )
     if args.json:
         emit(json.dumps(found.as_json(), indent=1) + "\n", args.output)
@@ -893,6 +896,23 @@ def run_classify(args: argparse.Namespace, console: Console) -> int:
         ]  # fmt: skip
         emit(_table(rows), args.output)
     return 0
+
+
+def _threshold_text(t: Any, origins: Sequence[str], min_accepted: float) -> str:
+    """How the abstention cut was set, in words."""
+    if not t.derived:
+        return f"unknown above {t.value:.3f} (given)"
+    raised = [
+        f"{name} {cut:.3f}" for name, cut in zip(origins, t.cuts(len(origins)), strict=True)
+        if cut > t.value
+    ]  # fmt: skip
+    text = f"unknown above {t.value:.3f} (from the reference)"
+    if raised:
+        text += (
+            f"; raised for {', '.join(raised)} so that each origin keeps {min_accepted:.0%}"
+            " of its own reference items"
+        )
+    return text
 
 
 def _table(rows: Sequence[Sequence[str]]) -> str:
@@ -910,7 +930,7 @@ def _evaluation_json(result: Any) -> dict[str, Any]:
     return {
         "accuracy": round(result.accuracy, 6),
         "abstention_rate": round(result.abstention_rate, 6),
-        "threshold": result.threshold.value,
+        "threshold": result.threshold.as_json(result.origins),
         "origins": list(result.origins),
         "confusion": {
             "rows": list(result.origins),
@@ -920,11 +940,13 @@ def _evaluation_json(result: Any) -> dict[str, Any]:
     }
 
 
-def _evaluation_text(result: Any) -> str:
+def _evaluation_text(result: Any, min_accepted: float) -> str:
+    raised = _threshold_text(result.threshold, result.origins, min_accepted).partition("; ")[2]
     head = [
         f"leave-one-out on the reference: accuracy {result.accuracy:.3f},"
         f" abstention rate {result.abstention_rate:.3f} (threshold {result.threshold.value:.3f},"
         " derived from the same scores: an in-sample figure)",
+        *([raised] if raised else []),
         "",
     ]
     rows = [("true \\ predicted", *result.origins, "unknown")]

