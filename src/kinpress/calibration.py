@@ -474,8 +474,8 @@ class CompressorCalibration:
     ideal 0. mutation_monotonicity: Spearman correlation of the mean distance with the mutation
     rate (0 included), ideal 1. mutation_resolution: smallest rate told from identity, or None.
     reliable_up_to_bytes: item size whose x+x is still compressed as a repeat (a lower bound when
-    ``reliable_capped``). throughput_mb_s: MB (10^6 bytes) per second over the controls made from
-    the inputs, one thread.
+    ``reliable_capped``). throughput_mb_s: MB (10^6 bytes) per second compressing the inputs'
+    samples and pairs of them (each sample after another), one thread.
     """
 
     spec: str
@@ -577,7 +577,13 @@ def calibrate_compressor(
     started = time.perf_counter()
     comp = compressor(comp)
     meter = _Meter(comp)
-    c_samples = [meter.size(x) for x in controls.samples]
+    # The job's own unit of work, timed apart from the controls (random bytes and repeats
+    # compress faster than real pairs): the samples, and each sample after a different one.
+    job = _Meter(comp)
+    c_samples = [job.size(x) for x in controls.samples]
+    for k, x in enumerate(controls.samples):
+        partner = controls.samples[(k + 1) % len(controls.samples)]
+        job.size(partner + x if partner is not x else x[::-1] + x)
     identity = [
         (meter.size(x + x) - cx) / max(cx, 1)
         for x, cx in zip(controls.samples, c_samples, strict=True)
@@ -612,7 +618,7 @@ def calibrate_compressor(
         reliable_up_to_bytes=sweep.reliable_up_to_bytes,
         reliable_capped=sweep.capped,
         overhead_bytes=comp.overhead_bytes,
-        throughput_mb_s=meter.mb_per_second,
+        throughput_mb_s=job.mb_per_second,
         normality=normality,
         size_sweep=sweep.points,
         mutation_ladder=tuple(zip((0.0, *MUTATION_RATES), means, strict=True)),
