@@ -110,6 +110,42 @@ def test_stopping_early_cancels_the_tasks_still_queued(cluster: str) -> None:
             time.sleep(0.1)
 
 
+def _set_version(version: str) -> None:
+    import kinpress._version
+
+    kinpress._version.__version__ = version
+
+
+def _hide_kinpress(hidden: bool) -> None:
+    """On a worker: make the engine's module unimportable, as on a worker without kinpress."""
+    if hidden:
+        sys.modules["hidden kinpress engine"] = sys.modules["kinpress.engine.cluster"]
+        sys.modules["kinpress.engine.cluster"] = None  # type: ignore[assignment]
+    else:
+        sys.modules["kinpress.engine.cluster"] = sys.modules.pop("hidden kinpress engine")
+
+
+def test_workers_with_other_versions_or_without_kinpress_are_refused(cluster: str) -> None:
+    import kinpress._version
+
+    here = kinpress._version.__version__
+    with DaskEngine(cluster) as engine:
+        client = engine.client
+        client.run(_set_version, "9.9.9")
+        try:
+            with pytest.raises(ClusterError, match=r"has kinpress 9\.9\.9, zstd:level=3@libzstd"):
+                distance_matrix(text_items(4), "zstd:level=3", engine=engine)
+        finally:
+            client.run(_set_version, here)
+        client.run(_hide_kinpress, True)
+        try:
+            with pytest.raises(ClusterError, match="cannot run kinpress"):
+                distance_matrix(text_items(4), "zstd:level=3", engine=engine)
+        finally:
+            client.run(_hide_kinpress, False)
+        distance_matrix(text_items(4), "zstd:level=3", engine=engine)  # all well again
+
+
 def test_a_compressor_holding_the_gil_on_threaded_workers_warns() -> None:
     with (
         distributed.LocalCluster(

@@ -26,6 +26,13 @@ class ClusterError(RuntimeError):
     """The cluster cannot be reached or used."""
 
 
+def worker_identity(spec: str) -> str:
+    """What a worker would compute with: kinpress's version and the compressor's cache key."""
+    from .._version import __version__
+
+    return f"kinpress {__version__}, {compressor(spec).cache_key}"
+
+
 class DaskEngine:
     """Tiles as tasks on a Dask cluster (`address` like tcp://host:8786, or a Client).
 
@@ -84,6 +91,7 @@ class DaskEngine:
                 stacklevel=2,
             )
         client = self.client
+        self._check_workers(job.spec)
         [shared] = client.scatter([list(items)], broadcast=True, hash=False)
         queue = iter(tiles)
         pending: dict[str, tuple[Any, Tile]] = {}
@@ -108,6 +116,24 @@ class DaskEngine:
             if pending:
                 client.cancel([future for future, _ in pending.values()])
             client.cancel([shared])
+
+    def _check_workers(self, spec: str) -> None:
+        """Every worker must have kinpress and the same compressor library as this process:
+        sizes from another library version would be wrong under this cache's keys."""
+        try:
+            found: dict[str, str] = self.client.run(worker_identity, spec)
+        except Exception as error:  # Dask wraps a worker's failed import in a plain Exception
+            raise ClusterError(
+                f"the Dask workers at {self.address} cannot run kinpress ({error}); install it,"
+                " the same version as here, on every worker"
+            ) from None
+        here = worker_identity(spec)
+        for worker, there in sorted(found.items()):
+            if there != here:
+                raise ClusterError(
+                    f"Dask worker {worker} has {there} where this machine has {here}; install"
+                    " the same versions on every worker"
+                )
 
     def close(self) -> None:
         """Disconnect, if this engine made the connection."""
