@@ -45,13 +45,18 @@ def corpus(n_items: int) -> list[bytes]:
     return [bytes(text[k * ITEM : (k + 1) * ITEM]) for k in range(n_items)]
 
 
-def floor(items: list[bytes], level: int) -> tuple[float, np.ndarray]:
-    """Seconds for C(x) of each item and C(xy) of each pair, and the NCD they give."""
+def floor_context(level: int) -> zstandard.ZstdCompressor:
+    """The floor's one reused context: the level's parameters, frames stripped as the tool's."""
     params = zstandard.ZstdCompressionParameters.from_level(
         level, write_content_size=False, write_checksum=False, write_dict_id=False,
         format=zstandard.FORMAT_ZSTD1_MAGICLESS,
     )  # fmt: skip
-    ctx = zstandard.ZstdCompressor(compression_params=params)
+    return zstandard.ZstdCompressor(compression_params=params)
+
+
+def floor(items: list[bytes], level: int) -> tuple[float, np.ndarray]:
+    """Seconds for C(x) of each item and C(xy) of each pair, and the NCD they give."""
+    ctx = floor_context(level)
     n = len(items)
     started = time.perf_counter()
     single = [len(ctx.compress(x)) for x in items]
@@ -70,11 +75,7 @@ def floor(items: list[bytes], level: int) -> tuple[float, np.ndarray]:
 def _floor_share(args: tuple[list[bytes], int, int, int]) -> float:
     """Seconds for every `parts`-th row of the floor's pair loop, starting at row `part`."""
     items, level, part, parts = args
-    params = zstandard.ZstdCompressionParameters.from_level(
-        level, write_content_size=False, write_checksum=False, write_dict_id=False,
-        format=zstandard.FORMAT_ZSTD1_MAGICLESS,
-    )  # fmt: skip
-    ctx = zstandard.ZstdCompressor(compression_params=params)
+    ctx = floor_context(level)
     n = len(items)
     # Rows paired from both ends so that every share holds the same number of pairs.
     rows = [r for k in range(part, (n + 1) // 2, parts) for r in {k, n - 1 - k}]
