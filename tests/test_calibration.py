@@ -15,6 +15,7 @@ from kinpress.calibration import (
     CompressorCalibration,
     calibrate,
     choose_compressor,
+    estimate_job_seconds,
     make_controls,
     normality_violations,
     size_sweep,
@@ -150,6 +151,20 @@ def test_a_tight_budget_picks_the_fastest_reliable_compressor_and_says_why() -> 
     spec, report = choose_compressor(items, candidates=candidates, budget_seconds=1e-9)
     assert spec == "zstd:level=3"
     assert any("over the" in reason and "budget" in reason for reason in report.reasons)
+
+
+def test_job_time_estimate_counts_the_work_of_the_whole_matrix() -> None:
+    # The engine's work, by the module's own account: each item once, then n(n-1)/2 pairs and n
+    # self pairs of two items each, the pairs twice when both strands are tried.
+    items = _items([_dna(3000, seed) for seed in range(3)], nucleotide=True)
+    result = calibrate(items, ["zstd:level=3"], samples=2, sample_bytes=2048).compressors[0]
+    lengths = [1000, 2000, 3000]
+    rate = result.throughput_mb_s * 1e6
+    one = estimate_job_seconds(result, lengths, 1)
+    assert one == pytest.approx((6000 + 4 * 6000) / rate)
+    assert estimate_job_seconds(result, lengths, 2) == pytest.approx(one / 2)
+    both = estimate_job_seconds(result, lengths, 1, strand="both")
+    assert both == pytest.approx((6000 + 2 * 4 * 6000) / rate)
 
 
 def test_mutation_ladder_is_monotone_for_zstd_and_lzma_on_dna() -> None:

@@ -823,15 +823,20 @@ def _cores() -> int:
 
 
 def estimate_job_seconds(
-    result: CompressorCalibration, lengths: Sequence[int], jobs: int | None = None
+    result: CompressorCalibration,
+    lengths: Sequence[int],
+    jobs: int | None = None,
+    strand: str = "one",
 ) -> float:
     """Wall time of a whole matrix by concatenation at the calibrated throughput.
 
     n items of T bytes in all: every item once, its x+x once, and the n(n-1)/2 pairs, each of two
-    items: (n - 1)·T + 3·T = (n + 2)·T bytes, spread over ``jobs`` cores (default: all).
+    items: T + (n + 1)·T bytes, the pairs twice with ``strand="both"`` (each y is also tried
+    reverse-complemented), spread over ``jobs`` cores (default: all).
     """
     n, total = len(lengths), sum(lengths)
-    return (n + 2) * total / (result.throughput_mb_s * 1e6) / (jobs or _cores())
+    work = total + (n + 1) * total * (2 if strand == "both" else 1)
+    return work / (result.throughput_mb_s * 1e6) / (jobs or _cores())
 
 
 def _estimate(seconds: float) -> str:
@@ -853,6 +858,7 @@ def choose_compressor(
     candidates: Sequence[str | Compressor] | None = None,
     seed: int = DEFAULT_SEED,
     jobs: int | None = None,
+    strand: str = "one",
     max_bytes: int = DEFAULT_MAX_BYTES,
 ) -> tuple[str, CalibrationReport]:
     """The compressor for ``-c auto``: the best one (as :func:`calibrate` ranks them) among those
@@ -865,7 +871,7 @@ def choose_compressor(
     cores = jobs or _cores()
 
     def slow(result: CompressorCalibration) -> str | None:
-        seconds = estimate_job_seconds(result, lengths, cores)
+        seconds = estimate_job_seconds(result, lengths, cores, strand)
         if seconds <= budget_seconds:
             return None
         return (
@@ -879,7 +885,7 @@ def choose_compressor(
     chosen = report.result(recommended)
     estimate = (
         f"estimated job time with {recommended}: "
-        f"{_estimate(estimate_job_seconds(chosen, lengths, cores))} on {cores} cores "
+        f"{_estimate(estimate_job_seconds(chosen, lengths, cores, strand))} on {cores} cores "
         f"(budget {_duration(budget_seconds)})"
     )
     report = replace(report, recommended=recommended, reasons=(*reasons, estimate))

@@ -488,7 +488,7 @@ def resolve_compressor(args: argparse.Namespace, items: Sequence[Item], console:
                 [
                     *sorted(content_digest(item.data).hex() for item in items),
                     *(compressor(spec).cache_key for spec in DEFAULT_CANDIDATES),
-                    f"seed={DEFAULT_SEED} budget={args.budget} cores={cores}",
+                    f"seed={DEFAULT_SEED} budget={args.budget} cores={cores} strand={args.strand}",
                 ]
             ).encode(),
             digest_size=16,
@@ -498,7 +498,9 @@ def resolve_compressor(args: argparse.Namespace, items: Sequence[Item], console:
         stored = cache.get_choice(key) if cache is not None else None
         if stored is None:
             console.say("auto: calibrating the compressors on these inputs ...")
-            spec, report = choose_compressor(items, budget_seconds=args.budget, jobs=cores)
+            spec, report = choose_compressor(
+                items, budget_seconds=args.budget, jobs=cores, strand=args.strand
+            )
             pair = int(sum(sorted((len(item.data) for item in items), reverse=True)[:2]))
             result = report.result(spec)
             stored = json.dumps(
