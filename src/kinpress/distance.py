@@ -105,13 +105,12 @@ class _Sizes:
         self.data, self.digests, self.comp, self.job = data, digests, comp, job
         self.engine, self.cache, self.progress = engine, cache, progress
         self.bytes_compressed = 0
-        self.last_cached = np.zeros(0, dtype=bool)  # which of the last fetch's keys were cached
         self._lengths = np.array([len(d) for d in data], dtype=np.int64)
 
     def fetch(
         self, phase: str, first: np.ndarray, second: np.ndarray | None
-    ) -> tuple[np.ndarray, int]:
-        """Sizes for singles (second None) or pairs, and how many came from the cache."""
+    ) -> tuple[np.ndarray, np.ndarray]:
+        """Sizes for singles (second None) or pairs, and which of them came from the cache."""
         method = "single" if second is None else self.job.pair_method
         keys = [
             (self.digests[f], b"" if second is None else self.digests[s])
@@ -119,11 +118,11 @@ class _Sizes:
         ]
         stored = self.cache.get_many(self.comp.cache_key, method, keys) if self.cache else {}
         out = np.array([stored.get(k, -1) for k in keys], dtype=np.int64)
-        todo = np.flatnonzero(out < 0)
-        self.last_cached = out >= 0
+        cached = out >= 0
+        todo = np.flatnonzero(~cached)
         if todo.size:
             self._compute(phase, method, first, second, todo, keys, out)
-        return out, len(keys) - int(todo.size)
+        return out, cached
 
     def _compute(
         self,
@@ -252,11 +251,13 @@ def conditional_sizes(
     data, digests, index = _distinct(items)
     sizes = _Sizes(data, digests, comp, SizeJob(comp.spec, conditional, strand), engine, cache,
                    progress)  # fmt: skip
-    single, singles_cached = sizes.fetch("single items", np.arange(len(data)), None)
+    single, single_cached = sizes.fetch("single items", np.arange(len(data)), None)
+    singles_cached = int(single_cached.sum())
     requested = np.asarray(pairs, dtype=np.int64).reshape(-1, 2)
     given, target = index[requested[:, 0]], index[requested[:, 1]]
     order = np.lexsort((target, given))
-    found, cached = sizes.fetch("pairs", given[order], target[order])
+    found, found_cached = sizes.fetch("pairs", given[order], target[order])
+    cached = int(found_cached.sum())
     paired = np.empty_like(found)
     paired[order] = found
     if conditional == "concat":
@@ -310,7 +311,8 @@ def distance_matrix(
     sizes = _Sizes(data, digests, comp, job, engine, cache, progress)
     m = len(data)
     diag = np.arange(m)
-    single, singles_cached = sizes.fetch("single items", diag, None)
+    single, single_cached = sizes.fetch("single items", diag, None)
+    singles_cached = int(single_cached.sum())
 
     # Condition the larger on the smaller: first = smaller C, ties broken by hash so that the
     # order, and so the cache key, does not depend on input order.
@@ -324,9 +326,8 @@ def distance_matrix(
     given, target = np.concatenate([diag, small]), np.concatenate([diag, large])
     order = np.argsort(given, kind="stable")
     found = np.empty(len(given), dtype=np.int64)
-    found[order], _ = sizes.fetch("pairs", given[order], target[order])
-    cached = np.zeros(len(given), dtype=bool)
-    cached[order] = sizes.last_cached
+    cached = np.empty(len(given), dtype=bool)
+    found[order], cached[order] = sizes.fetch("pairs", given[order], target[order])
     self_sizes, pair_sizes = found[:m], found[m:]
     self_cached, pairs_cached = int(cached[:m].sum()), int(cached[m:].sum())
     if conditional == "concat":
