@@ -105,7 +105,7 @@ class _Sizes:
         self.data, self.digests, self.comp, self.job = data, digests, comp, job
         self.engine, self.cache, self.progress = engine, cache, progress
         self.bytes_compressed = 0
-        self._lengths = np.array([len(d) for d in data], dtype=np.int64)
+        self.lengths = np.array([len(d) for d in data], dtype=np.int64)
 
     def fetch(
         self, phase: str, first: np.ndarray, second: np.ndarray | None
@@ -150,9 +150,9 @@ class _Sizes:
         for tile, sizes in self.engine.run(self.data, self.job, tiles):
             slots = where[tile]
             out[slots] = sizes
-            fed = int(self._lengths[list(tile.first)].sum())
+            fed = int(self.lengths[list(tile.first)].sum())
             if not tile.singles:  # pairs feed both sides, twice when both strands are tried
-                fed += int(self._lengths[list(tile.second)].sum())
+                fed += int(self.lengths[list(tile.second)].sum())
                 fed *= 2 if self.job.strand == "both" else 1
             self.bytes_compressed += fed
             if self.cache is not None:
@@ -227,6 +227,25 @@ class ConditionalSizes:
     stats: MatrixStats
 
 
+def _singles(
+    items: Sequence[Item],
+    comp: Compressor,
+    conditional: str,
+    strand: str,
+    engine: Engine,
+    cache: SizeCache | None,
+    progress: Progress | None,
+) -> tuple[_Sizes, np.ndarray, np.ndarray, int]:
+    """The checked job's sizes source, each item's index into the distinct contents, every
+    distinct C(x), and how many of those came from the cache."""
+    _check_job(comp, conditional, strand, items)
+    data, digests, index = _distinct(items)
+    sizes = _Sizes(data, digests, comp, SizeJob(comp.spec, conditional, strand), engine, cache,
+                   progress)  # fmt: skip
+    single, cached = sizes.fetch("single items", np.arange(len(data)), None)
+    return sizes, index, single, int(cached.sum())
+
+
 def conditional_sizes(
     items: Sequence[Item],
     pairs: Sequence[tuple[int, int]],
@@ -245,14 +264,10 @@ def conditional_sizes(
     Sizes come from the cache where possible and are computed in tiles by the engine otherwise.
     """
     started = time.perf_counter()
-    comp = compressor(comp)
-    _check_job(comp, conditional, strand, items)
-    engine = engine or LocalEngine(jobs)
-    data, digests, index = _distinct(items)
-    sizes = _Sizes(data, digests, comp, SizeJob(comp.spec, conditional, strand), engine, cache,
-                   progress)  # fmt: skip
-    single, single_cached = sizes.fetch("single items", np.arange(len(data)), None)
-    singles_cached = int(single_cached.sum())
+    sizes, index, single, singles_cached = _singles(
+        items, compressor(comp), conditional, strand, engine or LocalEngine(jobs), cache, progress
+    )
+    data = sizes.data
     requested = np.asarray(pairs, dtype=np.int64).reshape(-1, 2)
     given, target = index[requested[:, 0]], index[requested[:, 1]]
     order = np.lexsort((target, given))
@@ -301,18 +316,13 @@ def distance_matrix(
     """
     started = time.perf_counter()
     comp = compressor(comp)
-    _check_job(comp, conditional, strand, items)
-    engine = engine or LocalEngine(jobs)
-    data, digests, index = _distinct(items)
-    lengths = np.array([len(d) for d in data], dtype=np.int64)
-    _warn_beyond_window(comp, lengths)
-
-    job = SizeJob(comp.spec, conditional, strand)
-    sizes = _Sizes(data, digests, comp, job, engine, cache, progress)
-    m = len(data)
+    sizes, index, single, singles_cached = _singles(
+        items, comp, conditional, strand, engine or LocalEngine(jobs), cache, progress
+    )
+    _warn_beyond_window(comp, sizes.lengths)
+    digests = sizes.digests
+    m = len(sizes.data)
     diag = np.arange(m)
-    single, single_cached = sizes.fetch("single items", diag, None)
-    singles_cached = int(single_cached.sum())
 
     # Condition the larger on the smaller: first = smaller C, ties broken by hash so that the
     # order, and so the cache key, does not depend on input order.
