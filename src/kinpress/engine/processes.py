@@ -38,13 +38,26 @@ class WorkerProcesses:
         self._readers = []
         payload = list(items)
         for index, proc in enumerate(self._procs):
-            assert proc.stdin is not None and proc.stdout is not None
-            send(proc.stdin, payload)
+            assert proc.stdout is not None
+            self._send(index, payload)
             reader = threading.Thread(
                 target=self._read, args=(index, proc.stdout), daemon=True, name="kinpress-reader"
             )
             reader.start()
             self._readers.append(reader)
+
+    def _send(self, index: int, message: Any) -> None:
+        """Write to a worker; one that has died is a WorkerError, not a broken pipe."""
+        proc = self._procs[index]
+        assert proc.stdin is not None
+        try:
+            send(proc.stdin, message)
+        except OSError:  # BrokenPipeError above all: the worker is gone
+            raise WorkerError(self._ended(index)) from None
+
+    def _ended(self, index: int) -> str:
+        code = self._procs[index].wait()
+        return f"a worker process ended unexpectedly (exit code {code})"
 
     def _read(self, index: int, stream: IO[bytes]) -> None:
         try:
@@ -59,17 +72,15 @@ class WorkerProcesses:
         load = [0] * len(self._procs)
         in_flight = 0
         while waiting or in_flight:
-            for index, proc in enumerate(self._procs):
+            for index in range(len(self._procs)):
                 while load[index] < 2 and waiting:
                     task, tile = waiting.pop()
-                    assert proc.stdin is not None
-                    send(proc.stdin, (task, job, tile))
+                    self._send(index, (task, job, tile))
                     load[index] += 1
                     in_flight += 1
             index, answer = self._answers.get()
             if answer is None:
-                code = self._procs[index].wait()
-                raise WorkerError(f"a worker process ended unexpectedly (exit code {code})")
+                raise WorkerError(self._ended(index))
             task, result = answer
             if isinstance(result, str):
                 raise WorkerError(f"a worker process failed:\n{result}")
