@@ -102,6 +102,14 @@ def test_evaluate_reports_accuracy_and_a_confusion_table(
     assert sum(map(sum, report["confusion"]["counts"])) == chunks
 
 
+def test_a_share_outside_zero_to_one_is_a_usage_error(
+    reference: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    argv = ["classify", "--reference", str(reference), "--evaluate", *FAST, "--min-accepted", "2"]
+    assert cli.main(argv) == 2
+    assert "--min-accepted 2.0: give a share between 0 and 1" in capsys.readouterr().err
+
+
 def test_classify_needs_unknowns_or_evaluate(
     reference: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:

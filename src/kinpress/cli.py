@@ -864,6 +864,8 @@ def run_classify(args: argparse.Namespace, console: Console) -> int:
         reference = reference_items(args.reference, args.split)
     if not args.evaluate and not args.inputs:
         raise UsageError("give unknown inputs to classify, or --evaluate")
+    if not 0 <= args.min_accepted <= 1:
+        raise UsageError(f"--min-accepted {args.min_accepted}: give a share between 0 and 1")
     spec = resolve_compressor(args, reference, console)
     options: dict[str, Any] = {
         "method": args.method,
