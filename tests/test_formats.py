@@ -176,10 +176,15 @@ def test_tsv_header_has_an_empty_first_cell_then_the_labels() -> None:
     assert len(lines) == 4
 
 
-def test_tsv_labels_with_tabs_or_line_breaks_stay_on_one_row() -> None:
-    text = matrix_to_tsv(small_matrix(("a\tb", "c\nd", "e\r\nf")))
-    assert len(text.splitlines()) == 4
-    assert text.splitlines()[0].split("\t") == ["", "a b", "c d", "e  f"]
+def test_tsv_labels_with_tabs_or_line_breaks_are_escaped_and_read_back(tmp_path: Path) -> None:
+    labels = ("a\tb", "a b", "c\nd", "e\r\nf", "back\\slash")
+    text = matrix_to_tsv(small_matrix(labels))
+    assert len(text.splitlines()) == 4 + 2
+    assert text.splitlines()[0].split("\t") == ["", "a\\tb", "a b", "c\\nd", "e\\r\\nf",
+                                                "back\\\\slash"]  # fmt: skip
+    path = tmp_path / "m.tsv"
+    path.write_text(text)
+    assert read_matrix(path).labels == labels
 
 
 def test_csv_awkward_labels_are_quoted_for_python_csv_reader(tmp_path: Path) -> None:
@@ -214,19 +219,19 @@ def test_phylip_long_names_are_whole_and_followed_by_a_blank() -> None:
     assert all(len(line.split()) == 4 for line in lines[1:])
 
 
-def test_phylip_unsafe_names_are_made_safe_and_unique_with_a_warning(tmp_path: Path) -> None:
+def test_phylip_unsafe_names_are_escaped_with_a_warning_and_read_back(tmp_path: Path) -> None:
     labels = ("Homo sapiens", "Homo(sapiens)", "Homo:sapiens", "a;b,c[d]'e", "Homo_sapiens")
     path = tmp_path / "m.phy"
-    with pytest.warns(FormatWarning, match="5 names changed"):
+    with pytest.warns(FormatWarning, match="4 names hold blanks"):
         write_matrix(small_matrix(labels), path)
     names = [line.split()[0] for line in path.read_text().splitlines()[1:]]
     # PHYLIP documentation, from memory: names must not hold blanks, parentheses, square
     # brackets, colons, semicolons or commas (they would break the Newick trees PHYLIP writes).
     assert all(not set(name) & set(" \t():;,[]'") for name in names)
     assert len(set(names)) == len(names) == len(labels)
-    assert names[0] == "Homo_sapiens"
-    back = read_matrix(path)
-    assert list(back.labels) == names
+    assert names[0] == "Homo\\x20sapiens"
+    assert names[4] == "Homo_sapiens"
+    assert read_matrix(path).labels == labels
 
 
 def test_strict_phylip_names_touching_the_numbers_are_read() -> None:

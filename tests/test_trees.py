@@ -21,6 +21,7 @@ from hypothesis import strategies as st
 from scipy.cluster.hierarchy import cophenet, leaves_list, linkage
 from scipy.spatial.distance import squareform
 
+from kinpress.items import escape_name
 from kinpress.trees import (
     Node,
     add_support,
@@ -443,6 +444,8 @@ AWKWARD = [
     "ünïcødé δ",
     "x=1;y",
     "tab\there",
+    "back\\slash",
+    "bad\udcffbyte",
 ]
 
 
@@ -456,9 +459,12 @@ def test_newick_round_trips_through_biopython() -> None:
     tree = awkward_tree(AWKWARD)
     text = to_newick(tree)
     parsed = Phylo.read(io.StringIO(text), "newick")
-    assert sorted(leaf.name for leaf in parsed.get_terminals()) == sorted(AWKWARD)
+    # Other readers see names as written: control characters and bytes that are not UTF-8 as
+    # kinpress's backslash escapes, a backslash doubled (and quoted, which DendroPy needs).
+    written = [escape_name(label) for label in AWKWARD]
+    assert sorted(leaf.name for leaf in parsed.get_terminals()) == sorted(written)
     np.testing.assert_allclose(
-        biopython_path_lengths(parsed, AWKWARD), path_lengths(tree, AWKWARD), atol=1e-12
+        biopython_path_lengths(parsed, written), path_lengths(tree, AWKWARD), atol=1e-12
     )
     ours = sorted(n.support for n in preorder(tree) if n.children and n.support is not None)
     theirs = sorted(c.confidence for c in parsed.get_nonterminals() if c.confidence is not None)
@@ -472,10 +478,11 @@ def test_newick_round_trips_through_dendropy() -> None:
     tree = awkward_tree(labels)
     parsed = dendropy.Tree.get(data=to_newick(tree), schema="newick", preserve_underscores=True)
     taxa = {taxon.label: taxon for taxon in parsed.taxon_namespace}
-    assert sorted(taxa) == sorted(labels)
+    written = [escape_name(label) for label in labels]
+    assert sorted(taxa) == sorted(written)
     distances = parsed.phylogenetic_distance_matrix()
     expected = path_lengths(tree, labels)
-    for (i, x), (j, y) in itertools.combinations(enumerate(labels), 2):
+    for (i, x), (j, y) in itertools.combinations(enumerate(written), 2):
         assert distances.patristic_distance(taxa[x], taxa[y]) == pytest.approx(expected[i, j])
 
 

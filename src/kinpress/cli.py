@@ -26,8 +26,8 @@ from .distance import (
     distance_matrix,
 )
 from .engine import ClusterError, DaskEngine, Engine, LocalEngine
-from .formats import MATRIX_FORMATS, emit, format_for, read_matrix, write_matrix
-from .items import InputError, Item, load_items, read_labels
+from .formats import MATRIX_FORMATS, emit, format_for, json_text, read_matrix, write_matrix
+from .items import InputError, Item, escape_name, load_items, read_labels
 
 DEFAULT_COMPRESSOR = "auto"
 
@@ -567,7 +567,7 @@ def summary(dm: DistanceMatrix, engine: Engine | None = None) -> str:
 def run_compressors(args: argparse.Namespace, console: Console) -> int:
     rows = [describe(cls()) for cls in ADAPTERS.values()]
     if args.json:
-        print(json.dumps([row.as_json() for row in rows], indent=1))
+        print(json_text([row.as_json() for row in rows]), end="")
         return 0
     header = ("name", "default spec", "levels", "window/block", "primed", "overhead")
     table = [header] + [
@@ -695,7 +695,7 @@ def run_tree(args: argparse.Namespace, console: Console) -> int:
             "conditional": dm.conditional,
             "strand": dm.strand,
         }
-        emit(json.dumps(report, indent=1) + "\n", None)
+        emit(json_text(report), None)
     elif not args.output:
         emit(newick, None)
     return 0
@@ -714,7 +714,8 @@ def run_groups(args: argparse.Namespace, console: Console) -> int:
         dm.labels, grouping.assignment, grouping.is_medoid, grouping.is_outlier, strict=True
     ):
         rows.append(
-            f"{name}\t{group}\t{'yes' if is_medoid else 'no'}\t{'yes' if outlier else 'no'}"
+            f"{escape_name(name)}\t{group}\t{'yes' if is_medoid else 'no'}"
+            f"\t{'yes' if outlier else 'no'}"
         )
     table = "\n".join(rows) + "\n"
     outliers = int(sum(grouping.is_outlier))
@@ -771,7 +772,7 @@ def run_groups(args: argparse.Namespace, console: Console) -> int:
                     "counts": [[int(c) for c in row] for row in scores.confusion],
                 },
             }
-        emit(json.dumps(report, indent=1) + "\n", None)
+        emit(json_text(report), None)
     elif not args.output:
         emit(table, None)
     return 0
@@ -808,7 +809,7 @@ def run_calibrate(args: argparse.Namespace, console: Console) -> int:
         compressor(spec)  # a bad spec fails before any work
     report = calibrate(items, candidates, seed=args.seed, max_bytes=args.max_bytes)
     if args.json:
-        emit(json.dumps(report.as_json(), indent=1) + "\n", args.output)
+        emit(json_text(report.as_json()), args.output)
     else:
         emit(_calibration_text(report), args.output)
     if args.plot:
@@ -882,20 +883,20 @@ def run_classify(args: argparse.Namespace, console: Console) -> int:
             unknowns = load_items(args.inputs, args.split, exclude=_written(args))
             found = classify(unknowns, reference, spec, cache=cache, progress=progress, **options)
     if args.evaluate:
-        emit(_evaluation_text(result, args.min_accepted) if not args.json else json.dumps(
-            _evaluation_json(result), indent=1) + "\n", args.output)  # fmt: skip
+        emit(_evaluation_text(result, args.min_accepted) if not args.json else json_text(
+            _evaluation_json(result)), args.output)  # fmt: skip
         return 0
     console.say(
         f"classify: {found.method} with {found.compressor}; "
         + _threshold_text(found.threshold, found.origins, args.min_accepted)
     )
     if args.json:
-        emit(json.dumps(found.as_json(), indent=1) + "\n", args.output)
+        emit(json_text(found.as_json()), args.output)
     else:
         rows = [("item", "origin", "confidence", "nearest", "distance")]
         rows += [
-            (p.item, p.predicted or "unknown", f"{p.confidence:.3f}", p.nearest or "-",
-             f"{p.distance:.3f}")
+            (escape_name(p.item), escape_name(p.predicted or "unknown"), f"{p.confidence:.3f}",
+             escape_name(p.nearest or "-"), f"{p.distance:.3f}")
             for p in found.predictions
         ]  # fmt: skip
         emit(_table(rows), args.output)
@@ -983,15 +984,16 @@ def run_derived(args: argparse.Namespace, console: Console) -> int:
         + f"; reported where the false-positive rate is at most {report.max_fpr:g}"
     )
     if args.json:
-        emit(json.dumps(report.as_json(), indent=1) + "\n", args.output)
+        emit(json_text(report.as_json()), args.output)
         return 0
     lines = []
     for number, family in enumerate(families(report.findings), start=1):
-        lines.append(f"family {number}: {', '.join(family.members)}")
+        lines.append(f"family {number}: {', '.join(map(escape_name, family.members))}")
         for f in family.findings:
             lines.append(
-                f"  {f.a}  {f.relation}  {f.b}   explained: a by b {f.a_explained_by_b:.2f},"
-                f" b by a {f.b_explained_by_a:.2f}; score {f.score:.3f}, fpr {f.fpr:.2g}"
+                f"  {escape_name(f.a)}  {f.relation}  {escape_name(f.b)}   explained: a by b"
+                f" {f.a_explained_by_b:.2f}, b by a {f.b_explained_by_a:.2f};"
+                f" score {f.score:.3f}, fpr {f.fpr:.2g}"
             )
     if not lines:
         lines.append("no related pairs found")

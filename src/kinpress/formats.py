@@ -6,10 +6,10 @@ import csv
 import io
 import json
 import os
-import re
 import sys
 import tempfile
 import warnings
+from collections import Counter
 from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
@@ -17,14 +17,15 @@ from typing import Any
 import numpy as np
 
 from .distance import DistanceMatrix, MatrixStats
-from .items import InputError
+from .items import InputError, escape_name, unescape_name
 
 MATRIX_FORMATS = ("tsv", "csv", "phylip", "json")
 _EXTENSIONS = {
     ".tsv": "tsv", ".txt": "tsv", ".csv": "csv", ".phy": "phylip", ".phylip": "phylip",
     ".dist": "phylip", ".json": "json",
 }  # fmt: skip
-_PHYLIP_UNSAFE = re.compile(r"[\s():;,\[\]']")
+_PHYLIP_RESERVED = " ():;,[]'"
+_QUOTED_BY_CSV = "\t\n\r"
 
 
 class FormatWarning(UserWarning):
@@ -82,13 +83,12 @@ def _number(value: float) -> str:
     return f"{value:.6f}"
 
 
-def _plain_label(label: str) -> str:
-    return re.sub(r"[\t\r\n]", " ", label)
-
-
 def matrix_to_tsv(dm: DistanceMatrix) -> str:
-    """Header row with an empty first cell and the labels, then one row per item."""
-    labels = [_plain_label(label) for label in dm.labels]
+    """Header row with an empty first cell and the labels, then one row per item.
+
+    Labels are written by `escape_name`: tabs and line breaks cannot end a cell or a row.
+    """
+    labels = [escape_name(label) for label in dm.labels]
     lines = ["\t".join(["", *labels])]
     for label, row in zip(labels, dm.distances, strict=True):
         lines.append("\t".join([label, *map(_number, row)]))
@@ -98,13 +98,14 @@ def matrix_to_tsv(dm: DistanceMatrix) -> str:
 def _csv_cell(text: str) -> str:
     # RFC 4180: quote a field holding a comma, a quote, CR or LF. (Python 3.11's csv writer
     # leaves a lone CR unquoted when the line terminator is "\n", which its reader then rejects.)
+    text = escape_name(text, keep=_QUOTED_BY_CSV)
     if any(c in text for c in ',"\r\n'):
         return '"' + text.replace('"', '""') + '"'
     return text
 
 
 def matrix_to_csv(dm: DistanceMatrix) -> str:
-    """Like TSV, comma-separated with RFC 4180 quoting."""
+    """Like TSV, comma-separated with RFC 4180 quoting (line breaks stay inside quotes)."""
     lines = [",".join(["", *map(_csv_cell, dm.labels)])]
     for label, row in zip(dm.labels, dm.distances, strict=True):
         lines.append(",".join([_csv_cell(label), *map(_number, row)]))
@@ -112,19 +113,14 @@ def matrix_to_csv(dm: DistanceMatrix) -> str:
 
 
 def phylip_names(labels: Sequence[str]) -> list[str]:
-    """Names safe in PHYLIP: characters that end or quote a name become '_', then made unique."""
-    names: list[str] = []
-    for label in labels:
-        base = _PHYLIP_UNSAFE.sub("_", label) or "item"
-        name, n = base, 1
-        while name in names:
-            n += 1
-            name = f"{base}~{n}"
-        names.append(name)
-    changed = sum(a != b for a, b in zip(labels, names, strict=True))
+    """Names PHYLIP can hold: blanks and the characters ():;,[]' that end or quote a name are
+    written as ``\\xHH`` (see `escape_name`), so every name reads back as it was."""
+    names = [escape_name(label, also=_PHYLIP_RESERVED) for label in labels]
+    changed = sum(name != escape_name(label) for name, label in zip(names, labels, strict=True))
     if changed:
         warnings.warn(
-            f"PHYLIP: {changed} names changed to be safe (white space and ():;,[]' become _)",
+            f"PHYLIP: {changed} names hold blanks or ():;,[]' and are written with \\xHH escapes"
+            " (kinpress reads them back as they were)",
             FormatWarning,
             stacklevel=3,
         )
@@ -145,8 +141,28 @@ def matrix_to_phylip(dm: DistanceMatrix) -> str:
     return "\n".join(lines) + "\n"
 
 
+def json_safe(value: Any) -> Any:
+    """`value` with every string, keys included, written by `escape_name` (tabs and line breaks
+    kept, JSON has escapes of its own for them): bytes of file names that are not UTF-8 cannot be
+    written as JSON text, and the escape makes the rule one for every output."""
+    if isinstance(value, str):
+        return escape_name(value, keep=_QUOTED_BY_CSV)
+    if isinstance(value, dict):
+        return {json_safe(k): json_safe(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [json_safe(v) for v in value]
+    return value
+
+
+def json_text(value: Any) -> str:
+    """JSON text of `value` (see `json_safe`), indented one space, ending in a line break."""
+    return json.dumps(json_safe(value), indent=1, ensure_ascii=False) + "\n"
+
+
 def matrix_to_json(dm: DistanceMatrix) -> str:
-    """Labels, rows, the compressor and method, per-item C(x) and NCD(x, x), and run stats."""
+    """Labels, rows, the compressor and method, per-item C(x) and NCD(x, x), and run stats.
+
+    Names are written by `escape_name` (see `json_safe`)."""
     from . import __version__
 
     doc: dict[str, Any] = {
@@ -165,7 +181,7 @@ def matrix_to_json(dm: DistanceMatrix) -> str:
         doc["classes"] = dict(zip(dm.labels, dm.classes, strict=True))
     # One matrix row per line: readable, and far faster than a number per line.
     rows = ",\n  ".join(json.dumps(row) for row in np.round(dm.distances, 8).tolist())
-    head = json.dumps(doc, indent=1)
+    head = json.dumps(json_safe(doc), indent=1, ensure_ascii=False)
     return head[: head.rindex("}")].rstrip() + ',\n "distances": [\n  ' + rows + "\n ]\n}\n"
 
 
@@ -188,6 +204,9 @@ def _square(rows: list[list[str]], labels: list[str], source: str, first_line: i
     n = len(labels)
     if n < 2:
         raise InputError(f"{source}: a distance matrix needs at least two items")
+    twice = next((label for label, count in Counter(labels).items() if count > 1), None)
+    if twice is not None:
+        raise InputError(f"{source}: the label {escape_name(twice)!r} appears twice")
     if len(rows) != n:
         raise InputError(f"{source}: {n} labels but {len(rows)} rows")
     values = np.empty((n, n))
@@ -218,9 +237,9 @@ def _read_delimited(text: str, source: str, delimiter: str) -> DistanceMatrix:
     rows = [r for r in rows if r]
     if not rows:
         raise InputError(f"{source}: empty matrix file")
-    labels = rows[0][1:]
+    labels = [unescape_name(label) for label in rows[0][1:]]
     body = rows[1:]
-    row_labels = [r[0] for r in body]
+    row_labels = [unescape_name(r[0]) for r in body]
     if row_labels != labels:
         raise InputError(f"{source}: row labels do not match the header")
     return DistanceMatrix(tuple(labels), _square([r[1:] for r in body], labels, source, 2))
@@ -239,35 +258,76 @@ def _read_phylip(text: str, source: str) -> DistanceMatrix:
             name, values = line[:10].strip(), line[10:].split()
         else:
             name, values = fields[0], fields[1:]
-        labels.append(name)
+        labels.append(unescape_name(name))
         rows.append(values)
     if len(labels) != n:
         raise InputError(f"{source}: PHYLIP says {n} items but holds {len(labels)} rows")
     return DistanceMatrix(tuple(labels), _square(rows, labels, source, 2))
 
 
+def _json_field(doc: dict[str, Any], key: str, kind: type, source: str, what: str) -> Any:
+    value = doc.get(key)
+    if value is not None and not isinstance(value, kind):
+        raise InputError(f'{source}: "{key}" must be {what}, not {type(value).__name__}')
+    return value
+
+
+def _per_label(
+    doc: dict[str, Any], key: str, labels: Sequence[str], source: str, check: Any
+) -> list[Any] | None:
+    """The values of an optional `{label: value}` field in label order (None when absent)."""
+    table = _json_field(doc, key, dict, source, "an object of label: value")
+    if not table:
+        return None
+    table = {unescape_name(k): v for k, v in table.items()}
+    missing = next((label for label in labels if label not in table), None)
+    if missing is not None:
+        raise InputError(f'{source}: "{key}" has no value for {escape_name(missing)!r}')
+    values = [table[label] for label in labels]
+    wrong = next((v for v in values if not check(v)), None)
+    if wrong is not None:
+        raise InputError(f'{source}: "{key}" holds {wrong!r}, which is not allowed there')
+    return values
+
+
+def _is_number(value: Any) -> bool:
+    return isinstance(value, int | float) and not isinstance(value, bool)
+
+
 def _read_json(text: str, source: str) -> DistanceMatrix:
     try:
         doc = json.loads(text)
-        labels = [str(label) for label in doc["labels"]]
-        rows = [[str(v) for v in row] for row in doc["distances"]]
-    except (json.JSONDecodeError, KeyError, TypeError) as error:
-        raise InputError(f"{source}: not a kinpress matrix JSON ({error})") from None
-    distances = _square(rows, labels, source, 1)
-    sizes = doc.get("sizes") or {}
-    selfs = doc.get("self_distances") or {}
-    classes = doc.get("classes")
+    except (json.JSONDecodeError, RecursionError) as error:
+        raise InputError(f"{source}: not JSON ({error})") from None
+    if not isinstance(doc, dict) or "labels" not in doc or "distances" not in doc:
+        raise InputError(
+            f"{source}: not a kinpress matrix JSON (an object with labels and distances)"
+        )
+    labels = _json_field(doc, "labels", list, source, "a list of names")
+    if not all(isinstance(label, str) for label in labels):
+        raise InputError(f'{source}: "labels" must hold names (strings)')
+    labels = [unescape_name(label) for label in labels]
+    rows = _json_field(doc, "distances", list, source, "a list of rows")
+    if not all(isinstance(row, list) and all(map(_is_number, row)) for row in rows):
+        raise InputError(f'{source}: "distances" must be a list of rows of numbers')
+    distances = _square([[str(v) for v in row] for row in rows], labels, source, 1)
+    sizes = _per_label(doc, "sizes", labels, source, _is_number)
+    selfs = _per_label(doc, "self_distances", labels, source, _is_number)
+    classes = _per_label(doc, "classes", labels, source, lambda v: v is None or isinstance(v, str))
+    stats = _json_field(doc, "stats", dict, source, "an object") or {}
     known = set(MatrixStats.__dataclass_fields__)
     return DistanceMatrix(
         tuple(labels),
         distances,
-        sizes=np.array([sizes[k] for k in labels]) if len(sizes) == len(labels) else None,
-        self_distances=np.array([selfs[k] for k in labels]) if len(selfs) == len(labels) else None,
+        sizes=None if sizes is None else np.array(sizes),
+        self_distances=None if selfs is None else np.array(selfs, dtype=float),
         compressor=str(doc.get("compressor", "")),
         conditional=str(doc.get("conditional", "")),
         strand=str(doc.get("strand", "one")),
-        classes=tuple(classes.get(k) for k in labels) if isinstance(classes, dict) else None,
-        stats=MatrixStats(**{k: v for k, v in (doc.get("stats") or {}).items() if k in known}),
+        classes=None
+        if classes is None
+        else tuple(None if c is None else unescape_name(c) for c in classes),
+        stats=MatrixStats(**{k: v for k, v in stats.items() if k in known and _is_number(v)}),
     )
 
 

@@ -286,6 +286,65 @@ def _sequence_files_if_mostly(folder: str, found: list[str]) -> list[str]:
     return [f for f in found if sequence_format(f) is not None]
 
 
+_SIMPLE_ESCAPES = {"\\": "\\\\", "\t": "\\t", "\n": "\\n", "\r": "\\r"}
+_UNESCAPES = {"\\": "\\", "t": "\t", "n": "\n", "r": "\r"}
+_ESCAPED = re.compile(r"\\(?:([\\tnr])|x([0-9a-fA-F]{2})|u([0-9a-fA-F]{4})|U([0-9a-fA-F]{8}))")
+
+
+def escape_name(name: str, also: str = "", keep: str = "") -> str:
+    """A name every output can hold, and from which `unescape_name` gives the name back.
+
+    A backslash is doubled; tab, line feed and carriage return become ``\\t``, ``\\n``, ``\\r``;
+    a byte of a file name that is not UTF-8 (held as a surrogate escape, as `os.fsdecode` gives
+    it), an ASCII control character and the characters in `also` (ASCII ones a format reserves)
+    become ``\\xHH``; any other character Python does not count as printable (line and paragraph
+    separators, format characters) becomes ``\\uHHHH`` or ``\\UHHHHHHHH``. Every other
+    character is kept, so ordinary names, accented and non-Latin ones included, are unchanged.
+    Characters in `keep` (tab, line feed, carriage return for a format that quotes them) are
+    written as they are.
+
+    >>> escape_name("run 1\\tb\\udcff.log")
+    'run 1\\\\tb\\\\xff.log'
+    """
+    if name.isprintable() and "\\" not in name and not any(c in name for c in also):
+        return name
+    out = []
+    for char in name:
+        code = ord(char)
+        if char in keep:
+            out.append(char)
+        elif char in _SIMPLE_ESCAPES:
+            out.append(_SIMPLE_ESCAPES[char])
+        elif 0xDC80 <= code <= 0xDCFF:  # an undecodable byte of a file name
+            out.append(f"\\x{code - 0xDC00:02x}")
+        elif code < 0x80 and (code < 0x20 or code == 0x7F or char in also):
+            out.append(f"\\x{code:02x}")
+        elif char.isprintable():
+            out.append(char)
+        elif code <= 0xFFFF:
+            out.append(f"\\u{code:04x}")
+        else:
+            out.append(f"\\U{code:08x}")
+    return "".join(out)
+
+
+def unescape_name(text: str) -> str:
+    """The name `escape_name` wrote; a backslash that starts no escape is kept as it is."""
+    if "\\" not in text:
+        return text
+
+    def undo(match: re.Match[str]) -> str:
+        simple, byte, short, long = match.groups()
+        if simple:
+            return _UNESCAPES[simple]
+        if byte:
+            code = int(byte, 16)
+            return chr(0xDC00 + code) if code >= 0x80 else chr(code)
+        return chr(int(short or long, 16))
+
+    return _ESCAPED.sub(undo, text)
+
+
 def unique_names(items: Sequence[Item]) -> list[Item]:
     """Give a repeated name a stable suffix (~2, ~3, ...) in input order; the first keeps it."""
     reserved = {item.name for item in items}
@@ -302,7 +361,10 @@ def unique_names(items: Sequence[Item]) -> list[Item]:
 
 
 def read_labels(path: str | os.PathLike[str]) -> dict[str, str]:
-    """Known labels from a TSV of `item<TAB>label` (an optional header row, # comments)."""
+    """Known labels from a TSV of `item<TAB>label` (an optional header row, # comments).
+
+    Names and labels may use the escapes every output writes (`escape_name`), so a name holding
+    a tab or bytes that are not UTF-8 can be given as kinpress writes it."""
     try:
         text = Path(path).read_text(encoding="utf-8")
     except FileNotFoundError:
@@ -318,7 +380,7 @@ def read_labels(path: str | os.PathLike[str]) -> dict[str, str]:
             raise InputError(f"{path}:{number}: expected item<TAB>label")
         if number == 1 and fields[0].strip().lower() in ("item", "name", "id", "file"):
             continue
-        labels[fields[0].strip()] = fields[1].strip()
+        labels[unescape_name(fields[0].strip())] = unescape_name(fields[1].strip())
     return labels
 
 

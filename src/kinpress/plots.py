@@ -32,6 +32,7 @@ from matplotlib.transforms import offset_copy
 from .calibration import RELIABLE_NCD, CalibrationReport
 from .distance import DistanceMatrix
 from .formats import atomic_write
+from .items import escape_name
 from .trees import Node, leaf_order, postorder, preorder
 
 __all__ = [
@@ -118,9 +119,16 @@ def _text_width(texts: Iterable[str], size: float, weight: str = "normal") -> fl
     return (1.02 * widest + 2) / 72
 
 
+def _shown(name: str) -> str:
+    """A name as a picture shows it: as given, unless it holds control characters or bytes that
+    are not UTF-8, which no font draws: then as every output writes it (`escape_name`)."""
+    return name if name.isprintable() else escape_name(name)
+
+
 def _literal(text: str) -> str:
-    """``text`` escaped so that matplotlib shows it as it is rather than as mathtext."""
-    return text.replace("$", r"\$")
+    """``text`` as shown (`_shown`), escaped so that matplotlib shows it as it is rather than as
+    mathtext."""
+    return _shown(text).replace("$", r"\$")
 
 
 def _font_size(count: int) -> float:
@@ -389,7 +397,7 @@ def _draw_leaves(
         ax.text(
             x,
             row,
-            str(leaf.name),
+            _shown(str(leaf.name)),
             transform=shifted,
             ha="left",
             va="center",

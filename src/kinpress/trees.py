@@ -21,6 +21,8 @@ import numpy.typing as npt
 from scipy.cluster.hierarchy import linkage
 from scipy.spatial.distance import squareform
 
+from .items import escape_name, unescape_name
+
 __all__ = [
     "LinkageMethod",
     "Method",
@@ -625,13 +627,16 @@ def add_support(tree: Node, replicates: Iterable[Node]) -> Node:
 
 # Newick, the open format agreed informally in 1986: nested parentheses, ':' before a branch
 # length, a label after each node, single quotes around labels with blanks or punctuation.
-_NEEDS_QUOTES = re.compile(r"[\s()\[\]':;,\"]")
+_NEEDS_QUOTES = re.compile(r"[\s()\[\]':;,\"\\]")
 _NUMBER = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?")
 _TOKEN = re.compile(r"\s+|\[[^\]]*\]|'(?:[^']|'')*'|[(),:;]|[^\s()\[\]':;,]+")
 
 
-def _format_label(label: str, internal: bool) -> str:
-    # A numeric internal label would read back as a support value, so it is quoted.
+def _format_label(name: str, internal: bool) -> str:
+    # Control characters and bytes that are not UTF-8 are escaped as in every output; a backslash
+    # (doubled by the escape) is quoted, as some readers refuse it bare. A numeric internal label
+    # would read back as a support value, so it is quoted too.
+    label = escape_name(name)
     if label and not _NEEDS_QUOTES.search(label) and not (internal and _NUMBER.fullmatch(label)):
         return label
     return "'" + label.replace("'", "''") + "'"
@@ -660,9 +665,10 @@ def to_newick(tree: Node) -> str:
     """Newick text of ``tree``, ending in ``;``.
 
     Branch lengths follow ``:``; an internal node's support is written as its label (instead of
-    its name, if it has both). Labels with blanks, ``()[]':;,`` or ``"`` are single-quoted with
-    quotes doubled; underscores are written as they are, so readers that turn unquoted
-    underscores into spaces need their option to keep them.
+    its name, if it has both). Names are written by `escape_name` (control characters and bytes
+    that are not UTF-8 as backslash escapes); labels with blanks, ``()[]':;,``, ``"`` or a
+    backslash are single-quoted with quotes doubled; underscores are written as they are, so
+    readers that turn unquoted underscores into spaces need their option to keep them.
     """
     out: list[str] = []
     stack: list[Node | str] = [tree]
@@ -688,7 +694,8 @@ def parse_newick(text: str) -> Node:
     """Read one Newick tree (as written by :func:`to_newick`; ``[...]`` comments are skipped).
 
     An unquoted numeric label on an internal node is read as its support, any other label as a
-    name; quoted labels have doubled quotes undone and unquoted underscores are kept.
+    name; quoted labels have doubled quotes undone, escapes of `escape_name` are undone and
+    unquoted underscores are kept.
     """
     open_groups: list[list[Node]] = []
     children: tuple[Node, ...] = ()
@@ -746,9 +753,9 @@ def parse_newick(text: str) -> Node:
         elif label is not None or length is not None:
             raise fail(f"unexpected label {token!r}", position)
         elif token.startswith("'"):
-            label, quoted = token[1:-1].replace("''", "'"), True
+            label, quoted = unescape_name(token[1:-1].replace("''", "'")), True
         else:
-            label, quoted = token, False
+            label, quoted = unescape_name(token), False
         position = match.end()
     if root is None:
         raise ValueError("bad Newick: no closing ';'")
