@@ -124,14 +124,14 @@ def test_matrix_output_format_follows_the_file_extension(
     assert read_matrix(path).labels == ("a.txt", "b.txt", "c.txt", "d.txt")
 
 
-def test_matrix_output_inside_an_input_folder_is_not_an_input(
+def test_matrix_output_inside_an_input_folder_is_refused(
     capsys: pytest.CaptureFixture[str], text_folder: Path
 ) -> None:
     path = text_folder / "dist.tsv"
-    for _ in range(2):  # the second run finds the first run's output in the folder
-        code, _, err = run(capsys, "matrix", str(text_folder), *FAST, "-o", str(path))
-        assert code == 0, err
-    assert "dist.tsv" not in read_matrix(path).labels
+    code, out, err = run(capsys, "matrix", str(text_folder), *FAST, "-o", str(path))
+    assert code == 2 and out == ""
+    assert "inside the input folder" in err and len(err.splitlines()) == 1
+    assert not path.exists()
 
 
 def test_matrix_split_lines_compares_chunks_of_a_file(

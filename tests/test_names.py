@@ -64,7 +64,7 @@ def test_every_matrix_format_reads_back_the_same_names(labels: list[str], fmt: s
     with tempfile.TemporaryDirectory() as folder, warnings.catch_warnings():
         warnings.simplefilter("ignore", FormatWarning)  # PHYLIP says when it escapes blanks
         path = Path(folder) / f"m.{fmt}"
-        path.write_bytes(WRITERS[fmt](dm).encode("utf-8"))
+        path.write_bytes("".join(WRITERS[fmt](dm)).encode("utf-8"))
         back = read_matrix(path, fmt)
     assert back.labels == tuple(labels)
     np.testing.assert_allclose(back.distances, dm.distances, atol=1e-6)

@@ -23,11 +23,13 @@ from .distance import (
     DistanceMatrix,
     MeasurementWarning,
     Progress,
+    TooLarge,
+    check_matrix_memory,
     distance_matrix,
 )
 from .engine import ClusterError, DaskEngine, Engine, LocalEngine
 from .formats import MATRIX_FORMATS, emit, format_for, json_text, read_matrix, write_matrix
-from .items import InputError, Item, escape_name, load_items, read_labels
+from .items import DEFAULT_MAX_FILE_BYTES, InputError, Item, escape_name, load_items, read_labels
 
 DEFAULT_COMPRESSOR = "auto"
 
@@ -113,6 +115,7 @@ def _matrix_options(parser: argparse.ArgumentParser, conditional: str = "concat"
         help="both: condition nucleotide sequences on the better of y and its reverse complement",
     )
     group.add_argument("--labels", metavar="FILE", help="TSV of item<TAB>label: known labels")
+    _reading_options(group)
     run = parser.add_argument_group("running")
     run.add_argument("--jobs", type=int, metavar="N", help="worker count (default: all cores)")
     run.add_argument(
@@ -123,6 +126,37 @@ def _matrix_options(parser: argparse.ArgumentParser, conditional: str = "concat"
     )
     run.add_argument("--cache", metavar="PATH", help=f"size cache (default {default_cache_path()})")
     run.add_argument("--no-cache", action="store_true", help="compute everything afresh")
+
+
+def byte_size(text: str) -> int:
+    """A size given as bytes or with a binary unit: 4096, 512K, 200M, 2G (K = 1024 bytes)."""
+    units = {"": 1, "K": 1 << 10, "M": 1 << 20, "G": 1 << 30, "T": 1 << 40}
+    number, unit = text.strip().upper().removesuffix("B").removesuffix("I"), ""
+    if number and number[-1] in units:
+        number, unit = number[:-1], number[-1]
+    try:
+        value = float(number)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a size (e.g. 4096, 512K, 2G)") from None
+    return int(value * units[unit])
+
+
+def _reading_options(group: argparse._ArgumentGroup) -> None:
+    """How inputs are read: links below folders, and the size limit of one input."""
+    group.add_argument(
+        "--follow-links",
+        action="store_true",
+        help="below folders, read symbolic links wherever they lead (default: only links to "
+        "files inside the folder; the others are skipped with a warning)",
+    )
+    group.add_argument(
+        "--max-file-size",
+        type=byte_size,
+        default=DEFAULT_MAX_FILE_BYTES,
+        metavar="SIZE",
+        help="refuse an input holding more than SIZE bytes after decompression (default 1G; "
+        "units K, M, G)",
+    )
 
 
 def _inputs_or_matrix(parser: argparse.ArgumentParser) -> None:
@@ -267,6 +301,7 @@ def build_parser() -> argparse.ArgumentParser:
         "(repeat; default: a handful of strong and fast ones)"
     )  # fmt: skip
     calibration.add_argument("--split", default="auto", help="how inputs become items, as matrix")
+    _reading_options(calibration.add_argument_group("reading"))
     calibration.add_argument("--seed", type=int, default=2005, help="controls' seed (default 2005)")
     calibration.add_argument(
         "--max-bytes", type=int, default=64 << 20, metavar="N",
@@ -388,28 +423,84 @@ class Console:
             yield update
 
 
-def _written(args: argparse.Namespace) -> list[str]:
-    """The files this command will write (its output and picture)."""
-    return [p for p in (getattr(args, "output", None), getattr(args, "plot", None)) if p]
+_VALUE_RULES: dict[str, tuple[Callable[[float], bool], str]] = {
+    "jobs": (lambda v: v >= 1, "at least 1"),
+    "k": (lambda v: v >= 1, "at least 1"),
+    "cut": (lambda v: v >= 0, "0 or more"),
+    "bootstrap": (lambda v: v >= 0, "0 or more"),
+    "block_fraction": (lambda v: 0 < v <= 1, "above 0 and at most 1"),
+    "budget": (lambda v: v > 0, "a number of seconds above 0"),
+    "max_fpr": (lambda v: 0 < v <= 1, "above 0 and at most 1"),
+    "min_accepted": (lambda v: 0 <= v <= 1, "a share between 0 and 1"),
+    "max_bytes": (lambda v: v > 0, "above 0"),
+    "max_file_size": (lambda v: v > 0, "above 0"),
+}
+"""Option values checked before any work: the option's destination, its rule, the rule in
+words."""
 
 
-def _check_outputs(args: argparse.Namespace) -> None:
-    """Refuse, before any work, to write over an input or into a folder that does not exist."""
-    inputs = list(getattr(args, "inputs", None) or [])
-    for path in _written(args):
-        if path == "-":
-            continue
+def _check_values(args: argparse.Namespace) -> None:
+    for dest, (allowed, words) in _VALUE_RULES.items():
+        value = getattr(args, dest, None)
+        if value is not None and not allowed(value):
+            raise UsageError(f"--{dest.replace('_', '-')} {value}: give {words}")
+
+
+def _read_paths(args: argparse.Namespace) -> list[str]:
+    """The files and folders this command reads (inputs, reference, labels, a saved matrix)."""
+    paths = list(getattr(args, "inputs", None) or [])
+    paths += [getattr(args, key, None) for key in ("reference", "labels", "matrix")]
+    return [p for p in paths if p and p != "-"]
+
+
+def _written_paths(args: argparse.Namespace) -> list[tuple[str, str]]:
+    """(option, path) of every file this command writes: its output, picture and size cache."""
+    written = [("-o", getattr(args, "output", None)), ("--plot", getattr(args, "plot", None))]
+    if not getattr(args, "no_cache", True):
+        written.append(("--cache", args.cache))
+    return [(option, path) for option, path in written if path and path != "-"]
+
+
+def _check_request(args: argparse.Namespace) -> None:
+    """What can be checked before any work: option values, and that nothing written is, or lies
+    inside, anything read (an output inside an input folder would be read as an input, or
+    overwrite one) and that every output can be written where it is asked to go."""
+    _check_values(args)
+    read = _read_paths(args)
+    for option, path in _written_paths(args):
         real = os.path.realpath(path)
-        if any(os.path.isfile(p) and os.path.realpath(p) == real for p in inputs):
-            raise UsageError(f"{path}: is also an input; refusing to overwrite it")
-        folder = os.path.dirname(os.path.abspath(path))
-        if not os.path.isdir(folder):
-            raise UsageError(f"{path}: folder {folder} does not exist")
+        for source in read:
+            origin = os.path.realpath(source)
+            if real == origin:
+                raise UsageError(f"{option} {path}: is also an input; refusing to overwrite it")
+            if os.path.isdir(origin) and os.path.commonpath([origin, real]) == origin:
+                raise UsageError(
+                    f"{option} {path}: lies inside the input folder {source}, where it would be"
+                    " read as an input or overwrite one; write it elsewhere"
+                )
+        if option != "--cache":
+            _check_writable(option, path)
+
+
+def _check_writable(option: str, path: str) -> None:
+    if os.path.exists(path) and not os.path.isfile(path):  # a device or a pipe
+        if not os.access(path, os.W_OK):
+            raise UsageError(f"{option} {path}: cannot be written")
+        return
+    folder = os.path.dirname(os.path.abspath(path))
+    if not os.path.isdir(folder):
+        raise UsageError(f"{option} {path}: folder {folder} does not exist")
+    if not os.access(folder, os.W_OK | os.X_OK):
+        raise UsageError(f"{option} {path}: folder {folder} is not writable")
+
+
+def _input_options(args: argparse.Namespace) -> dict[str, Any]:
+    """How inputs are read: links below folders, and the most bytes one input may hold."""
+    return {"follow_links": args.follow_links, "max_file_bytes": args.max_file_size}
 
 
 def _load(args: argparse.Namespace) -> list[Item]:
-    _check_outputs(args)
-    return load_items(args.inputs, args.split, args.labels, exclude=_written(args))
+    return load_items(args.inputs, args.split, args.labels, **_input_options(args))
 
 
 @contextmanager
@@ -451,9 +542,19 @@ def _as_usage_errors() -> Iterator[None]:
         raise UsageError(str(error)) from None
 
 
-def compute_matrix(args: argparse.Namespace, console: Console) -> tuple[DistanceMatrix, list[Item]]:
-    """Load the inputs and compute their matrix as the command line asks, reporting on stderr."""
+Check = Callable[[Sequence[str]], None]
+"""Checks a command makes on the item names before any work (an outgroup, a group count)."""
+
+
+def compute_matrix(
+    args: argparse.Namespace, console: Console, check: Check | None = None
+) -> tuple[DistanceMatrix, list[Item]]:
+    """Load the inputs and compute their matrix as the command line asks, reporting on stderr;
+    `check` sees the item names before anything is computed."""
     items = _load(args)
+    if check is not None:
+        check([item.name for item in items])
+    check_matrix_memory(items)
     comp = compressor(resolve_compressor(args, items, console))
     with _opened_cache(args) as cache, console.progress() as progress:
         dm = distance_matrix(
@@ -529,19 +630,24 @@ def resolve_compressor(args: argparse.Namespace, items: Sequence[Item], console:
     return str(choice["spec"])
 
 
-def matrix_for(args: argparse.Namespace, console: Console) -> tuple[DistanceMatrix, list[Item]]:
-    """The matrix a command works on: read with --matrix FILE, else computed from the inputs."""
+def matrix_for(
+    args: argparse.Namespace, console: Console, check: Check | None = None
+) -> tuple[DistanceMatrix, list[Item]]:
+    """The matrix a command works on: read with --matrix FILE, else computed from the inputs;
+    `check` sees the item names first."""
     if args.matrix:
         if args.inputs:
             raise UsageError("give inputs or --matrix FILE, not both")
         dm = read_matrix(args.matrix)
+        if check is not None:
+            check(dm.labels)
         if args.labels:
             known = read_labels(args.labels)
             dm = dataclasses.replace(dm, classes=tuple(known.get(n) for n in dm.labels))
         return dm, []
     if not args.inputs:
         raise UsageError("give inputs to compare, or --matrix FILE")
-    return compute_matrix(args, console)
+    return compute_matrix(args, console, check)
 
 
 def summary(dm: DistanceMatrix, engine: Engine | None = None) -> str:
@@ -618,6 +724,7 @@ def run_matrix(args: argparse.Namespace, console: Console) -> int:
 
 
 def _outgroup(text: str | None, labels: Sequence[str]) -> list[str] | None:
+    """The --outgroup names, each checked against the item names."""
     if not text:
         return None
     wanted = [t.strip() for t in text.split(",") if t.strip()]
@@ -636,7 +743,11 @@ def run_tree(args: argparse.Namespace, console: Console) -> int:
     if args.bootstrap and args.matrix:
         raise UsageError("--bootstrap resamples the items, so it needs inputs, not --matrix")
     _check_plot(args.plot)
-    dm, items = matrix_for(args, console)
+
+    def check(labels: Sequence[str]) -> None:
+        _outgroup(args.outgroup, labels)
+
+    dm, items = matrix_for(args, console, check=check)
     outgroup = _outgroup(args.outgroup, dm.labels)
     with _as_usage_errors():
         tree = build_tree(dm.labels, dm.distances, method=args.method, outgroup=outgroup)
@@ -706,7 +817,12 @@ def run_groups(args: argparse.Namespace, console: Console) -> int:
 
     if args.k is not None and args.cut is not None:
         raise UsageError("give --k or --cut, not both")
-    dm, _ = matrix_for(args, console)
+
+    def check(labels: Sequence[str]) -> None:
+        if args.k is not None and args.k > len(labels):
+            raise UsageError(f"--k {args.k}: more groups than the {len(labels)} items")
+
+    dm, _ = matrix_for(args, console, check=check)
     with _as_usage_errors():
         grouping = find_groups(dm.distances, k=args.k, cut=args.cut, report_outliers=args.outliers)
     rows = ["item\tgroup\tmedoid\toutlier"]
@@ -802,8 +918,7 @@ def run_calibrate(args: argparse.Namespace, console: Console) -> int:
     from .calibration import DEFAULT_CANDIDATES, calibrate
 
     _check_plot(args.plot)
-    _check_outputs(args)
-    items = load_items(args.inputs, args.split, exclude=_written(args)) if args.inputs else None
+    items = load_items(args.inputs, args.split, **_input_options(args)) if args.inputs else None
     candidates = args.compressor or list(DEFAULT_CANDIDATES)
     for spec in candidates:
         compressor(spec)  # a bad spec fails before any work
@@ -855,7 +970,6 @@ def _calibration_text(report: Any) -> str:
 def run_classify(args: argparse.Namespace, console: Console) -> int:
     from .origins import classify, evaluate, reference_items
 
-    _check_outputs(args)
     if args.labels:
         reference = load_items([args.reference], args.split, args.labels)
         missing = [i.name for i in reference if i.label is None]
@@ -880,7 +994,7 @@ def run_classify(args: argparse.Namespace, console: Console) -> int:
         if args.evaluate:
             result = evaluate(reference, spec, cache=cache, progress=progress, **options)
         else:
-            unknowns = load_items(args.inputs, args.split, exclude=_written(args))
+            unknowns = load_items(args.inputs, args.split, **_input_options(args))
             found = classify(unknowns, reference, spec, cache=cache, progress=progress, **options)
     if args.evaluate:
         emit(_evaluation_text(result, args.min_accepted) if not args.json else json_text(
@@ -1045,6 +1159,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     console = Console(args.quiet)
     warnings.showwarning = _show_warning
     try:
+        _check_request(args)
         with _opened_engine(args) as args.engine:
             return COMMANDS[args.command](args, console)
     except (InputError, SpecError, UsageError) as error:
@@ -1062,7 +1177,7 @@ def main(argv: Sequence[str] | None = None) -> int:
             file=sys.stderr,
         )
         return 130
-    except ClusterError as error:
+    except (ClusterError, TooLarge) as error:
         if args.debug:
             raise
         print(f"kinpress: error: {error}", file=sys.stderr)

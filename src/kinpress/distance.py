@@ -13,7 +13,7 @@ from __future__ import annotations
 import hashlib
 import time
 import warnings
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -108,9 +108,19 @@ class _Sizes:
         self.lengths = np.array([len(d) for d in data], dtype=np.int64)
 
     def fetch(
-        self, phase: str, first: np.ndarray, second: np.ndarray | None
+        self,
+        phase: str,
+        first: np.ndarray,
+        second: np.ndarray | None,
+        *,
+        done: int = 0,
+        total: int | None = None,
     ) -> tuple[np.ndarray, np.ndarray]:
-        """Sizes for singles (second None) or pairs, and which of them came from the cache."""
+        """Sizes for singles (second None) or pairs, and which of them came from the cache.
+
+        Progress counts the sizes this call computes, or, with `total`, places the call in a
+        longer run of `total` sizes of which `done` are behind it (cached ones count as done).
+        """
         method = "single" if second is None else self.job.pair_method
         keys = [
             (self.digests[f], b"" if second is None else self.digests[s])
@@ -121,7 +131,9 @@ class _Sizes:
         cached = out >= 0
         todo = np.flatnonzero(~cached)
         if todo.size:
-            self._compute(phase, method, first, second, todo, keys, out)
+            start = 0 if total is None else done + int(cached.sum())
+            scale = int(todo.size) if total is None else total
+            self._compute(phase, method, first, second, todo, keys, out, (start, scale))
         return out, cached
 
     def _compute(
@@ -133,6 +145,7 @@ class _Sizes:
         todo: np.ndarray,
         keys: list[tuple[bytes, bytes]],
         out: np.ndarray,
+        progress: tuple[int, int],
     ) -> None:
         tiles = plan_tiles(
             self.data,
@@ -146,7 +159,7 @@ class _Sizes:
         for tile in tiles:
             where[tile] = todo[start : start + len(tile.first)]
             start += len(tile.first)
-        done = 0
+        done, total = progress
         for tile, sizes in self.engine.run(self.data, self.job, tiles):
             slots = where[tile]
             out[slots] = sizes
@@ -160,7 +173,7 @@ class _Sizes:
                 self.cache.put_many(self.comp.cache_key, method, rows)
             done += len(slots)
             if self.progress is not None:
-                self.progress(phase, done, int(todo.size))
+                self.progress(phase, done, total)
 
 
 def _check_job(comp: Compressor, conditional: str, strand: str, items: Sequence[Item]) -> None:
@@ -235,11 +248,15 @@ def _singles(
     engine: Engine,
     cache: SizeCache | None,
     progress: Progress | None,
+    before: Callable[[int], None] | None = None,
 ) -> tuple[_Sizes, np.ndarray, np.ndarray, int]:
     """The checked job's sizes source, each item's index into the distinct contents, every
-    distinct C(x), and how many of those came from the cache."""
+    distinct C(x), and how many of those came from the cache; `before` is called with the number
+    of distinct contents before anything is compressed."""
     _check_job(comp, conditional, strand, items)
     data, digests, index = _distinct(items)
+    if before is not None:
+        before(len(data))
     sizes = _Sizes(data, digests, comp, SizeJob(comp.spec, conditional, strand), engine, cache,
                    progress)  # fmt: skip
     single, cached = sizes.fetch("single items", np.arange(len(data)), None)
@@ -295,6 +312,94 @@ def conditional_sizes(
     )
 
 
+class TooLarge(ValueError):
+    """A run that would need more memory than the machine has: refused before it starts."""
+
+
+BYTES_PER_CELL = 17
+"""Peak bytes per matrix cell: the distinct contents' float64 square, the items' float64
+distances and a transient mask (another square when items repeat contents); measured."""
+
+BASE_BYTES = 200 << 20
+"""The interpreter, numpy, scipy, the compressor libraries and a chunk of pair bookkeeping."""
+
+
+def matrix_memory_bytes(count: int, input_bytes: int, repeats: bool = False) -> int:
+    """Estimated peak memory of `distance_matrix` on `count` items of `input_bytes` in all.
+
+    The inputs are held twice at most (the items, and a joined pair while it is compressed in
+    each worker), and every cell of the matrix costs BYTES_PER_CELL (8 more when some items
+    share their content), above a fixed BASE_BYTES.
+    """
+    per_cell = BYTES_PER_CELL + (8 if repeats else 0)
+    return BASE_BYTES + 2 * input_bytes + per_cell * count * count
+
+
+def available_memory() -> int | None:
+    """Memory this process may still use: the system's available memory, lowered by a cgroup
+    (container) limit; None where neither can be read."""
+    found: list[int] = []
+    try:
+        with open("/proc/meminfo", encoding="ascii") as info:
+            for line in info:
+                if line.startswith("MemAvailable:"):
+                    found.append(int(line.split()[1]) * 1024)
+    except (OSError, ValueError, IndexError):
+        pass
+    try:
+        with open("/sys/fs/cgroup/memory.max", encoding="ascii") as limit_file:
+            limit = limit_file.read().strip()
+        with open("/sys/fs/cgroup/memory.current", encoding="ascii") as used_file:
+            used = int(used_file.read().strip())
+        if limit != "max":
+            found.append(int(limit) - used)
+    except (OSError, ValueError):
+        pass
+    return min(found) if found else None
+
+
+def check_matrix_memory(
+    items: Sequence[Item], distinct: int | None = None, limit: int | None = None
+) -> None:
+    """Raise TooLarge when the matrix of `items` (`distinct` of them with contents of their own,
+    default all) would need more memory (`matrix_memory_bytes`) than `limit` (default:
+    `available_memory`)."""
+    limit = available_memory() if limit is None else limit
+    if limit is None:
+        return
+    total = sum(len(item.data) for item in items)
+    repeats = distinct is not None and distinct < len(items)
+    need = matrix_memory_bytes(len(items), total, repeats=repeats)
+    if need > limit:
+        raise TooLarge(
+            f"a full matrix of {len(items):,} items needs about {need / 2**30:.1f} GiB of memory"
+            f" and {limit / 2**30:.1f} GiB is available: compare fewer or larger items (a coarser"
+            " --split), or run on a machine with more memory"
+        )
+
+
+PAIR_CHUNK = 1 << 18
+"""Pairs looked up and computed at a time: bounds the per-pair bookkeeping (cache keys, tiles)
+whatever the number of items; each chunk still spreads over every worker."""
+
+
+def _row_chunks(m: int, chunk: int) -> Iterator[tuple[np.ndarray, np.ndarray]]:
+    """(first, second) position pairs p <= q of an m x m upper triangle, diagonal included, row
+    after row, in chunks of whole rows holding about `chunk` pairs (one row at least)."""
+    row = 0
+    while row < m:
+        stop, count = row, 0
+        while stop < m and (count == 0 or count + (m - stop) <= chunk):
+            count += m - stop
+            stop += 1
+        rows = np.arange(row, stop)
+        first = np.repeat(rows, m - rows)
+        starts = np.cumsum(m - rows) - (m - rows)
+        second = first + np.arange(count) - np.repeat(starts, m - rows)
+        yield first, second
+        row = stop
+
+
 def distance_matrix(
     items: Sequence[Item],
     comp: Compressor | str = "zstd",
@@ -305,6 +410,7 @@ def distance_matrix(
     jobs: int | None = None,
     cache: SizeCache | None = None,
     progress: Progress | None = None,
+    memory_limit: int | None = None,
 ) -> DistanceMatrix:
     """The NCD matrix of `items` under a compressor.
 
@@ -312,57 +418,77 @@ def distance_matrix(
     module docstring), and NCD(x, x) once per item. Negative values (real compressors give a few)
     are clipped to 0 and counted; values above 1 are kept and counted.
 
+    Before any compression the peak memory of the run is estimated (`matrix_memory_bytes`) and
+    compared with `memory_limit` (default: the memory this machine has available,
+    `available_memory`); a run that would not fit raises `TooLarge`.
+
     >>> dm = distance_matrix(load_items(["genomes/"]), "zstd:level=19")  # doctest: +SKIP
     """
     started = time.perf_counter()
     comp = compressor(comp)
     sizes, index, single, singles_cached = _singles(
-        items, comp, conditional, strand, engine or LocalEngine(jobs), cache, progress
+        items,
+        comp,
+        conditional,
+        strand,
+        engine or LocalEngine(jobs),
+        cache,
+        progress,
+        before=lambda distinct: check_matrix_memory(items, distinct, memory_limit),
     )
     _warn_beyond_window(comp, sizes.lengths)
     digests = sizes.digests
     m = len(sizes.data)
-    diag = np.arange(m)
 
-    # Condition the larger on the smaller: first = smaller C, ties broken by hash so that the
-    # order, and so the cache key, does not depend on input order.
+    # Condition the larger on the smaller: distinct contents in order of C (ties broken by hash,
+    # so that the order, and so the cache key, does not depend on input order); each pair's
+    # earlier content conditions the later one. Self pairs C(xx) come in the same pass, first in
+    # their row, so that no second wait for the slowest tile is needed.
     tie = np.array([int.from_bytes(d[:8], "big") for d in digests], dtype=np.uint64)
-    position = np.empty(m, dtype=np.int64)
-    position[np.lexsort((tie, single))] = diag
-    ii, jj = np.triu_indices(m, k=1)
-    swap = position[ii] > position[jj]
-    small, large = np.where(swap, jj, ii), np.where(swap, ii, jj)
-    # Self pairs C(xx) join the pairs in one pass: no second wait for the slowest tile.
-    given, target = np.concatenate([diag, small]), np.concatenate([diag, large])
-    order = np.argsort(given, kind="stable")
-    found = np.empty(len(given), dtype=np.int64)
-    cached = np.empty(len(given), dtype=bool)
-    found[order], cached[order] = sizes.fetch("pairs", given[order], target[order])
-    self_sizes, pair_sizes = found[:m], found[m:]
-    self_cached, pairs_cached = int(cached[:m].sum()), int(cached[m:].sum())
+    position = np.lexsort((tie, single))
+    square = np.zeros((m, m))
+    self_sizes = np.empty(m, dtype=np.int64)
+    total = m * (m + 1) // 2
+    done = pairs_cached = self_cached = 0
+    for first, second in _row_chunks(m, PAIR_CHUNK):
+        small, large = position[first], position[second]
+        found, cached = sizes.fetch("pairs", small, large, done=done, total=total)
+        done += len(found)
+        own = first == second
+        self_sizes[small[own]] = found[own]
+        self_cached += int(cached[own].sum())
+        pairs_cached += int(cached[~own].sum())
+        small, large, found = small[~own], large[~own], found[~own]
+        if conditional == "concat":
+            found = found - single[small]
+        ncd = found / np.maximum(single[large], 1)
+        square[small, large] = ncd
+        square[large, small] = ncd
     if conditional == "concat":
         self_sizes = self_sizes - single
-        pair_sizes = pair_sizes - single[small]
     self_unique = self_sizes / np.maximum(single, 1)
-    square = np.zeros((m, m))
-    square[small, large] = square[large, small] = pair_sizes / np.maximum(single[large], 1)
+    diag = np.arange(m)
     square[diag, diag] = self_unique
 
     # Expand distinct contents back to items; identical items sit at their measured NCD(x, x).
-    raw = square[np.ix_(index, index)]
+    duplicates = m < len(items)
+    raw = square[np.ix_(index, index)] if duplicates else square
     distances = raw.copy()
-    distances[index[:, None] == index[None, :]] = 0.0
-    upper = distances[np.triu_indices(len(items), k=1)]
+    if duplicates:
+        distances[index[:, None] == index[None, :]] = 0.0
+    else:
+        np.fill_diagonal(distances, 0.0)
+    pairs = m * (m - 1) // 2
     stats = MatrixStats(
-        pairs_computed=len(small) - pairs_cached,
+        pairs_computed=pairs - pairs_cached,
         pairs_from_cache=pairs_cached,
         singles_computed=m - singles_cached,
         singles_from_cache=singles_cached,
         self_pairs_computed=m - self_cached,
         bytes_compressed=sizes.bytes_compressed,
         seconds=time.perf_counter() - started,
-        clipped_below_zero=int(np.count_nonzero(upper < 0)),
-        above_one=int(np.count_nonzero(upper > 1)),
+        clipped_below_zero=int(np.count_nonzero(distances < 0)) // 2,  # symmetric, zero diagonal
+        above_one=int(np.count_nonzero(distances > 1)) // 2,
         identical_items=len(items) - m,
     )
     np.clip(distances, 0.0, None, out=distances)

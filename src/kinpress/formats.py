@@ -6,11 +6,14 @@ import csv
 import io
 import json
 import os
+import re
+import stat
 import sys
 import tempfile
+import time
 import warnings
 from collections import Counter
-from collections.abc import Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
 from pathlib import Path
 from typing import Any
 
@@ -32,40 +35,150 @@ class FormatWarning(UserWarning):
     """Something was changed to fit a file format (names shortened or made safe)."""
 
 
-def atomic_write(path: str | os.PathLike[str], content: str | bytes) -> None:
+STALE_SECONDS = 3600
+"""A temporary file of ours older than this is left from a write that was killed."""
+
+_TEMPORARY = re.compile(r"\..+\.kinpress-[A-Za-z0-9_]+\.tmp")
+
+
+def _write_all(fd: int, data: bytes, where: str) -> None:
+    """Write every byte to `fd`, or raise OSError saying how far it got (a full disk takes some
+    bytes, then refuses: buffered writers can drop the rest without a word)."""
+    view = memoryview(data)
+    done = 0
+    while done < len(data):
+        try:
+            done += os.write(fd, view[done:])
+        except BrokenPipeError:
+            raise
+        except OSError as error:
+            raise OSError(
+                error.errno, f"{error.strerror} after {done:,} of {len(data):,} bytes", where
+            ) from None
+
+
+def _creation_mode() -> int:
+    """The mode a new file gets from the user's umask (read without changing it where possible)."""
+    try:
+        with open("/proc/self/status", encoding="ascii") as status:
+            for line in status:
+                if line.startswith("Umask:"):
+                    return 0o666 & ~int(line.split()[1], 8)
+    except (OSError, ValueError):
+        pass
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return 0o666 & ~mask
+
+
+def _remove_stale_temporaries(folder: Path) -> None:
+    """Remove our own temporary files that a killed write left in `folder` long ago."""
+    try:
+        entries = list(os.scandir(folder))
+    except OSError:
+        return
+    now = time.time()
+    for entry in entries:
+        if not _TEMPORARY.fullmatch(entry.name):
+            continue
+        try:
+            if entry.is_file(follow_symlinks=False) and now - entry.stat().st_mtime > STALE_SECONDS:
+                os.unlink(entry.path)
+        except OSError:
+            continue
+
+
+Content = str | bytes | Iterable[str]
+"""What a writer takes: text, bytes, or text in pieces (written as they come)."""
+
+_PIECE_BYTES = 1 << 20
+
+
+def _encoded(content: Content) -> Iterator[bytes]:
+    """`content` as UTF-8 bytes, pieces gathered to about a megabyte per write."""
+    if isinstance(content, bytes):
+        yield content
+        return
+    if isinstance(content, str):
+        yield content.encode("utf-8")
+        return
+    batch: list[str] = []
+    size = 0
+    for piece in content:
+        batch.append(piece)
+        size += len(piece)
+        if size >= _PIECE_BYTES:
+            yield "".join(batch).encode("utf-8")
+            batch, size = [], 0
+    if batch:
+        yield "".join(batch).encode("utf-8")
+
+
+def _write_pieces(fd: int, content: Content, where: str) -> None:
+    for data in _encoded(content):
+        _write_all(fd, data, where)
+
+
+def atomic_write(path: str | os.PathLike[str], content: Content) -> None:
     """Write text (as UTF-8, line ends as given) or bytes to `path` through a temporary file in
     the same folder, then rename it.
 
-    A reader never sees a half-written file, and an interrupted write leaves the old one intact.
-    Devices and pipes are written to directly.
+    A reader never sees a half-written file, and an interrupted or failed write (a full disk)
+    leaves the old one intact and raises OSError. The file keeps the mode of the one it replaces;
+    a new one gets the mode the umask allows. Temporary files are named
+    ``.NAME.kinpress-XXXXXXXX.tmp``; those a killed write left are removed by a later write to the
+    same folder once older than STALE_SECONDS. Devices and pipes are written to directly.
     """
-    data = content.encode("utf-8") if isinstance(content, str) else content
     target = Path(path)
     if target.exists() and not target.is_file():
         # A device or pipe (/dev/null, a FIFO): renaming over it would replace it with a file.
-        with open(target, "wb") as out:
-            out.write(data)
+        with open(target, "wb", buffering=0) as out:
+            _write_pieces(out.fileno(), content, str(target))
         return
-    handle, temporary = tempfile.mkstemp(dir=target.parent or ".", prefix=f".{target.name}.")
+    mode = stat.S_IMODE(target.stat().st_mode) if target.exists() else _creation_mode()
+    folder = target.parent
+    _remove_stale_temporaries(folder)
+    handle, temporary = tempfile.mkstemp(
+        dir=folder, prefix=f".{target.name}.kinpress-", suffix=".tmp"
+    )
     try:
-        with os.fdopen(handle, "wb") as out:
-            out.write(data)
-            out.flush()
-            os.fsync(out.fileno())
-        os.chmod(temporary, 0o644)
+        try:
+            _write_pieces(handle, content, str(target))
+            os.fsync(handle)
+        finally:
+            os.close(handle)
+        os.chmod(temporary, mode)
         os.replace(temporary, target)
     except BaseException:
         Path(temporary).unlink(missing_ok=True)
         raise
 
 
-def emit(text: str, path: str | os.PathLike[str] | None) -> None:
-    """Write to a file atomically, or to stdout when `path` is None or '-'."""
-    if path is None or os.fspath(path) == "-":
-        sys.stdout.write(text)
-        sys.stdout.flush()
-    else:
+def describe_stdout() -> str:
+    """'standard output', and where it goes when that is a file (Linux's /proc tells)."""
+    try:
+        where = os.readlink("/proc/self/fd/1")
+    except OSError:
+        return "standard output"
+    return f"standard output ({where})" if where.startswith("/") else "standard output"
+
+
+def emit(text: Content, path: str | os.PathLike[str] | None) -> None:
+    """Write to a file atomically, or to stdout when `path` is None or '-'.
+
+    Every byte reaches standard output or OSError says how far it got and where it went."""
+    if path is not None and os.fspath(path) != "-":
         atomic_write(path, text)
+        return
+    sys.stdout.flush()
+    try:
+        fd = sys.stdout.fileno()
+    except (AttributeError, OSError, ValueError):  # replaced by an object without a descriptor
+        for data in _encoded(text):
+            sys.stdout.write(data.decode("utf-8"))
+        sys.stdout.flush()
+        return
+    _write_pieces(fd, text, describe_stdout())
 
 
 def format_for(path: str | os.PathLike[str] | None, given: str | None) -> str:
@@ -83,16 +196,15 @@ def _number(value: float) -> str:
     return f"{value:.6f}"
 
 
-def matrix_to_tsv(dm: DistanceMatrix) -> str:
+def tsv_lines(dm: DistanceMatrix) -> Iterator[str]:
     """Header row with an empty first cell and the labels, then one row per item.
 
     Labels are written by `escape_name`: tabs and line breaks cannot end a cell or a row.
     """
     labels = [escape_name(label) for label in dm.labels]
-    lines = ["\t".join(["", *labels])]
+    yield "\t".join(["", *labels]) + "\n"
     for label, row in zip(labels, dm.distances, strict=True):
-        lines.append("\t".join([label, *map(_number, row)]))
-    return "\n".join(lines) + "\n"
+        yield "\t".join([label, *map(_number, row)]) + "\n"
 
 
 def _csv_cell(text: str) -> str:
@@ -104,12 +216,11 @@ def _csv_cell(text: str) -> str:
     return text
 
 
-def matrix_to_csv(dm: DistanceMatrix) -> str:
+def csv_lines(dm: DistanceMatrix) -> Iterator[str]:
     """Like TSV, comma-separated with RFC 4180 quoting (line breaks stay inside quotes)."""
-    lines = [",".join(["", *map(_csv_cell, dm.labels)])]
+    yield ",".join(["", *map(_csv_cell, dm.labels)]) + "\n"
     for label, row in zip(dm.labels, dm.distances, strict=True):
-        lines.append(",".join([_csv_cell(label), *map(_number, row)]))
-    return "\n".join(lines) + "\n"
+        yield ",".join([_csv_cell(label), *map(_number, row)]) + "\n"
 
 
 def phylip_names(labels: Sequence[str]) -> list[str]:
@@ -127,7 +238,7 @@ def phylip_names(labels: Sequence[str]) -> list[str]:
     return names
 
 
-def matrix_to_phylip(dm: DistanceMatrix) -> str:
+def phylip_lines(dm: DistanceMatrix) -> Iterator[str]:
     """The square PHYLIP distance format: the count, then a name and a row per line.
 
     Names of up to 10 characters are padded to 10, which strict readers need; longer names are
@@ -135,10 +246,9 @@ def matrix_to_phylip(dm: DistanceMatrix) -> str:
     """
     names = phylip_names(dm.labels)
     width = max(10, max(len(n) + 1 for n in names))
-    lines = [f"{len(names):>5}"]
+    yield f"{len(names):>5}\n"
     for name, row in zip(names, dm.distances, strict=True):
-        lines.append(name.ljust(width) + " ".join(map(_number, row)))
-    return "\n".join(lines) + "\n"
+        yield name.ljust(width) + " ".join(map(_number, row)) + "\n"
 
 
 def json_safe(value: Any) -> Any:
@@ -159,7 +269,7 @@ def json_text(value: Any) -> str:
     return json.dumps(json_safe(value), indent=1, ensure_ascii=False) + "\n"
 
 
-def matrix_to_json(dm: DistanceMatrix) -> str:
+def json_lines(dm: DistanceMatrix) -> Iterator[str]:
     """Labels, rows, the compressor and method, per-item C(x) and NCD(x, x), and run stats.
 
     Names are written by `escape_name` (see `json_safe`)."""
@@ -179,18 +289,43 @@ def matrix_to_json(dm: DistanceMatrix) -> str:
     }
     if dm.classes is not None:
         doc["classes"] = dict(zip(dm.labels, dm.classes, strict=True))
-    # One matrix row per line: readable, and far faster than a number per line.
-    rows = ",\n  ".join(json.dumps(row) for row in np.round(dm.distances, 8).tolist())
     head = json.dumps(json_safe(doc), indent=1, ensure_ascii=False)
-    return head[: head.rindex("}")].rstrip() + ',\n "distances": [\n  ' + rows + "\n ]\n}\n"
+    yield head[: head.rindex("}")].rstrip() + ',\n "distances": [\n'
+    # One matrix row per line: readable, and far faster than a number per line.
+    for k, row in enumerate(dm.distances):
+        end = ",\n" if k < len(dm) - 1 else "\n"
+        yield "  " + json.dumps(np.round(row, 8).tolist()) + end
+    yield " ]\n}\n"
 
 
-WRITERS = {
-    "tsv": matrix_to_tsv,
-    "csv": matrix_to_csv,
-    "phylip": matrix_to_phylip,
-    "json": matrix_to_json,
+WRITERS: dict[str, Callable[[DistanceMatrix], Iterator[str]]] = {
+    "tsv": tsv_lines,
+    "csv": csv_lines,
+    "phylip": phylip_lines,
+    "json": json_lines,
 }
+"""Each format's writer, one line (or matrix row) at a time, so that a large matrix is never
+held twice as text."""
+
+
+def matrix_to_tsv(dm: DistanceMatrix) -> str:
+    """The TSV text of `tsv_lines`."""
+    return "".join(tsv_lines(dm))
+
+
+def matrix_to_csv(dm: DistanceMatrix) -> str:
+    """The CSV text of `csv_lines`."""
+    return "".join(csv_lines(dm))
+
+
+def matrix_to_phylip(dm: DistanceMatrix) -> str:
+    """The PHYLIP text of `phylip_lines`."""
+    return "".join(phylip_lines(dm))
+
+
+def matrix_to_json(dm: DistanceMatrix) -> str:
+    """The JSON text of `json_lines`."""
+    return "".join(json_lines(dm))
 
 
 def write_matrix(

@@ -11,8 +11,10 @@ import gzip
 import io
 import os
 import re
+import stat
 import sys
 import warnings
+import zlib
 from collections.abc import Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, replace
 from pathlib import Path
@@ -174,25 +176,62 @@ def _chunks(data: bytes, split: Split) -> list[bytes]:
     return [b"".join(lines[i : i + split.size]) for i in range(0, len(lines), split.size)]
 
 
-def _read(path: str, stdin: BinaryIO | None) -> bytes:
+DEFAULT_MAX_FILE_BYTES = 1 << 30
+"""The most bytes read from one input (after decompression) unless the caller allows more."""
+
+_READ_PIECE = 1 << 20
+
+
+def _size_text(n: int) -> str:
+    for unit, shift in (("GiB", 30), ("MiB", 20), ("KiB", 10)):
+        if n >= 1 << shift:
+            return f"{n / (1 << shift):g} {unit}"
+    return f"{n} bytes"
+
+
+def _read_capped(handle: BinaryIO, path: str, limit: int) -> bytes:
+    """Everything in `handle`, read a piece at a time; more than `limit` bytes is an InputError
+    raised as soon as the limit is passed, so no more than that is ever held."""
+    pieces: list[bytes] = []
+    held = 0
+    while piece := handle.read(min(_READ_PIECE, limit + 1 - held)):
+        pieces.append(piece)
+        held += len(piece)
+        if held > limit:
+            raise InputError(
+                f"{path}: larger than {_size_text(limit)} (after decompression);"
+                " raise the limit with --max-file-size to read it"
+            )
+    return b"".join(pieces)
+
+
+def _read(path: str, stdin: BinaryIO | None, limit: int = DEFAULT_MAX_FILE_BYTES) -> bytes:
     if path == "-":
-        return (stdin or sys.stdin.buffer).read()
+        return _read_capped(stdin or sys.stdin.buffer, "standard input", limit)
     try:
         if path.lower().endswith(".gz"):
             with gzip.open(path, "rb") as handle:
-                return handle.read()
+                return _read_capped(handle, path, limit)  # type: ignore[arg-type]
         with open(path, "rb") as handle:
-            return handle.read()
+            info = os.fstat(handle.fileno())
+            if stat.S_ISREG(info.st_mode) and info.st_size > limit:
+                raise InputError(
+                    f"{path}: larger than {_size_text(limit)} ({_size_text(info.st_size)});"
+                    " raise the limit with --max-file-size to read it"
+                )
+            return _read_capped(handle, path, limit)
     except FileNotFoundError:
         raise InputError(f"{path}: no such file or directory") from None
     except PermissionError:
         raise InputError(f"{path}: permission denied") from None
-    except (OSError, EOFError) as error:
+    except (OSError, EOFError, zlib.error) as error:
         raise InputError(f"{path}: cannot read: {error}") from None
 
 
-def _file_items(path: str, split: Split, stdin: BinaryIO | None) -> Iterator[Item]:
-    data = _read(path, stdin)
+def _file_items(
+    path: str, split: Split, stdin: BinaryIO | None, limit: int = DEFAULT_MAX_FILE_BYTES
+) -> Iterator[Item]:
+    data = _read(path, stdin, limit)
     base = "stdin" if path == "-" else os.path.basename(path).removesuffix(".gz")
     if not data:
         warnings.warn(f"{path}: empty file; left out", InputWarning, stacklevel=2)
@@ -240,13 +279,21 @@ def _file_items(path: str, split: Split, stdin: BinaryIO | None) -> Iterator[Ite
             yield Item(name, seq, path, nucleotide=nucleotide)
 
 
-def expand_paths(paths: Iterable[str | os.PathLike[str]], exclude: Iterable[str] = ()) -> list[str]:
+def expand_paths(
+    paths: Iterable[str | os.PathLike[str]],
+    exclude: Iterable[str] = (),
+    *,
+    follow_links: bool = False,
+) -> list[str]:
     """Files named and files below folders named, each folder's files in sorted order.
 
     Hidden files and folders (names starting with '.') below a folder are skipped, as are the
-    paths in `exclude` (a run's own output file, say). In a folder of mostly sequence files the
-    other files (labels, notes, trees kept beside the genomes) are left out with a warning;
-    files named on their own are always kept.
+    paths in `exclude`. In a folder of mostly sequence files the other files (labels, notes,
+    trees kept beside the genomes) are left out with a warning; files named on their own are
+    always kept. Below a folder, a symbolic link to a file inside that folder is read; links
+    that lead out of it, links to folders, and links that lead nowhere (broken or looping) are
+    skipped with a warning, unless `follow_links`, which reads links wherever they lead (each
+    folder once).
     """
     skip = {os.path.realpath(p) for p in exclude}
     files: list[str] = []
@@ -254,11 +301,7 @@ def expand_paths(paths: Iterable[str | os.PathLike[str]], exclude: Iterable[str]
         if given == "-":
             files.append(given)
         elif os.path.isdir(given):
-            found = []
-            for root, dirs, names in os.walk(given):
-                dirs[:] = sorted(d for d in dirs if not d.startswith("."))
-                found += [os.path.join(root, n) for n in names if not n.startswith(".")]
-            found = sorted(f for f in found if os.path.isfile(f))
+            found = _folder_files(given, follow_links)
             if not found:
                 raise InputError(f"{given}: folder holds no files")
             files += _sequence_files_if_mostly(given, found)
@@ -267,6 +310,60 @@ def expand_paths(paths: Iterable[str | os.PathLike[str]], exclude: Iterable[str]
         else:
             raise InputError(f"{given}: no such file or directory")
     return [f for f in files if f == "-" or os.path.realpath(f) not in skip]
+
+
+_SKIPPED_LINKS = {
+    "outside": "links that lead out of it; --follow-links reads them",
+    "folder": "links to folders; --follow-links follows them",
+    "nowhere": "links that lead nowhere (broken or looping)",
+}
+
+
+def _folder_files(folder: str, follow_links: bool) -> list[str]:
+    """The regular files below `folder` (see `expand_paths` for links), sorted by path."""
+    top = os.path.realpath(folder)
+    seen = {top}
+    skipped: dict[str, list[str]] = {kind: [] for kind in _SKIPPED_LINKS}
+    found: list[str] = []
+    pending = [folder]
+    while pending:
+        current = pending.pop()
+        try:
+            entries = list(os.scandir(current))
+        except OSError as error:
+            raise InputError(f"{current}: cannot read folder: {error.strerror}") from None
+        for entry in entries:
+            if entry.name.startswith("."):
+                continue
+            if not entry.is_symlink():
+                if entry.is_dir(follow_symlinks=False):
+                    pending.append(entry.path)
+                elif entry.is_file(follow_symlinks=False):
+                    found.append(entry.path)
+                continue
+            target = os.path.realpath(entry.path)
+            if not os.path.exists(entry.path):
+                skipped["nowhere"].append(entry.path)
+            elif os.path.isdir(entry.path):
+                if not follow_links:
+                    skipped["folder"].append(entry.path)
+                elif target not in seen:
+                    seen.add(target)
+                    pending.append(entry.path)
+            elif not follow_links and os.path.commonpath([top, target]) != top:
+                skipped["outside"].append(entry.path)
+            elif os.path.isfile(entry.path):
+                found.append(entry.path)
+    for kind, paths in skipped.items():
+        if paths:
+            first = ", ".join(escape_name(os.path.relpath(p, folder)) for p in sorted(paths)[:3])
+            more = ", ..." if len(paths) > 3 else ""
+            warnings.warn(
+                f"{folder}: skipped {len(paths)} {_SKIPPED_LINKS[kind]} ({first}{more})",
+                InputWarning,
+                stacklevel=4,
+            )
+    return sorted(found)
 
 
 def _sequence_files_if_mostly(folder: str, found: list[str]) -> list[str]:
@@ -429,15 +526,20 @@ def load_items(
     *,
     exclude: Iterable[str] = (),
     stdin: BinaryIO | None = None,
+    follow_links: bool = False,
+    max_file_bytes: int = DEFAULT_MAX_FILE_BYTES,
 ) -> list[Item]:
     """Read paths (files, folders, '-' for stdin) into uniquely named items.
+
+    No input may hold more than `max_file_bytes` (after decompression): a larger one is an
+    InputError, found while reading it and never held whole. `follow_links`: see `expand_paths`.
 
     >>> items = load_items(["genomes/"], split="records")  # doctest: +SKIP
     """
     mode = split if isinstance(split, Split) else Split.parse(split)
     items: list[Item] = []
-    for path in expand_paths(paths, exclude):
-        items.extend(_file_items(path, mode, stdin))
+    for path in expand_paths(paths, exclude, follow_links=follow_links):
+        items.extend(_file_items(path, mode, stdin, max_file_bytes))
     items = unique_names(items)
     _warn_mixed(items)
     if labels is not None:

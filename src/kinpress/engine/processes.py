@@ -20,17 +20,29 @@ class WorkerError(RuntimeError):
     """A worker process failed or died."""
 
 
+def worker_command() -> list[str]:
+    """How a worker starts: Python in isolated mode (-I: neither the current folder nor
+    PYTHONPATH nor the user's site-packages on the import path), importing kinpress from the
+    folder this kinpress was imported from and nothing else added, so that a module named like
+    a compression library in the user's folder is never run. It also starts in the root folder.
+    """
+    import kinpress
+
+    home = os.path.dirname(os.path.dirname(os.path.abspath(kinpress.__file__)))
+    start = (
+        f"import sys; sys.path.insert(0, {home!r}); "
+        "from kinpress.engine.wire import serve; serve(sys.stdin.buffer, sys.stdout.buffer)"
+    )
+    return [sys.executable, "-I", "-c", start]
+
+
 class WorkerProcesses:
-    """`count` processes running `kinpress.engine.worker`, each holding the items."""
+    """`count` worker processes (see `worker_command`), each holding the items."""
 
     def __init__(self, count: int, items: Sequence[bytes]) -> None:
-        env = dict(os.environ, PYTHONPATH=os.pathsep.join(p for p in sys.path if p))
         self._procs = [
             subprocess.Popen(
-                [sys.executable, "-m", "kinpress.engine.worker"],
-                stdin=subprocess.PIPE,
-                stdout=subprocess.PIPE,
-                env=env,
+                worker_command(), stdin=subprocess.PIPE, stdout=subprocess.PIPE, cwd=os.sep
             )
             for _ in range(count)
         ]
