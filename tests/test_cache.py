@@ -513,7 +513,7 @@ def test_command_line_refuses_another_programs_file_with_exit_2(
         assert code == 2 and out == ""
         assert len(lines) == 1 and re.fullmatch(
             rf"kinpress: error: {re.escape(str(path))}: not a kinpress cache \((an|not an) "
-            r"SQLite file[^()]*\); left untouched, choose another",
+            r"SQLite file[^()]*\); left untouched; choose another file",
             lines[0],
         )
         assert snapshot(folder) == before

@@ -74,17 +74,33 @@ def default_cache_path() -> Path:
     return Path(user_cache_dir("kinpress")) / "sizes.sqlite"
 
 
+def _framed(part: bytes) -> bytes:
+    return len(part).to_bytes(4, "little") + part
+
+
 def _checksum(*parts: bytes) -> int:
     """A 64-bit BLAKE2b checksum of length-prefixed parts, as SQLite's signed integer."""
-    h = hashlib.blake2b(digest_size=8, person=b"kinpress-cache")
-    for part in parts:
-        h.update(len(part).to_bytes(4, "little"))
-        h.update(part)
-    return int.from_bytes(h.digest(), "little", signed=True)
+    data = b"".join(_framed(part) for part in parts)
+    digest = hashlib.blake2b(data, digest_size=8, person=b"kinpress-cache").digest()
+    return int.from_bytes(digest, "little", signed=True)
+
+
+def _size_checksums(compressor: str, method: str) -> Callable[[bytes, bytes, int], int]:
+    """The checksum of a row of sizes: `_checksum` of its five fields, the first two framed once
+    (it runs on every row read, so it is kept lean)."""
+    head = _framed(compressor.encode()) + _framed(method.encode())
+    blake2b = hashlib.blake2b
+
+    def checksum(a: bytes, b: bytes, size: int) -> int:
+        data = head + _framed(a) + _framed(b) + _framed(size.to_bytes(8, "little", signed=True))
+        digest = blake2b(data, digest_size=8, person=b"kinpress-cache").digest()
+        return int.from_bytes(digest, "little", signed=True)
+
+    return checksum
 
 
 def _size_checksum(compressor: str, method: str, a: bytes, b: bytes, size: int) -> int:
-    return _checksum(compressor.encode(), method.encode(), a, b, size.to_bytes(8, "little"))
+    return _size_checksums(compressor, method)(a, b, size)
 
 
 def _choice_checksum(key: str, value: str) -> int:
@@ -248,7 +264,8 @@ class SizeCache:
                 return
             if kind == "a folder" or self.path.resolve() != default_cache_path().resolve():
                 raise CacheError(
-                    f"{self.path}: not a kinpress cache ({kind}); left untouched, choose another"
+                    f"{self.path}: not a kinpress cache ({kind}); left untouched; "
+                    "choose another file"
                 )
             if not self._set_aside(kind):  # kinpress's own location: keep the file, start anew
                 return
@@ -449,8 +466,9 @@ class SizeCache:
             return {}
         found: dict[tuple[bytes, bytes], int] = {}
         damaged: list[tuple[bytes, bytes]] = []
+        expected = _size_checksums(compressor, method)
         for a, b, size, checksum in rows:
-            if not self._checked or checksum == _size_checksum(compressor, method, a, b, size):
+            if not self._checked or checksum == expected(a, b, size):
                 found[a, b] = size
             else:
                 damaged.append((a, b))
@@ -528,8 +546,9 @@ class SizeCache:
         """Store sizes and commit at once, so an interrupted run keeps them."""
         if self._db is None:
             return
+        checksum = _size_checksums(compressor, method)
         values: list[tuple[object, ...]] = [
-            (compressor, method, a, b, size, _size_checksum(compressor, method, a, b, size))
+            (compressor, method, a, b, size, checksum(a, b, size))
             for a, b, size in ((a, b, int(size)) for a, b, size in rows)
         ]
         self._write("INSERT OR IGNORE INTO sizes VALUES (?, ?, ?, ?, ?, ?)", values, len(values))
