@@ -54,10 +54,6 @@ UPDATE choices SET checksum = kinpress_choice_checksum(key, value);
 UPDATE meta SET value = '2' WHERE key = 'schema';
 """
 
-# SQLite's primary result codes (https://sqlite.org/rescode.html).
-_BUSY, _READONLY, _IOERR, _CORRUPT, _FULL, _CANTOPEN, _NOTADB = 5, 8, 10, 11, 13, 14, 26
-_READONLY_DBMOVED = 1032  # the file was renamed or replaced under an open connection
-
 
 class CacheWarning(UserWarning):
     """The cache could not be used as asked: set aside, not written, or waited for."""
@@ -108,8 +104,8 @@ def _choice_checksum(key: str, value: str) -> int:
 
 
 def _code(error: sqlite3.Error) -> int:
-    """SQLite's extended result code of an error (0 when it carries none)."""
-    return int(getattr(error, "sqlite_errorcode", 0) or 0)
+    """SQLite's primary result code of an error (https://sqlite.org/rescode.html; 0 if none)."""
+    return int(getattr(error, "sqlite_errorcode", 0) or 0) & 0xFF
 
 
 def _uri(path: Path, query: str) -> str:
@@ -273,7 +269,7 @@ class SizeCache:
         try:
             self._db = self._connect(kind)
         except sqlite3.Error as error:
-            if _code(error) & 0xFF in (_CORRUPT, _NOTADB) and kind != "new":
+            if _code(error) in (sqlite3.SQLITE_CORRUPT, sqlite3.SQLITE_NOTADB) and kind != "new":
                 if self._set_aside(str(error)):
                     self._attach()
             elif kind == "new":  # SQLite rolls a failed creation back to an empty file
@@ -376,7 +372,7 @@ class SizeCache:
                 return attempt()
             except sqlite3.OperationalError as error:
                 waited = time.monotonic() - start
-                if _code(error) & 0xFF != _BUSY or self._gave_up_waiting:
+                if _code(error) != sqlite3.SQLITE_BUSY or self._gave_up_waiting:
                     raise
                 if waited >= self.busy_timeout:
                     self._gave_up_waiting = True
@@ -396,12 +392,12 @@ class SizeCache:
         """Deal with an error of a read or write: only corruption sets the cache aside."""
         code = _code(error)
         self._unstored += rows
-        if code & 0xFF in (_CORRUPT, _NOTADB):
+        if code in (sqlite3.SQLITE_CORRUPT, sqlite3.SQLITE_NOTADB):
             if self._set_aside(str(error)):
                 self._attach()
-        elif code == _READONLY_DBMOVED:
+        elif getattr(error, "sqlite_errorcode", 0) == sqlite3.SQLITE_READONLY_DBMOVED:
             self._reattach()
-        elif code & 0xFF == _BUSY:
+        elif code == sqlite3.SQLITE_BUSY:
             self._warn_once(
                 f"cache {self.path} stayed locked by another program for "
                 f"{self.busy_timeout:g} s; going on, and sizes computed while it stays locked "
@@ -414,16 +410,18 @@ class SizeCache:
     def _unwritable(self, error: sqlite3.Error) -> str:
         """Why the cache cannot be written, in the user's terms (SQLite reports a full disk
         met while making the -shm file as an I/O error, a read-only mount as cannot open)."""
-        code = _code(error) & 0xFF
+        code = _code(error)
         try:
             disk = os.statvfs(self.path.parent)
         except OSError:
             disk = None
-        if code == _FULL or (code == _IOERR and disk is not None and disk.f_bavail == 0):
+        if code == sqlite3.SQLITE_FULL or (
+            code == sqlite3.SQLITE_IOERR and disk is not None and disk.f_bavail == 0
+        ):
             return "the disk is full"
-        if code == _READONLY or (disk is not None and disk.f_flag & os.ST_RDONLY):
+        if code == sqlite3.SQLITE_READONLY or (disk is not None and disk.f_flag & os.ST_RDONLY):
             return "it is read-only"
-        if code == _CANTOPEN and not os.access(self.path.parent, os.W_OK):
+        if code == sqlite3.SQLITE_CANTOPEN and not os.access(self.path.parent, os.W_OK):
             return "its folder is read-only"
         return f"it cannot be written ({error})"
 
