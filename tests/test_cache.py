@@ -288,6 +288,26 @@ def read_only(folder: Path) -> None:
     subprocess.run(["mount", "-o", "remount,ro", str(folder)], check=True)
 
 
+@pytest.fixture
+def read_only_file() -> Iterator[Callable[[Path], None]]:
+    """Makes one file read-only, its folder staying writable, by a read-only bind mount of the
+    file on itself (root ignores permission bits; needs root and a kernel that allows it)."""
+    mounted: list[Path] = []
+
+    def make(path: Path) -> None:
+        if os.geteuid() != 0 or shutil.which("mount") is None:
+            pytest.skip("a read-only bind mount needs root and mount(8)")
+        for argv in (["--bind", str(path), str(path)], ["-o", "remount,bind,ro", str(path)]):
+            done = subprocess.run(["mount", *argv], capture_output=True)
+            if done.returncode != 0:
+                pytest.skip(f"cannot bind-mount here: {done.stderr.decode().strip()}")
+            mounted.append(path)
+
+    yield make
+    for path in mounted[:1]:
+        subprocess.run(["umount", "-l", str(path)], check=True)
+
+
 @pytest.mark.parametrize("when", ["before opening", "while open"])
 def test_a_full_disk_uses_what_the_cache_holds_and_warns(
     tmpfs: Path, text_corpus: bytes, when: str
@@ -303,7 +323,10 @@ def test_a_full_disk_uses_what_the_cache_holds_and_warns(
             fill(tmpfs)
         dm = distance_matrix(items, "zstd:level=3", cache=cache, jobs=1)
     assert dm.stats.pairs_from_cache == 10 and np.array_equal(dm.distances, fresh(items))
-    assert any("full" in m or "read-only" in m for m in messages(record)), messages(record)
+    assert messages(record) == [  # 3 singles, 3 self-pairs and 18 pairs were new
+        f"cache {path}: the disk is full; using the sizes it holds, new sizes are not stored",
+        f"cache {path}: 24 sizes computed in this run were not stored; a rerun computes them again",
+    ]
     assert not set_aside(tmpfs)
     (tmpfs / "filler").unlink()
     with SizeCache(path) as cache:
@@ -454,6 +477,25 @@ def test_an_unrecognised_file_at_the_default_location_is_set_aside(
     assert dm.stats.pairs_computed == 3
     aside = set_aside(path.parent)
     assert len(aside) == 1 and aside[0].read_bytes().startswith(b"damaged beyond")
+
+
+def test_a_read_only_file_in_a_writable_folder_is_read_and_not_written(
+    tmp_path: Path, text_corpus: bytes, read_only_file: Callable[[Path], None]
+) -> None:
+    items = text_items(text_corpus, 6)
+    path = tmp_path / "c.sqlite"
+    with SizeCache(path) as cache:
+        distance_matrix(items[:4], "zstd:level=3", cache=cache, jobs=1)
+    before = path.read_bytes()
+    read_only_file(path)
+    with pytest.warns(CacheWarning) as record, SizeCache(path) as cache:
+        dm = distance_matrix(items, "zstd:level=3", cache=cache, jobs=1)
+    assert dm.stats.pairs_from_cache == 6 and np.array_equal(dm.distances, fresh(items))
+    assert messages(record) == [  # 2 singles, 2 self-pairs and 9 pairs were new
+        f"cache {path}: it is read-only; using the sizes it holds, new sizes are not stored",
+        f"cache {path}: 13 sizes computed in this run were not stored; a rerun computes them again",
+    ]
+    assert path.read_bytes() == before and not set_aside(tmp_path)
 
 
 def test_a_read_only_schema_1_cache_still_gives_its_sizes(tmpfs: Path, text_corpus: bytes) -> None:
