@@ -413,13 +413,12 @@ class SizeCache:
         code = _code(error)
         try:
             disk = os.statvfs(self.path.parent)
-        except OSError:
-            disk = None
-        if code == sqlite3.SQLITE_FULL or (
-            code == sqlite3.SQLITE_IOERR and disk is not None and disk.f_bavail == 0
-        ):
+            no_space, read_only = disk.f_bavail == 0, bool(disk.f_flag & os.ST_RDONLY)
+        except (OSError, AttributeError):  # no statvfs on Windows
+            no_space = read_only = False
+        if code == sqlite3.SQLITE_FULL or (code == sqlite3.SQLITE_IOERR and no_space):
             return "the disk is full"
-        if code == sqlite3.SQLITE_READONLY or (disk is not None and disk.f_flag & os.ST_RDONLY):
+        if code == sqlite3.SQLITE_READONLY or read_only:
             return "it is read-only"
         if code == sqlite3.SQLITE_CANTOPEN and not os.access(self.path.parent, os.W_OK):
             return "its folder is read-only"
