@@ -9,7 +9,7 @@
 from __future__ import annotations
 
 from ._version import __version__
-from .cache import SizeCache, default_cache_path
+from .cache import CacheError, CacheWarning, SizeCache, default_cache_path
 from .compressors import Compressor, SpecError, compressor
 from .distance import (
     ConditionalSizes,
@@ -40,6 +40,8 @@ def __getattr__(name: str) -> object:
 
 
 __all__ = [
+    "CacheError",
+    "CacheWarning",
     "CompressionClassifier",
     "Compressor",
     "ConditionalSizes",

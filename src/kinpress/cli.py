@@ -15,7 +15,7 @@ from contextlib import contextmanager
 from functools import partial
 from typing import Any, TextIO
 
-from .cache import SizeCache, default_cache_path
+from .cache import CacheError, SizeCache, default_cache_path
 from .compressors import ADAPTERS, SpecError, compressor, describe
 from .distance import (
     CONDITIONALS,
@@ -1162,7 +1162,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         _check_request(args)
         with _opened_engine(args) as args.engine:
             return COMMANDS[args.command](args, console)
-    except (InputError, SpecError, UsageError) as error:
+    except (InputError, SpecError, UsageError, CacheError) as error:
         if args.debug:
             raise
         print(f"kinpress: error: {error}", file=sys.stderr)
