@@ -336,3 +336,25 @@ def test_console_script_debug_shows_the_traceback(tmp_path: Path) -> None:
     assert result.returncode != 0
     assert "Traceback (most recent call last)" in result.stderr
     assert "InputError: " in result.stderr and "nowhere.txt" in result.stderr
+
+
+def test_progress_off_a_terminal_is_a_line_now_and_then(monkeypatch: pytest.MonkeyPatch) -> None:
+    from kinpress.cli import Console
+
+    stream = io.StringIO()  # not a terminal
+    console = Console(quiet=False, stream=stream)
+    monkeypatch.setattr(Console, "LINE_SECONDS", 0.0)
+    with console.progress() as update:
+        assert update is not None
+        update("pairs", 0, 400)
+        update("pairs", 100, 400)
+        update("pairs", 400, 400)  # finished: the summary line says the rest
+    lines = stream.getvalue().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("kinpress: pairs: 100 of 400 done (25%)")
+    monkeypatch.setattr(Console, "LINE_SECONDS", 3600.0)
+    with Console(quiet=False, stream=stream).progress() as update:
+        assert update is not None
+        update("pairs", 100, 400)
+    assert len(stream.getvalue().splitlines()) == 1
+    with Console(quiet=True, stream=stream).progress() as update:
+        assert update is None

@@ -2,15 +2,19 @@
 
 from __future__ import annotations
 
+import bz2
 import csv
 import gzip
 import io
+import lzma
 import os
 import random
 import warnings
+from collections.abc import Callable
 from pathlib import Path
 
 import pytest
+import zstandard
 from Bio import SeqIO
 from Bio.Seq import Seq
 from Bio.SeqRecord import SeqRecord
@@ -203,6 +207,30 @@ def test_gzipped_fasta_loads_like_the_plain_file(tmp_path: Path) -> None:
     assert [(i.name, i.data) for i in plain] == [("a", b"ACGTACGT"), ("b", b"TTTTGG")]
     whole = load_items([tmp_path / "packed.fa.gz"], "file")
     assert [(i.name, i.data) for i in whole] == [("packed", b"ACGTACGTTTTTGG")]
+
+
+@pytest.mark.parametrize(
+    ("suffix", "pack"),
+    [
+        (".bz2", bz2.compress),
+        (".xz", lzma.compress),
+        (".zst", lambda data: zstandard.ZstdCompressor().compress(data)),
+    ],
+)
+def test_bzip2_xz_and_zstd_inputs_load_like_the_plain_file(
+    tmp_path: Path, suffix: str, pack: Callable[[bytes], bytes]
+) -> None:
+    text = b">a desc\nACGTAC\nGT\n>b\nttttgg\n"
+    (tmp_path / f"packed.fa{suffix}").write_bytes(pack(text))
+    packed = load_items([tmp_path / f"packed.fa{suffix}"], "file")
+    assert [(i.name, i.data) for i in packed] == [("packed", b"ACGTACGTTTTTGG")]
+    (tmp_path / f"notes.txt{suffix}").write_bytes(pack(b"plain words\n" * 1000))
+    assert load_items([tmp_path / f"notes.txt{suffix}"])[0].name == "notes.txt"
+    with pytest.raises(InputError, match=rf"notes.txt{suffix}: larger than 1 KiB"):
+        load_items([tmp_path / f"notes.txt{suffix}"], max_file_bytes=1024)
+    (tmp_path / f"broken{suffix}").write_bytes(b"not compressed at all")
+    with pytest.raises(InputError, match=rf"broken{suffix}: cannot read"):
+        load_items([tmp_path / f"broken{suffix}"])
 
 
 # --- splits --------------------------------------------------------------------------------

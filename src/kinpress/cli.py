@@ -9,6 +9,7 @@ import hashlib
 import json
 import os
 import sys
+import time
 import warnings
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
@@ -385,7 +386,10 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 class Console:
-    """Progress and messages on stderr; quiet when asked or when stderr is not a terminal."""
+    """Progress and messages on stderr, nothing with --quiet. On a terminal progress is a bar;
+    elsewhere (a log file, a batch job) a line every LINE_SECONDS while work goes on."""
+
+    LINE_SECONDS = 10.0
 
     def __init__(self, quiet: bool, stream: TextIO | None = None) -> None:
         self.stream = stream or sys.stderr
@@ -398,9 +402,35 @@ class Console:
 
     @contextmanager
     def progress(self) -> Iterator[Progress | None]:
-        if not self.interactive:
+        if self.quiet:
             yield None
-            return
+        elif not self.interactive:
+            yield self._lines()
+        else:
+            with self._bar() as update:
+                yield update
+
+    def _lines(self) -> Progress:
+        """A progress callback that writes one line every LINE_SECONDS, the first after that."""
+        last = [time.monotonic()]
+        started: dict[str, float] = {}
+
+        def update(phase: str, done: int, total: int) -> None:
+            now = time.monotonic()
+            begun = started.setdefault(phase, now)
+            if now - last[0] < self.LINE_SECONDS or not 0 < done < total:
+                return
+            last[0] = now
+            left = (now - begun) * (total - done) / done
+            self.say(
+                f"{phase}: {done:,} of {total:,} done ({done / total:.0%}), about"
+                f" {_duration(left)} left"
+            )
+
+        return update
+
+    @contextmanager
+    def _bar(self) -> Iterator[Progress]:
         from rich.console import Console as RichConsole
         from rich.progress import BarColumn, MofNCompleteColumn, Progress, TimeRemainingColumn
 
@@ -421,6 +451,14 @@ class Console:
 
         with bar:
             yield update
+
+
+def _duration(seconds: float) -> str:
+    if seconds < 90:
+        return f"{seconds:.0f} s"
+    if seconds < 5400:
+        return f"{seconds / 60:.0f} min"
+    return f"{seconds / 3600:.1f} h"
 
 
 _VALUE_RULES: dict[str, tuple[Callable[[float], bool], str]] = {

@@ -7,18 +7,22 @@ deposit conventions do not change distances.
 
 from __future__ import annotations
 
+import bz2
 import gzip
 import io
+import lzma
 import os
 import re
 import stat
 import sys
 import warnings
 import zlib
-from collections.abc import Iterable, Iterator, Mapping, Sequence
+from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, replace
 from pathlib import Path
-from typing import BinaryIO
+from typing import Any, BinaryIO
+
+import zstandard
 
 
 class InputError(ValueError):
@@ -90,8 +94,9 @@ def is_nucleotide(letters: bytes) -> bool:
 
 
 def sequence_format(path: str) -> str | None:
-    """The sequence format a file name implies (a trailing .gz is looked through), or None."""
-    name = path.lower().removesuffix(".gz")
+    """The sequence format a file name implies (a compression suffix is looked through), or
+    None."""
+    name = _uncompressed_name(path.lower())
     return SEQUENCE_FORMATS.get(os.path.splitext(name)[1])
 
 
@@ -176,6 +181,27 @@ def _chunks(data: bytes, split: Split) -> list[bytes]:
     return [b"".join(lines[i : i + split.size]) for i in range(0, len(lines), split.size)]
 
 
+def _open_zstd(path: str) -> Any:
+    # The reader closes the file it was given when it is closed itself.
+    source = open(path, "rb")  # noqa: SIM115
+    return zstandard.ZstdDecompressor().stream_reader(source, closefd=True)
+
+
+_DECOMPRESSORS: dict[str, Callable[[str], Any]] = {
+    ".gz": gzip.open,
+    ".bz2": bz2.open,
+    ".xz": lzma.open,
+    ".zst": _open_zstd,
+}
+"""Compressed inputs read through their decompressor, by file name suffix."""
+
+
+def _uncompressed_name(name: str) -> str:
+    """`name` without a compression suffix that kinpress reads through (`genome.fa.gz`)."""
+    stem, suffix = os.path.splitext(name)
+    return stem if suffix.lower() in _DECOMPRESSORS else name
+
+
 DEFAULT_MAX_FILE_BYTES = 1 << 30
 """The most bytes read from one input (after decompression) unless the caller allows more."""
 
@@ -209,9 +235,10 @@ def _read(path: str, stdin: BinaryIO | None, limit: int = DEFAULT_MAX_FILE_BYTES
     if path == "-":
         return _read_capped(stdin or sys.stdin.buffer, "standard input", limit)
     try:
-        if path.lower().endswith(".gz"):
-            with gzip.open(path, "rb") as handle:
-                return _read_capped(handle, path, limit)  # type: ignore[arg-type]
+        opener = _DECOMPRESSORS.get(os.path.splitext(path.lower())[1])
+        if opener is not None:
+            with opener(path) as handle:
+                return _read_capped(handle, path, limit)
         with open(path, "rb") as handle:
             info = os.fstat(handle.fileno())
             if stat.S_ISREG(info.st_mode) and info.st_size > limit:
@@ -224,7 +251,7 @@ def _read(path: str, stdin: BinaryIO | None, limit: int = DEFAULT_MAX_FILE_BYTES
         raise InputError(f"{path}: no such file or directory") from None
     except PermissionError:
         raise InputError(f"{path}: permission denied") from None
-    except (OSError, EOFError, zlib.error) as error:
+    except (OSError, EOFError, zlib.error, lzma.LZMAError, zstandard.ZstdError) as error:
         raise InputError(f"{path}: cannot read: {error}") from None
 
 
@@ -232,7 +259,7 @@ def _file_items(
     path: str, split: Split, stdin: BinaryIO | None, limit: int = DEFAULT_MAX_FILE_BYTES
 ) -> Iterator[Item]:
     data = _read(path, stdin, limit)
-    base = "stdin" if path == "-" else os.path.basename(path).removesuffix(".gz")
+    base = "stdin" if path == "-" else _uncompressed_name(os.path.basename(path))
     if not data:
         warnings.warn(f"{path}: empty file; left out", InputWarning, stacklevel=2)
         return
