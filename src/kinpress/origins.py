@@ -19,16 +19,16 @@ is cut so that every reference item keeps the same number of leading bytes (long
 shorter ones kept whole), and a MeasurementWarning says so. Cutting keeps every item represented,
 where a plain join would let the window see only the last few items.
 
-Abstention: an item is returned as unknown (None) when its best score exceeds a threshold. The
-threshold comes from the reference itself by leave-one-out: each reference item's score for its own
-origin without itself ("own"), and its best score among the other origins ("foreign", what an item
-of an origin missing from the reference would score). The threshold minimises the share of own
-scores above it plus the share of foreign scores at or below it. One cut for all origins refuses
-many items of a spread-out origin (code in languages that share idioms, a noisy log), so each
-origin's cut is then raised, where needed, until `min_accepted` (default 0.9) of that origin's own
-scores lie within it. Measured on real code (8 languages) this took refusals of known languages
-from 28 % to 7.5 % while 90 % of the files of a language left out of the reference were still
-refused (97 % before); on real logs it changed nothing. The cuts are reported and can be given.
+Abstention: every origin tests every item, and accepts it when the item's conformal p-value for
+that origin is above the significance (Vovk, Gammerman & Shafer 2005): the item is named when one
+origin accepts it, ambiguous when several do, unknown when none does. The p-values compare the
+item's nonconformity with that of reference items held out as new data would come: each origin's
+items are cut into contiguous blocks (later chunks of a log, files of another folder), and block b
+of every origin is scored against the reference without block b. Leave-one-out scores were too
+optimistic: neighbouring chunks of one log explain each other, and new data drifts. Known items
+are then refused at a rate of at most the significance as long as new data drifts no more than
+the held-out blocks do; the output says so, and warns when too few reference items make the asked
+rate impossible. A fixed cut on the score can be given instead.
 """
 
 from __future__ import annotations
@@ -111,15 +111,15 @@ class _Reference:
     def members(self, origin: int) -> np.ndarray:
         return np.flatnonzero(self.codes == origin)
 
-    def check(self, *, leave_one_out: bool) -> None:
+    def check(self, *, calibrate: bool) -> None:
         if len(self.origins) < 2:
             raise InputError(f"need at least two origins in the reference, got {len(self.origins)}")
-        if leave_one_out:
+        if calibrate:
             counts = np.bincount(self.codes, minlength=len(self.origins))
             thin = [o for o, n in zip(self.origins, counts, strict=True) if n < 2]
             if thin:
                 raise InputError(
-                    "leave-one-out needs two reference items per origin; "
+                    "calibrating the abstention needs two reference items per origin; "
                     f"{', '.join(thin)} has one (give a threshold to classify without it)"
                 )
 
@@ -257,8 +257,8 @@ def _knn_decision(distances: np.ndarray, codes: np.ndarray, origins: int, k: int
     return _Scores(scores, picked, nearest, distances[np.arange(len(distances)), nearest])
 
 
-def _check_k(k: int, reference: _Reference, leave_one_out: bool) -> None:
-    available = len(reference.items) - (1 if leave_one_out else 0)
+def _check_k(k: int, reference: _Reference) -> None:
+    available = len(reference.items)
     if not 1 <= k <= available:
         raise ValueError(f"k must be between 1 and {available} reference items, got {k}")
 
@@ -266,17 +266,20 @@ def _check_k(k: int, reference: _Reference, leave_one_out: bool) -> None:
 def _knn_scores(
     targets: Sequence[Item], reference: _Reference, options: _Options, k: int
 ) -> _Scores:
-    _check_k(k, reference, leave_one_out=False)
+    _check_k(k, reference)
     distances = _cross_distances(targets, reference.items, options, options.conditional)
     return _knn_decision(distances, reference.codes, len(reference.origins), k)
 
 
-def _knn_leave_one_out(reference: _Reference, options: _Options, k: int) -> _Scores:
-    _check_k(k, reference, leave_one_out=True)
+def _knn_fold_scores(reference: _Reference, options: _Options, folds: np.ndarray) -> np.ndarray:
+    """Each reference item's NCD to the nearest item of every origin outside its own fold."""
     matrix = distance_matrix(reference.items, options.comp, **options.sizes_kwargs())
     distances = np.array(matrix.distances)
-    np.fill_diagonal(distances, np.inf)
-    return _knn_decision(distances, reference.codes, len(reference.origins), k)
+    distances[folds[:, None] == folds[None, :]] = np.inf
+    scores = np.full((len(folds), len(reference.origins)), np.inf)
+    for origin in range(len(reference.origins)):
+        scores[:, origin] = distances[:, reference.codes == origin].min(axis=1)
+    return scores
 
 
 def _corpus_budget(comp: Compressor, longest: int) -> int | None:
@@ -315,9 +318,11 @@ def corpus_bytes(datas: Sequence[bytes], budget: int | None) -> bytes:
     return b"".join(d[:share] for d in datas)
 
 
-def _corpus(name: str, datas: Sequence[bytes], budget: int | None, origin: str) -> Item:
+def _corpus(
+    name: str, datas: Sequence[bytes], budget: int | None, origin: str, warn: bool = True
+) -> Item:
     data = corpus_bytes(datas, budget)
-    if budget is not None and len(data) < sum(len(d) for d in datas):
+    if warn and budget is not None and len(data) < sum(len(d) for d in datas):
         warnings.warn(
             f"corpus of {origin} cut from {sum(len(d) for d in datas):,} to {len(data):,} bytes"
             f" to fit the compressor's window (every item keeps its first bytes)",
@@ -328,15 +333,16 @@ def _corpus(name: str, datas: Sequence[bytes], budget: int | None, origin: str) 
 
 
 def _origin_corpora(
-    reference: _Reference, budget: int | None, leave_out: int | None = None
+    reference: _Reference, budget: int | None, held_out: np.ndarray | None = None
 ) -> list[Item]:
-    """One synthetic item per origin: its reference items joined (less `leave_out`, if given)."""
+    """One synthetic item per origin: its reference items joined, less those marked `held_out`."""
     corpora = []
     for origin, name in enumerate(reference.origins):
-        members = [int(m) for m in reference.members(origin) if m != leave_out]
+        members = [int(m) for m in reference.members(origin)]
+        if held_out is not None:
+            members = [m for m in members if not held_out[m]]
         datas = [reference.items[m].data for m in members]
-        suffix = "" if leave_out is None else f" without {reference.items[leave_out].name}"
-        corpora.append(_corpus(f"corpus {name}{suffix}", datas, budget, name))
+        corpora.append(_corpus(f"corpus {name}", datas, budget, name, warn=held_out is None))
     return corpora
 
 
@@ -384,26 +390,12 @@ def _nearest_in_origin(
 
 
 def _conditional_scores(
-    targets: Sequence[Item], reference: _Reference, options: _Options
+    targets: Sequence[Item], reference: _Reference, options: _Options, longest: int
 ) -> _Scores:
-    longest = max(len(t.data) for t in targets)
     corpora = _origin_corpora(reference, _corpus_budget(options.comp, longest))
     m = len(reference.origins)
     wanted = [(t, o) for t in range(len(targets)) for o in range(m)]
     scores = _conditional_ratios(targets, corpora, wanted, options).reshape(len(targets), m)
-    return _Scores(scores, scores.argmin(axis=1))
-
-
-def _conditional_leave_one_out(reference: _Reference, options: _Options) -> _Scores:
-    items = reference.items
-    budget = _corpus_budget(options.comp, max(len(i.data) for i in items))
-    m = len(reference.origins)
-    corpora = _origin_corpora(reference, budget)
-    wanted = []
-    for t, own in enumerate(reference.codes):
-        corpora.append(_origin_corpora(reference, budget, leave_out=t)[int(own)])
-        wanted += [(t, m + t if o == own else o) for o in range(m)]
-    scores = _conditional_ratios(items, corpora, wanted, options).reshape(len(items), m)
     return _Scores(scores, scores.argmin(axis=1))
 
 
@@ -421,184 +413,492 @@ def _with_nearest(
     return replace(scores, nearest=nearest, distance=distance)
 
 
-# -- thresholds, decisions and results ----------------------------------------------------------
+# -- held-out folds: scores that imitate new data ----------------------------------------------
 
 
-DEFAULT_MIN_ACCEPTED = 0.9
+DEFAULT_SIGNIFICANCE = 0.05
+DEFAULT_BLOCKS = 5
+
+
+def reference_folds(codes: np.ndarray, blocks: int = DEFAULT_BLOCKS) -> np.ndarray:
+    """Each reference item's fold: its origin's items, in reference order, cut into `blocks`
+    contiguous runs (fewer when the origin has fewer items). Chunks of a log keep their order
+    and files their folder order, so a fold is a later stretch of a log or files of another
+    folder, as new items would be, not a neighbour of the items that explain it."""
+    if blocks < 2:
+        raise ValueError(f"blocks must be at least 2, got {blocks}")
+    folds = np.zeros(len(codes), dtype=np.int64)
+    for origin in np.unique(codes):
+        members = np.flatnonzero(codes == origin)
+        runs = min(blocks, len(members))
+        folds[members] = (np.arange(len(members)) * runs) // len(members)
+    return folds
 
 
 @dataclass(frozen=True)
-class Threshold:
-    """The abstention threshold on the best score, and how it was set.
+class FoldScores:
+    """Scores of reference items held out fold by fold.
 
-    `value` is the cut shared by all origins; `per_origin`, when derived, the cut for each origin
-    (`value` raised where fewer than `min_accepted` of its own scores were within it). `derived`
-    is true when it came from leave-one-out on the reference; then `false_unknown` is the share of
-    reference items whose own-origin score lies above their origin's cut (they would be refused)
-    and `false_known` the share whose best foreign score lies at or below that origin's cut (an
-    item of an origin missing from the reference would be taken for a known one).
+    For fold f, every origin's reference less the items of fold f explains the items of fold f:
+    `scores[i, o]` is item i's score for origin o (C(x | corpus) / C(x), or NCD to the nearest
+    item for knn), NaN for folds not measured. Holding out a fold of every origin at once keeps
+    the comparison fair: an item's own origin and the others lose the same share of items (and
+    a parallel corpus, the same task solved in several languages, does not leak the task).
     """
 
-    value: float
-    derived: bool
-    false_unknown: float | None = None
-    false_known: float | None = None
-    per_origin: tuple[float, ...] | None = None
+    origins: tuple[str, ...]
+    codes: np.ndarray
+    folds: np.ndarray
+    scores: np.ndarray
 
-    def cuts(self, origins: int) -> np.ndarray:
-        """The cut for each origin code."""
-        if self.per_origin is None:
-            return np.full(origins, self.value)
-        return np.array(self.per_origin, dtype=float)
+    @property
+    def measured(self) -> np.ndarray:
+        return np.asarray(~np.isnan(self.scores).any(axis=1))
 
-    def as_json(self, origins: Sequence[str] = ()) -> dict[str, object]:
-        out: dict[str, object] = {
-            "value": None if np.isinf(self.value) else self.value,
-            "derived": self.derived,
-            "false_unknown": self.false_unknown,
-            "false_known": self.false_known,
+
+def _fold_scores(
+    reference: _Reference,
+    options: _Options,
+    method: str,
+    blocks: int,
+    longest: int,
+    only: Sequence[int] | None = None,
+) -> FoldScores:
+    folds = reference_folds(reference.codes, blocks)
+    n, m = len(reference.items), len(reference.origins)
+    if method == "knn":
+        scores = _knn_fold_scores(reference, options, folds)
+        return FoldScores(reference.origins, reference.codes, folds, scores)
+    budget = _corpus_budget(options.comp, longest)
+    corpora: list[Item] = []
+    wanted: list[tuple[int, int]] = []
+    for fold in sorted(set(folds.tolist()) if only is None else set(only)):
+        held = folds == fold
+        base = len(corpora)
+        corpora += _origin_corpora(reference, budget, held)
+        wanted += [(int(t), base + o) for t in np.flatnonzero(held) for o in range(m)]
+    scores = np.full((n, m), np.nan)
+    if wanted:
+        found = _conditional_ratios(reference.items, corpora, wanted, options)
+        for (t, c), value in zip(wanted, found, strict=True):
+            scores[t, c % m] = value
+    return FoldScores(reference.origins, reference.codes, folds, scores)
+
+
+def fold_scores(
+    reference: Sequence[Item],
+    comp: str | Compressor,
+    *,
+    method: str = "conditional",
+    blocks: int = DEFAULT_BLOCKS,
+    folds: Sequence[int] | None = None,
+    longest: int = 0,
+    conditional: str = "auto",
+    engine: Engine | None = None,
+    jobs: int | None = None,
+    cache: SizeCache | None = None,
+    progress: Progress | None = None,
+) -> FoldScores:
+    """Held-out scores of the reference (see FoldScores): all folds, or those in `folds`.
+
+    `longest` is the longest item the corpora must leave room for in the compressor's window
+    (the reference's own longest at least), so that a later classification of longer items
+    reuses the same corpora and their cached sizes.
+    """
+    ref = _Reference.of(reference)
+    ref.check(calibrate=True)
+    options = _options(comp, method, conditional, engine, jobs, cache, progress)
+    longest = max(longest, max(len(i.data) for i in ref.items))
+    return _fold_scores(ref, options, method, blocks, longest, folds)
+
+
+# -- conformal p-values -------------------------------------------------------------------------
+
+
+def nonconformity(scores: np.ndarray) -> np.ndarray:
+    """How strange it is for item x to come from origin o, from its scores (lower is better):
+
+        alpha(x, o) = s(x, o) - 1/2 min_{o' != o} s(x, o')
+
+    the mean of the absolute score (how well o explains x) and of the relative one (how much
+    better than the best other origin). The absolute part refuses items no origin explains, the
+    relative part keeps an origin that is a poor fit for every item (a noisy log, a language
+    of short files) apart from the others. With one origin the other term is 1, the score of a
+    corpus that explains nothing.
+    """
+    m = scores.shape[1]
+    out = np.empty_like(scores, dtype=float)
+    for origin in range(m):
+        others = np.delete(scores, origin, axis=1)
+        best = others.min(axis=1) if m > 1 else np.ones(len(scores))
+        out[:, origin] = scores[:, origin] - 0.5 * best
+    return out
+
+
+def own_origin_nonconformity(folds: FoldScores, rows: np.ndarray | None = None) -> np.ndarray:
+    """alpha of each measured held-out reference item for its own origin: calibration scores."""
+    keep = folds.measured if rows is None else rows & folds.measured
+    alphas = nonconformity(folds.scores[keep])
+    return np.asarray(alphas[np.arange(int(keep.sum())), folds.codes[keep]])
+
+
+def _label_conditional(counts: np.ndarray, significance: float) -> np.ndarray:
+    """Origins whose own calibration scores alone give p-values down to half the rate."""
+    return np.asarray(counts + 1 >= 2.0 / significance)
+
+
+def conformal_p_values(
+    calibration: np.ndarray,
+    calibration_origins: np.ndarray,
+    alphas: np.ndarray,
+    significance: float = DEFAULT_SIGNIFICANCE,
+) -> np.ndarray:
+    """p(x, o) = (1 + #{calibration scores >= alpha(x, o)}) / (calibration count + 1).
+
+    Conformal prediction (Vovk, Gammerman & Shafer 2005, "Algorithmic Learning in a Random
+    World", Springer): if x comes from origin o and its alpha is exchangeable with the
+    calibration scores, P(p(x, o) <= eps) <= eps, so refusing o when p <= eps refuses items of
+    o at a rate of at most eps. Label-conditional (Mondrian, ch. 4.5 there) for an origin with
+    enough calibration scores of its own (2 / significance - 1: its p-values reach half the
+    rate), pooled over all origins for the others: 10 scores alone never give p below 1/11.
+    """
+    counts = np.bincount(calibration_origins, minlength=alphas.shape[1])
+    own = _label_conditional(counts, significance)
+    pooled = np.sort(calibration)
+    p = np.empty_like(alphas, dtype=float)
+    for origin in range(alphas.shape[1]):
+        sample = np.sort(calibration[calibration_origins == origin]) if own[origin] else pooled
+        above = len(sample) - np.searchsorted(sample, alphas[:, origin], side="left")
+        p[:, origin] = (1 + above) / (len(sample) + 1)
+    return p
+
+
+@dataclass(frozen=True)
+class Abstention:
+    """How items were refused: by conformal p-values at `significance`, or by a given cut.
+
+    `calibration_scores` counts the held-out reference items behind the p-values; an origin in
+    `label_conditional` is tested against its own items only, the others against all of them;
+    `smallest_rate` is the smallest significance those scores can support (1 / (n + 1)).
+    """
+
+    significance: float | None
+    threshold: float | None
+    calibration_scores: int = 0
+    label_conditional: tuple[str, ...] = ()
+    smallest_rate: float | None = None
+    blocks: int = DEFAULT_BLOCKS
+
+    @property
+    def guarantee(self) -> str:
+        """What the refusals promise, and when the promise does not hold, in words."""
+        if self.significance is None:
+            return (
+                f"an origin accepts an item whose score for it is at most {self.threshold:g}"
+                " (given cut: no stated error rate)"
+            )
+        pooled = (
+            "pooled over origins"
+            if not self.label_conditional
+            else (
+                f"per origin for {', '.join(self.label_conditional)}, pooled over origins otherwise"
+            )
+        )
+        text = (
+            f"items of origins in the reference are refused (unknown) at a rate of at most"
+            f" {self.significance:g} (conformal p-values, Vovk et al. 2005; {pooled}; from"
+            f" {self.calibration_scores} reference items held out in {self.blocks} blocks),"
+            " provided new items differ from the reference no more than its held-out blocks"
+            " differ from the rest; data that drifts further is refused more often, and items"
+            " of an origin missing from the reference are refused but without a stated rate"
+        )
+        if self.smallest_rate is not None and self.significance < self.smallest_rate:
+            text += (
+                f"; too few reference items for that rate: the smallest possible is"
+                f" {self.smallest_rate:.3g}, so no item can be refused"
+            )
+        return text
+
+    def as_json(self) -> dict[str, object]:
+        return {
+            "significance": self.significance,
+            "threshold": self.threshold,
+            "calibration_scores": self.calibration_scores,
+            "label_conditional": list(self.label_conditional),
+            "smallest_rate": self.smallest_rate,
+            "blocks": self.blocks,
+            "guarantee": self.guarantee,
         }
-        if self.per_origin is not None and origins:
-            out["per_origin"] = dict(zip(origins, self.per_origin, strict=True))
-        return out
 
 
-def choose_threshold(own: np.ndarray, foreign: np.ndarray) -> Threshold:
-    """The cut between own-origin and foreign scores with the fewest errors of both kinds.
-
-    Minimises mean(own > t) + mean(foreign <= t) over midpoints between observed scores (and
-    just beyond both ends); among equal cuts the middle one is taken.
-    """
-    values = np.unique(np.concatenate([own, foreign]))
-    candidates = np.concatenate([[values[0] - 1e-9], (values[:-1] + values[1:]) / 2, [values[-1]]])
-    missed = (own[None, :] > candidates[:, None]).mean(axis=1)
-    accepted = (foreign[None, :] <= candidates[:, None]).mean(axis=1)
-    cost = missed + accepted
-    best = np.flatnonzero(cost == cost.min())
-    pick = int(best[len(best) // 2])
-    return Threshold(float(candidates[pick]), True, float(missed[pick]), float(accepted[pick]))
-
-
-def _threshold_of(loo: _Scores, codes: np.ndarray, min_accepted: float) -> Threshold:
-    """The shared cut (choose_threshold), raised per origin to accept `min_accepted` of its own."""
-    if not 0 <= min_accepted <= 1:
-        raise ValueError(f"min_accepted must lie between 0 and 1, got {min_accepted}")
-    rows = np.arange(len(codes))
-    own = loo.scores[rows, codes]
-    others = loo.scores.copy()
-    others[rows, codes] = np.inf
-    foreign, foreign_origin = others.min(axis=1), others.argmin(axis=1)
-    shared = choose_threshold(own, foreign)
-    cuts = np.full(loo.scores.shape[1], shared.value)
-    if min_accepted > 0:
-        for origin in range(len(cuts)):
-            mine = own[codes == origin]
-            if mine.size:
-                cuts[origin] = max(shared.value, float(np.quantile(mine, min_accepted)))
-    return Threshold(
-        shared.value,
-        True,
-        false_unknown=float(np.mean(own > cuts[codes])),
-        false_known=float(np.mean(foreign <= cuts[foreign_origin])),
-        per_origin=tuple(float(c) for c in cuts),
+def _abstention(
+    calibration_origins: np.ndarray, origins: Sequence[str], significance: float, blocks: int
+) -> Abstention:
+    if not 0 < significance < 1:
+        raise ValueError(f"significance must lie between 0 and 1, got {significance}")
+    counts = np.bincount(calibration_origins, minlength=len(origins))
+    own = _label_conditional(counts, significance)
+    smallest = 1.0 / (len(calibration_origins) + 1)
+    if significance < smallest:
+        warnings.warn(
+            f"{len(calibration_origins)} reference items give p-values no smaller than"
+            f" {smallest:.3g}: at significance {significance:g} no item can be refused;"
+            f" use a rate of at least {smallest:.3g} or more reference items",
+            MeasurementWarning,
+            stacklevel=3,
+        )
+    return Abstention(
+        significance=significance,
+        threshold=None,
+        calibration_scores=len(calibration_origins),
+        label_conditional=tuple(o for o, flag in zip(origins, own, strict=True) if flag),
+        smallest_rate=smallest,
+        blocks=blocks,
     )
+
+
+# -- decisions and results ----------------------------------------------------------------------
+
+
+DECISIONS = ("named", "ambiguous", "unknown")
 
 
 @dataclass(frozen=True)
 class Prediction:
-    """One classified item: the origin (None when refused), its margin, the nearest reference."""
+    """One classified item.
+
+    `decision` is "named" when exactly one origin accepts the item (`predicted` is that origin),
+    "ambiguous" when several do (`candidates`, best score first; `predicted` is None) and
+    "unknown" when none does. `best` is the origin with the lowest score whatever the decision;
+    `confidence` the runner-up's score minus the best one; `credibility` the largest p-value.
+    """
 
     item: str
     predicted: str | None
+    decision: str
+    candidates: tuple[str, ...]
+    best: str
     confidence: float
+    credibility: float | None
     nearest: str
     distance: float
+    scores: tuple[tuple[str, float], ...]
+    p_values: tuple[tuple[str, float], ...] | None
 
     def as_json(self) -> dict[str, object]:
         return {
             "item": self.item,
             "predicted": self.predicted,
+            "decision": self.decision,
+            "candidates": list(self.candidates),
+            "best": self.best,
             "confidence": self.confidence,
+            "credibility": self.credibility,
             "nearest": self.nearest,
             "distance": self.distance,
+            "scores": dict(self.scores),
+            "p_values": None if self.p_values is None else dict(self.p_values),
         }
 
 
-def _accepted(scores: _Scores, threshold: Threshold) -> np.ndarray:
-    """True where the picked origin's score is within that origin's cut."""
-    best: np.ndarray = scores.scores[np.arange(len(scores.picked)), scores.picked]
-    return np.asarray(best <= threshold.cuts(scores.scores.shape[1])[scores.picked])
+def _accepted(
+    scores: np.ndarray, p_values: np.ndarray | None, abstention: Abstention
+) -> np.ndarray:
+    """Which origins accept each item: p above the significance, or score within the cut."""
+    if p_values is None:
+        return np.asarray(scores <= abstention.threshold)
+    return np.asarray(p_values > abstention.significance)
+
+
+def _decision(accepted: np.ndarray, scores: np.ndarray) -> tuple[str, list[int]]:
+    candidates = [int(o) for o in np.flatnonzero(accepted)]
+    candidates.sort(key=lambda o: scores[o])
+    if not candidates:
+        return "unknown", candidates
+    return ("named" if len(candidates) == 1 else "ambiguous"), candidates
 
 
 def _decide(
-    scores: _Scores, threshold: Threshold, reference: _Reference, targets: Sequence[Item]
+    scores: _Scores,
+    p_values: np.ndarray | None,
+    abstention: Abstention,
+    reference: _Reference,
+    targets: Sequence[Item],
 ) -> list[Prediction]:
-    """Refuse items whose picked score exceeds its cut; confidence = runner-up - picked."""
     if scores.nearest is None or scores.distance is None:
         raise ValueError("scores lack the nearest reference items")
-    rows = np.arange(len(targets))
-    best = scores.scores[rows, scores.picked]
-    others = scores.scores.copy()
-    others[rows, scores.picked] = np.inf
-    margin = others.min(axis=1) - best
-    accepted = _accepted(scores, threshold)
-    return [
-        Prediction(
-            item=target.name,
-            predicted=reference.origins[int(scores.picked[t])] if accepted[t] else None,
-            confidence=float(margin[t]),
-            nearest=reference.items[int(scores.nearest[t])].name,
-            distance=float(scores.distance[t]),
+    accepted = _accepted(scores.scores, p_values, abstention)
+    origins = reference.origins
+    out = []
+    for t, target in enumerate(targets):
+        row = scores.scores[t]
+        decision, candidates = _decision(accepted[t], row)
+        ranked = np.sort(row)
+        out.append(
+            Prediction(
+                item=target.name,
+                predicted=origins[candidates[0]] if decision == "named" else None,
+                decision=decision,
+                candidates=tuple(origins[c] for c in candidates),
+                best=origins[int(scores.picked[t])],
+                confidence=float(ranked[1] - ranked[0]) if len(ranked) > 1 else float("inf"),
+                credibility=None if p_values is None else float(p_values[t].max()),
+                nearest=reference.items[int(scores.nearest[t])].name,
+                distance=float(scores.distance[t]),
+                scores=tuple((o, float(s)) for o, s in zip(origins, row, strict=True)),
+                p_values=None
+                if p_values is None
+                else tuple((o, float(p)) for o, p in zip(origins, p_values[t], strict=True)),
+            )
         )
-        for t, target in enumerate(targets)
-    ]
+    return out
 
 
 @dataclass(frozen=True)
 class Classification:
-    """Predictions for unknown items, with the threshold and the measurement behind them.
+    """Predictions for unknown items, the abstention behind them and the measurement.
 
     `scores` holds one row per item and one column per origin (lower is better): NCD to the
-    origin's nearest reference item for knn, C(x | corpus) / C(x) for conditional.
+    origin's nearest reference item for knn, C(x | corpus) / C(x) for conditional; `p_values`
+    the conformal p-value of each (None with a given threshold).
     """
 
     predictions: tuple[Prediction, ...]
     origins: tuple[str, ...]
     scores: np.ndarray
-    threshold: Threshold
+    p_values: np.ndarray | None
+    abstention: Abstention
     method: str
     k: int
     compressor: str
     conditional: str
 
     def as_json(self) -> list[dict[str, object]]:
-        """One object per item: item, predicted, confidence, nearest, distance."""
+        """One object per item (see Prediction.as_json)."""
         return [p.as_json() for p in self.predictions]
+
+    def counts(self) -> dict[str, int]:
+        """How many items were named, ambiguous and unknown."""
+        return {d: sum(p.decision == d for p in self.predictions) for d in DECISIONS}
+
+
+@dataclass(frozen=True)
+class FoldReport:
+    """Figures of held-out reference folds: the reference's own test of the whole method.
+
+    Each measured item is decided with p-values from the other folds' items (cross-conformal,
+    Vovk 2015, "Cross-conformal predictors", Ann. Math. Artif. Intell. 74): `accuracy` named
+    right, `refusal_rate` unknown, `ambiguous_rate` several origins; `confusion[i, j]` counts
+    items of origin i named j, the last two columns ambiguous and unknown. `left_out_unknown`
+    is, per origin, the share of its items that come back unknown when the origin is missing
+    from the reference (its items scored against the others, p-values from the others' items).
+    `gap` is the `significance` quantile of the best foreign alpha minus the 1 - significance
+    quantile of the own alpha: above 0, own and foreign scores part at that rate.
+    """
+
+    accuracy: float
+    refusal_rate: float
+    ambiguous_rate: float
+    left_out_unknown: tuple[float, ...]
+    confusion: np.ndarray
+    gap: float
+    items: int
+
+    @property
+    def left_out_unknown_rate(self) -> float:
+        return float(np.mean(self.left_out_unknown))
+
+    @property
+    def separation(self) -> float:
+        """Mean of named right and missing-origin unknown: one figure to rank compressors by."""
+        return (self.accuracy + self.left_out_unknown_rate) / 2
+
+
+def fold_report(
+    folds: FoldScores,
+    significance: float = DEFAULT_SIGNIFICANCE,
+    threshold: float | None = None,
+) -> FoldReport:
+    """Decide every measured held-out reference item as a new one would be (see FoldReport)."""
+    keep = folds.measured
+    scores, codes, fold_of = folds.scores[keep], folds.codes[keep], folds.folds[keep]
+    n, m = scores.shape
+    alphas = nonconformity(scores)
+    own = alphas[np.arange(n), codes]
+    confusion = np.zeros((m, m + 2), dtype=np.int64)
+    for fold in np.unique(fold_of):
+        rows = fold_of == fold
+        p = None
+        if threshold is None:
+            p = conformal_p_values(own[~rows], codes[~rows], alphas[rows], significance)
+        accept = scores[rows] <= threshold if p is None else p > significance
+        for row, truth, accepted in zip(scores[rows], codes[rows], accept, strict=True):
+            decision, candidates = _decision(accepted, row)
+            column = {"named": candidates[0] if candidates else 0, "ambiguous": m, "unknown": m + 1}
+            confusion[truth, column[decision]] += 1
+    left_out = []
+    for origin in range(m):
+        others = [o for o in range(m) if o != origin]
+        mine, rest = codes == origin, codes != origin
+        if not mine.any() or not rest.any():
+            continue
+        reduced = scores[:, others]
+        relabel = np.searchsorted(others, codes[rest])
+        if threshold is None:
+            rest_alpha = nonconformity(reduced[rest])
+            calibration = rest_alpha[np.arange(int(rest.sum())), relabel]
+            p = conformal_p_values(calibration, relabel, nonconformity(reduced[mine]), significance)
+            accept = p > significance
+        else:
+            accept = reduced[mine] <= threshold
+        left_out.append(float(np.mean(~accept.any(axis=1))))
+    foreign = np.where(np.arange(m)[None, :] == codes[:, None], np.inf, alphas).min(axis=1)
+    total = max(n, 1)
+    return FoldReport(
+        accuracy=float(np.trace(confusion[:, :m]) / total),
+        refusal_rate=float(confusion[:, m + 1].sum() / total),
+        ambiguous_rate=float(confusion[:, m].sum() / total),
+        left_out_unknown=tuple(left_out),
+        confusion=confusion,
+        gap=float(np.quantile(foreign, significance) - np.quantile(own, 1 - significance))
+        if n
+        else float("nan"),
+        items=n,
+    )
 
 
 @dataclass(frozen=True)
 class Evaluation:
-    """Leave-one-out on the reference: each item classified by all the others.
+    """The reference's own test: every item held out in turn with its fold (see FoldReport).
 
-    `confusion[i, j]` counts items of origin i predicted as origin j; the last column counts
-    refusals. The threshold is derived from the same leave-one-out scores unless it was given,
-    so the abstention rate is an in-sample figure.
+    `accuracy`, `refusal_rate` and `ambiguous_rate` are shares of all reference items;
+    `left_out_unknown_rate` the mean over origins of the share of an origin's items refused when
+    that origin is missing from the reference.
     """
 
     accuracy: float
-    abstention_rate: float
+    refusal_rate: float
+    ambiguous_rate: float
+    left_out_unknown_rate: float
+    left_out_unknown: tuple[float, ...]
     origins: tuple[str, ...]
     confusion: np.ndarray
-    threshold: Threshold
-    predictions: tuple[Prediction, ...]
+    abstention: Abstention
 
     def as_json(self) -> dict[str, object]:
         return {
             "accuracy": self.accuracy,
-            "abstention_rate": self.abstention_rate,
+            "refusal_rate": self.refusal_rate,
+            "ambiguous_rate": self.ambiguous_rate,
+            "left_out_unknown_rate": self.left_out_unknown_rate,
+            "left_out_unknown": dict(zip(self.origins, self.left_out_unknown, strict=True)),
             "origins": list(self.origins),
-            "confusion": self.confusion.tolist(),
-            "threshold": self.threshold.as_json(self.origins),
+            "confusion": {
+                "rows": list(self.origins),
+                "columns": [*self.origins, "ambiguous", "unknown"],
+                "counts": self.confusion.tolist(),
+            },
+            "abstention": self.abstention.as_json(),
         }
 
 
@@ -620,33 +920,60 @@ def _options(
     return _Options(built, conditional, engine, jobs, cache, progress)
 
 
-def _leave_one_out(reference: _Reference, options: _Options, method: str, k: int) -> _Scores:
-    reference.check(leave_one_out=True)
-    if method == "knn":
-        return _knn_leave_one_out(reference, options, k)
-    return _conditional_leave_one_out(reference, options)
-
-
 def _score(
-    targets: Sequence[Item], reference: _Reference, options: _Options, method: str, k: int
-) -> _Scores:
-    if method == "knn":
-        return _knn_scores(targets, reference, options, k)
-    return _conditional_scores(targets, reference, options)
-
-
-def _threshold(
+    targets: Sequence[Item],
     reference: _Reference,
     options: _Options,
     method: str,
     k: int,
-    given: float | None,
-    min_accepted: float,
-) -> Threshold:
-    if given is not None:
-        return Threshold(float(given), False)
-    loo = _leave_one_out(reference, options, method, k)
-    return _threshold_of(loo, reference.codes, min_accepted)
+    longest: int,
+) -> _Scores:
+    if method == "knn":
+        return _knn_scores(targets, reference, options, k)
+    return _conditional_scores(targets, reference, options, longest)
+
+
+@dataclass(frozen=True)
+class _Calibrated:
+    """What a fitted classification keeps: the abstention and its calibration scores."""
+
+    abstention: Abstention
+    calibration: np.ndarray
+    calibration_origins: np.ndarray
+
+    def p_values(self, scores: np.ndarray) -> np.ndarray | None:
+        if self.abstention.significance is None:
+            return None
+        return conformal_p_values(
+            self.calibration,
+            self.calibration_origins,
+            nonconformity(scores),
+            self.abstention.significance,
+        )
+
+
+def _calibrate(
+    reference: _Reference,
+    options: _Options,
+    method: str,
+    significance: float | None,
+    threshold: float | None,
+    blocks: int,
+    longest: int,
+) -> _Calibrated:
+    if threshold is not None:
+        if significance is not None:
+            raise ValueError("give a significance or a threshold, not both")
+        empty = np.zeros(0)
+        return _Calibrated(Abstention(None, float(threshold), blocks=blocks), empty,
+                           np.zeros(0, dtype=np.int64))  # fmt: skip
+    significance = DEFAULT_SIGNIFICANCE if significance is None else significance
+    reference.check(calibrate=True)
+    folds = _fold_scores(reference, options, method, blocks, longest)
+    calibration = own_origin_nonconformity(folds)
+    codes = reference.codes[folds.measured]
+    abstention = _abstention(codes, reference.origins, significance, blocks)
+    return _Calibrated(abstention, calibration, codes)
 
 
 def classify(
@@ -656,39 +983,45 @@ def classify(
     *,
     method: str = "conditional",
     k: int = 1,
+    significance: float | None = None,
     threshold: float | None = None,
-    min_accepted: float = DEFAULT_MIN_ACCEPTED,
+    blocks: int = DEFAULT_BLOCKS,
     conditional: str = "auto",
     engine: Engine | None = None,
     jobs: int | None = None,
     cache: SizeCache | None = None,
     progress: Progress | None = None,
 ) -> Classification:
-    """The origin of each unknown item among the reference's labels, or None when none fits.
+    """The origin of each unknown item among the reference's labels, or unknown / ambiguous.
 
     `method` is "conditional" (C(x | origin corpus) / C(x), Cohen & Vitanyi 2015) or "knn"
-    (weighted k nearest neighbours under NCD, Jiang et al. 2023). `threshold` None derives the
-    abstention threshold by leave-one-out on the reference, each origin's cut raised until
-    `min_accepted` of its own reference items pass (0: one cut for all); float("inf") never
-    abstains.
+    (weighted k nearest neighbours under NCD, Jiang et al. 2023). An origin accepts an item
+    when its conformal p-value is above `significance` (default 0.05; see conformal_p_values),
+    calibrated on the reference held out in `blocks` contiguous blocks per origin; a given
+    `threshold` replaces that test by score <= threshold (float("inf") accepts everything).
     `conditional` "auto" primes where the compressor can for the conditional method and
-    concatenates otherwise. For the conditional method the nearest reference item is searched
-    among the predicted origin's items only.
+    concatenates otherwise. The nearest reference item is searched among the best origin's.
     """
     if not unknowns:
         raise InputError("no items to classify")
     ref = _Reference.of(reference)
-    ref.check(leave_one_out=False)
+    ref.check(calibrate=False)
+    if method == "knn":
+        _check_k(k, ref)
     options = _options(comp, method, conditional, engine, jobs, cache, progress)
-    cut = _threshold(ref, options, method, k, threshold, min_accepted)
+    longest = max(len(i.data) for i in [*unknowns, *ref.items])
+    fitted = _calibrate(ref, options, method, significance, threshold, blocks, longest)
     scores = _with_nearest(
-        _score(unknowns, ref, options, method, k), unknowns, ref, options, exclude_self=False
-    )
+        _score(unknowns, ref, options, method, k, longest), unknowns, ref, options,
+        exclude_self=False,
+    )  # fmt: skip
+    p_values = fitted.p_values(scores.scores)
     return Classification(
-        predictions=tuple(_decide(scores, cut, ref, unknowns)),
+        predictions=tuple(_decide(scores, p_values, fitted.abstention, ref, unknowns)),
         origins=ref.origins,
         scores=scores.scores,
-        threshold=cut,
+        p_values=p_values,
+        abstention=fitted.abstention,
         method=method,
         k=k,
         compressor=options.comp.spec,
@@ -701,42 +1034,43 @@ def evaluate(
     comp: str | Compressor = "zstd:level=19",
     *,
     method: str = "conditional",
-    k: int = 1,
+    significance: float | None = None,
     threshold: float | None = None,
-    min_accepted: float = DEFAULT_MIN_ACCEPTED,
+    blocks: int = DEFAULT_BLOCKS,
     conditional: str = "auto",
     engine: Engine | None = None,
     jobs: int | None = None,
     cache: SizeCache | None = None,
     progress: Progress | None = None,
 ) -> Evaluation:
-    """Leave-one-out on the reference: accuracy, abstention rate and a confusion table.
-
-    Refusals count as errors in the accuracy. Arguments as for `classify`.
+    """The reference's own test (see FoldReport): each block of every origin held out in turn,
+    scored against the rest and decided with p-values from the other blocks; then each origin in
+    turn missing from the reference. Refusals and ambiguities count as errors in the accuracy.
+    Arguments as for `classify` (knn scores by the nearest neighbour of each origin).
     """
+    if threshold is not None and significance is not None:
+        raise ValueError("give a significance or a threshold, not both")
     ref = _Reference.of(reference)
+    ref.check(calibrate=True)
     options = _options(comp, method, conditional, engine, jobs, cache, progress)
-    loo = _with_nearest(
-        _leave_one_out(ref, options, method, k), ref.items, ref, options, exclude_self=True
-    )
-    cut = (
-        Threshold(float(threshold), False)
+    longest = max(len(i.data) for i in ref.items)
+    folds = _fold_scores(ref, options, method, blocks, longest)
+    rate = DEFAULT_SIGNIFICANCE if significance is None else significance
+    report = fold_report(folds, rate, threshold)
+    abstention = (
+        Abstention(None, float(threshold), blocks=blocks)
         if threshold is not None
-        else _threshold_of(loo, ref.codes, min_accepted)
+        else _abstention(ref.codes, ref.origins, rate, blocks)
     )
-    predictions = _decide(loo, cut, ref, ref.items)
-    m = len(ref.origins)
-    confusion = np.zeros((m, m + 1), dtype=np.int64)
-    column = {name: j for j, name in enumerate(ref.origins)}
-    for truth, prediction in zip(ref.codes, predictions, strict=True):
-        confusion[truth, m if prediction.predicted is None else column[prediction.predicted]] += 1
     return Evaluation(
-        accuracy=float(np.trace(confusion[:, :m]) / len(predictions)),
-        abstention_rate=float(confusion[:, m].sum() / len(predictions)),
+        accuracy=report.accuracy,
+        refusal_rate=report.refusal_rate,
+        ambiguous_rate=report.ambiguous_rate,
+        left_out_unknown_rate=report.left_out_unknown_rate,
+        left_out_unknown=report.left_out_unknown,
         origins=ref.origins,
-        confusion=confusion,
-        threshold=cut,
-        predictions=tuple(predictions),
+        confusion=report.confusion,
+        abstention=abstention,
     )
 
 
@@ -746,22 +1080,26 @@ def evaluate(
 class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[misc]
     """A scikit-learn classifier of bytes or strings by compression (see the module docstring).
 
-    Parameters are stored as given; `fit` keeps the training items as the reference and sets
-    `classes_`, `threshold_` (derived by leave-one-out unless `threshold` is given) and
-    `class_thresholds_` (each class's cut, see `min_accepted` in `classify`). `predict`
-    returns `unknown_label` for refused items. `cache` is a path to a size cache file, opened for
-    each fit and predict, so that the estimator can be cloned and pickled.
+    Parameters are stored as given. `fit` keeps the training items as the reference, chooses the
+    compressor when `compressor` is "auto" (as the command line does for classify, within
+    `budget` seconds; kept in `compressor_`) and calibrates the conformal abstention at
+    `significance` (unless a `threshold` is given). `predict` returns the class, or
+    `unknown_label` for an item no class accepts or several do; `p_values(X)` gives each item's
+    conformal p-value for every class (columns in `classes_` order), the estimator's counterpart
+    of `predict_proba`. `cache` is a path to a size cache file, opened for each fit and predict,
+    so that the estimator can be cloned and pickled.
     """
 
     def __init__(
         self,
-        compressor: str = "zstd:level=19",
+        compressor: str = "auto",
         k: int = 1,
         method: str = "conditional",
         conditional: str = "auto",
+        significance: float | None = None,
         threshold: float | None = None,
-        min_accepted: float = DEFAULT_MIN_ACCEPTED,
         unknown_label: Any = None,
+        budget: float = 600.0,
         jobs: int | None = None,
         cache: str | None = None,
     ) -> None:
@@ -769,63 +1107,86 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         self.k = k
         self.method = method
         self.conditional = conditional
+        self.significance = significance
         self.threshold = threshold
-        self.min_accepted = min_accepted
         self.unknown_label = unknown_label
+        self.budget = budget
         self.jobs = jobs
         self.cache = cache
 
     def _run_options(self, cache: SizeCache | None) -> _Options:
         return _options(
-            self.compressor, self.method, self.conditional, None, self.jobs, cache, None
+            self.compressor_, self.method, self.conditional, None, self.jobs, cache, None
         )
 
     def _open_cache(self) -> SizeCache | None:
         return SizeCache(self.cache) if self.cache is not None else None
 
     def fit(self, X: Sequence[bytes | str], y: Sequence[Any]) -> Self:
-        """Keep X as the reference labelled by y and set the abstention threshold."""
+        """Keep X as the reference labelled by y, choose the compressor, calibrate abstention."""
         items = as_items(X, "ref")
         if len(items) != len(y):
             raise ValueError(f"X has {len(items)} items but y has {len(y)} labels")
         classes, codes = np.unique(np.asarray(y), return_inverse=True)
         self.classes_ = classes
-        self.reference_ = _Reference(
-            tuple(items), tuple(str(k) for k in range(len(classes))), codes.astype(np.int64)
-        )
-        self.reference_.check(leave_one_out=self.threshold is None)
+        names = tuple(str(k) for k in range(len(classes)))
+        labelled = [replace(i, label=names[c]) for i, c in zip(items, codes, strict=True)]
+        self.reference_ = _Reference(tuple(labelled), names, codes.astype(np.int64))
+        self.reference_.check(calibrate=self.threshold is None)
         cache = self._open_cache()
         try:
-            options = self._run_options(cache)
-            cut = _threshold(
-                self.reference_, options, self.method, self.k, self.threshold, self.min_accepted
-            )
-            self.threshold_ = cut.value
-            self.class_thresholds_ = cut.cuts(len(classes))
+            self.compressor_ = self.compressor
+            if self.compressor == "auto":
+                from .calibration import choose_for_job
+
+                self.compressor_ = choose_for_job(
+                    labelled, "classify", budget_seconds=self.budget, jobs=self.jobs,
+                    cache=cache, significance=self.significance or DEFAULT_SIGNIFICANCE,
+                ).spec  # fmt: skip
+            self.longest_ = max(len(i.data) for i in labelled)
+            self.calibrated_ = _calibrate(
+                self.reference_, self._run_options(cache), self.method, self.significance,
+                self.threshold, DEFAULT_BLOCKS, self.longest_,
+            )  # fmt: skip
         finally:
             if cache is not None:
                 cache.close()
         return self
 
-    def predict(self, X: Sequence[bytes | str]) -> np.ndarray:
-        """The origin of each input, or `unknown_label` where its best score is above threshold_."""
-        check_is_fitted(self, "class_thresholds_")
+    def _scores(self, X: Sequence[bytes | str]) -> np.ndarray:
+        check_is_fitted(self, "calibrated_")
         targets = as_items(X, "x")
         cache = self._open_cache()
         try:
-            options = self._run_options(cache)
-            scores = _score(targets, self.reference_, options, self.method, self.k)
+            longest = max([self.longest_, *(len(t.data) for t in targets)])
+            scores = _score(targets, self.reference_, self._run_options(cache), self.method,
+                            self.k, longest)  # fmt: skip
         finally:
             if cache is not None:
                 cache.close()
-        cut = Threshold(self.threshold_, False, per_origin=tuple(self.class_thresholds_))
-        accepted = _accepted(scores, cut)
-        if accepted.all():
-            return np.asarray(self.classes_[scores.picked])
-        out = np.empty(len(targets), dtype=object)
+        return scores.scores
+
+    def p_values(self, X: Sequence[bytes | str]) -> np.ndarray:
+        """Conformal p-values, shaped (len(X), len(classes_)); a class accepts an input when its
+        p-value is above the significance. Raises ValueError when fitted with a threshold."""
+        p = self.calibrated_.p_values(self._scores(X))
+        if p is None:
+            raise ValueError("fitted with a threshold: no p-values")
+        return p
+
+    def predict(self, X: Sequence[bytes | str]) -> np.ndarray:
+        """The class of each input, or `unknown_label` where no class or several accept it."""
+        scores = self._scores(X)
+        p = self.calibrated_.p_values(scores)
+        accepted = _accepted(scores, p, self.calibrated_.abstention)
+        named = accepted.sum(axis=1) == 1
+        picked = np.where(named, accepted.argmax(axis=1), 0)
+        if named.all():
+            return np.asarray(self.classes_[picked])
+        out = np.empty(len(scores), dtype=object)
         out[:] = [
-            self.classes_[c] if a else self.unknown_label
-            for c, a in zip(scores.picked, accepted, strict=True)
+            self.classes_[c] if ok else self.unknown_label
+            for c, ok in zip(picked, named, strict=True)
         ]
         return out
 
