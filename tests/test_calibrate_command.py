@@ -105,6 +105,6 @@ def test_classify_auto_chooses_by_the_task_and_says_why(
     assert cli.main(argv) == 0
     err = capsys.readouterr().err
     assert "auto: calibrating the compressors on these inputs for classify" in err
-    assert "separates the reference's 3 origins best" in err
+    assert "tells the reference's 3 origins apart best on held-out items" in err
     assert cli.main(argv) == 0
     assert "auto: the choice for these inputs is in the cache" in capsys.readouterr().err

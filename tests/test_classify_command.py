@@ -74,7 +74,7 @@ def test_text_output_states_the_guarantee_and_the_caution(
             "--no-cache", "--split", "lines:100", "--significance", "0.1"]  # fmt: skip
     assert cli.main(argv) == 0
     out, err = capsys.readouterr()
-    assert "refused (unknown) at a rate of at most 0.1" in out and "at most 0.1" in err
+    assert "refused (unknown or ambiguous) at a rate of at most 0.1" in out and "at most 0.1" in err
     assert "evidence for a person to review, not proof" in out
     assert out.splitlines()[0].split() == ["item", "origin", "p-value", "confidence", "nearest",
                                            "distance"]  # fmt: skip

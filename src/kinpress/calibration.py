@@ -918,10 +918,12 @@ MEASURING_SHARE = 0.25
 class TaskFigures:
     """What a candidate showed on the job's own data.
 
-    Labelled jobs: on the reference held out fold by fold (see origins.FoldReport), `accuracy`
-    named right, `left_out_unknown` refused when their origin is missing, `separation` their
-    mean, `gap` how far own and foreign nonconformity part at the significance, `items` held
-    out. Unlabelled jobs: on all pairs of a sample of items, `saturation` the share of distances
+    Labelled jobs: on the reference held out fold by fold (see origins.FoldScores), `accuracy`
+    the share of held-out items whose own origin scores best, `novelty` how well an origin left
+    out is told from the others (the better ROC AUC of the fit and separation tests, see
+    origins.Conformity), `merit` their sum, `items` held out. Both are free of any threshold, so
+    they rank compressors finely where rates at a significance would all sit near 1 - rate.
+    Unlabelled jobs: on all pairs of a sample of items, `saturation` the share of distances
     at or above 1 (nothing shared found) and `contrast` the mean over items of
     1 - nearest / median distance (how much nearer an item's nearest is than its typical one).
     """
@@ -929,9 +931,8 @@ class TaskFigures:
     spec: str
     seconds: float
     accuracy: float | None = None
-    left_out_unknown: float | None = None
-    separation: float | None = None
-    gap: float | None = None
+    novelty: float | None = None
+    merit: float | None = None
     items: int = 0
     saturation: float | None = None
     contrast: float | None = None
@@ -940,11 +941,11 @@ class TaskFigures:
         return dict(self.__dict__)
 
     def summary(self) -> str:
-        if self.separation is not None:
+        if self.merit is not None:
             return (
-                f"held-out reference: {self.accuracy:.0%} named right, {self.left_out_unknown:.0%}"
-                f" of a missing origin refused, separation {self.separation:.3f}, gap"
-                f" {self.gap:.3f} ({self.items} items, {self.seconds:.0f} s)"
+                f"held-out reference: own origin best for {self.accuracy:.1%}, a missing origin"
+                f" told apart with AUC {self.novelty:.3f}, merit {self.merit:.3f} ({self.items}"
+                f" items, {self.seconds:.0f} s)"
             )
         return (
             f"sampled real pairs: {self.saturation:.0%} at or above 1, contrast"
@@ -1000,25 +1001,27 @@ def _labelled_figures(
     items: Sequence[Item],
     spec: str,
     longest: int,
-    significance: float,
     engine: Engine | None,
     cache: SizeCache | None,
 ) -> TaskFigures:
-    from .origins import fold_report, fold_scores
+    from .origins import fold_scores, novelty_aucs
 
     started = time.perf_counter()
     folds = fold_scores(
         items, spec, folds=MEASURED_FOLDS, longest=longest, engine=engine, cache=cache
     )
-    report = fold_report(folds, significance)
+    keep = folds.measured
+    scores, codes = folds.scores[keep], folds.codes[keep]
+    accuracy = float(np.mean(scores.argmin(axis=1) == codes))
+    novelty = max(novelty_aucs(scores, codes))
+    novelty = 0.5 if novelty != novelty else novelty  # NaN: too few origins to leave one out
     return TaskFigures(
         spec=spec,
         seconds=time.perf_counter() - started,
-        accuracy=report.accuracy,
-        left_out_unknown=report.left_out_unknown_rate,
-        separation=report.separation,
-        gap=report.gap,
-        items=report.items,
+        accuracy=accuracy,
+        novelty=novelty,
+        merit=accuracy + novelty,
+        items=len(codes),
     )
 
 
@@ -1028,7 +1031,6 @@ def _choose_labelled(
     report: CalibrationReport,
     budget_seconds: float,
     cores: int,
-    significance: float,
     engine: Engine | None,
     cache: SizeCache | None,
 ) -> tuple[str, tuple[TaskFigures, ...], list[str]]:
@@ -1071,15 +1073,19 @@ def _choose_labelled(
             )
             continue
         spent += share
-        figures.append(_labelled_figures(items, spec, longest, significance, engine, cache))
-    top = max(f.separation or 0.0 for f in figures)
+        figures.append(_labelled_figures(items, spec, longest, engine, cache))
+    top = max(f.merit or 0.0 for f in figures)
     tie = 1.0 / max(figures[0].items, 1)
-    tied = [f for f in figures if (f.separation or 0.0) >= top - tie]
-    best = tied[0]  # measured in order of estimated job time: the quickest of the best
+    tied = [f for f in figures if (f.merit or 0.0) >= top - tie]
+    # Among equals, one that is primed with the corpus measures C(x | corpus) directly, where
+    # concatenation takes the difference of two sizes of the whole corpus, whose noise grows
+    # with it; then the quickest (figures are in order of estimated job time).
+    best = min(tied, key=lambda f: not compressor(f.spec).primable)
     reasons.insert(
         0,
-        f"{best.spec}: chosen: it separates the reference's {m} origins best (the quickest of"
-        f" those within one item of the best); {best.summary()}",
+        f"{best.spec}: chosen: it tells the reference's {m} origins apart best on held-out"
+        f" items (of those within one item of the best, primed ones first, then the quickest);"
+        f" {best.summary()}",
     )
     for f in figures:
         if f is best:
@@ -1165,7 +1171,6 @@ def choose_for_job(
     seed: int = DEFAULT_SEED,
     jobs: int | None = None,
     strand: str = "one",
-    significance: float = 0.05,
     engine: Engine | None = None,
     cache: SizeCache | None = None,
 ) -> Choice:
@@ -1190,7 +1195,7 @@ def choose_for_job(
             items, candidates or LABELLED_CANDIDATES, seed=seed, samples=2, sweep_seconds=1.0
         )
         spec, figures, reasons = _choose_labelled(
-            items, targets, report, budget_seconds, cores, significance, engine, cache
+            items, targets, report, budget_seconds, cores, engine, cache
         )
         return Choice(spec, job, replace(report, recommended=spec, reasons=tuple(reasons)),
                       figures, tuple(reasons))  # fmt: skip

@@ -504,7 +504,6 @@ def resolve_compressor(
     job = args.command
     labelled = job in LABELLED_JOBS
     cores = args.engine.jobs  # where the job will run: this machine's cores or the cluster's
-    significance = getattr(args, "significance", None) or 0.05
     key = (
         "auto:"
         + hashlib.blake2b(
@@ -520,7 +519,7 @@ def resolve_compressor(
                     ),
                     f"seed={DEFAULT_SEED} budget={args.budget} cores={cores} strand={args.strand}",
                     f"job={job} targets={len(targets)}:{sum(len(t.data) for t in targets)}"
-                    f" significance={significance}"
+                    " ranked=merit"
                     if labelled
                     else "job=unlabelled",
                 ]
@@ -534,7 +533,7 @@ def resolve_compressor(
             console.say(f"auto: calibrating the compressors on these inputs for {job} ...")
             choice = choose_for_job(
                 items, job, targets=targets, budget_seconds=args.budget, jobs=cores,
-                strand=args.strand, significance=significance, engine=args.engine, cache=cache,
+                strand=args.strand, engine=args.engine, cache=cache,
             )  # fmt: skip
             pair = int(sum(sorted((len(item.data) for item in items), reverse=True)[:2]))
             result = choice.report.result(choice.spec)
@@ -945,8 +944,12 @@ def run_classify(args: argparse.Namespace, console: Console) -> int:
         lines = [
             _table(rows).rstrip("\n"),
             "",
-            "p-value: the largest of the item's p-values (how typical it is of the origin that"
-            " fits it best); confidence: the runner-up's score minus the best one.",
+            f"p-value: of the {found.abstention.test} test for the best origin (below"
+            f" {found.abstention.significance} it does not accept the item: fit, how typical the"
+            " item is of that origin's own held-out items; separation, how much better it explains"
+            " the item than the next origin does, against its own items); confidence: the"
+            " runner-up's score minus the best one (scores: C(x | origin) / C(x), lower is"
+            " better).",
             f"Abstention: {found.abstention.guarantee}.",
             ORIGIN_CAUTION,
         ]

@@ -19,16 +19,19 @@ is cut so that every reference item keeps the same number of leading bytes (long
 shorter ones kept whole), and a MeasurementWarning says so. Cutting keeps every item represented,
 where a plain join would let the window see only the last few items.
 
-Abstention: every origin tests every item, and accepts it when the item's conformal p-value for
-that origin is above the significance (Vovk, Gammerman & Shafer 2005): the item is named when one
-origin accepts it, ambiguous when several do, unknown when none does. The p-values compare the
-item's nonconformity with that of reference items held out as new data would come: each origin's
-items are cut into contiguous blocks (later chunks of a log, files of another folder), and block b
-of every origin is scored against the reference without block b. Leave-one-out scores were too
-optimistic: neighbouring chunks of one log explain each other, and new data drifts. Known items
-are then refused at a rate of at most the significance as long as new data drifts no more than
-the held-out blocks do; the output says so, and warns when too few reference items make the asked
-rate impossible. A fixed cut on the score can be given instead.
+Abstention (see Conformity): the origin with the best score accepts the item, or not, by a
+conformal test (Vovk, Gammerman & Shafer 2005) calibrated on reference items held out as new data
+would come: each origin's items are cut into contiguous blocks (later chunks of a log, files of
+another folder), and block b of every origin is scored against the reference without block b.
+Leave-one-out scores were too optimistic: neighbouring chunks of one log explain each other, and
+new data drifts. The test is either the fit of the item to the best origin (its score against
+the scores of that origin's own held-out items, on a scale from a typical own item to a typical
+stranger) or the separation of the best origin from the next, whichever tells held-out items of a
+left-out origin from the rest better on this reference. An item the best origin does not accept
+is ambiguous when several origins fit it, unknown otherwise. Known items are refused at a rate of
+at most the significance as long as new data drifts no more than the held-out blocks do; the
+output says so, and warns when too few reference items make the asked rate impossible. A fixed
+cut on the score can be given instead.
 """
 
 from __future__ import annotations
@@ -515,71 +518,177 @@ def fold_scores(
 # -- conformal p-values -------------------------------------------------------------------------
 
 
-def nonconformity(scores: np.ndarray) -> np.ndarray:
-    """How strange it is for item x to come from origin o, from its scores (lower is better):
-
-        alpha(x, o) = s(x, o) - 1/2 min_{o' != o} s(x, o')
-
-    the mean of the absolute score (how well o explains x) and of the relative one (how much
-    better than the best other origin). The absolute part refuses items no origin explains, the
-    relative part keeps an origin that is a poor fit for every item (a noisy log, a language
-    of short files) apart from the others. With one origin the other term is 1, the score of a
-    corpus that explains nothing.
-    """
-    m = scores.shape[1]
-    out = np.empty_like(scores, dtype=float)
-    for origin in range(m):
-        others = np.delete(scores, origin, axis=1)
-        best = others.min(axis=1) if m > 1 else np.ones(len(scores))
-        out[:, origin] = scores[:, origin] - 0.5 * best
-    return out
+TESTS = ("fit", "separation")
+SEPARATION_PREFERENCE = 0.05
+"""The fit test decides unless separation parts held-out strangers from known items clearly
+better: by this much novelty AUC (measured: fit keeps the stated rate better under drift)."""
 
 
-def own_origin_nonconformity(folds: FoldScores, rows: np.ndarray | None = None) -> np.ndarray:
-    """alpha of each measured held-out reference item for its own origin: calibration scores."""
-    keep = folds.measured if rows is None else rows & folds.measured
-    alphas = nonconformity(folds.scores[keep])
-    return np.asarray(alphas[np.arange(int(keep.sum())), folds.codes[keep]])
+def conformal_p_values(sample: np.ndarray, values: np.ndarray) -> np.ndarray:
+    """(1 + #{sample >= v}) / (len(sample) + 1) for each v: larger statistics are stranger
+    (Vovk, Gammerman & Shafer 2005, ch. 2)."""
+    ordered = np.sort(sample)
+    above = len(ordered) - np.searchsorted(ordered, values, side="left")
+    return np.asarray((1 + above) / (len(ordered) + 1), dtype=float)
 
 
 def _label_conditional(counts: np.ndarray, significance: float) -> np.ndarray:
-    """Origins whose own calibration scores alone give p-values down to half the rate."""
+    """Origins whose own calibration items alone give p-values down to half the rate."""
     return np.asarray(counts + 1 >= 2.0 / significance)
 
 
-def conformal_p_values(
-    calibration: np.ndarray,
-    calibration_origins: np.ndarray,
-    alphas: np.ndarray,
-    significance: float = DEFAULT_SIGNIFICANCE,
-) -> np.ndarray:
-    """p(x, o) = (1 + #{calibration scores >= alpha(x, o)}) / (calibration count + 1).
+def _profile(scores: np.ndarray, codes: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Per origin, the median held-out score of its own items (centre) and how far above it the
+    median score of the other origins' items on it lies (scale; up to 1, a score that explains
+    nothing, where no other origin's items were scored)."""
+    m = scores.shape[1]
+    centre = np.empty(m)
+    scale = np.empty(m)
+    for origin in range(m):
+        own, other = scores[codes == origin, origin], scores[codes != origin, origin]
+        centre[origin] = np.median(own)
+        stranger = np.median(other) if other.size else 1.0
+        scale[origin] = max(stranger - centre[origin], 1e-3)
+    return centre, scale
 
-    Conformal prediction (Vovk, Gammerman & Shafer 2005, "Algorithmic Learning in a Random
-    World", Springer): if x comes from origin o and its alpha is exchangeable with the
-    calibration scores, P(p(x, o) <= eps) <= eps, so refusing o when p <= eps refuses items of
-    o at a rate of at most eps. Label-conditional (Mondrian, ch. 4.5 there) for an origin with
-    enough calibration scores of its own (2 / significance - 1: its p-values reach half the
-    rate), pooled over all origins for the others: 10 scores alone never give p below 1/11.
+
+def _second_best(scores: np.ndarray, best: np.ndarray) -> np.ndarray:
+    """Each row's lowest score other than at `best` (1, explaining nothing, with one origin)."""
+    if scores.shape[1] == 1:
+        return np.ones(len(scores))
+    masked = np.where(np.arange(scores.shape[1])[None, :] == best[:, None], np.inf, scores)
+    return np.asarray(masked.min(axis=1))
+
+
+def _statistics(
+    scores: np.ndarray, centre: np.ndarray, scale: np.ndarray, own: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """fit and -separation of each row for the origin `own[row]` (see Conformity)."""
+    rows = np.arange(len(scores))
+    chosen = scores[rows, own]
+    fit = (chosen - centre[own]) / scale[own]
+    separation = (_second_best(scores, own) - chosen) / scale[own]
+    return fit, -separation
+
+
+def novelty_aucs(scores: np.ndarray, codes: np.ndarray) -> tuple[float, float]:
+    """How well fit and separation tell the held-out items of an origin missing from the
+    reference from those of the others (ROC AUC, 1 = perfectly), each origin left out in turn."""
+    from sklearn.metrics import roc_auc_score
+
+    m = scores.shape[1]
+    fit_aucs, separation_aucs = [], []
+    for missing in range(m):
+        keep = np.array([o for o in range(m) if o != missing])
+        known = codes != missing
+        if known.all() or not known.any() or keep.size == 0:
+            continue
+        reduced = scores[:, keep]
+        relabel = np.searchsorted(keep, codes[known])
+        centre, scale = _profile(reduced[known], relabel)
+        fit, separation = _statistics(reduced, centre, scale, reduced.argmin(axis=1))
+        stranger = ~known
+        fit_aucs.append(roc_auc_score(stranger, fit))
+        separation_aucs.append(roc_auc_score(stranger, separation))
+    if not fit_aucs:
+        return float("nan"), float("nan")
+    return float(np.mean(fit_aucs)), float(np.mean(separation_aucs))
+
+
+@dataclass(frozen=True)
+class Conformity:
+    """The abstention, calibrated on reference items held out as new data would come.
+
+    For an item x with scores s(x, o) (lower is better), each origin o has
+
+        fit(x, o) = (s(x, o) - centre[o]) / scale[o]
+
+    0 for a typical held-out item of o, 1 for a typical held-out item of another origin scored
+    on o (`centre`, `scale`: see `_profile`); and the best origin b (lowest score) has
+
+        separation(x) = (second lowest score - s(x, b)) / scale[b]
+
+    how much better b explains x than any other origin. `test` is the one that decides whether
+    b accepts x: "fit" (x is as typical of b as b's own held-out items) or "separation" (b
+    explains x as much better than the rest as it does its own held-out items), chosen on the
+    reference (`fit_auc`, `separation_auc`: how well each told held-out items of a left-out
+    origin from the others; separation only where clearly better, SEPARATION_PREFERENCE).
+    p-values are conformal (Vovk, Gammerman & Shafer 2005, "Algorithmic Learning in a Random
+    World"): the share of held-out statistics at least as strange, label-conditional for an
+    origin with 2 / significance - 1 held-out items or more (Mondrian, ch. 4.5 there), pooled
+    over origins otherwise (10 items alone cannot give p below 1/11). If x comes from a known
+    origin and is exchangeable with its held-out items, P(p <= significance) <= significance.
     """
-    counts = np.bincount(calibration_origins, minlength=alphas.shape[1])
-    own = _label_conditional(counts, significance)
-    pooled = np.sort(calibration)
-    p = np.empty_like(alphas, dtype=float)
-    for origin in range(alphas.shape[1]):
-        sample = np.sort(calibration[calibration_origins == origin]) if own[origin] else pooled
-        above = len(sample) - np.searchsorted(sample, alphas[:, origin], side="left")
-        p[:, origin] = (1 + above) / (len(sample) + 1)
-    return p
+
+    origins: tuple[str, ...]
+    centre: np.ndarray
+    scale: np.ndarray
+    test: str
+    fit_calibration: np.ndarray
+    test_calibration: np.ndarray
+    codes: np.ndarray
+    significance: float
+    fit_auc: float
+    separation_auc: float
+
+    @classmethod
+    def of(
+        cls, scores: np.ndarray, codes: np.ndarray, origins: Sequence[str], significance: float
+    ) -> Conformity:
+        """Calibrate on held-out scores (one row per held-out item, `codes` their origins)."""
+        centre, scale = _profile(scores, codes)
+        fit, separation = _statistics(scores, centre, scale, codes)
+        fit_auc, separation_auc = novelty_aucs(scores, codes)
+        test = "separation" if separation_auc > fit_auc + SEPARATION_PREFERENCE else "fit"
+        return cls(
+            origins=tuple(origins),
+            centre=centre,
+            scale=scale,
+            test=test,
+            fit_calibration=fit,
+            test_calibration=fit if test == "fit" else separation,
+            codes=codes,
+            significance=significance,
+            fit_auc=fit_auc,
+            separation_auc=separation_auc,
+        )
+
+    @property
+    def label_conditional(self) -> np.ndarray:
+        counts = np.bincount(self.codes, minlength=len(self.origins))
+        return _label_conditional(counts, self.significance)
+
+    def _against(self, calibration: np.ndarray, origin: int, values: np.ndarray) -> np.ndarray:
+        own = self.label_conditional[origin]
+        return conformal_p_values(calibration[self.codes == origin] if own else calibration, values)
+
+    def p_values(self, scores: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Each item's fit p-value for every origin, the best origin, and the deciding test's
+        p-value for the best origin."""
+        n, m = scores.shape
+        fit = (scores - self.centre[None, :]) / self.scale[None, :]
+        fit_p = np.column_stack([self._against(self.fit_calibration, o, fit[:, o])
+                                 for o in range(m)]) if n else np.zeros((0, m))  # fmt: skip
+        best = scores.argmin(axis=1)
+        if self.test == "fit":
+            test_p = fit_p[np.arange(n), best]
+        else:
+            _, strange = _statistics(scores, self.centre, self.scale, best)
+            test_p = np.empty(n)
+            for origin in np.unique(best):
+                rows = best == origin
+                test_p[rows] = self._against(self.test_calibration, int(origin), strange[rows])
+        return fit_p, best, test_p
 
 
 @dataclass(frozen=True)
 class Abstention:
-    """How items were refused: by conformal p-values at `significance`, or by a given cut.
+    """How items were refused: conformal p-values at `significance`, or a given score cut.
 
-    `calibration_scores` counts the held-out reference items behind the p-values; an origin in
-    `label_conditional` is tested against its own items only, the others against all of them;
-    `smallest_rate` is the smallest significance those scores can support (1 / (n + 1)).
+    `calibration_scores` counts the held-out reference items behind the p-values; origins in
+    `label_conditional` are tested against their own items only, the others against all;
+    `smallest_rate` is the smallest significance those items can support (1 / (n + 1)); `test`
+    is the deciding test and `fit_auc`, `separation_auc` why it was chosen (see Conformity).
     """
 
     significance: float | None
@@ -588,6 +697,9 @@ class Abstention:
     label_conditional: tuple[str, ...] = ()
     smallest_rate: float | None = None
     blocks: int = DEFAULT_BLOCKS
+    test: str | None = None
+    fit_auc: float | None = None
+    separation_auc: float | None = None
 
     @property
     def guarantee(self) -> str:
@@ -600,17 +712,16 @@ class Abstention:
         pooled = (
             "pooled over origins"
             if not self.label_conditional
-            else (
-                f"per origin for {', '.join(self.label_conditional)}, pooled over origins otherwise"
-            )
+            else f"per origin for {', '.join(self.label_conditional)}, pooled otherwise"
         )
         text = (
-            f"items of origins in the reference are refused (unknown) at a rate of at most"
-            f" {self.significance:g} (conformal p-values, Vovk et al. 2005; {pooled}; from"
-            f" {self.calibration_scores} reference items held out in {self.blocks} blocks),"
-            " provided new items differ from the reference no more than its held-out blocks"
-            " differ from the rest; data that drifts further is refused more often, and items"
-            " of an origin missing from the reference are refused but without a stated rate"
+            f"items of origins in the reference are refused (unknown or ambiguous) at a rate of"
+            f" at most {self.significance:g} (conformal p-values of the {self.test} test, Vovk et"
+            f" al. 2005; {pooled}; from {self.calibration_scores} reference items held out in"
+            f" {self.blocks} blocks), provided new items differ from the reference no more than"
+            " its held-out blocks differ from the rest; data that drifts further is refused more"
+            " often, and items of an origin missing from the reference are refused but without"
+            " a stated rate"
         )
         if self.smallest_rate is not None and self.significance < self.smallest_rate:
             text += (
@@ -623,6 +734,9 @@ class Abstention:
         return {
             "significance": self.significance,
             "threshold": self.threshold,
+            "test": self.test,
+            "fit_auc": self.fit_auc,
+            "separation_auc": self.separation_auc,
             "calibration_scores": self.calibration_scores,
             "label_conditional": list(self.label_conditional),
             "smallest_rate": self.smallest_rate,
@@ -631,29 +745,33 @@ class Abstention:
         }
 
 
-def _abstention(
-    calibration_origins: np.ndarray, origins: Sequence[str], significance: float, blocks: int
-) -> Abstention:
+def _abstention(conformity: Conformity, blocks: int) -> Abstention:
+    significance = conformity.significance
     if not 0 < significance < 1:
         raise ValueError(f"significance must lie between 0 and 1, got {significance}")
-    counts = np.bincount(calibration_origins, minlength=len(origins))
-    own = _label_conditional(counts, significance)
-    smallest = 1.0 / (len(calibration_origins) + 1)
+    count = len(conformity.codes)
+    smallest = 1.0 / (count + 1)
     if significance < smallest:
         warnings.warn(
-            f"{len(calibration_origins)} reference items give p-values no smaller than"
-            f" {smallest:.3g}: at significance {significance:g} no item can be refused;"
-            f" use a rate of at least {smallest:.3g} or more reference items",
+            f"{count} reference items give p-values no smaller than {smallest:.3g}: at"
+            f" significance {significance:g} no item can be refused; use a rate of at least"
+            f" {smallest:.3g} or more reference items",
             MeasurementWarning,
             stacklevel=3,
         )
+    flags = conformity.label_conditional
     return Abstention(
         significance=significance,
         threshold=None,
-        calibration_scores=len(calibration_origins),
-        label_conditional=tuple(o for o, flag in zip(origins, own, strict=True) if flag),
+        calibration_scores=count,
+        label_conditional=tuple(
+            o for o, flag in zip(conformity.origins, flags, strict=True) if flag
+        ),
         smallest_rate=smallest,
         blocks=blocks,
+        test=conformity.test,
+        fit_auc=conformity.fit_auc,
+        separation_auc=conformity.separation_auc,
     )
 
 
@@ -667,10 +785,13 @@ DECISIONS = ("named", "ambiguous", "unknown")
 class Prediction:
     """One classified item.
 
-    `decision` is "named" when exactly one origin accepts the item (`predicted` is that origin),
-    "ambiguous" when several do (`candidates`, best score first; `predicted` is None) and
-    "unknown" when none does. `best` is the origin with the lowest score whatever the decision;
-    `confidence` the runner-up's score minus the best one; `credibility` the largest p-value.
+    `decision` is "named" when the best origin (lowest score, `best`) accepts the item
+    (`predicted` is that origin); otherwise "ambiguous" when several origins fit it
+    (`candidates`, best score first, each with a fit p-value above the significance;
+    `predicted` is None) and "unknown" when fewer do. With a given cut, origins whose score is
+    within it accept. `confidence` is the runner-up's score minus the best one; `credibility`
+    the p-value of the deciding test for the best origin; `p_values` each origin's fit p-value
+    (see Conformity).
     """
 
     item: str
@@ -701,39 +822,55 @@ class Prediction:
         }
 
 
-def _accepted(
-    scores: np.ndarray, p_values: np.ndarray | None, abstention: Abstention
-) -> np.ndarray:
-    """Which origins accept each item: p above the significance, or score within the cut."""
-    if p_values is None:
-        return np.asarray(scores <= abstention.threshold)
-    return np.asarray(p_values > abstention.significance)
+@dataclass(frozen=True)
+class _Decisions:
+    """What the abstention says of each item: decision, candidate origins (best score first),
+    fit p-values (None with a cut) and the deciding test's p-value for the best origin."""
+
+    decisions: list[str]
+    candidates: list[list[int]]
+    fit_p: np.ndarray | None
+    test_p: np.ndarray | None
 
 
-def _decision(accepted: np.ndarray, scores: np.ndarray) -> tuple[str, list[int]]:
-    candidates = [int(o) for o in np.flatnonzero(accepted)]
-    candidates.sort(key=lambda o: scores[o])
-    if not candidates:
-        return "unknown", candidates
-    return ("named" if len(candidates) == 1 else "ambiguous"), candidates
+def _decisions(
+    scores: np.ndarray, conformity: Conformity | None, threshold: float | None
+) -> _Decisions:
+    """Decide every item (see Prediction and Conformity)."""
+    order = np.argsort(scores, axis=1, kind="stable")
+    if conformity is None:
+        accepted = scores <= threshold
+        candidates = [[int(o) for o in row if accepted[t, o]] for t, row in enumerate(order)]
+        decisions = [
+            "unknown" if not c else "named" if len(c) == 1 else "ambiguous" for c in candidates
+        ]
+        return _Decisions(decisions, candidates, None, None)
+    fit_p, best, test_p = conformity.p_values(scores)
+    rate = conformity.significance
+    decisions, candidates = [], []
+    for t, row in enumerate(order):
+        if test_p[t] > rate:
+            decisions.append("named")
+            candidates.append([int(best[t])])
+            continue
+        fitting = [int(o) for o in row if fit_p[t, o] > rate]
+        decisions.append("ambiguous" if len(fitting) > 1 else "unknown")
+        candidates.append(fitting if len(fitting) > 1 else [])
+    return _Decisions(decisions, candidates, fit_p, test_p)
 
 
 def _decide(
-    scores: _Scores,
-    p_values: np.ndarray | None,
-    abstention: Abstention,
-    reference: _Reference,
-    targets: Sequence[Item],
+    scores: _Scores, decided: _Decisions, reference: _Reference, targets: Sequence[Item]
 ) -> list[Prediction]:
     if scores.nearest is None or scores.distance is None:
         raise ValueError("scores lack the nearest reference items")
-    accepted = _accepted(scores.scores, p_values, abstention)
     origins = reference.origins
     out = []
     for t, target in enumerate(targets):
         row = scores.scores[t]
-        decision, candidates = _decision(accepted[t], row)
+        decision, candidates = decided.decisions[t], decided.candidates[t]
         ranked = np.sort(row)
+        fit_p = decided.fit_p
         out.append(
             Prediction(
                 item=target.name,
@@ -742,13 +879,13 @@ def _decide(
                 candidates=tuple(origins[c] for c in candidates),
                 best=origins[int(scores.picked[t])],
                 confidence=float(ranked[1] - ranked[0]) if len(ranked) > 1 else float("inf"),
-                credibility=None if p_values is None else float(p_values[t].max()),
+                credibility=None if decided.test_p is None else float(decided.test_p[t]),
                 nearest=reference.items[int(scores.nearest[t])].name,
                 distance=float(scores.distance[t]),
-                scores=tuple((o, float(s)) for o, s in zip(origins, row, strict=True)),
+                scores=tuple((o, float(v)) for o, v in zip(origins, row, strict=True)),
                 p_values=None
-                if p_values is None
-                else tuple((o, float(p)) for o, p in zip(origins, p_values[t], strict=True)),
+                if fit_p is None
+                else tuple((o, float(p)) for o, p in zip(origins, fit_p[t], strict=True)),
             )
         )
     return out
@@ -760,7 +897,7 @@ class Classification:
 
     `scores` holds one row per item and one column per origin (lower is better): NCD to the
     origin's nearest reference item for knn, C(x | corpus) / C(x) for conditional; `p_values`
-    the conformal p-value of each (None with a given threshold).
+    the fit p-value of each (None with a given threshold; see Conformity).
     """
 
     predictions: tuple[Prediction, ...]
@@ -823,17 +960,17 @@ def fold_report(
     keep = folds.measured
     scores, codes, fold_of = folds.scores[keep], folds.codes[keep], folds.folds[keep]
     n, m = scores.shape
-    alphas = nonconformity(scores)
-    own = alphas[np.arange(n), codes]
+    origins = [folds.origins[o] for o in range(m)]
     confusion = np.zeros((m, m + 2), dtype=np.int64)
     for fold in np.unique(fold_of):
         rows = fold_of == fold
-        p = None
+        conformity = None
         if threshold is None:
-            p = conformal_p_values(own[~rows], codes[~rows], alphas[rows], significance)
-        accept = scores[rows] <= threshold if p is None else p > significance
-        for row, truth, accepted in zip(scores[rows], codes[rows], accept, strict=True):
-            decision, candidates = _decision(accepted, row)
+            conformity = Conformity.of(scores[~rows], codes[~rows], origins, significance)
+        decided = _decisions(scores[rows], conformity, threshold)
+        for truth, decision, candidates in zip(
+            codes[rows], decided.decisions, decided.candidates, strict=True
+        ):
             column = {"named": candidates[0] if candidates else 0, "ambiguous": m, "unknown": m + 1}
             confusion[truth, column[decision]] += 1
     left_out = []
@@ -844,16 +981,15 @@ def fold_report(
             continue
         reduced = scores[:, others]
         relabel = np.searchsorted(others, codes[rest])
+        conformity = None
         if threshold is None:
-            rest_alpha = nonconformity(reduced[rest])
-            calibration = rest_alpha[np.arange(int(rest.sum())), relabel]
-            p = conformal_p_values(calibration, relabel, nonconformity(reduced[mine]), significance)
-            accept = p > significance
-        else:
-            accept = reduced[mine] <= threshold
-        left_out.append(float(np.mean(~accept.any(axis=1))))
-    foreign = np.where(np.arange(m)[None, :] == codes[:, None], np.inf, alphas).min(axis=1)
+            names = [origins[o] for o in others]
+            conformity = Conformity.of(reduced[rest], relabel, names, significance)
+        decided = _decisions(reduced[mine], conformity, threshold)
+        left_out.append(float(np.mean([d == "unknown" for d in decided.decisions])))
     total = max(n, 1)
+    own = scores[np.arange(n), codes]
+    foreign = np.where(np.arange(m)[None, :] == codes[:, None], np.inf, scores).min(axis=1)
     return FoldReport(
         accuracy=float(np.trace(confusion[:, :m]) / total),
         refusal_rate=float(confusion[:, m + 1].sum() / total),
@@ -935,21 +1071,14 @@ def _score(
 
 @dataclass(frozen=True)
 class _Calibrated:
-    """What a fitted classification keeps: the abstention and its calibration scores."""
+    """What a fitted classification keeps: the abstention and its calibration (None with a
+    given threshold)."""
 
     abstention: Abstention
-    calibration: np.ndarray
-    calibration_origins: np.ndarray
+    conformity: Conformity | None
 
-    def p_values(self, scores: np.ndarray) -> np.ndarray | None:
-        if self.abstention.significance is None:
-            return None
-        return conformal_p_values(
-            self.calibration,
-            self.calibration_origins,
-            nonconformity(scores),
-            self.abstention.significance,
-        )
+    def decide(self, scores: np.ndarray) -> _Decisions:
+        return _decisions(scores, self.conformity, self.abstention.threshold)
 
 
 def _calibrate(
@@ -964,16 +1093,17 @@ def _calibrate(
     if threshold is not None:
         if significance is not None:
             raise ValueError("give a significance or a threshold, not both")
-        empty = np.zeros(0)
-        return _Calibrated(Abstention(None, float(threshold), blocks=blocks), empty,
-                           np.zeros(0, dtype=np.int64))  # fmt: skip
+        return _Calibrated(Abstention(None, float(threshold), blocks=blocks), None)
     significance = DEFAULT_SIGNIFICANCE if significance is None else significance
+    if not 0 < significance < 1:
+        raise ValueError(f"significance must lie between 0 and 1, got {significance}")
     reference.check(calibrate=True)
     folds = _fold_scores(reference, options, method, blocks, longest)
-    calibration = own_origin_nonconformity(folds)
-    codes = reference.codes[folds.measured]
-    abstention = _abstention(codes, reference.origins, significance, blocks)
-    return _Calibrated(abstention, calibration, codes)
+    keep = folds.measured
+    conformity = Conformity.of(
+        folds.scores[keep], reference.codes[keep], reference.origins, significance
+    )
+    return _Calibrated(_abstention(conformity, blocks), conformity)
 
 
 def classify(
@@ -995,10 +1125,10 @@ def classify(
     """The origin of each unknown item among the reference's labels, or unknown / ambiguous.
 
     `method` is "conditional" (C(x | origin corpus) / C(x), Cohen & Vitanyi 2015) or "knn"
-    (weighted k nearest neighbours under NCD, Jiang et al. 2023). An origin accepts an item
-    when its conformal p-value is above `significance` (default 0.05; see conformal_p_values),
-    calibrated on the reference held out in `blocks` contiguous blocks per origin; a given
-    `threshold` replaces that test by score <= threshold (float("inf") accepts everything).
+    (weighted k nearest neighbours under NCD, Jiang et al. 2023). The best origin accepts an
+    item when the deciding test's conformal p-value is above `significance` (default 0.05; see
+    Conformity), calibrated on the reference held out in `blocks` contiguous blocks per origin;
+    a given `threshold` replaces that test by score <= threshold (float("inf") accepts all).
     `conditional` "auto" primes where the compressor can for the conditional method and
     concatenates otherwise. The nearest reference item is searched among the best origin's.
     """
@@ -1015,12 +1145,12 @@ def classify(
         _score(unknowns, ref, options, method, k, longest), unknowns, ref, options,
         exclude_self=False,
     )  # fmt: skip
-    p_values = fitted.p_values(scores.scores)
+    decided = fitted.decide(scores.scores)
     return Classification(
-        predictions=tuple(_decide(scores, p_values, fitted.abstention, ref, unknowns)),
+        predictions=tuple(_decide(scores, decided, ref, unknowns)),
         origins=ref.origins,
         scores=scores.scores,
-        p_values=p_values,
+        p_values=decided.fit_p,
         abstention=fitted.abstention,
         method=method,
         k=k,
@@ -1057,10 +1187,13 @@ def evaluate(
     folds = _fold_scores(ref, options, method, blocks, longest)
     rate = DEFAULT_SIGNIFICANCE if significance is None else significance
     report = fold_report(folds, rate, threshold)
+    keep = folds.measured
     abstention = (
         Abstention(None, float(threshold), blocks=blocks)
         if threshold is not None
-        else _abstention(ref.codes, ref.origins, rate, blocks)
+        else _abstention(
+            Conformity.of(folds.scores[keep], ref.codes[keep], ref.origins, rate), blocks
+        )
     )
     return Evaluation(
         accuracy=report.accuracy,
@@ -1140,9 +1273,8 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
                 from .calibration import choose_for_job
 
                 self.compressor_ = choose_for_job(
-                    labelled, "classify", budget_seconds=self.budget, jobs=self.jobs,
-                    cache=cache, significance=self.significance or DEFAULT_SIGNIFICANCE,
-                ).spec  # fmt: skip
+                    labelled, "classify", budget_seconds=self.budget, jobs=self.jobs, cache=cache
+                ).spec
             self.longest_ = max(len(i.data) for i in labelled)
             self.calibrated_ = _calibrate(
                 self.reference_, self._run_options(cache), self.method, self.significance,
@@ -1167,23 +1299,22 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         return scores.scores
 
     def p_values(self, X: Sequence[bytes | str]) -> np.ndarray:
-        """Conformal p-values, shaped (len(X), len(classes_)); a class accepts an input when its
-        p-value is above the significance. Raises ValueError when fitted with a threshold."""
-        p = self.calibrated_.p_values(self._scores(X))
+        """Conformal fit p-values, shaped (len(X), len(classes_)): how typical each input is of
+        each class (see Conformity). Raises ValueError when fitted with a threshold."""
+        p = self.calibrated_.decide(self._scores(X)).fit_p
         if p is None:
             raise ValueError("fitted with a threshold: no p-values")
         return p
 
     def predict(self, X: Sequence[bytes | str]) -> np.ndarray:
-        """The class of each input, or `unknown_label` where no class or several accept it."""
-        scores = self._scores(X)
-        p = self.calibrated_.p_values(scores)
-        accepted = _accepted(scores, p, self.calibrated_.abstention)
-        named = accepted.sum(axis=1) == 1
-        picked = np.where(named, accepted.argmax(axis=1), 0)
+        """The class of each input, or `unknown_label` where it is unknown or ambiguous."""
+        decided = self.calibrated_.decide(self._scores(X))
+        named = np.array([d == "named" for d in decided.decisions], dtype=bool)
+        picked = np.array([c[0] if d == "named" else 0 for d, c in
+                           zip(decided.decisions, decided.candidates, strict=True)])  # fmt: skip
         if named.all():
             return np.asarray(self.classes_[picked])
-        out = np.empty(len(scores), dtype=object)
+        out = np.empty(len(named), dtype=object)
         out[:] = [
             self.classes_[c] if ok else self.unknown_label
             for c, ok in zip(picked, named, strict=True)
