@@ -77,14 +77,34 @@ def test_auto_warns_when_even_its_choice_cannot_hold_the_largest_pair(
         window_bytes = 32768
 
     class Report:
-        reasons = ("estimated job time with zlib:level=9: under 1 s",)
-
         def result(self, spec: str) -> Result:
             return Result()
 
-    monkeypatch.setattr(
-        calibration, "choose_compressor", lambda *a, **k: ("zlib:level=9", Report())
-    )
+    class Choice:
+        spec = "zlib:level=9"
+        report = Report()
+        reasons = ("estimated job time with zlib:level=9: under 1 s",)
+
+    monkeypatch.setattr(calibration, "choose_for_job", lambda *a, **k: Choice())
     assert cli.main(["matrix", str(GENOMES), "--no-cache", "--format", "json"]) == 0
     err = capsys.readouterr().err
     assert "warning: zlib:level=9: reliable up to 1,000 bytes, below the largest pair" in err
+
+
+def test_classify_auto_chooses_by_the_task_and_says_why(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    logs = DATASETS / "quendle-logs" / "logs"
+    for name in ("brisquet", "tarnwheel", "fenmeter"):
+        (tmp_path / "known" / name).mkdir(parents=True)
+        lines = (logs / f"{name}.log").read_text().splitlines(keepends=True)
+        (tmp_path / "known" / name / "first.log").write_text("".join(lines[:1000]))
+    cache = str(tmp_path / "c.sqlite")
+    argv = ["classify", "--reference", str(tmp_path / "known"), "--evaluate", "--split",
+            "lines:100", "--budget", "60", "--cache", cache, "--json"]  # fmt: skip
+    assert cli.main(argv) == 0
+    err = capsys.readouterr().err
+    assert "auto: calibrating the compressors on these inputs for classify" in err
+    assert "tells the reference's 3 origins apart best on held-out items" in err
+    assert cli.main(argv) == 0
+    assert "auto: the choice for these inputs is in the cache" in capsys.readouterr().err

@@ -3,12 +3,15 @@ checks on real logs and real code from the open datasets."""
 
 from __future__ import annotations
 
+import dataclasses
 import gzip
+import json
 import math
 import random
 import warnings
 from collections.abc import Iterator
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pytest
@@ -26,16 +29,22 @@ from sklearn.utils.estimator_checks import (
 
 from kinpress import InputError, InputWarning, Item, MeasurementWarning, SizeCache, compressor
 from kinpress import distance_matrix as matrix_of
+from kinpress.calibration import choose_for_job
 from kinpress.origins import (
+    TESTS,
     CompressionClassifier,
-    Threshold,
-    _Scores,
-    _threshold_of,
-    choose_threshold,
+    Conformity,
+    FoldScores,
+    _statistics,
     classify,
+    conformal_p_values,
     corpus_bytes,
     evaluate,
+    fold_report,
+    fold_scores,
+    novelty_aucs,
     pairwise_distances,
+    reference_folds,
     reference_items,
 )
 
@@ -125,7 +134,7 @@ def test_conditional_score_is_the_size_ratio_given_the_corpus(cache: SizeCache) 
         corpus = b"".join(i.data for i in reference if i.label == origin)
         expected = (comp.size(corpus + x) - comp.size(corpus)) / comp.size(x)
         assert result.scores[0, column] == pytest.approx(expected)
-    assert result.predictions[0].predicted == "o0"
+    assert result.predictions[0].best == "o0"
 
 
 def test_a_corpus_beyond_the_window_is_cut_with_a_warning() -> None:
@@ -133,7 +142,7 @@ def test_a_corpus_beyond_the_window_is_cut_with_a_warning() -> None:
     unknown = [Item("u", origin_text(1, 99, lines=200).encode(), "generated")]
     with pytest.warns(MeasurementWarning, match="to fit the compressor's window"):
         result = classify(unknown, reference, "zlib:level=9", threshold=math.inf)
-    assert result.predictions[0].predicted == "o1"
+    assert result.predictions[0].best == "o1"
 
 
 # -- both decision rules, abstention and evaluation ---------------------------------------------
@@ -141,30 +150,41 @@ def test_a_corpus_beyond_the_window_is_cut_with_a_warning() -> None:
 
 @pytest.mark.parametrize("method", ["conditional", "knn"])
 def test_known_origins_are_found_and_a_new_origin_is_refused(method: str, cache: SizeCache) -> None:
-    reference = origin_items(range(3), range(4))
+    reference = origin_items(range(3), range(8))
     known = origin_items(range(3), range(10, 12), prefix="k")
     stranger = origin_items(range(7, 8), range(10, 12), prefix="s")
     result = classify([*known, *stranger], reference, method=method, cache=cache)
     assert [p.predicted for p in result.predictions] == [i.label for i in known] + [None, None]
-    assert result.threshold.derived
+    assert [p.decision for p in result.predictions] == ["named"] * len(known) + ["unknown"] * 2
+    assert result.abstention.significance == 0.05
+    assert result.abstention.calibration_scores == 24
+    assert result.counts() == {"named": 6, "ambiguous": 0, "unknown": 2}
     for p in result.predictions[: len(known)]:
         assert p.confidence > 0
         assert p.nearest.startswith("r" + str(p.predicted).removeprefix("o"))
         assert 0 <= p.distance < 1
+        assert p.credibility is not None and p.credibility > 0.05
 
 
 def test_json_rows_have_the_documented_keys(cache: SizeCache) -> None:
-    reference = origin_items(range(2), range(3))
-    result = classify(origin_items(range(1), range(5, 6), "k"), reference, cache=cache)
-    assert result.as_json() == [
-        {
-            "item": "k0-5",
-            "predicted": "o0",
-            "confidence": result.predictions[0].confidence,
-            "nearest": result.predictions[0].nearest,
-            "distance": result.predictions[0].distance,
-        }
-    ]
+    reference = origin_items(range(2), range(10))
+    result = classify(origin_items(range(1), range(15, 16), "k"), reference, cache=cache)
+    [row] = result.as_json()
+    p = result.predictions[0]
+    assert row == {
+        "item": "k0-15",
+        "predicted": "o0",
+        "decision": "named",
+        "candidates": ["o0"],
+        "best": "o0",
+        "confidence": p.confidence,
+        "credibility": p.credibility,
+        "nearest": p.nearest,
+        "distance": p.distance,
+        "scores": {"o0": result.scores[0, 0], "o1": result.scores[0, 1]},
+        "p_values": {"o0": result.p_values[0, 0], "o1": result.p_values[0, 1]},  # type: ignore[index]
+    }
+    assert json.loads(json.dumps(row)) == row
 
 
 def test_k2_with_nearer_neighbour_ties_equals_1nn(cache: SizeCache) -> None:
@@ -175,81 +195,157 @@ def test_k2_with_nearer_neighbour_ties_equals_1nn(cache: SizeCache) -> None:
     unknowns = origin_items(range(3), range(20, 24), prefix="k")
     one = classify(unknowns, reference, "zlib:level=9", method="knn", k=1, threshold=math.inf)
     two = classify(unknowns, reference, "zlib:level=9", method="knn", k=2, threshold=math.inf)
-    assert [p.predicted for p in two.predictions] == [p.predicted for p in one.predictions]
+    assert [p.best for p in two.predictions] == [p.best for p in one.predictions]
 
 
-def test_choose_threshold_cuts_between_own_and_foreign_scores() -> None:
-    own = np.array([0.2, 0.3, 0.4])
-    foreign = np.array([0.7, 0.8, 0.9])
-    cut = choose_threshold(own, foreign)
-    assert 0.4 < cut.value < 0.7
-    assert (cut.false_unknown, cut.false_known) == (0.0, 0.0)
-    overlapping = choose_threshold(np.array([0.2, 0.6]), np.array([0.5, 0.9]))
-    assert overlapping.false_unknown + overlapping.false_known == pytest.approx(0.5)
+def test_folds_are_contiguous_blocks_of_each_origin_in_reference_order() -> None:
+    codes = np.array([0] * 10 + [1] * 3 + [0] * 0)
+    assert reference_folds(codes, 5).tolist() == [0, 0, 1, 1, 2, 2, 3, 3, 4, 4, 0, 1, 2]
+    with pytest.raises(ValueError, match="blocks"):
+        reference_folds(codes, 1)
 
 
-def test_a_spread_out_origin_gets_a_cut_of_its_own() -> None:
-    # Leave-one-out scores of 3 origins x 10 items: origins 0 and 1 score near 0.3 for their own
-    # origin, origin 2 spreads from 0.3 to 0.95; every item's best foreign score is about 0.8.
-    rng = np.random.default_rng(5)
-    codes = np.repeat(np.arange(3), 10)
-    scores = 0.8 + 0.05 * rng.random((30, 3))
-    own = np.concatenate([0.3 + 0.05 * rng.random(20), np.linspace(0.3, 0.95, 10)])
-    scores[np.arange(30), codes] = own
-    loo = _Scores(scores, scores.argmin(axis=1))
-    others = scores.copy()
-    others[np.arange(30), codes] = np.inf
-    shared = choose_threshold(own, others.min(axis=1))
-    cut = _threshold_of(loo, codes, 0.9)
-    cuts = cut.cuts(3)
-    assert cut.value == shared.value
-    assert cuts[0] == cuts[1] == cut.value  # tight origins keep the shared cut
-    assert cuts[2] > cut.value
-    assert np.mean(own[20:] <= cuts[2]) >= 0.9
-    assert cut.false_unknown is not None and cut.false_unknown <= 0.1 / 3 + 1e-9
-    # The price, reported: outsiders whose best foreign origin is the spread-out one now pass.
-    assert cut.false_known is not None and cut.false_known > (shared.false_known or 0)
-    # 0 means one cut for all; a share outside [0, 1] is refused.
-    assert (_threshold_of(loo, codes, 0.0).cuts(3) == shared.value).all()
-    with pytest.raises(ValueError, match="min_accepted"):
-        _threshold_of(loo, codes, 1.5)
-    # A given threshold is one cut for all origins.
-    assert (Threshold(0.5, False).cuts(3) == 0.5).all()
+def test_conformal_p_value_counts_calibration_scores_at_least_as_strange() -> None:
+    # p = (1 + #{calibration >= alpha}) / (n + 1) (Vovk, Gammerman & Shafer 2005, ch. 2), worked
+    # by hand: 4 scores, 0.25 has 2 at least as large: p = 3 / 5; 0.45 has none: 1 / 5.
+    p = conformal_p_values(np.array([0.1, 0.2, 0.3, 0.4]), np.array([0.25, 0.45]))
+    assert p.tolist() == [3 / 5, 1 / 5]
 
 
-def test_threshold_comes_from_leave_one_out_and_can_be_overridden(cache: SizeCache) -> None:
-    reference = origin_items(range(3), range(4))
+def test_fit_runs_from_a_typical_own_item_to_a_typical_stranger() -> None:
+    # Held-out scores of two origins (rows: items, columns: origins; lower is better).
+    held = np.array([[0.3, 0.9], [0.5, 0.8], [0.9, 0.4], [1.0, 0.6]])
+    codes = np.array([0, 0, 1, 1])
+    conformity = Conformity.of(held, codes, ("a", "b"), 0.05)
+    # origin a: own items' median 0.4, strangers' median 0.95; origin b: 0.5 and 0.85
+    assert conformity.centre.tolist() == pytest.approx([0.4, 0.5])
+    assert conformity.scale.tolist() == pytest.approx([0.55, 0.35])
+    fit, strange = _statistics(np.array([[0.4, 0.85]]), conformity.centre, conformity.scale,
+                               np.array([0]))  # fmt: skip
+    assert fit[0] == pytest.approx(0.0)  # typical of a
+    assert -strange[0] == pytest.approx((0.85 - 0.4) / 0.55)  # separation from b, in a's scale
+
+
+def test_an_origin_with_enough_held_out_items_gets_p_values_of_its_own() -> None:
+    # 39 held-out items give an origin p-values down to 1/40, half of 0.05: label-conditional
+    # (Mondrian conformal prediction, Vovk et al. 2005, ch. 4.5); 2 items do not: pooled.
+    rng = np.random.default_rng(3)
+    own = np.concatenate([rng.uniform(0.3, 0.5, 39), [0.2, 0.3]])
+    held = np.column_stack([np.where(np.arange(41) < 39, own, 0.95),
+                            np.where(np.arange(41) < 39, 0.95, own)])  # fmt: skip
+    codes = np.array([0] * 39 + [1, 1])
+    conformity = Conformity.of(held, codes, ("many", "few"), 0.05)
+    assert conformity.label_conditional.tolist() == [True, False]
+    fit_p, best, _ = conformity.p_values(np.array([[2.0, 0.96], [0.96, 2.0]]))
+    assert best.tolist() == [1, 0]
+    assert fit_p[1, 0] == pytest.approx(1 / 40)  # stranger than all 39 of its own
+    assert fit_p[0, 1] == pytest.approx(1 / 42)  # pooled over all 41
+
+
+@pytest.mark.parametrize("test", TESTS)
+@pytest.mark.parametrize("significance", [0.05, 0.1, 0.2])
+def test_known_items_are_refused_at_the_significance_within_sampling_error(
+    significance: float, test: str
+) -> None:
+    # The conformal guarantee (Vovk, Gammerman & Shafer 2005, "Algorithmic Learning in a Random
+    # World", theorem 2.2 and ch. 4.5 for the label-conditional form): when a new item's
+    # statistic is exchangeable with the calibration items', P(p <= eps) <= eps, and close to
+    # eps when ties are rare. Synthetic known answer: 3 origins whose own score is drawn from a
+    # different distribution each (a tight, a middling and a spread-out origin), foreign scores
+    # near 1; both tests, whichever the reference would choose.
+    rng = np.random.default_rng(2005)
+    spreads = np.array([0.02, 0.08, 0.2])
+
+    def draw(n: int) -> tuple[np.ndarray, np.ndarray]:
+        codes = rng.integers(0, 3, n)
+        scores = rng.normal(0.97, 0.02, (n, 3))
+        scores[np.arange(n), codes] = rng.normal(0.5, spreads[codes])
+        return scores, codes
+
+    refused, trials = 0, 0
+    for _ in range(400):
+        cal_scores, cal_codes = draw(30)
+        conformity = Conformity.of(cal_scores, cal_codes, ("a", "b", "c"), significance)
+        fit, separation = _statistics(cal_scores, conformity.centre, conformity.scale, cal_codes)
+        conformity = dataclasses.replace(
+            conformity, test=test, test_calibration=fit if test == "fit" else separation
+        )
+        new_scores, _ = draw(20)
+        _, _, test_p = conformity.p_values(new_scores)
+        refused += int(np.sum(test_p <= significance))
+        trials += 20
+    rate = refused / trials
+    error = 3 * math.sqrt(significance * (1 - significance) / trials)
+    # Discrete p-values make the rate floor(eps (n + 1)) / (n + 1), just below eps.
+    assert significance - 0.035 - error <= rate <= significance + error, rate
+
+
+def test_a_given_threshold_replaces_the_p_values(cache: SizeCache) -> None:
+    reference = origin_items(range(3), range(8))
     unknowns = [*origin_items(range(2), range(10, 12), "k"), *origin_items(range(9, 10), [1], "s")]
     derived = classify(unknowns, reference, cache=cache)
-    assert derived.threshold == evaluate(reference, cache=cache).threshold
-    assert derived.threshold.derived
+    assert derived.abstention.threshold is None and derived.p_values is not None
     strict = classify(unknowns, reference, threshold=0.0, cache=cache)
-    assert strict.threshold.as_json()["derived"] is False
-    assert all(p.predicted is None for p in strict.predictions)
+    assert strict.abstention.as_json()["significance"] is None and strict.p_values is None
+    assert all(p.decision == "unknown" for p in strict.predictions)
     never = classify(unknowns, reference, threshold=math.inf, cache=cache)
-    assert never.threshold.as_json()["value"] is None
-    assert all(p.predicted is not None for p in never.predictions)
+    assert all(p.decision != "unknown" for p in never.predictions)
+    with pytest.raises(ValueError, match="not both"):
+        classify(unknowns, reference, threshold=0.5, significance=0.05, cache=cache)
 
 
-def test_leave_one_out_needs_two_items_per_origin() -> None:
+def test_too_few_reference_items_for_the_rate_warn_with_the_smallest_rate(
+    cache: SizeCache,
+) -> None:
+    reference = origin_items(range(2), range(4))  # 8 held-out items: p never below 1/9
+    with pytest.warns(MeasurementWarning, match="no smaller than 0.111"):
+        result = classify(origin_items(range(1), [5], "k"), reference, cache=cache)
+    assert "smallest possible is 0.111" in result.abstention.guarantee
+    assert result.predictions[0].decision != "unknown"
+
+
+def test_calibration_needs_two_items_per_origin() -> None:
     reference = origin_items(range(2), range(1))
     with pytest.raises(InputError, match="two reference items per origin"):
         classify(origin_items(range(1), [5], "k"), reference)
     given = classify(origin_items(range(1), [5], "k"), reference, threshold=math.inf)
-    assert given.predictions[0].predicted == "o0"
+    assert given.predictions[0].best == "o0"
 
 
 @pytest.mark.parametrize("method", ["conditional", "knn"])
-def test_evaluate_reports_accuracy_abstention_and_confusion(method: str, cache: SizeCache) -> None:
-    reference = origin_items(range(3), range(4))
+def test_evaluate_reports_accuracy_refusals_and_missing_origins(
+    method: str, cache: SizeCache
+) -> None:
+    # 36 items in 5 folds: each fold's p-values come from about 29 others, down to 1/30.
+    reference = origin_items(range(3), range(12))
     result = evaluate(reference, method=method, cache=cache)
     assert result.origins == ("o0", "o1", "o2")
-    assert result.confusion.shape == (3, 4)
-    assert result.confusion.sum() == 12
-    assert result.accuracy == pytest.approx(np.trace(result.confusion[:, :3]) / 12)
-    assert result.abstention_rate == pytest.approx(result.confusion[:, 3].sum() / 12)
-    assert result.accuracy >= 0.9
-    assert all(p.nearest != p.item for p in result.predictions)  # left out, not its own nearest
+    assert result.confusion.shape == (3, 5)
+    assert result.confusion.sum() == 36
+    assert result.accuracy == pytest.approx(np.trace(result.confusion[:, :3]) / 36)
+    assert result.refusal_rate == pytest.approx(result.confusion[:, 4].sum() / 36)
+    assert result.ambiguous_rate == pytest.approx(result.confusion[:, 3].sum() / 36)
+    assert result.accuracy >= 0.8
+    assert len(result.left_out_unknown) == 3
+    assert result.left_out_unknown_rate >= 0.8  # unrelated vocabularies: a missing one is refused
+    assert set(result.as_json()) >= {"accuracy", "refusal_rate", "left_out_unknown_rate"}
+
+
+def test_fold_report_counts_decisions_of_known_scores() -> None:
+    # Three origins, four items each in two folds, scores by hand: own 0.3, foreign 0.9, and one
+    # item of origin 2 that its own origin explains no better than the others.
+    codes = np.repeat(np.arange(3), 4)
+    scores = np.full((12, 3), 0.9)
+    scores[np.arange(12), codes] = 0.3
+    scores[11] = [0.9, 0.9, 0.9]
+    folds = FoldScores(("a", "b", "c"), codes, np.tile([0, 0, 1, 1], 3), scores)
+    report = fold_report(folds, significance=0.2)
+    assert report.items == 12
+    assert report.confusion[:, :3].trace() == 11
+    assert report.confusion[2, 4] == 1  # refused: stranger than every calibration item
+    # Missing a or b, the calibration holds c's strange item, as strange as a missing origin's
+    # items (alpha 0.9 - 0.45 either way): a tie, p = 2/9 > 0.2, accepted. Missing c, refused.
+    assert report.left_out_unknown == (0.0, 0.0, 1.0)
 
 
 def test_unknown_method_and_bad_k_are_refused() -> None:
@@ -258,6 +354,8 @@ def test_unknown_method_and_bad_k_are_refused() -> None:
         classify(reference[:1], reference, method="vote")
     with pytest.raises(ValueError, match="k must be between"):
         classify(reference[:1], reference, method="knn", k=9, threshold=1.0)
+    with pytest.raises(ValueError, match="significance must lie"):
+        classify(reference[:1], reference, significance=1.5)
 
 
 # -- scikit-learn -------------------------------------------------------------------------------
@@ -301,24 +399,39 @@ def test_estimator_follows_the_scikit_learn_parameter_contract() -> None:
 
 @pytest.mark.parametrize("method", ["conditional", "knn"])
 def test_estimator_fits_predicts_and_refuses(method: str, tmp_path: Path) -> None:
-    texts = [origin_text(o, s) for o in range(3) for s in range(4)]
-    labels = [o for o in range(3) for _ in range(4)]
-    model = CompressionClassifier(method=method, unknown_label=-1, cache=str(tmp_path / "c.db"))
+    texts = [origin_text(o, s) for o in range(3) for s in range(8)]
+    labels = [o for o in range(3) for _ in range(8)]
+    model = CompressionClassifier(
+        compressor="zstd:level=19", method=method, unknown_label=-1, cache=str(tmp_path / "c.db")
+    )
     model.fit(texts, labels)
     assert list(model.classes_) == [0, 1, 2]
-    assert 0 < model.threshold_ < 1.5
+    assert model.compressor_ == "zstd:level=19"
     assert list(model.predict([origin_text(2, 40), origin_text(0, 41)])) == [2, 0]
     assert list(model.predict([origin_text(8, 1).encode()])) == [-1]
     assert model.score([origin_text(1, 42), origin_text(8, 2)], [1, 1]) == 0.5
+    p = model.p_values([origin_text(2, 40), origin_text(8, 1)])
+    assert p.shape == (2, 3)
+    assert p[0, 2] > 0.05 and (p[0, :2] <= 0.05).all() and (p[1] <= 0.05).all()
+
+
+def test_estimator_chooses_the_compressor_by_the_task_by_default(tmp_path: Path) -> None:
+    texts = [origin_text(o, s) for o in range(3) for s in range(8)]
+    labels = [o for o in range(3) for _ in range(8)]
+    model = CompressionClassifier(unknown_label=-1, budget=60, cache=str(tmp_path / "a.db"))
+    assert model.compressor == "auto"
+    model.fit(texts, labels)
+    assert model.compressor_ != "auto"
+    assert list(model.predict([origin_text(1, 50), origin_text(9, 1)])) == [1, -1]
 
 
 def test_estimator_runs_in_a_pipeline_under_cross_validation(tmp_path: Path) -> None:
-    texts = [origin_text(o, s) for o in range(3) for s in range(6)]
-    labels = [f"o{o}" for o in range(3) for _ in range(6)]
+    texts = [origin_text(o, s) for o in range(3) for s in range(12)]
+    labels = [f"o{o}" for o in range(3) for _ in range(12)]
     pipeline = Pipeline(
         [
             ("lower", FunctionTransformer(lambda xs: [x.lower() for x in xs])),
-            ("classify", CompressionClassifier(cache=str(tmp_path / "cv.db"))),
+            ("classify", CompressionClassifier("zstd:level=19", cache=str(tmp_path / "cv.db"))),
         ]
     )
     scores = cross_val_score(pipeline, texts, labels, cv=3)
@@ -349,23 +462,8 @@ def test_real_logs_second_half_is_classified_by_system(shared: Path, cache: Size
     result = classify(held_out, reference, cache=cache)
     hits = [p.predicted == i.label for p, i in zip(result.predictions, held_out, strict=True)]
     accuracy = sum(hits) / len(hits)
-    print(f"logs: accuracy {accuracy:.3f}, threshold {result.threshold}")
+    print(f"logs: accuracy {accuracy:.3f}, {result.counts()}")
     assert accuracy >= 0.95
-
-
-@pytest.mark.shared
-def test_real_logs_of_a_system_left_out_come_back_unknown(shared: Path, cache: SizeCache) -> None:
-    # Loghub samples again: each system in turn is missing from the reference.
-    reference, held_out = log_chunks(shared / "logs")
-    rates = {}
-    for system in sorted({i.label for i in reference if i.label is not None}):
-        others = [i for i in reference if i.label != system]
-        mine = [i for i in held_out if i.label == system]
-        result = classify(mine, others, cache=cache)
-        rates[system] = sum(p.predicted is None for p in result.predictions) / len(mine)
-    overall = sum(rates.values()) / len(rates)
-    print(f"logs left out: unknown rate {overall:.3f} overall, per system {rates}")
-    assert overall > 0.5
 
 
 def gzip_1nn(train: list[str], labels: list[str], test: list[str]) -> list[str]:
@@ -391,17 +489,23 @@ def gzip_1nn(train: list[str], labels: list[str], test: list[str]) -> list[str]:
     return out
 
 
-@pytest.mark.shared
-def test_real_code_by_language_is_at_least_as_accurate_as_gzip_knn(
-    shared: Path, cache: SizeCache
-) -> None:
-    # Rosetta Code solutions in 8 languages, 40 files each (ad-si/RosettaGit; labels.tsv there):
-    # each language's first 20 files in name order as reference, the other 20 to classify.
+def _code(shared: Path) -> tuple[list[Item], list[Item]]:
+    """Rosetta Code solutions in 8 languages, 40 files each (ad-si/RosettaGit; labels.tsv there):
+    each language's first 20 files in name order as reference, the other 20 to classify."""
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", InputWarning)  # labels.tsv lies beside the subfolders
         items = reference_items(shared / "code")
-    reference = [i for i in items if _rank(i, items) < 20]
-    held_out = [i for i in items if _rank(i, items) >= 20]
+    return [i for i in items if _rank(i, items) < 20], [i for i in items if _rank(i, items) >= 20]
+
+
+@pytest.mark.shared
+def test_real_code_by_language_with_default_options_beats_gzip_knn(
+    shared: Path, cache: SizeCache
+) -> None:
+    # Default options: the compressor chosen for the task, conformal abstention at 0.05. Measured
+    # when written: ppmd order 32 chosen, 0.944 named right, 1.9 % refused, 3.8 % ambiguous,
+    # gzip 1-NN 0.900.
+    reference, held_out = _code(shared)
     truth = [str(i.label) for i in held_out]
 
     def text(i: Item) -> str:
@@ -410,43 +514,96 @@ def test_real_code_by_language_is_at_least_as_accurate_as_gzip_knn(
     baseline = gzip_1nn([text(i) for i in reference], [str(i.label) for i in reference],
                         [text(i) for i in held_out])  # fmt: skip
     baseline_accuracy = np.mean([p == t for p, t in zip(baseline, truth, strict=True)])
-    result = classify(held_out, reference, threshold=math.inf, cache=cache)
-    accuracy = np.mean([p.predicted == t for p, t in zip(result.predictions, truth, strict=True)])
-    print(f"code: kinpress {accuracy:.3f}, gzip 1-NN {baseline_accuracy:.3f}")
-    assert accuracy >= baseline_accuracy
-    assert accuracy >= 0.95
+    spec = choose_for_job(reference, "classify", targets=held_out, cache=cache).spec
+    result = classify(held_out, reference, spec, cache=cache)
+    right = np.mean([p.predicted == t for p, t in zip(result.predictions, truth, strict=True)])
+    refused = np.mean([p.decision == "unknown" for p in result.predictions])
+    print(f"code: {spec} right {right:.3f} refused {refused:.3f} {result.counts()},"
+          f" gzip 1-NN {baseline_accuracy:.3f}")  # fmt: skip
+    assert right > baseline_accuracy
+    assert right >= 0.90
+    assert refused <= 0.07
+
+
+def _log_protocol(folder: Path) -> list[tuple[list[Item], list[Item], set[str]]]:
+    """The time-ordered protocol: of each system, chunks 1-10 of 100 lines as reference and
+    chunks 11-20 to classify; two systems at a time missing from the reference, rotated."""
+    chunks = {}
+    for path in sorted(folder.glob("*.log")):
+        rows = path.read_bytes().splitlines(keepends=True)
+        chunks[path.stem] = [
+            Item(f"{path.stem}#{k + 1}", b"".join(rows[100 * k : 100 * k + 100]), str(path),
+                 label=path.stem)
+            for k in range(20)
+        ]  # fmt: skip
+    systems = sorted(chunks)
+    rounds = []
+    for start in range(0, len(systems), 2):
+        missing = set(systems[start : start + 2])
+        reference = [i for s in systems if s not in missing for i in chunks[s][:10]]
+        later = [i for s in systems for i in chunks[s][10:20]]
+        rounds.append((reference, later, missing))
+    return rounds
+
+
+@pytest.fixture(scope="module")
+def log_rounds(shared: Path) -> list[tuple[list[Item], list[Item], set[str]]]:
+    return _log_protocol(shared / "logs")
+
+
+@pytest.fixture(scope="module")
+def log_choice(log_rounds: list[tuple[list[Item], list[Item], set[str]]], cache: SizeCache) -> Any:
+    reference, later, _ = log_rounds[0]
+    return choose_for_job(reference, "classify", targets=later, cache=cache)
 
 
 @pytest.mark.shared
-def test_real_code_of_known_languages_is_seldom_refused_and_a_missing_one_mostly_is(
-    shared: Path, cache: SizeCache
+def test_real_logs_time_ordered_with_default_options(
+    log_rounds: list[tuple[list[Item], list[Item], set[str]]], log_choice: Any, cache: SizeCache
 ) -> None:
-    # Rosetta Code solutions again (ad-si/RosettaGit): first 20 files of each language as the
-    # reference, the other 20 to classify; then each language in turn left out of the reference.
-    # Measured with one cut for all origins: 28 % of known-language files refused.
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", InputWarning)
-        items = reference_items(shared / "code")
-    reference = [i for i in items if _rank(i, items) < 20]
-    held_out = [i for i in items if _rank(i, items) >= 20]
-    result = classify(held_out, reference, cache=cache)
-    refused = np.mean([p.predicted is None for p in result.predictions])
-    right = np.mean(
-        [p.predicted == i.label for p, i in zip(result.predictions, held_out, strict=True)]
-    )
-    single = classify(held_out, reference, min_accepted=0.0, cache=cache)
-    refused_single = np.mean([p.predicted is None for p in single.predictions])
-    unknown = []
-    for language in sorted({str(i.label) for i in reference}):
-        others = [i for i in reference if i.label != language]
-        mine = [i for i in held_out if i.label == language]
-        found = classify(mine, others, cache=cache)
-        unknown.append(np.mean([p.predicted is None for p in found.predictions]))
-    print(f"code: refused {refused:.3f} (one cut: {refused_single:.3f}), right {right:.3f}, "
-          f"missing language unknown {np.mean(unknown):.3f}")  # fmt: skip
-    assert refused <= 0.10 < refused_single
-    assert right >= 0.88
-    assert np.mean(unknown) >= 0.85
+    # Loghub 2,000-line samples of 8 systems (Zhu et al., ISSRE 2023). The goals of issue 10:
+    # known systems named right >= 0.93, refused <= 0.07, missing systems unknown >= 0.8. The
+    # compressor is chosen by default (-c auto) on the first round's reference and used for all
+    # four rounds (choosing again costs half a minute a round). Measured when written: zlib
+    # level 9 primed, 0.988 right, 0.013 refused, every missing chunk unknown.
+    known = refused = right = strangers = unknown = 0
+    for reference, later, missing in log_rounds:
+        result = classify(later, reference, log_choice.spec, cache=cache)
+        for p, item in zip(result.predictions, later, strict=True):
+            if item.label in missing:
+                strangers += 1
+                unknown += p.decision == "unknown"
+            else:
+                known += 1
+                right += p.predicted == item.label
+                refused += p.decision == "unknown"
+    print(f"logs: {log_choice.spec} right {right / known:.3f} refused {refused / known:.3f}"
+          f" missing unknown {unknown / strangers:.3f}")  # fmt: skip
+    assert right / known >= 0.93
+    assert refused / known <= 0.07
+    assert unknown / strangers >= 0.8
+
+
+@pytest.mark.shared
+def test_auto_separates_the_reference_at_least_as_well_as_each_candidate_it_passed_over(
+    log_rounds: list[tuple[list[Item], list[Item], set[str]]], log_choice: Any, cache: SizeCache
+) -> None:
+    # Recomputed here from the public functions (the sizes come from the cache): the chosen
+    # compressor's held-out merit (own origin best, plus how well a missing origin is told
+    # apart) is within one item of the best of those it measured.
+    reference, _, _ = log_rounds[0]
+    measured = {f.spec: f for f in log_choice.task}
+    assert log_choice.spec in measured and len(measured) >= 3
+    figures = {}
+    for spec in measured:
+        folds = fold_scores(reference, spec, folds=(0, 2, 4), longest=max(
+            len(i.data) for i in log_rounds[0][1]), cache=cache)  # fmt: skip
+        keep = folds.measured
+        scores, codes = folds.scores[keep], folds.codes[keep]
+        figures[spec] = np.mean(scores.argmin(axis=1) == codes) + max(novelty_aucs(scores, codes))
+        assert figures[spec] == pytest.approx(measured[spec].merit)
+    one_item = 1 / measured[log_choice.spec].items
+    assert all(figures[log_choice.spec] >= s - one_item for s in figures.values()), figures
 
 
 def _rank(item: Item, items: list[Item]) -> int:

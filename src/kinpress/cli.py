@@ -320,13 +320,18 @@ def build_parser() -> argparse.ArgumentParser:
         description="Classify unknown items by origin against a reference folder with one "
         "subfolder per origin (or a folder and --labels): by how much better each compresses "
         "given an origin's whole reference (conditional, default) or by nearest neighbours "
-        "under NCD (knn). Items that fit no origin come back unknown; the threshold comes "
-        "from the reference itself. An origin is evidence to review, not proof.",
+        "under NCD (knn). Every origin tests every item with a conformal p-value calibrated on "
+        "the reference held out in blocks: an item is named when one origin accepts it, "
+        "ambiguous when several do, unknown when none does; items of known origins are refused "
+        "at a rate of at most --significance while new data drifts no more than the held-out "
+        "blocks do. With -c auto the compressor is the one that separates the reference's own "
+        "origins best. An origin is evidence to review, not proof.",
         formatter_class=argparse.RawDescriptionHelpFormatter,
         epilog=_examples(
             "kinpress classify --reference known/ unknown1.bin unknown2.log --json",
             "kinpress classify --reference known/ --evaluate",
             "kinpress classify --reference chunks/ --labels origins.tsv new.log --split lines:100",
+            "kinpress classify --reference known/ new/ --significance 0.01",
         ),
     )
     origin.add_argument("inputs", nargs="*", metavar="INPUT", help="unknown files, folders or -")
@@ -341,13 +346,15 @@ def build_parser() -> argparse.ArgumentParser:
     decide.add_argument("--method", choices=("conditional", "knn"), default="conditional",
                         help="conditional (default) or knn")  # fmt: skip
     decide.add_argument("--k", type=int, default=1, metavar="N", help="neighbours for knn")
+    decide.add_argument("--significance", type=float, metavar="RATE",
+                        help="refuse an origin when the item's p-value for it is at most RATE: "
+                        "the rate at which items of known origins may be refused "
+                        "(default 0.05)")  # fmt: skip
     decide.add_argument("--threshold", type=float, metavar="SCORE",
-                        help="unknown above this score (default: from the reference)")  # fmt: skip
-    decide.add_argument("--min-accepted", type=float, default=0.9, metavar="FRACTION",
-                        help="raise an origin's cut until this share of its own reference items "
-                        "passes (leave-one-out; default 0.9; 0: one cut for all)")  # fmt: skip
+                        help="instead of p-values, accept an origin when the item's score for "
+                        "it is at most SCORE (no stated error rate)")  # fmt: skip
     decide.add_argument("--evaluate", action="store_true",
-                        help="leave-one-out on the reference instead")  # fmt: skip
+                        help="test the reference on itself, block by block, instead")  # fmt: skip
     oout = origin.add_argument_group("output")
     oout.add_argument("-o", "--output", metavar="FILE", help="write the result here")
     oout.add_argument("--json", action="store_true", help="a JSON list of predictions")
@@ -469,7 +476,7 @@ _VALUE_RULES: dict[str, tuple[Callable[[float], bool], str]] = {
     "block_fraction": (lambda v: 0 < v <= 1, "above 0 and at most 1"),
     "budget": (lambda v: v > 0, "a number of seconds above 0"),
     "max_fpr": (lambda v: 0 < v <= 1, "above 0 and at most 1"),
-    "min_accepted": (lambda v: 0 <= v <= 1, "a share between 0 and 1"),
+    "significance": (lambda v: 0 < v < 1, "a rate between 0 and 1"),
     "max_bytes": (lambda v: v > 0, "above 0"),
     "max_file_size": (lambda v: v > 0, "above 0"),
 }
@@ -608,26 +615,52 @@ def compute_matrix(
     return dm, items
 
 
-def resolve_compressor(args: argparse.Namespace, items: Sequence[Item], console: Console) -> str:
-    """The spec to use: as given, or with auto the one calibration recommends for the items.
+def resolve_compressor(
+    args: argparse.Namespace,
+    items: Sequence[Item],
+    console: Console,
+    targets: Sequence[Item] = (),
+) -> str:
+    """The spec to use: as given, or with auto the one calibration.choose_for_job picks for this
+    command's job (classify: `items` is the labelled reference, `targets` the unknowns).
 
-    The choice is kept in the cache, keyed by the items' contents, the candidates (with their
-    library versions), the seed, the budget and the cores, so a rerun does not calibrate again.
+    The choice is kept in the cache, keyed by the items' contents, the job, the candidates (with
+    their library versions), the seed, the budget and the cores, so a rerun does not calibrate
+    again.
     """
     if args.compressor != "auto":
         return str(args.compressor)
-    from .calibration import DEFAULT_CANDIDATES, DEFAULT_SEED, choose_compressor, holds
+    from .calibration import (
+        DEFAULT_CANDIDATES,
+        DEFAULT_SEED,
+        LABELLED_CANDIDATES,
+        LABELLED_JOBS,
+        choose_for_job,
+        holds,
+    )
     from .distance import content_digest
 
+    job = args.command
+    labelled = job in LABELLED_JOBS
     cores = args.engine.jobs  # where the job will run: this machine's cores or the cluster's
     key = (
         "auto:"
         + hashlib.blake2b(
             "\n".join(
                 [
-                    *sorted(content_digest(item.data).hex() for item in items),
-                    *(compressor(spec).cache_key for spec in DEFAULT_CANDIDATES),
+                    *sorted(
+                        content_digest(item.data).hex() + (f"\t{item.label}" if labelled else "")
+                        for item in items
+                    ),
+                    *(
+                        compressor(spec).cache_key
+                        for spec in (LABELLED_CANDIDATES if labelled else DEFAULT_CANDIDATES)
+                    ),
                     f"seed={DEFAULT_SEED} budget={args.budget} cores={cores} strand={args.strand}",
+                    f"job={job} targets={len(targets)}:{sum(len(t.data) for t in targets)}"
+                    " ranked=merit"
+                    if labelled
+                    else "job=unlabelled",
                 ]
             ).encode(),
             digest_size=16,
@@ -636,17 +669,20 @@ def resolve_compressor(args: argparse.Namespace, items: Sequence[Item], console:
     with _opened_cache(args) as cache:
         stored = cache.get_choice(key) if cache is not None else None
         if stored is None:
-            console.say("auto: calibrating the compressors on these inputs ...")
-            spec, report = choose_compressor(
-                items, budget_seconds=args.budget, jobs=cores, strand=args.strand
-            )
+            console.say(f"auto: calibrating the compressors on these inputs for {job} ...")
+            choice = choose_for_job(
+                items, job, targets=targets, budget_seconds=args.budget, jobs=cores,
+                strand=args.strand, engine=args.engine, cache=cache,
+            )  # fmt: skip
             pair = int(sum(sorted((len(item.data) for item in items), reverse=True)[:2]))
-            result = report.result(spec)
+            result = choice.report.result(choice.spec)
             stored = json.dumps(
                 {
-                    "spec": spec,
-                    "why": report.reasons[-1],
-                    "holds": holds(result, pair),
+                    "spec": choice.spec,
+                    "why": choice.reasons[0]
+                    if labelled or " chosen over " in choice.reasons[0]
+                    else choice.reasons[-1],
+                    "holds": labelled or holds(result, pair),
                     "reliable": result.reliable_up_to_bytes,
                     "pair": pair,
                 }
@@ -655,17 +691,18 @@ def resolve_compressor(args: argparse.Namespace, items: Sequence[Item], console:
                 cache.put_choice(key, stored)
         else:
             console.say("auto: the choice for these inputs is in the cache")
-    choice = json.loads(stored)
-    console.say(f"auto: chose {choice['spec']}: {choice['why']}")
-    if not choice["holds"]:
+    choice_json = json.loads(stored)
+    console.say(f"auto: chose {choice_json['spec']}: {choice_json['why']}")
+    if not choice_json["holds"]:
         warnings.warn(
-            f"{choice['spec']}: reliable up to {choice['reliable']:,} bytes, below the largest"
-            f" pair of items ({choice['pair']:,} bytes); their distances drift towards 1",
+            f"{choice_json['spec']}: reliable up to {choice_json['reliable']:,} bytes, below the"
+            f" largest pair of items ({choice_json['pair']:,} bytes); their distances drift"
+            " towards 1",
             MeasurementWarning,
             stacklevel=2,
         )
-    args.compressor = choice["spec"]
-    return str(choice["spec"])
+    args.compressor = choice_json["spec"]
+    return str(choice_json["spec"])
 
 
 def matrix_for(
@@ -1008,23 +1045,23 @@ def _calibration_text(report: Any) -> str:
 def run_classify(args: argparse.Namespace, console: Console) -> int:
     from .origins import classify, evaluate, reference_items
 
+    if args.significance is not None and args.threshold is not None:
+        raise UsageError("give --significance or --threshold, not both")
     if args.labels:
-        reference = load_items([args.reference], args.split, args.labels)
+        reference = load_items([args.reference], args.split, args.labels, **_input_options(args))
         missing = [i.name for i in reference if i.label is None]
         if missing:
             raise UsageError(f"{args.labels}: no label for reference item {missing[0]}")
     else:
-        reference = reference_items(args.reference, args.split)
+        reference = reference_items(args.reference, args.split, **_input_options(args))
     if not args.evaluate and not args.inputs:
         raise UsageError("give unknown inputs to classify, or --evaluate")
-    if not 0 <= args.min_accepted <= 1:
-        raise UsageError(f"--min-accepted {args.min_accepted}: give a share between 0 and 1")
-    spec = resolve_compressor(args, reference, console)
+    unknowns = [] if args.evaluate else load_items(args.inputs, args.split, **_input_options(args))
+    spec = resolve_compressor(args, reference, console, targets=unknowns)
     options: dict[str, Any] = {
         "method": args.method,
-        "k": args.k,
+        "significance": args.significance,
         "threshold": args.threshold,
-        "min_accepted": args.min_accepted,
         "conditional": args.conditional,
         "engine": args.engine,
     }
@@ -1032,44 +1069,49 @@ def run_classify(args: argparse.Namespace, console: Console) -> int:
         if args.evaluate:
             result = evaluate(reference, spec, cache=cache, progress=progress, **options)
         else:
-            unknowns = load_items(args.inputs, args.split, **_input_options(args))
-            found = classify(unknowns, reference, spec, cache=cache, progress=progress, **options)
+            found = classify(unknowns, reference, spec, k=args.k, cache=cache,
+                             progress=progress, **options)  # fmt: skip
     if args.evaluate:
-        emit(_evaluation_text(result, args.min_accepted) if not args.json else json_text(
-            _evaluation_json(result)), args.output)  # fmt: skip
+        emit(_evaluation_text(result) if not args.json else json_text(result.as_json()),
+             args.output)  # fmt: skip
         return 0
+    counts = found.counts()
     console.say(
-        f"classify: {found.method} with {found.compressor}; "
-        + _threshold_text(found.threshold, found.origins, args.min_accepted)
+        f"classify: {found.method} with {found.compressor}; {counts['named']} named,"
+        f" {counts['ambiguous']} ambiguous, {counts['unknown']} unknown; "
+        + found.abstention.guarantee
     )
     if args.json:
         emit(json_text(found.as_json()), args.output)
     else:
-        rows = [("item", "origin", "confidence", "nearest", "distance")]
-        rows += [
-            (escape_name(p.item), escape_name(p.predicted or "unknown"), f"{p.confidence:.3f}",
-             escape_name(p.nearest or "-"), f"{p.distance:.3f}")
-            for p in found.predictions
-        ]  # fmt: skip
-        emit(_table(rows), args.output)
+        rows = [("item", "origin", "p-value", "confidence", "nearest", "distance")]
+        for p in found.predictions:
+            origin = p.predicted or p.decision
+            if p.decision == "ambiguous":
+                origin += f" ({' or '.join(p.candidates)})"
+            credibility = "-" if p.credibility is None else f"{p.credibility:.3f}"
+            rows.append((escape_name(p.item), escape_name(origin), credibility,
+                         f"{p.confidence:.3f}", escape_name(p.nearest or "-"),
+                         f"{p.distance:.3f}"))  # fmt: skip
+        lines = [
+            _table(rows).rstrip("\n"),
+            "",
+            f"p-value: of the {found.abstention.test} test for the best origin (below"
+            f" {found.abstention.significance} it does not accept the item: fit, how typical the"
+            " item is of that origin's own held-out items; separation, how much better it explains"
+            " the item than the next origin does, against its own items); confidence: the"
+            " runner-up's score minus the best one (scores: C(x | origin) / C(x), lower is"
+            " better).",
+            f"Abstention: {found.abstention.guarantee}.",
+            ORIGIN_CAUTION,
+        ]
+        emit("\n".join(lines) + "\n", args.output)
     return 0
 
 
-def _threshold_text(t: Any, origins: Sequence[str], min_accepted: float) -> str:
-    """How the abstention cut was set, in words."""
-    if not t.derived:
-        return f"unknown above {t.value:.3f} (given)"
-    raised = [
-        f"{name} {cut:.3f}" for name, cut in zip(origins, t.cuts(len(origins)), strict=True)
-        if cut > t.value
-    ]  # fmt: skip
-    text = f"unknown above {t.value:.3f} (from the reference)"
-    if raised:
-        text += (
-            f"; raised for {', '.join(raised)} so that each origin keeps {min_accepted:.0%}"
-            " of its own reference items"
-        )
-    return text
+ORIGIN_CAUTION = (
+    "An origin is evidence for a person to review, not proof of where an item came from."
+)
 
 
 def _table(rows: Sequence[Sequence[str]]) -> str:
@@ -1083,30 +1125,20 @@ def _table(rows: Sequence[Sequence[str]]) -> str:
     )
 
 
-def _evaluation_json(result: Any) -> dict[str, Any]:
-    return {
-        "accuracy": round(result.accuracy, 6),
-        "abstention_rate": round(result.abstention_rate, 6),
-        "threshold": result.threshold.as_json(result.origins),
-        "origins": list(result.origins),
-        "confusion": {
-            "rows": list(result.origins),
-            "columns": [*result.origins, "unknown"],
-            "counts": [[int(c) for c in row] for row in result.confusion],
-        },
-    }
-
-
-def _evaluation_text(result: Any, min_accepted: float) -> str:
-    raised = _threshold_text(result.threshold, result.origins, min_accepted).partition("; ")[2]
+def _evaluation_text(result: Any) -> str:
+    missing = ", ".join(
+        f"{o} {r:.0%}" for o, r in zip(result.origins, result.left_out_unknown, strict=True)
+    )
     head = [
-        f"leave-one-out on the reference: accuracy {result.accuracy:.3f},"
-        f" abstention rate {result.abstention_rate:.3f} (threshold {result.threshold.value:.3f},"
-        " derived from the same scores: an in-sample figure)",
-        *([raised] if raised else []),
+        f"held-out blocks of the reference ({result.abstention.blocks} per origin):"
+        f" named right {result.accuracy:.3f}, refused {result.refusal_rate:.3f},"
+        f" ambiguous {result.ambiguous_rate:.3f}",
+        f"each origin missing from the reference in turn: its items refused"
+        f" {result.left_out_unknown_rate:.3f} ({missing})",
+        f"abstention: {result.abstention.guarantee}",
         "",
     ]
-    rows = [("true \\ predicted", *result.origins, "unknown")]
+    rows = [("true \\ predicted", *result.origins, "ambiguous", "unknown")]
     rows += [(o, *(str(int(c)) for c in row)) for o, row in zip(
         result.origins, result.confusion, strict=True)]  # fmt: skip
     return "\n".join(head) + "\n" + _table(rows)

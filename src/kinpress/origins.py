@@ -19,16 +19,19 @@ is cut so that every reference item keeps the same number of leading bytes (long
 shorter ones kept whole), and a MeasurementWarning says so. Cutting keeps every item represented,
 where a plain join would let the window see only the last few items.
 
-Abstention: an item is returned as unknown (None) when its best score exceeds a threshold. The
-threshold comes from the reference itself by leave-one-out: each reference item's score for its own
-origin without itself ("own"), and its best score among the other origins ("foreign", what an item
-of an origin missing from the reference would score). The threshold minimises the share of own
-scores above it plus the share of foreign scores at or below it. One cut for all origins refuses
-many items of a spread-out origin (code in languages that share idioms, a noisy log), so each
-origin's cut is then raised, where needed, until `min_accepted` (default 0.9) of that origin's own
-scores lie within it. Measured on real code (8 languages) this took refusals of known languages
-from 28 % to 7.5 % while 90 % of the files of a language left out of the reference were still
-refused (97 % before); on real logs it changed nothing. The cuts are reported and can be given.
+Abstention (see Conformity): the origin with the best score accepts the item, or not, by a
+conformal test (Vovk, Gammerman & Shafer 2005) calibrated on reference items held out as new data
+would come: each origin's items are cut into contiguous blocks (later chunks of a log, files of
+another folder), and block b of every origin is scored against the reference without block b.
+Leave-one-out scores were too optimistic: neighbouring chunks of one log explain each other, and
+new data drifts. The test is either the fit of the item to the best origin (its score against
+the scores of that origin's own held-out items, on a scale from a typical own item to a typical
+stranger) or the separation of the best origin from the next, whichever tells held-out items of a
+left-out origin from the rest better on this reference. An item the best origin does not accept
+is ambiguous when several origins fit it, unknown otherwise. Known items are refused at a rate of
+at most the significance as long as new data drifts no more than the held-out blocks do; the
+output says so, and warns when too few reference items make the asked rate impossible. A fixed
+cut on the score can be given instead.
 """
 
 from __future__ import annotations
@@ -65,11 +68,14 @@ _VOTE_EPSILON = 1e-9
 # -- the reference -----------------------------------------------------------------------------
 
 
-def reference_items(folder: str | os.PathLike[str], split: str | Split = "auto") -> list[Item]:
+def reference_items(
+    folder: str | os.PathLike[str], split: str | Split = "auto", **reading: Any
+) -> list[Item]:
     """Items of `folder/<origin>/<files>`, each labelled with its subfolder's name.
 
     Names are `origin/item`, so equal file names in two origins stay apart. Files lying directly
-    in `folder` belong to no origin: they are left out with an InputWarning.
+    in `folder` belong to no origin: they are left out with an InputWarning. `reading` passes
+    on to `load_items` (follow_links, max_file_bytes).
     """
     root = Path(folder)
     if not root.is_dir():
@@ -85,7 +91,7 @@ def reference_items(folder: str | os.PathLike[str], split: str | Split = "auto")
         )
     items: list[Item] = []
     for sub in (p for p in entries if p.is_dir()):
-        for item in load_items([sub], split):
+        for item in load_items([sub], split, **reading):
             items.append(replace(item, name=f"{sub.name}/{item.name}", label=sub.name))
     if not items:
         raise InputError(f"{root}: no origin subfolders with files")
@@ -111,15 +117,15 @@ class _Reference:
     def members(self, origin: int) -> np.ndarray:
         return np.flatnonzero(self.codes == origin)
 
-    def check(self, *, leave_one_out: bool) -> None:
+    def check(self, *, calibrate: bool) -> None:
         if len(self.origins) < 2:
             raise InputError(f"need at least two origins in the reference, got {len(self.origins)}")
-        if leave_one_out:
+        if calibrate:
             counts = np.bincount(self.codes, minlength=len(self.origins))
             thin = [o for o, n in zip(self.origins, counts, strict=True) if n < 2]
             if thin:
                 raise InputError(
-                    "leave-one-out needs two reference items per origin; "
+                    "calibrating the abstention needs two reference items per origin; "
                     f"{', '.join(thin)} has one (give a threshold to classify without it)"
                 )
 
@@ -257,8 +263,8 @@ def _knn_decision(distances: np.ndarray, codes: np.ndarray, origins: int, k: int
     return _Scores(scores, picked, nearest, distances[np.arange(len(distances)), nearest])
 
 
-def _check_k(k: int, reference: _Reference, leave_one_out: bool) -> None:
-    available = len(reference.items) - (1 if leave_one_out else 0)
+def _check_k(k: int, reference: _Reference) -> None:
+    available = len(reference.items)
     if not 1 <= k <= available:
         raise ValueError(f"k must be between 1 and {available} reference items, got {k}")
 
@@ -266,17 +272,20 @@ def _check_k(k: int, reference: _Reference, leave_one_out: bool) -> None:
 def _knn_scores(
     targets: Sequence[Item], reference: _Reference, options: _Options, k: int
 ) -> _Scores:
-    _check_k(k, reference, leave_one_out=False)
+    _check_k(k, reference)
     distances = _cross_distances(targets, reference.items, options, options.conditional)
     return _knn_decision(distances, reference.codes, len(reference.origins), k)
 
 
-def _knn_leave_one_out(reference: _Reference, options: _Options, k: int) -> _Scores:
-    _check_k(k, reference, leave_one_out=True)
+def _knn_fold_scores(reference: _Reference, options: _Options, folds: np.ndarray) -> np.ndarray:
+    """Each reference item's NCD to the nearest item of every origin outside its own fold."""
     matrix = distance_matrix(reference.items, options.comp, **options.sizes_kwargs())
     distances = np.array(matrix.distances)
-    np.fill_diagonal(distances, np.inf)
-    return _knn_decision(distances, reference.codes, len(reference.origins), k)
+    distances[folds[:, None] == folds[None, :]] = np.inf
+    scores = np.full((len(folds), len(reference.origins)), np.inf)
+    for origin in range(len(reference.origins)):
+        scores[:, origin] = distances[:, reference.codes == origin].min(axis=1)
+    return scores
 
 
 def _corpus_budget(comp: Compressor, longest: int) -> int | None:
@@ -315,9 +324,11 @@ def corpus_bytes(datas: Sequence[bytes], budget: int | None) -> bytes:
     return b"".join(d[:share] for d in datas)
 
 
-def _corpus(name: str, datas: Sequence[bytes], budget: int | None, origin: str) -> Item:
+def _corpus(
+    name: str, datas: Sequence[bytes], budget: int | None, origin: str, warn: bool = True
+) -> Item:
     data = corpus_bytes(datas, budget)
-    if budget is not None and len(data) < sum(len(d) for d in datas):
+    if warn and budget is not None and len(data) < sum(len(d) for d in datas):
         warnings.warn(
             f"corpus of {origin} cut from {sum(len(d) for d in datas):,} to {len(data):,} bytes"
             f" to fit the compressor's window (every item keeps its first bytes)",
@@ -328,15 +339,16 @@ def _corpus(name: str, datas: Sequence[bytes], budget: int | None, origin: str) 
 
 
 def _origin_corpora(
-    reference: _Reference, budget: int | None, leave_out: int | None = None
+    reference: _Reference, budget: int | None, held_out: np.ndarray | None = None
 ) -> list[Item]:
-    """One synthetic item per origin: its reference items joined (less `leave_out`, if given)."""
+    """One synthetic item per origin: its reference items joined, less those marked `held_out`."""
     corpora = []
     for origin, name in enumerate(reference.origins):
-        members = [int(m) for m in reference.members(origin) if m != leave_out]
+        members = [int(m) for m in reference.members(origin)]
+        if held_out is not None:
+            members = [m for m in members if not held_out[m]]
         datas = [reference.items[m].data for m in members]
-        suffix = "" if leave_out is None else f" without {reference.items[leave_out].name}"
-        corpora.append(_corpus(f"corpus {name}{suffix}", datas, budget, name))
+        corpora.append(_corpus(f"corpus {name}", datas, budget, name, warn=held_out is None))
     return corpora
 
 
@@ -384,26 +396,12 @@ def _nearest_in_origin(
 
 
 def _conditional_scores(
-    targets: Sequence[Item], reference: _Reference, options: _Options
+    targets: Sequence[Item], reference: _Reference, options: _Options, longest: int
 ) -> _Scores:
-    longest = max(len(t.data) for t in targets)
     corpora = _origin_corpora(reference, _corpus_budget(options.comp, longest))
     m = len(reference.origins)
     wanted = [(t, o) for t in range(len(targets)) for o in range(m)]
     scores = _conditional_ratios(targets, corpora, wanted, options).reshape(len(targets), m)
-    return _Scores(scores, scores.argmin(axis=1))
-
-
-def _conditional_leave_one_out(reference: _Reference, options: _Options) -> _Scores:
-    items = reference.items
-    budget = _corpus_budget(options.comp, max(len(i.data) for i in items))
-    m = len(reference.origins)
-    corpora = _origin_corpora(reference, budget)
-    wanted = []
-    for t, own in enumerate(reference.codes):
-        corpora.append(_origin_corpora(reference, budget, leave_out=t)[int(own)])
-        wanted += [(t, m + t if o == own else o) for o in range(m)]
-    scores = _conditional_ratios(items, corpora, wanted, options).reshape(len(items), m)
     return _Scores(scores, scores.argmin(axis=1))
 
 
@@ -421,184 +419,625 @@ def _with_nearest(
     return replace(scores, nearest=nearest, distance=distance)
 
 
-# -- thresholds, decisions and results ----------------------------------------------------------
+# -- held-out folds: scores that imitate new data ----------------------------------------------
 
 
-DEFAULT_MIN_ACCEPTED = 0.9
+DEFAULT_SIGNIFICANCE = 0.05
+DEFAULT_BLOCKS = 5
+
+
+def reference_folds(codes: np.ndarray, blocks: int = DEFAULT_BLOCKS) -> np.ndarray:
+    """Each reference item's fold: its origin's items, in reference order, cut into `blocks`
+    contiguous runs (fewer when the origin has fewer items). Chunks of a log keep their order
+    and files their folder order, so a fold is a later stretch of a log or files of another
+    folder, as new items would be, not a neighbour of the items that explain it."""
+    if blocks < 2:
+        raise ValueError(f"blocks must be at least 2, got {blocks}")
+    folds = np.zeros(len(codes), dtype=np.int64)
+    for origin in np.unique(codes):
+        members = np.flatnonzero(codes == origin)
+        runs = min(blocks, len(members))
+        folds[members] = (np.arange(len(members)) * runs) // len(members)
+    return folds
 
 
 @dataclass(frozen=True)
-class Threshold:
-    """The abstention threshold on the best score, and how it was set.
+class FoldScores:
+    """Scores of reference items held out fold by fold.
 
-    `value` is the cut shared by all origins; `per_origin`, when derived, the cut for each origin
-    (`value` raised where fewer than `min_accepted` of its own scores were within it). `derived`
-    is true when it came from leave-one-out on the reference; then `false_unknown` is the share of
-    reference items whose own-origin score lies above their origin's cut (they would be refused)
-    and `false_known` the share whose best foreign score lies at or below that origin's cut (an
-    item of an origin missing from the reference would be taken for a known one).
+    For fold f, every origin's reference less the items of fold f explains the items of fold f:
+    `scores[i, o]` is item i's score for origin o (C(x | corpus) / C(x), or NCD to the nearest
+    item for knn), NaN for folds not measured. Holding out a fold of every origin at once keeps
+    the comparison fair: an item's own origin and the others lose the same share of items (and
+    a parallel corpus, the same task solved in several languages, does not leak the task).
     """
 
-    value: float
-    derived: bool
-    false_unknown: float | None = None
-    false_known: float | None = None
-    per_origin: tuple[float, ...] | None = None
+    origins: tuple[str, ...]
+    codes: np.ndarray
+    folds: np.ndarray
+    scores: np.ndarray
 
-    def cuts(self, origins: int) -> np.ndarray:
-        """The cut for each origin code."""
-        if self.per_origin is None:
-            return np.full(origins, self.value)
-        return np.array(self.per_origin, dtype=float)
+    @property
+    def measured(self) -> np.ndarray:
+        return np.asarray(~np.isnan(self.scores).any(axis=1))
 
-    def as_json(self, origins: Sequence[str] = ()) -> dict[str, object]:
-        out: dict[str, object] = {
-            "value": None if np.isinf(self.value) else self.value,
-            "derived": self.derived,
-            "false_unknown": self.false_unknown,
-            "false_known": self.false_known,
+
+def _fold_scores(
+    reference: _Reference,
+    options: _Options,
+    method: str,
+    blocks: int,
+    longest: int,
+    only: Sequence[int] | None = None,
+) -> FoldScores:
+    folds = reference_folds(reference.codes, blocks)
+    n, m = len(reference.items), len(reference.origins)
+    if method == "knn":
+        scores = _knn_fold_scores(reference, options, folds)
+        return FoldScores(reference.origins, reference.codes, folds, scores)
+    budget = _corpus_budget(options.comp, longest)
+    corpora: list[Item] = []
+    wanted: list[tuple[int, int]] = []
+    for fold in sorted(set(folds.tolist()) if only is None else set(only)):
+        held = folds == fold
+        base = len(corpora)
+        corpora += _origin_corpora(reference, budget, held)
+        wanted += [(int(t), base + o) for t in np.flatnonzero(held) for o in range(m)]
+    scores = np.full((n, m), np.nan)
+    if wanted:
+        found = _conditional_ratios(reference.items, corpora, wanted, options)
+        for (t, c), value in zip(wanted, found, strict=True):
+            scores[t, c % m] = value
+    return FoldScores(reference.origins, reference.codes, folds, scores)
+
+
+def fold_scores(
+    reference: Sequence[Item],
+    comp: str | Compressor,
+    *,
+    method: str = "conditional",
+    blocks: int = DEFAULT_BLOCKS,
+    folds: Sequence[int] | None = None,
+    longest: int = 0,
+    conditional: str = "auto",
+    engine: Engine | None = None,
+    jobs: int | None = None,
+    cache: SizeCache | None = None,
+    progress: Progress | None = None,
+) -> FoldScores:
+    """Held-out scores of the reference (see FoldScores): all folds, or those in `folds`.
+
+    `longest` is the longest item the corpora must leave room for in the compressor's window
+    (the reference's own longest at least), so that a later classification of longer items
+    reuses the same corpora and their cached sizes.
+    """
+    ref = _Reference.of(reference)
+    ref.check(calibrate=True)
+    options = _options(comp, method, conditional, engine, jobs, cache, progress)
+    longest = max(longest, max(len(i.data) for i in ref.items))
+    return _fold_scores(ref, options, method, blocks, longest, folds)
+
+
+# -- conformal p-values -------------------------------------------------------------------------
+
+
+TESTS = ("fit", "separation")
+SEPARATION_PREFERENCE = 0.05
+"""The fit test decides unless separation parts held-out strangers from known items clearly
+better: by this much novelty AUC (measured: fit keeps the stated rate better under drift)."""
+
+
+def conformal_p_values(sample: np.ndarray, values: np.ndarray) -> np.ndarray:
+    """(1 + #{sample >= v}) / (len(sample) + 1) for each v: larger statistics are stranger
+    (Vovk, Gammerman & Shafer 2005, ch. 2)."""
+    ordered = np.sort(sample)
+    above = len(ordered) - np.searchsorted(ordered, values, side="left")
+    return np.asarray((1 + above) / (len(ordered) + 1), dtype=float)
+
+
+def _label_conditional(counts: np.ndarray, significance: float) -> np.ndarray:
+    """Origins whose own calibration items alone give p-values down to half the rate."""
+    return np.asarray(counts + 1 >= 2.0 / significance)
+
+
+def _profile(scores: np.ndarray, codes: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Per origin, the median held-out score of its own items (centre) and how far above it the
+    median score of the other origins' items on it lies (scale; up to 1, a score that explains
+    nothing, where no other origin's items were scored)."""
+    m = scores.shape[1]
+    centre = np.empty(m)
+    scale = np.empty(m)
+    for origin in range(m):
+        own, other = scores[codes == origin, origin], scores[codes != origin, origin]
+        centre[origin] = np.median(own)
+        stranger = np.median(other) if other.size else 1.0
+        scale[origin] = max(stranger - centre[origin], 1e-3)
+    return centre, scale
+
+
+def _second_best(scores: np.ndarray, best: np.ndarray) -> np.ndarray:
+    """Each row's lowest score other than at `best` (1, explaining nothing, with one origin)."""
+    if scores.shape[1] == 1:
+        return np.ones(len(scores))
+    masked = np.where(np.arange(scores.shape[1])[None, :] == best[:, None], np.inf, scores)
+    return np.asarray(masked.min(axis=1))
+
+
+def _statistics(
+    scores: np.ndarray, centre: np.ndarray, scale: np.ndarray, own: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """fit and -separation of each row for the origin `own[row]` (see Conformity)."""
+    rows = np.arange(len(scores))
+    chosen = scores[rows, own]
+    fit = (chosen - centre[own]) / scale[own]
+    separation = (_second_best(scores, own) - chosen) / scale[own]
+    return fit, -separation
+
+
+def novelty_aucs(scores: np.ndarray, codes: np.ndarray) -> tuple[float, float]:
+    """How well fit and separation tell the held-out items of an origin missing from the
+    reference from those of the others (ROC AUC, 1 = perfectly), each origin left out in turn."""
+    from sklearn.metrics import roc_auc_score
+
+    m = scores.shape[1]
+    fit_aucs, separation_aucs = [], []
+    for missing in range(m):
+        keep = np.array([o for o in range(m) if o != missing])
+        known = codes != missing
+        if known.all() or not known.any() or keep.size == 0:
+            continue
+        reduced = scores[:, keep]
+        relabel = np.searchsorted(keep, codes[known])
+        centre, scale = _profile(reduced[known], relabel)
+        fit, separation = _statistics(reduced, centre, scale, reduced.argmin(axis=1))
+        stranger = ~known
+        fit_aucs.append(roc_auc_score(stranger, fit))
+        separation_aucs.append(roc_auc_score(stranger, separation))
+    if not fit_aucs:
+        return float("nan"), float("nan")
+    return float(np.mean(fit_aucs)), float(np.mean(separation_aucs))
+
+
+@dataclass(frozen=True)
+class Conformity:
+    """The abstention, calibrated on reference items held out as new data would come.
+
+    For an item x with scores s(x, o) (lower is better), each origin o has
+
+        fit(x, o) = (s(x, o) - centre[o]) / scale[o]
+
+    0 for a typical held-out item of o, 1 for a typical held-out item of another origin scored
+    on o (`centre`, `scale`: see `_profile`); and the best origin b (lowest score) has
+
+        separation(x) = (second lowest score - s(x, b)) / scale[b]
+
+    how much better b explains x than any other origin. `test` is the one that decides whether
+    b accepts x: "fit" (x is as typical of b as b's own held-out items) or "separation" (b
+    explains x as much better than the rest as it does its own held-out items), chosen on the
+    reference (`fit_auc`, `separation_auc`: how well each told held-out items of a left-out
+    origin from the others; separation only where clearly better, SEPARATION_PREFERENCE).
+    p-values are conformal (Vovk, Gammerman & Shafer 2005, "Algorithmic Learning in a Random
+    World"): the share of held-out statistics at least as strange, label-conditional for an
+    origin with 2 / significance - 1 held-out items or more (Mondrian, ch. 4.5 there), pooled
+    over origins otherwise (10 items alone cannot give p below 1/11). If x comes from a known
+    origin and is exchangeable with its held-out items, P(p <= significance) <= significance.
+    """
+
+    origins: tuple[str, ...]
+    centre: np.ndarray
+    scale: np.ndarray
+    test: str
+    fit_calibration: np.ndarray
+    test_calibration: np.ndarray
+    codes: np.ndarray
+    significance: float
+    fit_auc: float
+    separation_auc: float
+
+    @classmethod
+    def of(
+        cls, scores: np.ndarray, codes: np.ndarray, origins: Sequence[str], significance: float
+    ) -> Conformity:
+        """Calibrate on held-out scores (one row per held-out item, `codes` their origins)."""
+        centre, scale = _profile(scores, codes)
+        fit, separation = _statistics(scores, centre, scale, codes)
+        fit_auc, separation_auc = novelty_aucs(scores, codes)
+        test = "separation" if separation_auc > fit_auc + SEPARATION_PREFERENCE else "fit"
+        return cls(
+            origins=tuple(origins),
+            centre=centre,
+            scale=scale,
+            test=test,
+            fit_calibration=fit,
+            test_calibration=fit if test == "fit" else separation,
+            codes=codes,
+            significance=significance,
+            fit_auc=fit_auc,
+            separation_auc=separation_auc,
+        )
+
+    @property
+    def label_conditional(self) -> np.ndarray:
+        counts = np.bincount(self.codes, minlength=len(self.origins))
+        return _label_conditional(counts, self.significance)
+
+    def _against(self, calibration: np.ndarray, origin: int, values: np.ndarray) -> np.ndarray:
+        own = self.label_conditional[origin]
+        return conformal_p_values(calibration[self.codes == origin] if own else calibration, values)
+
+    def p_values(self, scores: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Each item's fit p-value for every origin, the best origin, and the deciding test's
+        p-value for the best origin."""
+        n, m = scores.shape
+        fit = (scores - self.centre[None, :]) / self.scale[None, :]
+        fit_p = np.column_stack([self._against(self.fit_calibration, o, fit[:, o])
+                                 for o in range(m)]) if n else np.zeros((0, m))  # fmt: skip
+        best = scores.argmin(axis=1)
+        if self.test == "fit":
+            test_p = fit_p[np.arange(n), best]
+        else:
+            _, strange = _statistics(scores, self.centre, self.scale, best)
+            test_p = np.empty(n)
+            for origin in np.unique(best):
+                rows = best == origin
+                test_p[rows] = self._against(self.test_calibration, int(origin), strange[rows])
+        return fit_p, best, test_p
+
+
+@dataclass(frozen=True)
+class Abstention:
+    """How items were refused: conformal p-values at `significance`, or a given score cut.
+
+    `calibration_scores` counts the held-out reference items behind the p-values; origins in
+    `label_conditional` are tested against their own items only, the others against all;
+    `smallest_rate` is the smallest significance those items can support (1 / (n + 1)); `test`
+    is the deciding test and `fit_auc`, `separation_auc` why it was chosen (see Conformity).
+    """
+
+    significance: float | None
+    threshold: float | None
+    calibration_scores: int = 0
+    label_conditional: tuple[str, ...] = ()
+    smallest_rate: float | None = None
+    blocks: int = DEFAULT_BLOCKS
+    test: str | None = None
+    fit_auc: float | None = None
+    separation_auc: float | None = None
+
+    @property
+    def guarantee(self) -> str:
+        """What the refusals promise, and when the promise does not hold, in words."""
+        if self.significance is None:
+            return (
+                f"an origin accepts an item whose score for it is at most {self.threshold:g}"
+                " (given cut: no stated error rate)"
+            )
+        pooled = (
+            "pooled over origins"
+            if not self.label_conditional
+            else f"per origin for {', '.join(self.label_conditional)}, pooled otherwise"
+        )
+        text = (
+            f"items of origins in the reference are refused (unknown or ambiguous) at a rate of"
+            f" at most {self.significance:g} (conformal p-values of the {self.test} test, Vovk et"
+            f" al. 2005; {pooled}; from {self.calibration_scores} reference items held out in"
+            f" {self.blocks} blocks), provided new items differ from the reference no more than"
+            " its held-out blocks differ from the rest; data that drifts further is refused more"
+            " often, and items of an origin missing from the reference are refused but without"
+            " a stated rate"
+        )
+        if self.smallest_rate is not None and self.significance < self.smallest_rate:
+            text += (
+                f"; too few reference items for that rate: the smallest possible is"
+                f" {self.smallest_rate:.3g}, so no item can be refused"
+            )
+        return text
+
+    def as_json(self) -> dict[str, object]:
+        return {
+            "significance": self.significance,
+            "threshold": self.threshold,
+            "test": self.test,
+            "fit_auc": self.fit_auc,
+            "separation_auc": self.separation_auc,
+            "calibration_scores": self.calibration_scores,
+            "label_conditional": list(self.label_conditional),
+            "smallest_rate": self.smallest_rate,
+            "blocks": self.blocks,
+            "guarantee": self.guarantee,
         }
-        if self.per_origin is not None and origins:
-            out["per_origin"] = dict(zip(origins, self.per_origin, strict=True))
-        return out
 
 
-def choose_threshold(own: np.ndarray, foreign: np.ndarray) -> Threshold:
-    """The cut between own-origin and foreign scores with the fewest errors of both kinds.
-
-    Minimises mean(own > t) + mean(foreign <= t) over midpoints between observed scores (and
-    just beyond both ends); among equal cuts the middle one is taken.
-    """
-    values = np.unique(np.concatenate([own, foreign]))
-    candidates = np.concatenate([[values[0] - 1e-9], (values[:-1] + values[1:]) / 2, [values[-1]]])
-    missed = (own[None, :] > candidates[:, None]).mean(axis=1)
-    accepted = (foreign[None, :] <= candidates[:, None]).mean(axis=1)
-    cost = missed + accepted
-    best = np.flatnonzero(cost == cost.min())
-    pick = int(best[len(best) // 2])
-    return Threshold(float(candidates[pick]), True, float(missed[pick]), float(accepted[pick]))
-
-
-def _threshold_of(loo: _Scores, codes: np.ndarray, min_accepted: float) -> Threshold:
-    """The shared cut (choose_threshold), raised per origin to accept `min_accepted` of its own."""
-    if not 0 <= min_accepted <= 1:
-        raise ValueError(f"min_accepted must lie between 0 and 1, got {min_accepted}")
-    rows = np.arange(len(codes))
-    own = loo.scores[rows, codes]
-    others = loo.scores.copy()
-    others[rows, codes] = np.inf
-    foreign, foreign_origin = others.min(axis=1), others.argmin(axis=1)
-    shared = choose_threshold(own, foreign)
-    cuts = np.full(loo.scores.shape[1], shared.value)
-    if min_accepted > 0:
-        for origin in range(len(cuts)):
-            mine = own[codes == origin]
-            if mine.size:
-                cuts[origin] = max(shared.value, float(np.quantile(mine, min_accepted)))
-    return Threshold(
-        shared.value,
-        True,
-        false_unknown=float(np.mean(own > cuts[codes])),
-        false_known=float(np.mean(foreign <= cuts[foreign_origin])),
-        per_origin=tuple(float(c) for c in cuts),
+def _abstention(conformity: Conformity, blocks: int) -> Abstention:
+    significance = conformity.significance
+    if not 0 < significance < 1:
+        raise ValueError(f"significance must lie between 0 and 1, got {significance}")
+    count = len(conformity.codes)
+    smallest = 1.0 / (count + 1)
+    if significance < smallest:
+        warnings.warn(
+            f"{count} reference items give p-values no smaller than {smallest:.3g}: at"
+            f" significance {significance:g} no item can be refused; use a rate of at least"
+            f" {smallest:.3g} or more reference items",
+            MeasurementWarning,
+            stacklevel=3,
+        )
+    flags = conformity.label_conditional
+    return Abstention(
+        significance=significance,
+        threshold=None,
+        calibration_scores=count,
+        label_conditional=tuple(
+            o for o, flag in zip(conformity.origins, flags, strict=True) if flag
+        ),
+        smallest_rate=smallest,
+        blocks=blocks,
+        test=conformity.test,
+        fit_auc=conformity.fit_auc,
+        separation_auc=conformity.separation_auc,
     )
+
+
+# -- decisions and results ----------------------------------------------------------------------
+
+
+DECISIONS = ("named", "ambiguous", "unknown")
 
 
 @dataclass(frozen=True)
 class Prediction:
-    """One classified item: the origin (None when refused), its margin, the nearest reference."""
+    """One classified item.
+
+    `decision` is "named" when the best origin (lowest score, `best`) accepts the item
+    (`predicted` is that origin); otherwise "ambiguous" when several origins fit it
+    (`candidates`, best score first, each with a fit p-value above the significance;
+    `predicted` is None) and "unknown" when fewer do. With a given cut, origins whose score is
+    within it accept. `confidence` is the runner-up's score minus the best one; `credibility`
+    the p-value of the deciding test for the best origin; `p_values` each origin's fit p-value
+    (see Conformity).
+    """
 
     item: str
     predicted: str | None
+    decision: str
+    candidates: tuple[str, ...]
+    best: str
     confidence: float
+    credibility: float | None
     nearest: str
     distance: float
+    scores: tuple[tuple[str, float], ...]
+    p_values: tuple[tuple[str, float], ...] | None
 
     def as_json(self) -> dict[str, object]:
         return {
             "item": self.item,
             "predicted": self.predicted,
+            "decision": self.decision,
+            "candidates": list(self.candidates),
+            "best": self.best,
             "confidence": self.confidence,
+            "credibility": self.credibility,
             "nearest": self.nearest,
             "distance": self.distance,
+            "scores": dict(self.scores),
+            "p_values": None if self.p_values is None else dict(self.p_values),
         }
 
 
-def _accepted(scores: _Scores, threshold: Threshold) -> np.ndarray:
-    """True where the picked origin's score is within that origin's cut."""
-    best: np.ndarray = scores.scores[np.arange(len(scores.picked)), scores.picked]
-    return np.asarray(best <= threshold.cuts(scores.scores.shape[1])[scores.picked])
+@dataclass(frozen=True)
+class _Decisions:
+    """What the abstention says of each item: decision, candidate origins (best score first),
+    fit p-values (None with a cut) and the deciding test's p-value for the best origin."""
+
+    decisions: list[str]
+    candidates: list[list[int]]
+    fit_p: np.ndarray | None
+    test_p: np.ndarray | None
+
+
+def _decisions(
+    scores: np.ndarray, conformity: Conformity | None, threshold: float | None
+) -> _Decisions:
+    """Decide every item (see Prediction and Conformity)."""
+    order = np.argsort(scores, axis=1, kind="stable")
+    if conformity is None:
+        accepted = scores <= threshold
+        candidates = [[int(o) for o in row if accepted[t, o]] for t, row in enumerate(order)]
+        decisions = [
+            "unknown" if not c else "named" if len(c) == 1 else "ambiguous" for c in candidates
+        ]
+        return _Decisions(decisions, candidates, None, None)
+    fit_p, best, test_p = conformity.p_values(scores)
+    rate = conformity.significance
+    decisions, candidates = [], []
+    for t, row in enumerate(order):
+        if test_p[t] > rate:
+            decisions.append("named")
+            candidates.append([int(best[t])])
+            continue
+        fitting = [int(o) for o in row if fit_p[t, o] > rate]
+        decisions.append("ambiguous" if len(fitting) > 1 else "unknown")
+        candidates.append(fitting if len(fitting) > 1 else [])
+    return _Decisions(decisions, candidates, fit_p, test_p)
 
 
 def _decide(
-    scores: _Scores, threshold: Threshold, reference: _Reference, targets: Sequence[Item]
+    scores: _Scores, decided: _Decisions, reference: _Reference, targets: Sequence[Item]
 ) -> list[Prediction]:
-    """Refuse items whose picked score exceeds its cut; confidence = runner-up - picked."""
     if scores.nearest is None or scores.distance is None:
         raise ValueError("scores lack the nearest reference items")
-    rows = np.arange(len(targets))
-    best = scores.scores[rows, scores.picked]
-    others = scores.scores.copy()
-    others[rows, scores.picked] = np.inf
-    margin = others.min(axis=1) - best
-    accepted = _accepted(scores, threshold)
-    return [
-        Prediction(
-            item=target.name,
-            predicted=reference.origins[int(scores.picked[t])] if accepted[t] else None,
-            confidence=float(margin[t]),
-            nearest=reference.items[int(scores.nearest[t])].name,
-            distance=float(scores.distance[t]),
+    origins = reference.origins
+    out = []
+    for t, target in enumerate(targets):
+        row = scores.scores[t]
+        decision, candidates = decided.decisions[t], decided.candidates[t]
+        ranked = np.sort(row)
+        fit_p = decided.fit_p
+        out.append(
+            Prediction(
+                item=target.name,
+                predicted=origins[candidates[0]] if decision == "named" else None,
+                decision=decision,
+                candidates=tuple(origins[c] for c in candidates),
+                best=origins[int(scores.picked[t])],
+                confidence=float(ranked[1] - ranked[0]) if len(ranked) > 1 else float("inf"),
+                credibility=None if decided.test_p is None else float(decided.test_p[t]),
+                nearest=reference.items[int(scores.nearest[t])].name,
+                distance=float(scores.distance[t]),
+                scores=tuple((o, float(v)) for o, v in zip(origins, row, strict=True)),
+                p_values=None
+                if fit_p is None
+                else tuple((o, float(p)) for o, p in zip(origins, fit_p[t], strict=True)),
+            )
         )
-        for t, target in enumerate(targets)
-    ]
+    return out
 
 
 @dataclass(frozen=True)
 class Classification:
-    """Predictions for unknown items, with the threshold and the measurement behind them.
+    """Predictions for unknown items, the abstention behind them and the measurement.
 
     `scores` holds one row per item and one column per origin (lower is better): NCD to the
-    origin's nearest reference item for knn, C(x | corpus) / C(x) for conditional.
+    origin's nearest reference item for knn, C(x | corpus) / C(x) for conditional; `p_values`
+    the fit p-value of each (None with a given threshold; see Conformity).
     """
 
     predictions: tuple[Prediction, ...]
     origins: tuple[str, ...]
     scores: np.ndarray
-    threshold: Threshold
+    p_values: np.ndarray | None
+    abstention: Abstention
     method: str
     k: int
     compressor: str
     conditional: str
 
     def as_json(self) -> list[dict[str, object]]:
-        """One object per item: item, predicted, confidence, nearest, distance."""
+        """One object per item (see Prediction.as_json)."""
         return [p.as_json() for p in self.predictions]
+
+    def counts(self) -> dict[str, int]:
+        """How many items were named, ambiguous and unknown."""
+        return {d: sum(p.decision == d for p in self.predictions) for d in DECISIONS}
+
+
+@dataclass(frozen=True)
+class FoldReport:
+    """Figures of held-out reference folds: the reference's own test of the whole method.
+
+    Each measured item is decided with p-values from the other folds' items (cross-conformal,
+    Vovk 2015, "Cross-conformal predictors", Ann. Math. Artif. Intell. 74): `accuracy` named
+    right, `refusal_rate` unknown, `ambiguous_rate` several origins; `confusion[i, j]` counts
+    items of origin i named j, the last two columns ambiguous and unknown. `left_out_unknown`
+    is, per origin, the share of its items that come back unknown when the origin is missing
+    from the reference (its items scored against the others, p-values from the others' items).
+    `gap` is the `significance` quantile of the best foreign alpha minus the 1 - significance
+    quantile of the own alpha: above 0, own and foreign scores part at that rate.
+    """
+
+    accuracy: float
+    refusal_rate: float
+    ambiguous_rate: float
+    left_out_unknown: tuple[float, ...]
+    confusion: np.ndarray
+    gap: float
+    items: int
+
+    @property
+    def left_out_unknown_rate(self) -> float:
+        return float(np.mean(self.left_out_unknown))
+
+    @property
+    def separation(self) -> float:
+        """Mean of named right and missing-origin unknown: one figure to rank compressors by."""
+        return (self.accuracy + self.left_out_unknown_rate) / 2
+
+
+def fold_report(
+    folds: FoldScores,
+    significance: float = DEFAULT_SIGNIFICANCE,
+    threshold: float | None = None,
+) -> FoldReport:
+    """Decide every measured held-out reference item as a new one would be (see FoldReport)."""
+    keep = folds.measured
+    scores, codes, fold_of = folds.scores[keep], folds.codes[keep], folds.folds[keep]
+    n, m = scores.shape
+    origins = [folds.origins[o] for o in range(m)]
+    confusion = np.zeros((m, m + 2), dtype=np.int64)
+    for fold in np.unique(fold_of):
+        rows = fold_of == fold
+        conformity = None
+        if threshold is None:
+            conformity = Conformity.of(scores[~rows], codes[~rows], origins, significance)
+        decided = _decisions(scores[rows], conformity, threshold)
+        for truth, decision, candidates in zip(
+            codes[rows], decided.decisions, decided.candidates, strict=True
+        ):
+            column = {"named": candidates[0] if candidates else 0, "ambiguous": m, "unknown": m + 1}
+            confusion[truth, column[decision]] += 1
+    left_out = []
+    for origin in range(m):
+        others = [o for o in range(m) if o != origin]
+        mine, rest = codes == origin, codes != origin
+        if not mine.any() or not rest.any():
+            continue
+        reduced = scores[:, others]
+        relabel = np.searchsorted(others, codes[rest])
+        conformity = None
+        if threshold is None:
+            names = [origins[o] for o in others]
+            conformity = Conformity.of(reduced[rest], relabel, names, significance)
+        decided = _decisions(reduced[mine], conformity, threshold)
+        left_out.append(float(np.mean([d == "unknown" for d in decided.decisions])))
+    total = max(n, 1)
+    own = scores[np.arange(n), codes]
+    foreign = np.where(np.arange(m)[None, :] == codes[:, None], np.inf, scores).min(axis=1)
+    return FoldReport(
+        accuracy=float(np.trace(confusion[:, :m]) / total),
+        refusal_rate=float(confusion[:, m + 1].sum() / total),
+        ambiguous_rate=float(confusion[:, m].sum() / total),
+        left_out_unknown=tuple(left_out),
+        confusion=confusion,
+        gap=float(np.quantile(foreign, significance) - np.quantile(own, 1 - significance))
+        if n
+        else float("nan"),
+        items=n,
+    )
 
 
 @dataclass(frozen=True)
 class Evaluation:
-    """Leave-one-out on the reference: each item classified by all the others.
+    """The reference's own test: every item held out in turn with its fold (see FoldReport).
 
-    `confusion[i, j]` counts items of origin i predicted as origin j; the last column counts
-    refusals. The threshold is derived from the same leave-one-out scores unless it was given,
-    so the abstention rate is an in-sample figure.
+    `accuracy`, `refusal_rate` and `ambiguous_rate` are shares of all reference items;
+    `left_out_unknown_rate` the mean over origins of the share of an origin's items refused when
+    that origin is missing from the reference.
     """
 
     accuracy: float
-    abstention_rate: float
+    refusal_rate: float
+    ambiguous_rate: float
+    left_out_unknown_rate: float
+    left_out_unknown: tuple[float, ...]
     origins: tuple[str, ...]
     confusion: np.ndarray
-    threshold: Threshold
-    predictions: tuple[Prediction, ...]
+    abstention: Abstention
 
     def as_json(self) -> dict[str, object]:
         return {
             "accuracy": self.accuracy,
-            "abstention_rate": self.abstention_rate,
+            "refusal_rate": self.refusal_rate,
+            "ambiguous_rate": self.ambiguous_rate,
+            "left_out_unknown_rate": self.left_out_unknown_rate,
+            "left_out_unknown": dict(zip(self.origins, self.left_out_unknown, strict=True)),
             "origins": list(self.origins),
-            "confusion": self.confusion.tolist(),
-            "threshold": self.threshold.as_json(self.origins),
+            "confusion": {
+                "rows": list(self.origins),
+                "columns": [*self.origins, "ambiguous", "unknown"],
+                "counts": self.confusion.tolist(),
+            },
+            "abstention": self.abstention.as_json(),
         }
 
 
@@ -620,33 +1059,54 @@ def _options(
     return _Options(built, conditional, engine, jobs, cache, progress)
 
 
-def _leave_one_out(reference: _Reference, options: _Options, method: str, k: int) -> _Scores:
-    reference.check(leave_one_out=True)
-    if method == "knn":
-        return _knn_leave_one_out(reference, options, k)
-    return _conditional_leave_one_out(reference, options)
-
-
 def _score(
-    targets: Sequence[Item], reference: _Reference, options: _Options, method: str, k: int
-) -> _Scores:
-    if method == "knn":
-        return _knn_scores(targets, reference, options, k)
-    return _conditional_scores(targets, reference, options)
-
-
-def _threshold(
+    targets: Sequence[Item],
     reference: _Reference,
     options: _Options,
     method: str,
     k: int,
-    given: float | None,
-    min_accepted: float,
-) -> Threshold:
-    if given is not None:
-        return Threshold(float(given), False)
-    loo = _leave_one_out(reference, options, method, k)
-    return _threshold_of(loo, reference.codes, min_accepted)
+    longest: int,
+) -> _Scores:
+    if method == "knn":
+        return _knn_scores(targets, reference, options, k)
+    return _conditional_scores(targets, reference, options, longest)
+
+
+@dataclass(frozen=True)
+class _Calibrated:
+    """What a fitted classification keeps: the abstention and its calibration (None with a
+    given threshold)."""
+
+    abstention: Abstention
+    conformity: Conformity | None
+
+    def decide(self, scores: np.ndarray) -> _Decisions:
+        return _decisions(scores, self.conformity, self.abstention.threshold)
+
+
+def _calibrate(
+    reference: _Reference,
+    options: _Options,
+    method: str,
+    significance: float | None,
+    threshold: float | None,
+    blocks: int,
+    longest: int,
+) -> _Calibrated:
+    if threshold is not None:
+        if significance is not None:
+            raise ValueError("give a significance or a threshold, not both")
+        return _Calibrated(Abstention(None, float(threshold), blocks=blocks), None)
+    significance = DEFAULT_SIGNIFICANCE if significance is None else significance
+    if not 0 < significance < 1:
+        raise ValueError(f"significance must lie between 0 and 1, got {significance}")
+    reference.check(calibrate=True)
+    folds = _fold_scores(reference, options, method, blocks, longest)
+    keep = folds.measured
+    conformity = Conformity.of(
+        folds.scores[keep], reference.codes[keep], reference.origins, significance
+    )
+    return _Calibrated(_abstention(conformity, blocks), conformity)
 
 
 def classify(
@@ -656,39 +1116,45 @@ def classify(
     *,
     method: str = "conditional",
     k: int = 1,
+    significance: float | None = None,
     threshold: float | None = None,
-    min_accepted: float = DEFAULT_MIN_ACCEPTED,
+    blocks: int = DEFAULT_BLOCKS,
     conditional: str = "auto",
     engine: Engine | None = None,
     jobs: int | None = None,
     cache: SizeCache | None = None,
     progress: Progress | None = None,
 ) -> Classification:
-    """The origin of each unknown item among the reference's labels, or None when none fits.
+    """The origin of each unknown item among the reference's labels, or unknown / ambiguous.
 
     `method` is "conditional" (C(x | origin corpus) / C(x), Cohen & Vitanyi 2015) or "knn"
-    (weighted k nearest neighbours under NCD, Jiang et al. 2023). `threshold` None derives the
-    abstention threshold by leave-one-out on the reference, each origin's cut raised until
-    `min_accepted` of its own reference items pass (0: one cut for all); float("inf") never
-    abstains.
+    (weighted k nearest neighbours under NCD, Jiang et al. 2023). The best origin accepts an
+    item when the deciding test's conformal p-value is above `significance` (default 0.05; see
+    Conformity), calibrated on the reference held out in `blocks` contiguous blocks per origin;
+    a given `threshold` replaces that test by score <= threshold (float("inf") accepts all).
     `conditional` "auto" primes where the compressor can for the conditional method and
-    concatenates otherwise. For the conditional method the nearest reference item is searched
-    among the predicted origin's items only.
+    concatenates otherwise. The nearest reference item is searched among the best origin's.
     """
     if not unknowns:
         raise InputError("no items to classify")
     ref = _Reference.of(reference)
-    ref.check(leave_one_out=False)
+    ref.check(calibrate=False)
+    if method == "knn":
+        _check_k(k, ref)
     options = _options(comp, method, conditional, engine, jobs, cache, progress)
-    cut = _threshold(ref, options, method, k, threshold, min_accepted)
+    longest = max(len(i.data) for i in [*unknowns, *ref.items])
+    fitted = _calibrate(ref, options, method, significance, threshold, blocks, longest)
     scores = _with_nearest(
-        _score(unknowns, ref, options, method, k), unknowns, ref, options, exclude_self=False
-    )
+        _score(unknowns, ref, options, method, k, longest), unknowns, ref, options,
+        exclude_self=False,
+    )  # fmt: skip
+    decided = fitted.decide(scores.scores)
     return Classification(
-        predictions=tuple(_decide(scores, cut, ref, unknowns)),
+        predictions=tuple(_decide(scores, decided, ref, unknowns)),
         origins=ref.origins,
         scores=scores.scores,
-        threshold=cut,
+        p_values=decided.fit_p,
+        abstention=fitted.abstention,
         method=method,
         k=k,
         compressor=options.comp.spec,
@@ -701,42 +1167,46 @@ def evaluate(
     comp: str | Compressor = "zstd:level=19",
     *,
     method: str = "conditional",
-    k: int = 1,
+    significance: float | None = None,
     threshold: float | None = None,
-    min_accepted: float = DEFAULT_MIN_ACCEPTED,
+    blocks: int = DEFAULT_BLOCKS,
     conditional: str = "auto",
     engine: Engine | None = None,
     jobs: int | None = None,
     cache: SizeCache | None = None,
     progress: Progress | None = None,
 ) -> Evaluation:
-    """Leave-one-out on the reference: accuracy, abstention rate and a confusion table.
-
-    Refusals count as errors in the accuracy. Arguments as for `classify`.
+    """The reference's own test (see FoldReport): each block of every origin held out in turn,
+    scored against the rest and decided with p-values from the other blocks; then each origin in
+    turn missing from the reference. Refusals and ambiguities count as errors in the accuracy.
+    Arguments as for `classify` (knn scores by the nearest neighbour of each origin).
     """
+    if threshold is not None and significance is not None:
+        raise ValueError("give a significance or a threshold, not both")
     ref = _Reference.of(reference)
+    ref.check(calibrate=True)
     options = _options(comp, method, conditional, engine, jobs, cache, progress)
-    loo = _with_nearest(
-        _leave_one_out(ref, options, method, k), ref.items, ref, options, exclude_self=True
-    )
-    cut = (
-        Threshold(float(threshold), False)
+    longest = max(len(i.data) for i in ref.items)
+    folds = _fold_scores(ref, options, method, blocks, longest)
+    rate = DEFAULT_SIGNIFICANCE if significance is None else significance
+    report = fold_report(folds, rate, threshold)
+    keep = folds.measured
+    abstention = (
+        Abstention(None, float(threshold), blocks=blocks)
         if threshold is not None
-        else _threshold_of(loo, ref.codes, min_accepted)
+        else _abstention(
+            Conformity.of(folds.scores[keep], ref.codes[keep], ref.origins, rate), blocks
+        )
     )
-    predictions = _decide(loo, cut, ref, ref.items)
-    m = len(ref.origins)
-    confusion = np.zeros((m, m + 1), dtype=np.int64)
-    column = {name: j for j, name in enumerate(ref.origins)}
-    for truth, prediction in zip(ref.codes, predictions, strict=True):
-        confusion[truth, m if prediction.predicted is None else column[prediction.predicted]] += 1
     return Evaluation(
-        accuracy=float(np.trace(confusion[:, :m]) / len(predictions)),
-        abstention_rate=float(confusion[:, m].sum() / len(predictions)),
+        accuracy=report.accuracy,
+        refusal_rate=report.refusal_rate,
+        ambiguous_rate=report.ambiguous_rate,
+        left_out_unknown_rate=report.left_out_unknown_rate,
+        left_out_unknown=report.left_out_unknown,
         origins=ref.origins,
-        confusion=confusion,
-        threshold=cut,
-        predictions=tuple(predictions),
+        confusion=report.confusion,
+        abstention=abstention,
     )
 
 
@@ -746,22 +1216,26 @@ def evaluate(
 class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[misc]
     """A scikit-learn classifier of bytes or strings by compression (see the module docstring).
 
-    Parameters are stored as given; `fit` keeps the training items as the reference and sets
-    `classes_`, `threshold_` (derived by leave-one-out unless `threshold` is given) and
-    `class_thresholds_` (each class's cut, see `min_accepted` in `classify`). `predict`
-    returns `unknown_label` for refused items. `cache` is a path to a size cache file, opened for
-    each fit and predict, so that the estimator can be cloned and pickled.
+    Parameters are stored as given. `fit` keeps the training items as the reference, chooses the
+    compressor when `compressor` is "auto" (as the command line does for classify, within
+    `budget` seconds; kept in `compressor_`) and calibrates the conformal abstention at
+    `significance` (unless a `threshold` is given). `predict` returns the class, or
+    `unknown_label` for an item no class accepts or several do; `p_values(X)` gives each item's
+    conformal p-value for every class (columns in `classes_` order), the estimator's counterpart
+    of `predict_proba`. `cache` is a path to a size cache file, opened for each fit and predict,
+    so that the estimator can be cloned and pickled.
     """
 
     def __init__(
         self,
-        compressor: str = "zstd:level=19",
+        compressor: str = "auto",
         k: int = 1,
         method: str = "conditional",
         conditional: str = "auto",
+        significance: float | None = None,
         threshold: float | None = None,
-        min_accepted: float = DEFAULT_MIN_ACCEPTED,
         unknown_label: Any = None,
+        budget: float = 600.0,
         jobs: int | None = None,
         cache: str | None = None,
     ) -> None:
@@ -769,63 +1243,84 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         self.k = k
         self.method = method
         self.conditional = conditional
+        self.significance = significance
         self.threshold = threshold
-        self.min_accepted = min_accepted
         self.unknown_label = unknown_label
+        self.budget = budget
         self.jobs = jobs
         self.cache = cache
 
     def _run_options(self, cache: SizeCache | None) -> _Options:
         return _options(
-            self.compressor, self.method, self.conditional, None, self.jobs, cache, None
+            self.compressor_, self.method, self.conditional, None, self.jobs, cache, None
         )
 
     def _open_cache(self) -> SizeCache | None:
         return SizeCache(self.cache) if self.cache is not None else None
 
     def fit(self, X: Sequence[bytes | str], y: Sequence[Any]) -> Self:
-        """Keep X as the reference labelled by y and set the abstention threshold."""
+        """Keep X as the reference labelled by y, choose the compressor, calibrate abstention."""
         items = as_items(X, "ref")
         if len(items) != len(y):
             raise ValueError(f"X has {len(items)} items but y has {len(y)} labels")
         classes, codes = np.unique(np.asarray(y), return_inverse=True)
         self.classes_ = classes
-        self.reference_ = _Reference(
-            tuple(items), tuple(str(k) for k in range(len(classes))), codes.astype(np.int64)
-        )
-        self.reference_.check(leave_one_out=self.threshold is None)
+        names = tuple(str(k) for k in range(len(classes)))
+        labelled = [replace(i, label=names[c]) for i, c in zip(items, codes, strict=True)]
+        self.reference_ = _Reference(tuple(labelled), names, codes.astype(np.int64))
+        self.reference_.check(calibrate=self.threshold is None)
         cache = self._open_cache()
         try:
-            options = self._run_options(cache)
-            cut = _threshold(
-                self.reference_, options, self.method, self.k, self.threshold, self.min_accepted
-            )
-            self.threshold_ = cut.value
-            self.class_thresholds_ = cut.cuts(len(classes))
+            self.compressor_ = self.compressor
+            if self.compressor == "auto":
+                from .calibration import choose_for_job
+
+                self.compressor_ = choose_for_job(
+                    labelled, "classify", budget_seconds=self.budget, jobs=self.jobs, cache=cache
+                ).spec
+            self.longest_ = max(len(i.data) for i in labelled)
+            self.calibrated_ = _calibrate(
+                self.reference_, self._run_options(cache), self.method, self.significance,
+                self.threshold, DEFAULT_BLOCKS, self.longest_,
+            )  # fmt: skip
         finally:
             if cache is not None:
                 cache.close()
         return self
 
-    def predict(self, X: Sequence[bytes | str]) -> np.ndarray:
-        """The origin of each input, or `unknown_label` where its best score is above threshold_."""
-        check_is_fitted(self, "class_thresholds_")
+    def _scores(self, X: Sequence[bytes | str]) -> np.ndarray:
+        check_is_fitted(self, "calibrated_")
         targets = as_items(X, "x")
         cache = self._open_cache()
         try:
-            options = self._run_options(cache)
-            scores = _score(targets, self.reference_, options, self.method, self.k)
+            longest = max([self.longest_, *(len(t.data) for t in targets)])
+            scores = _score(targets, self.reference_, self._run_options(cache), self.method,
+                            self.k, longest)  # fmt: skip
         finally:
             if cache is not None:
                 cache.close()
-        cut = Threshold(self.threshold_, False, per_origin=tuple(self.class_thresholds_))
-        accepted = _accepted(scores, cut)
-        if accepted.all():
-            return np.asarray(self.classes_[scores.picked])
-        out = np.empty(len(targets), dtype=object)
+        return scores.scores
+
+    def p_values(self, X: Sequence[bytes | str]) -> np.ndarray:
+        """Conformal fit p-values, shaped (len(X), len(classes_)): how typical each input is of
+        each class (see Conformity). Raises ValueError when fitted with a threshold."""
+        p = self.calibrated_.decide(self._scores(X)).fit_p
+        if p is None:
+            raise ValueError("fitted with a threshold: no p-values")
+        return p
+
+    def predict(self, X: Sequence[bytes | str]) -> np.ndarray:
+        """The class of each input, or `unknown_label` where it is unknown or ambiguous."""
+        decided = self.calibrated_.decide(self._scores(X))
+        named = np.array([d == "named" for d in decided.decisions], dtype=bool)
+        picked = np.array([c[0] if d == "named" else 0 for d, c in
+                           zip(decided.decisions, decided.candidates, strict=True)])  # fmt: skip
+        if named.all():
+            return np.asarray(self.classes_[picked])
+        out = np.empty(len(named), dtype=object)
         out[:] = [
-            self.classes_[c] if a else self.unknown_label
-            for c, a in zip(scores.picked, accepted, strict=True)
+            self.classes_[c] if ok else self.unknown_label
+            for c, ok in zip(picked, named, strict=True)
         ]
         return out
 

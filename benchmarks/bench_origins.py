@@ -1,0 +1,198 @@
+"""Classification by origin on data it was not tuned on: default options against fixed compressors.
+
+Protocols (issue 10): logs, per system the first 10 chunks of 100 lines as reference and the next
+10 to classify, systems missing from the reference two (or a quarter) at a time, rotated; code,
+per language the first half of its files (name order) as reference and the rest to classify,
+languages missing a quarter at a time. For each setting it prints the share of known items named
+right, refused (unknown) and ambiguous, the share of a missing origin's items refused, and the
+run time; gzip 1-NN (Jiang et al. 2023) beside, which never refuses. "auto" is the default
+(-c auto, chosen on each round's reference). Data: ../shared/datasets-real (logs, code) and, where
+present, this machine's own material: --logs DIR (a folder of *.log files of other systems) and
+source files of many languages under /usr (--machine-code).
+
+    python benchmarks/bench_origins.py [--logs DIR] [--machine-code] [--cache PATH]
+"""
+
+from __future__ import annotations
+
+import argparse
+import glob
+import gzip
+import os
+import sysconfig
+import time
+import warnings
+from collections.abc import Callable
+from pathlib import Path
+
+import numpy as np
+
+from kinpress import Item, SizeCache
+from kinpress.calibration import choose_for_job
+from kinpress.origins import classify
+
+SHARED = Path(__file__).resolve().parents[2] / "shared" / "datasets-real"
+FIXED = ("zstd:level=3", "zstd:level=19", "lzma:level=9", "ppmd:order=32", "bz2:level=9",
+         "zlib:level=9")  # fmt: skip
+PURELIB = sysconfig.get_paths()["purelib"]
+MACHINE_CODE = {
+    "python": "/usr/lib/python3.11/**/*.py",
+    "perl": "/usr/share/perl*/**/*.pm",
+    "c-header": "/usr/include/*.h",
+    "cpp": "/usr/include/c++/*/bits/*.tcc",
+    "javascript": "/usr/lib/node_modules/npm/lib/**/*.js",
+    "tcl": "/usr/share/tcltk/**/*.tcl",
+    "cmake": "/usr/share/cmake-*/Modules/*.cmake",
+    "sql": "/usr/share/postgresql/**/*.sql",
+    "vim": "/usr/share/vim/**/*.vim",
+    "shell": "/usr/share/bash-completion/completions/*",
+    "xkb": "/usr/share/X11/xkb/symbols/*",
+    "groff": "/usr/share/groff/*/tmac/*",
+    "m4": "/usr/share/aclocal/*.m4",
+    "html": "/usr/share/doc/**/*.html",
+    "xml": "/usr/share/xml/**/*.xml",
+    "css": "/usr/share/**/*.css",
+    "svg": "/usr/share/**/*.svg",
+    "json": "/usr/lib/node_modules/npm/**/package.json",
+    "markdown": "/usr/lib/node_modules/npm/**/*.md",
+    "yaml": "/usr/share/**/*.yaml",
+    "rst": "/usr/share/**/*.rst",
+    "pod": "/usr/share/perl*/**/*.pod",
+    "cpp-template": "/usr/include/c++/**/*.tcc",
+    "c": f"{PURELIB}/**/*.c",
+    "cython": f"{PURELIB}/**/*.pyx",
+    "fortran": f"{PURELIB}/**/*.f90",
+    "python-stub": f"{PURELIB}/**/*.pyi",
+}
+
+
+def log_origins(folder: Path) -> dict[str, list[Item]]:
+    out = {}
+    for path in sorted(folder.glob("*.log")):
+        rows = path.read_bytes().splitlines(keepends=True)
+        chunks = [b"".join(rows[k : k + 100]) for k in range(0, len(rows) - 99, 100)][:20]
+        if len(chunks) >= 15:
+            out[path.stem] = [Item(f"{path.stem}#{k + 1}", c, str(path), label=path.stem)
+                              for k, c in enumerate(chunks)]  # fmt: skip
+    return out
+
+
+def code_origins(patterns: dict[str, str], per: int = 40) -> dict[str, list[Item]]:
+    out = {}
+    for language, pattern in patterns.items():
+        paths = sorted(p for p in glob.glob(pattern, recursive=True)
+                       if os.path.isfile(p) and 1024 <= os.path.getsize(p) <= 32768)  # fmt: skip
+        datas: dict[bytes, str] = {}
+        for p in paths:
+            data = Path(p).read_bytes()
+            if b"\0" not in data:
+                datas.setdefault(data, p)
+        files = list(datas.items())
+        if len(files) < 30:
+            continue
+        step = len(files) / min(per, len(files))
+        chosen = [files[int(k * step)] for k in range(min(per, len(files)))]
+        out[language] = [Item(p, d, p, label=language) for d, p in chosen]
+    return out
+
+
+def shared_code() -> dict[str, list[Item]]:
+    root = SHARED / "code"
+    return {d.name: [Item(f"{d.name}/{f.name}", f.read_bytes(), str(f), label=d.name)
+                     for f in sorted(d.iterdir())]
+            for d in sorted(p for p in root.iterdir() if p.is_dir())}  # fmt: skip
+
+
+def rounds(
+    origins: dict[str, list[Item]], reference: int
+) -> list[tuple[list[Item], list[Item], set[str]]]:
+    names = sorted(origins)
+    step = max(2, len(names) // 4)
+    out = []
+    for start in range(0, len(names), step):
+        missing = set(names[start : start + step])
+        ref = [i for n in names if n not in missing for i in origins[n][:reference]]
+        later = [i for n in names for i in origins[n][reference : 2 * reference]]
+        out.append((ref, later, missing))
+    return out
+
+
+def gzip_1nn(reference: list[Item], later: list[Item]) -> list[str]:
+    """Jiang et al. 2023 as written in their paper (k = 1; their k = 2 ties count either)."""
+
+    def size(data: bytes) -> int:
+        return len(gzip.compress(data))
+
+    sizes = [size(r.data) for r in reference]
+    out = []
+    for x in later:
+        cx = size(x.data)
+        d = [(size(x.data + b" " + r.data) - min(cx, cr)) / max(cx, cr)
+             for r, cr in zip(reference, sizes, strict=True)]  # fmt: skip
+        out.append(str(reference[int(np.argmin(d))].label))
+    return out
+
+
+def run(name: str, origins: dict[str, list[Item]], reference: int, settings: list[str],
+        cache: SizeCache) -> None:  # fmt: skip
+    plan = rounds(origins, reference)
+    print(f"\n{name}: {len(origins)} origins, {reference} reference items each, {len(plan)} rounds")
+    print(f"  {'setting':28s} right  refused  ambiguous  missing->unknown  seconds")
+    for setting in [*settings, "gzip 1-NN"]:
+        right = refused = ambiguous = known = unknown = strangers = 0
+        started = time.perf_counter()
+        chosen = set()
+        for ref, later, missing in plan:
+            known_items = [i for i in later if i.label not in missing]
+            if setting == "gzip 1-NN":
+                guesses = gzip_1nn(ref, known_items)
+                right += sum(g == i.label for g, i in zip(guesses, known_items, strict=True))
+                known += len(known_items)
+                continue
+            spec = setting
+            if setting == "auto":
+                spec = choose_for_job(ref, "classify", targets=later, cache=cache).spec
+                chosen.add(spec)
+            result = classify(later, ref, spec, cache=cache)
+            for p, item in zip(result.predictions, later, strict=True):
+                if item.label in missing:
+                    strangers += 1
+                    unknown += p.decision == "unknown"
+                else:
+                    known += 1
+                    right += p.predicted == item.label
+                    refused += p.decision == "unknown"
+                    ambiguous += p.decision == "ambiguous"
+        seconds = time.perf_counter() - started
+        label = setting + (f" ({', '.join(sorted(chosen))})" if chosen else "")
+        missing_rate = f"{unknown / strangers:.3f}" if strangers else "-"
+        figures = f"{right / known:.3f}  {refused / known:.3f}    {ambiguous / known:.3f}"
+        print(f"  {label[:60]:28s} {figures}      {missing_rate:>6s}        {seconds:6.0f}",
+              flush=True)  # fmt: skip
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--logs", type=Path, help="a folder of *.log files of other systems")
+    parser.add_argument("--machine-code", action="store_true", help="languages under /usr")
+    parser.add_argument("--only-machine", action="store_true", help="skip ../shared")
+    parser.add_argument("--fixed", nargs="*", default=list(FIXED), help="fixed compressors")
+    parser.add_argument("--cache", default="/tmp/kinpress-bench-origins.sqlite")
+    args = parser.parse_args()
+    warnings.simplefilter("ignore")
+    settings = ["auto", *args.fixed]
+    sets: list[tuple[str, Callable[[], dict[str, list[Item]]], int]] = []
+    if SHARED.is_dir() and not args.only_machine:
+        sets.append(("shared logs (Loghub)", lambda: log_origins(SHARED / "logs"), 10))
+        sets.append(("shared code (Rosetta, 8 languages)", shared_code, 20))
+    if args.logs:
+        sets.append((f"logs in {args.logs}", lambda: log_origins(args.logs), 10))
+    if args.machine_code:
+        sets.append(("this machine's code", lambda: code_origins(MACHINE_CODE), 20))
+    with SizeCache(args.cache) as cache:
+        for name, load, reference in sets:
+            run(name, load(), reference, settings, cache)
+
+
+if __name__ == "__main__":
+    main()
