@@ -610,3 +610,17 @@ def _rank(item: Item, items: list[Item]) -> int:
     """Position of an item among its origin's items, in name order."""
     names = sorted(i.name for i in items if i.label == item.label)
     return names.index(item.name)
+
+
+def test_novelty_auc_agrees_with_scikit_learn() -> None:
+    # Reference: scikit-learn's roc_auc_score (ties counted half, as the Mann-Whitney U does).
+    from sklearn.metrics import roc_auc_score
+
+    from kinpress.origins import _auc
+
+    rng = np.random.default_rng(11)
+    for _ in range(20):
+        positive = rng.random(40) < 0.3
+        positive[:2] = [True, False]
+        values = np.round(rng.random(40) + 0.3 * positive, 1)  # rounded: many ties
+        assert _auc(positive, values) == pytest.approx(roc_auc_score(positive, values))
