@@ -933,6 +933,7 @@ class TaskFigures:
     accuracy: float | None = None
     novelty: float | None = None
     merit: float | None = None
+    own_score: float | None = None
     items: int = 0
     saturation: float | None = None
     contrast: float | None = None
@@ -944,8 +945,8 @@ class TaskFigures:
         if self.merit is not None:
             return (
                 f"held-out reference: own origin best for {self.accuracy:.1%}, a missing origin"
-                f" told apart with AUC {self.novelty:.3f}, merit {self.merit:.3f} ({self.items}"
-                f" items, {self.seconds:.0f} s)"
+                f" told apart with AUC {self.novelty:.3f}, merit {self.merit:.3f}, own score"
+                f" {self.own_score:.3f} ({self.items} items, {self.seconds:.0f} s)"
             )
         return (
             f"sampled real pairs: {self.saturation:.0%} at or above 1, contrast"
@@ -1013,6 +1014,7 @@ def _labelled_figures(
     keep = folds.measured
     scores, codes = folds.scores[keep], folds.codes[keep]
     accuracy = float(np.mean(scores.argmin(axis=1) == codes))
+    own_score = float(np.median(scores[np.arange(len(codes)), codes]))
     novelty = max(novelty_aucs(scores, codes))
     novelty = 0.5 if novelty != novelty else novelty  # NaN: too few origins to leave one out
     return TaskFigures(
@@ -1021,6 +1023,7 @@ def _labelled_figures(
         accuracy=accuracy,
         novelty=novelty,
         merit=accuracy + novelty,
+        own_score=own_score,
         items=len(codes),
     )
 
@@ -1077,14 +1080,19 @@ def _choose_labelled(
     top = max(f.merit or 0.0 for f in figures)
     tie = 1.0 / max(figures[0].items, 1)
     tied = [f for f in figures if (f.merit or 0.0) >= top - tie]
-    # Among equals, one that is primed with the corpus measures C(x | corpus) directly, where
-    # concatenation takes the difference of two sizes of the whole corpus, whose noise grows
-    # with it; then the quickest (figures are in order of estimated job time).
-    best = min(tied, key=lambda f: not compressor(f.spec).primable)
+    # Held-out figures saturate on easy references (every candidate 100 %), so among equals:
+    # one primed with the corpus first (it measures C(x | corpus) directly, where concatenation
+    # takes the difference of two sizes of the whole corpus, whose noise grows with it), then
+    # the one that explains held-out items best by their own origin (lowest own score: a
+    # compressor only ever overestimates what is shared, and one that finds little parts an
+    # easy reference but not data that drifts), then the quickest (figures are in order of
+    # estimated job time).
+    best = min(tied, key=lambda f: (not compressor(f.spec).primable, f.own_score or 1.0))
     reasons.insert(
         0,
         f"{best.spec}: chosen: it tells the reference's {m} origins apart best on held-out"
-        f" items (of those within one item of the best, primed ones first, then the quickest);"
+        f" items (of those within one item of the best: primed ones first, then the lowest own"
+        " score, then the quickest);"
         f" {best.summary()}",
     )
     for f in figures:
