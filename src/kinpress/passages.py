@@ -1,0 +1,490 @@
+"""Passages two files share verbatim, found by winnowing k-gram hashes.
+
+Compression tells how much two files share, not whether they share it as one copied passage or as
+many small common pieces (templates, imports, licence phrases). This module finds the passages
+themselves, so a pair can be judged by what it shares word for word.
+
+Normalisation. Every ASCII whitespace byte (space, \\t, \\n, \\r, \\v, \\f) is removed, so
+re-wrapped lines, CRLF against LF, tabs against spaces and re-indentation do not break a
+passage. Each normalised byte remembers its offset in the original file, and passages are
+reported in original offsets (a passage never starts or ends on whitespace).
+
+Fingerprints: winnowing (Schleimer, Wilkerson & Aiken, "Winnowing: local algorithms for document
+fingerprinting", SIGMOD 2003). Every k-gram (k = `noise` normalised bytes) is hashed; in every
+window of w = t - k + 1 consecutive k-gram hashes (t = `guarantee`) the minimal hash is selected,
+ties kept on the previous window's choice when it is still in the window and otherwise broken to
+the rightmost (the paper's robust winnowing, which keeps low-entropy runs such as ``=====`` from
+selecting every position); each position is recorded once. Its guarantee: every passage of at
+least t normalised bytes shared by two documents contains a whole window of k-grams in both, hence
+the same selected fingerprint in both; nothing shorter than k is ever matched. About 2 / (w + 1)
+of the positions are selected.
+
+Hashing: a polynomial hash in uint64 arithmetic (wrapping modulo 2^64) of random 64-bit values per
+byte, h(s) = sum_j T[s_j] P^j, computed for all positions at once from prefix sums
+S_i = sum_{j<i} T[x_j] P^j as (S_{i+k} - S_i) P^{-i} (P odd, so invertible modulo 2^64); the
+stored k-gram hash is this value mixed by the splitmix64 finaliser (a bijection). Winnowing orders
+k-grams by the upper 32 bits of the mixed hash. The windows' minima are computed by doubling
+(log2 w vectorised passes).
+
+Matching (`shared_passages`): seeds are positions whose fingerprint hash occurs in both files.
+Each seed is extended left and right while the normalised bytes agree; the extension is a
+vectorised binary search over all seeds at once on substring hashes from the same prefix sums,
+first capped at `min_length` (seeds that cannot reach it are dropped after a few rounds), then to
+the end for the rest. Seeds inside one maximal passage on the same diagonal extend to the same
+passage and are merged, so a long copy is reported once. A one-to-one set is then chosen greedily,
+longest first: a candidate overlapping (in either file) passages already taken is cut to its free
+parts, which are re-queued if still long enough; every accepted passage is checked on the bytes
+(a hash collision is cut to its truly equal parts).
+
+Limits. A hash occurring so often in both files that it would give more than `HEAVY_PAIRS` seeds
+(a template k-gram repeated on every line of two logs) pairs each occurrence on the more frequent
+side only with the `BAND` occurrences of the same rank (scaled) on the other side, not with all:
+copies are still found whole (their other seeds, and the aligned ranks, carry them), but a
+passage seeded only by such a k-gram may be missed. Boilerplate shared by many files is better
+removed with `ignore` (see `common_hashes`). Memory: the offsets take 8 bytes per normalised byte
+and matching builds 8-byte prefix sums of both files, so files up to ~100 MB are practical.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import heapq
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+NOISE = 24
+"""k: k-gram length in normalised bytes. Without whitespace 24 bytes are four or five words, an
+identifier with its call, or a log template's fixed words: far longer than the words and short
+phrases any two texts of one language share, so seeds are mostly worth extending."""
+
+GUARANTEE = 64
+"""t: every shared normalised passage of at least t bytes is found (window w = t - k + 1 = 41,
+about 5 % of the positions selected). 64 normalised bytes are about one line of code or a dozen
+words; shorter shared passages are common between unrelated files of one kind (see the tests'
+measurements on real code and logs), so they are not what tells a copy."""
+
+HEAVY_PAIRS = 4096
+"""A hash giving more seeds than this (occurrences in a times in b) is paired by rank."""
+
+BAND = 8
+"""Occurrences of a heavy hash on the rarer side paired with each one on the other: 2 BAND + 1."""
+
+_MASK32 = np.uint64(0xFFFFFFFF)
+_TABLE = np.frombuffer(hashlib.shake_256(b"kinpress passages table").digest(2048), dtype="<u8")
+_TABLE = _TABLE.astype(np.uint64)
+_P = int.from_bytes(hashlib.shake_256(b"kinpress passages base").digest(8), "little") | 1
+_P_INV = 1
+for _ in range(7):  # Newton's iteration doubles the correct low bits: 1 -> 128
+    _P_INV = (_P_INV * (2 - _P * _P_INV)) % (1 << 64)
+_CACHE_LIMIT = 1 << 21
+_powers_cache: tuple[np.ndarray, np.ndarray] = (np.ones(1, np.uint64), np.ones(1, np.uint64))
+_WHITESPACE = np.zeros(256, dtype=bool)
+_WHITESPACE[[9, 10, 11, 12, 13, 32]] = True
+
+
+@dataclass(frozen=True)
+class Fingerprint:
+    """One file's normalised text, where each normalised byte came from, and its winnowed hashes.
+
+    norm: the file with every ASCII whitespace byte removed; offsets: int64, the original offset
+    of each normalised byte; hashes: uint64, the selected k-gram hashes (may repeat); positions:
+    int64, the start (in norm) of each selected k-gram, ascending; size: the original length;
+    noise and guarantee: the k and t it was made with (fingerprints compare only at equal ones).
+    """
+
+    norm: bytes
+    offsets: np.ndarray
+    hashes: np.ndarray
+    positions: np.ndarray
+    size: int
+    noise: int = NOISE
+    guarantee: int = GUARANTEE
+
+
+@dataclass(frozen=True)
+class Passage:
+    """A stretch shared verbatim after normalisation: offsets in the ORIGINAL files (end exclusive).
+
+    length is the number of normalised bytes matched.
+    """
+
+    a_start: int
+    a_end: int
+    b_start: int
+    b_end: int
+    length: int
+
+    def as_json(self) -> dict[str, int]:
+        return {
+            "a_start": self.a_start,
+            "a_end": self.a_end,
+            "b_start": self.b_start,
+            "b_end": self.b_end,
+            "length": self.length,
+        }
+
+
+def normalise(data: bytes) -> tuple[bytes, np.ndarray]:
+    """data without ASCII whitespace, and the original offset (int64) of every byte kept."""
+    array = np.frombuffer(data, dtype=np.uint8)
+    offsets = np.flatnonzero(~_WHITESPACE[array]).astype(np.int64)
+    return array[offsets].tobytes(), offsets
+
+
+def _powers(n: int) -> tuple[np.ndarray, np.ndarray]:
+    """P^0 .. P^(n-1) and P^0 .. P^-(n-1) modulo 2^64 (cached up to _CACHE_LIMIT entries)."""
+    global _powers_cache
+    if len(_powers_cache[0]) >= n:
+        return _powers_cache[0][:n], _powers_cache[1][:n]
+    size = max(n, min(2 * len(_powers_cache[0]), _CACHE_LIMIT))
+    made = []
+    for base in (_P, _P_INV):
+        values = np.empty(size, dtype=np.uint64)
+        values[0] = 1
+        values[1:] = np.cumprod(np.full(size - 1, base, dtype=np.uint64))
+        made.append(values)
+    if size <= _CACHE_LIMIT:
+        _powers_cache = (made[0], made[1])
+    return made[0][:n], made[1][:n]
+
+
+def prefix_hashes(norm: bytes) -> tuple[np.ndarray, np.ndarray]:
+    """S (length n + 1, S_i = sum_{j<i} T[x_j] P^j) and the inverse powers P^-i (length n + 1).
+
+    The hash of norm[i : i + L] is (S[i + L] - S[i]) * inverse[i] (uint64, wrapping).
+    """
+    n = len(norm)
+    powers, inverse = _powers(n + 1)
+    prefix = np.zeros(n + 1, dtype=np.uint64)
+    np.cumsum(_TABLE[np.frombuffer(norm, dtype=np.uint8)] * powers[:n], out=prefix[1:])
+    return prefix, inverse
+
+
+def _mix(values: np.ndarray) -> np.ndarray:
+    """The splitmix64 finaliser, a bijection of uint64 that spreads every bit over all bits."""
+    values = values ^ (values >> np.uint64(30))
+    values = values * np.uint64(0xBF58476D1CE4E5B9)
+    values = values ^ (values >> np.uint64(27))
+    values = values * np.uint64(0x94D049BB133111EB)
+    return np.asarray(values ^ (values >> np.uint64(31)))
+
+
+def kgram_hashes(norm: bytes, noise: int) -> np.ndarray:
+    """The mixed hash of every `noise`-byte substring of norm (empty when norm is shorter)."""
+    n = len(norm)
+    if n < noise:
+        return np.zeros(0, dtype=np.uint64)
+    prefix, inverse = prefix_hashes(norm)
+    return _mix((prefix[noise:] - prefix[: n - noise + 1]) * inverse[: n - noise + 1])
+
+
+def _window_minima(keys: np.ndarray, width: int) -> np.ndarray:
+    """min(keys[i : i + width]) for every window, by doubling: log2(width) vectorised passes."""
+    span, current = 1, keys
+    while 2 * span <= width:
+        current = np.minimum(current[:-span], current[span:])
+        span *= 2
+    count = len(keys) - width + 1
+    return np.asarray(np.minimum(current[:count], current[width - span : width - span + count]))
+
+
+def _thin_ties(picks: np.ndarray, chosen: np.ndarray, values: np.ndarray, width: int) -> np.ndarray:
+    """Robust winnowing from the rightmost-minimum choices.
+
+    picks[i] is the rightmost minimum of window i, chosen its distinct values. Where the
+    rightmost rule moves to an equal value while the old choice is still in the window (chosen
+    positions of one value less than `width` apart: a tie chain), robust winnowing keeps the old
+    choice until it leaves the window at window p + 1, then takes that window's pick.
+    """
+    linked = (values[chosen[1:]] == values[chosen[:-1]]) & (np.diff(chosen) < width)
+    if not linked.any():
+        return chosen
+    keep = np.ones(len(chosen), dtype=bool)
+    edges = np.flatnonzero(np.diff(np.concatenate(([0], linked.astype(np.int8), [0]))))
+    for first, last in zip(edges[::2], edges[1::2], strict=True):  # chain chosen[first..last]
+        keep[first + 1 : last + 1] = False
+        final_window = int(np.searchsorted(picks, chosen[last], side="right")) - 1
+        position = int(chosen[first])
+        kept = []
+        while position + 1 <= final_window:
+            position = int(picks[position + 1])
+            kept.append(position)
+        keep[np.searchsorted(chosen, kept)] = True
+    return chosen[keep]
+
+
+def winnow(hashes: np.ndarray, window: int) -> np.ndarray:
+    """Positions selected by robust winnowing of k-gram hashes in windows of `window` (ascending).
+
+    Hashes are ordered by their upper 32 bits; a sequence shorter than a window is one window.
+    """
+    count = len(hashes)
+    if count == 0:
+        return np.zeros(0, dtype=np.int64)
+    width = min(window, count)
+    values = hashes >> np.uint64(32)
+    index = np.arange(count, dtype=np.uint64)
+    minima = _window_minima((values << np.uint64(32)) | (_MASK32 - index), width)
+    picks = (_MASK32 - (minima & _MASK32)).astype(np.int64)
+    chosen = picks[np.concatenate(([True], picks[1:] != picks[:-1]))]
+    return _thin_ties(picks, chosen, values, width)
+
+
+def fingerprint(data: bytes, noise: int = NOISE, guarantee: int = GUARANTEE) -> Fingerprint:
+    """Normalise data and winnow its k-gram hashes (k = noise, window guarantee - noise + 1).
+
+    Input shorter than `noise` normalised bytes has no hashes. Raises ValueError unless
+    1 <= noise <= guarantee.
+    """
+    if not 1 <= noise <= guarantee:
+        raise ValueError(f"need 1 <= noise <= guarantee, got {noise} and {guarantee}")
+    if len(data) >= 1 << 32:
+        raise ValueError(f"input of {len(data)} bytes is too large (at most 4 GiB)")
+    norm, offsets = normalise(data)
+    hashes = kgram_hashes(norm, noise)
+    positions = winnow(hashes, guarantee - noise + 1)
+    return Fingerprint(
+        norm=norm,
+        offsets=offsets,
+        hashes=hashes[positions],
+        positions=positions,
+        size=len(data),
+        noise=noise,
+        guarantee=guarantee,
+    )
+
+
+_Index = tuple[np.ndarray, np.ndarray]
+
+
+def _seeds_of(a_index: _Index, b_index: _Index, common: np.ndarray) -> _Index:
+    """Seed pairs (position in a, position in b) for every common hash.
+
+    Each index is (hashes sorted, positions in that order). A hash with na occurrences in a and nb
+    in b gives all na * nb pairs, or when that exceeds HEAVY_PAIRS, rank-banded pairs (see module).
+    """
+    (a_sorted, a_pos), (b_sorted, b_pos) = a_index, b_index
+    a_lo, a_hi = np.searchsorted(a_sorted, common), np.searchsorted(a_sorted, common, "right")
+    b_lo, b_hi = np.searchsorted(b_sorted, common), np.searchsorted(b_sorted, common, "right")
+    na, nb = a_hi - a_lo, b_hi - b_lo
+    light = na * nb <= HEAVY_PAIRS
+    sizes = (na * nb)[light]
+    group = np.repeat(np.arange(len(sizes)), sizes)
+    local = np.arange(int(sizes.sum())) - np.repeat(np.cumsum(sizes) - sizes, sizes)
+    width = nb[light][group]
+    seeds_a = [a_pos[a_lo[light][group] + local // width]]
+    seeds_b = [b_pos[b_lo[light][group] + local % width]]
+    for g in np.flatnonzero(~light):
+        first, second = a_pos[a_lo[g] : a_hi[g]], b_pos[b_lo[g] : b_hi[g]]
+        swap = len(first) < len(second)
+        many, few = (second, first) if swap else (first, second)
+        rank = np.arange(len(many)) * len(few) // len(many)
+        partner = rank[:, None] + np.arange(-BAND, BAND + 1)[None, :]
+        valid = (partner >= 0) & (partner < len(few))
+        pairs = (np.broadcast_to(many[:, None], partner.shape)[valid], few[partner[valid]])
+        seeds_a.append(pairs[1] if swap else pairs[0])
+        seeds_b.append(pairs[0] if swap else pairs[1])
+    return np.concatenate(seeds_a), np.concatenate(seeds_b)
+
+
+@dataclass(frozen=True)
+class _Side:
+    """One file in matching: its normalised bytes as an array, prefix sums and inverse powers."""
+
+    data: np.ndarray
+    prefix: np.ndarray
+    inverse: np.ndarray
+
+    @classmethod
+    def of(cls, fp: Fingerprint) -> _Side:
+        prefix, inverse = prefix_hashes(fp.norm)
+        return cls(np.frombuffer(fp.norm, dtype=np.uint8), prefix, inverse)
+
+    def hash(self, start: np.ndarray, length: np.ndarray) -> np.ndarray:
+        return np.asarray((self.prefix[start + length] - self.prefix[start]) * self.inverse[start])
+
+
+def _agree(
+    a: _Side,
+    b: _Side,
+    ends: tuple[np.ndarray, np.ndarray],
+    low: np.ndarray,
+    high: np.ndarray,
+    leftward: bool,
+) -> np.ndarray:
+    """Largest L in [low, high] with L bytes agreeing next to `ends` (in a, in b), by bisection.
+
+    The stretches run right from the ends (a[e : e + L]), or left of them when `leftward`
+    (a[e - L : e]). low must be known to agree. All seeds advance together, ~log2(high) passes.
+    """
+    low, high = low.copy(), high.copy()
+    while True:
+        active = np.flatnonzero(low < high)
+        if not len(active):
+            return low
+        mid = (low[active] + high[active] + 1) // 2
+        start_a, start_b = ends[0][active], ends[1][active]
+        if leftward:
+            start_a, start_b = start_a - mid, start_b - mid
+        same = a.hash(start_a, mid) == b.hash(start_b, mid)
+        low[active] = np.where(same, mid, low[active])
+        high[active] = np.where(same, high[active], mid - 1)
+
+
+def _extend(
+    a: _Side, b: _Side, seed_a: np.ndarray, seed_b: np.ndarray, noise: int, min_length: int
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Maximal agreeing stretches (start in a, start in b, length) around k-gram seeds.
+
+    First both sides are searched only up to min_length - noise, dropping seeds that cannot reach
+    min_length; the rest are then searched to the ends of the files.
+    """
+    cap = max(min_length - noise, 0)
+    room_left = np.minimum(seed_a, seed_b)
+    room_right = np.minimum(len(a.data) - seed_a, len(b.data) - seed_b) - noise
+    zero = np.zeros(len(seed_a), dtype=np.int64)
+    starts, ends = (seed_a, seed_b), (seed_a + noise, seed_b + noise)
+    left = _agree(a, b, starts, zero, np.minimum(room_left, cap), leftward=True)
+    right = _agree(a, b, ends, zero, np.minimum(room_right, cap), leftward=False)
+    live = np.flatnonzero(left + right + noise >= min_length)
+    seed_a, seed_b, left, right = seed_a[live], seed_b[live], left[live], right[live]
+    starts, ends = (seed_a, seed_b), (seed_a + noise, seed_b + noise)
+    left = _agree(a, b, starts, left, room_left[live], leftward=True)
+    right = _agree(a, b, ends, right, room_right[live], leftward=False)
+    return seed_a - left, seed_b - left, left + noise + right
+
+
+def _runs(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Starts and ends (exclusive) of the runs of True in mask."""
+    edges = np.flatnonzero(np.diff(np.concatenate(([0], mask.astype(np.int8), [0]))))
+    return edges[::2], edges[1::2]
+
+
+def _select(
+    a: _Side, b: _Side, found: tuple[np.ndarray, np.ndarray, np.ndarray], min_length: int
+) -> list[tuple[int, int, int]]:
+    """A one-to-one set of (start in a, start in b, length), greedily longest first.
+
+    Candidates are merged when equal (seeds of one passage). A candidate overlapping passages
+    already taken, in a or in b, or whose bytes disagree somewhere (a hash collision) is cut to
+    its free, agreeing runs, re-queued when at least min_length long.
+    """
+    starts_a, starts_b, lengths = found
+    _, first = np.unique(starts_a * (len(b.data) + 1) + starts_b, return_index=True)
+    queue = [(-int(lengths[k]), int(starts_a[k]), int(starts_b[k])) for k in first]
+    heapq.heapify(queue)
+    taken_a = np.zeros(len(a.data), dtype=bool)
+    taken_b = np.zeros(len(b.data), dtype=bool)
+    chosen = []
+    while queue:
+        negative, start_a, start_b = heapq.heappop(queue)
+        end_a, end_b = start_a - negative, start_b - negative
+        usable = ~taken_a[start_a:end_a] & ~taken_b[start_b:end_b]
+        usable &= a.data[start_a:end_a] == b.data[start_b:end_b]
+        free = int(np.count_nonzero(usable))
+        if free == -negative:
+            taken_a[start_a:end_a] = taken_b[start_b:end_b] = True
+            chosen.append((start_a, start_b, free))
+            continue
+        if free < min_length:
+            continue
+        for run_start, run_end in zip(*_runs(usable), strict=True):
+            if run_end - run_start >= min_length:
+                item = (
+                    int(run_start - run_end),
+                    int(start_a + run_start),
+                    int(start_b + run_start),
+                )
+                heapq.heappush(queue, item)
+    return chosen
+
+
+def _index(fp: Fingerprint) -> _Index:
+    order = np.argsort(fp.hashes, kind="stable")
+    return fp.hashes[order], fp.positions[order]
+
+
+def shared_passages(
+    a: Fingerprint, b: Fingerprint, *, min_length: int = GUARANTEE, ignore: np.ndarray | None = None
+) -> list[Passage]:
+    """Maximal passages of at least min_length normalised bytes shared by a and b, longest first.
+
+    Seeds are the fingerprints whose hash is in both (and not in `ignore`, a sorted uint64 array
+    of hashes to disregard as seeds, e.g. boilerplate common to many files, see `common_hashes`).
+    Each seed is extended left and right while the normalised bytes agree, and seeds of one
+    passage merged; a one-to-one set is kept, greedily longest first and non-overlapping in a and
+    in b (a passage of a that matches several places of b is counted once), and checked on the
+    bytes. Ties in length are ordered by position in a, then in b.
+
+    Every shared passage of at least a.guarantee bytes is found unless it is taken by a longer
+    one or seeded only by hashes in `ignore` (or, see the module, only by a k-gram repeated very
+    often in both files); passages shorter than the guarantee are found only when a selected
+    fingerprint falls in them. Raises ValueError for fingerprints made with other k or t, or
+    min_length < 1.
+    """
+    if (a.noise, a.guarantee) != (b.noise, b.guarantee):
+        raise ValueError(
+            f"fingerprints made with other settings: k={a.noise}, t={a.guarantee} against"
+            f" k={b.noise}, t={b.guarantee}"
+        )
+    if min_length < 1:
+        raise ValueError(f"min_length must be at least 1, got {min_length}")
+    common = np.intersect1d(a.hashes, b.hashes)
+    if ignore is not None and len(ignore) and len(common):
+        at = np.minimum(np.searchsorted(ignore, common), len(ignore) - 1)
+        common = common[ignore[at] != common]
+    if not len(common):
+        return []
+    seed_a, seed_b = _seeds_of(_index(a), _index(b), common)
+    side_a, side_b = _Side.of(a), _Side.of(b)
+    found = _extend(side_a, side_b, seed_a, seed_b, a.noise, min_length)
+    chosen = _select(side_a, side_b, found, min_length)
+    passages = [
+        Passage(
+            a_start=int(a.offsets[start_a]),
+            a_end=int(a.offsets[start_a + length - 1]) + 1,
+            b_start=int(b.offsets[start_b]),
+            b_end=int(b.offsets[start_b + length - 1]) + 1,
+            length=length,
+        )
+        for start_a, start_b, length in chosen
+    ]
+    return sorted(passages, key=lambda p: (-p.length, p.a_start, p.b_start))
+
+
+def coverage(passages: Sequence[Passage], fp: Fingerprint, side: str) -> float:
+    """Fraction of fp's normalised bytes covered by the passages on side 'a' or 'b'.
+
+    Overlapping passages are counted once (union of intervals); 0.0 for an empty text.
+    """
+    if side not in ("a", "b"):
+        raise ValueError(f"side must be 'a' or 'b', got {side!r}")
+    if not len(fp.norm) or not passages:
+        return 0.0
+    spans = np.array(
+        [(p.a_start, p.a_end) if side == "a" else (p.b_start, p.b_end) for p in passages],
+        dtype=np.int64,
+    )
+    starts = np.searchsorted(fp.offsets, spans[:, 0])
+    ends = np.searchsorted(fp.offsets, spans[:, 1])
+    depth = np.zeros(len(fp.norm) + 1, dtype=np.int64)
+    np.add.at(depth, starts, 1)
+    np.add.at(depth, ends, -1)
+    return float(np.count_nonzero(np.cumsum(depth[:-1]) > 0) / len(fp.norm))
+
+
+def common_hashes(fingerprints: Sequence[Fingerprint], min_files: int) -> np.ndarray:
+    """Sorted unique hashes that occur in at least min_files of the fingerprints (each file once).
+
+    Given as `ignore` to `shared_passages`, they stop boilerplate shared by many files (licence
+    headers, templates) from seeding passages; a passage of two files that runs through such
+    boilerplate is still found from its other seeds.
+    """
+    if not fingerprints:
+        return np.zeros(0, dtype=np.uint64)
+    values, counts = np.unique(
+        np.concatenate([np.unique(fp.hashes) for fp in fingerprints]), return_counts=True
+    )
+    return values[counts >= min_files].astype(np.uint64)
