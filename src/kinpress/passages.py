@@ -333,27 +333,49 @@ def _agree(
         high[active] = np.where(same, high[active], mid - 1)
 
 
+def _chains(seed_a: np.ndarray, seed_b: np.ndarray, reach: np.ndarray) -> np.ndarray:
+    """Labels of seeds that lie in one agreeing stretch: same diagonal, each reaching the next.
+
+    Seeds must come sorted by diagonal, then by position; reach is where each one's known
+    agreement ends in a. A seed reaching the next seed's start shares its maximal passage.
+    """
+    diagonal = seed_b - seed_a
+    linked = (diagonal[1:] == diagonal[:-1]) & (reach[:-1] >= seed_a[1:])
+    return np.concatenate(([0], np.cumsum(~linked)))
+
+
 def _extend(
-    a: _Side, b: _Side, seed_a: np.ndarray, seed_b: np.ndarray, noise: int, min_length: int
+    a: _Side, b: _Side, seeds: _Index, fp: Fingerprint, min_length: int
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Maximal agreeing stretches (start in a, start in b, length) around k-gram seeds.
 
-    First both sides are searched only up to min_length - noise, dropping seeds that cannot reach
-    min_length; the rest are then searched to the ends of the files.
+    First both sides of each seed are searched only up to max(min_length, w) - k bytes (k, w of
+    fp): seeds that cannot reach min_length are dropped, and seeds on one diagonal whose
+    agreement reaches the next seed (selected positions are at most w apart) are chained. Only
+    a chain's first seed is then searched left to the start of the files, and its last one right
+    to the end, so a long copy is extended once, not once per seed.
     """
-    cap = max(min_length - noise, 0)
+    noise = fp.noise
+    cap = max(min_length, fp.guarantee - noise + 1) - noise
+    order = np.lexsort((seeds[0], seeds[1] - seeds[0]))
+    seed_a, seed_b = seeds[0][order], seeds[1][order]
     room_left = np.minimum(seed_a, seed_b)
     room_right = np.minimum(len(a.data) - seed_a, len(b.data) - seed_b) - noise
     zero = np.zeros(len(seed_a), dtype=np.int64)
     starts, ends = (seed_a, seed_b), (seed_a + noise, seed_b + noise)
     left = _agree(a, b, starts, zero, np.minimum(room_left, cap), leftward=True)
     right = _agree(a, b, ends, zero, np.minimum(room_right, cap), leftward=False)
-    live = np.flatnonzero(left + right + noise >= min_length)
-    seed_a, seed_b, left, right = seed_a[live], seed_b[live], left[live], right[live]
-    starts, ends = (seed_a, seed_b), (seed_a + noise, seed_b + noise)
-    left = _agree(a, b, starts, left, room_left[live], leftward=True)
-    right = _agree(a, b, ends, right, room_right[live], leftward=False)
-    return seed_a - left, seed_b - left, left + noise + right
+    chain = _chains(seed_a, seed_b, seed_a + noise + right)
+    first = np.flatnonzero(np.concatenate(([True], chain[1:] != chain[:-1])))
+    last = np.concatenate((first[1:] - 1, [len(chain) - 1]))
+    span = seed_a[last] + noise + right[last] - seed_a[first] + left[first]
+    live = span >= min_length
+    first, last = first[live], last[live]
+    left = _agree(a, b, (seed_a[first], seed_b[first]), left[first], room_left[first], True)
+    ends = (seed_a[last] + noise, seed_b[last] + noise)
+    right = _agree(a, b, ends, right[last], room_right[last], leftward=False)
+    start_a = seed_a[first] - left
+    return start_a, seed_b[first] - left, seed_a[last] + noise + right - start_a
 
 
 def _runs(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -437,9 +459,9 @@ def shared_passages(
         common = common[ignore[at] != common]
     if not len(common):
         return []
-    seed_a, seed_b = _seeds_of(_index(a), _index(b), common)
+    seeds = _seeds_of(_index(a), _index(b), common)
     side_a, side_b = _Side.of(a), _Side.of(b)
-    found = _extend(side_a, side_b, seed_a, seed_b, a.noise, min_length)
+    found = _extend(side_a, side_b, seeds, a, min_length)
     chosen = _select(side_a, side_b, found, min_length)
     passages = [
         Passage(
