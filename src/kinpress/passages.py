@@ -79,6 +79,7 @@ _P_INV = 1
 for _ in range(7):  # Newton's iteration doubles the correct low bits: 1 -> 128
     _P_INV = (_P_INV * (2 - _P * _P_INV)) % (1 << 64)
 _CACHE_LIMIT = 1 << 21
+_BLOCK = 1 << 15
 _powers_cache: tuple[np.ndarray, np.ndarray] = (np.ones(1, np.uint64), np.ones(1, np.uint64))
 _WHITESPACE = np.zeros(256, dtype=bool)
 _WHITESPACE[[9, 10, 11, 12, 13, 32]] = True
@@ -314,23 +315,52 @@ def _agree(
     high: np.ndarray,
     leftward: bool,
 ) -> np.ndarray:
-    """Largest L in [low, high] with L bytes agreeing next to `ends` (in a, in b), by bisection.
+    """Largest L in [low, high] with L bytes agreeing next to `ends` (in a, in b).
 
     The stretches run right from the ends (a[e : e + L]), or left of them when `leftward`
-    (a[e - L : e]). low must be known to agree. All seeds advance together, ~log2(high) passes.
+    (a[e - L : e]); low must be known to agree. Galloping, then bisection, on substring hashes:
+    lengths low + 64, then doubling, are tried until one disagrees, then the last gap is halved,
+    so a stretch of length L takes about 2 log2(L) passes; all seeds advance together.
     """
     low, high = low.copy(), high.copy()
+    galloping = np.ones(len(low), dtype=bool)
     while True:
         active = np.flatnonzero(low < high)
         if not len(active):
             return low
-        mid = (low[active] + high[active] + 1) // 2
+        lo, hi, gallop = low[active], high[active], galloping[active]
+        mid = np.where(gallop, np.minimum(hi, np.maximum(2 * lo, lo + 64)), (lo + hi + 1) // 2)
         start_a, start_b = ends[0][active], ends[1][active]
         if leftward:
             start_a, start_b = start_a - mid, start_b - mid
         same = a.hash(start_a, mid) == b.hash(start_b, mid)
-        low[active] = np.where(same, mid, low[active])
-        high[active] = np.where(same, high[active], mid - 1)
+        low[active] = np.where(same, mid, lo)
+        high[active] = np.where(same, hi, mid - 1)
+        galloping[active] = gallop & same
+
+
+def _near(
+    a: np.ndarray, b: np.ndarray, ends: tuple[np.ndarray, np.ndarray], cap: int, leftward: bool
+) -> np.ndarray:
+    """How many bytes (at most cap) agree next to `ends`, right of them or left when `leftward`.
+
+    Compared directly, cap bytes a seed in blocks of seeds; the files are padded with cap bytes
+    at both ends, so the caller must clip the result to the room the files leave.
+    """
+    pad = np.zeros(cap, dtype=np.uint8)
+    windows = [
+        np.lib.stride_tricks.sliding_window_view(np.concatenate((pad, data, pad)), cap)
+        for data in (a, b)
+    ]
+    shift = 0 if leftward else cap
+    out = np.empty(len(ends[0]), dtype=np.int64)
+    for first in range(0, len(out), _BLOCK):
+        block = slice(first, first + _BLOCK)
+        differ = windows[0][ends[0][block] + shift] != windows[1][ends[1][block] + shift]
+        if leftward:
+            differ = differ[:, ::-1]
+        out[block] = np.where(differ.any(axis=1), differ.argmax(axis=1), cap)
+    return out
 
 
 def _chains(seed_a: np.ndarray, seed_b: np.ndarray, reach: np.ndarray) -> np.ndarray:
@@ -361,10 +391,9 @@ def _extend(
     seed_a, seed_b = seeds[0][order], seeds[1][order]
     room_left = np.minimum(seed_a, seed_b)
     room_right = np.minimum(len(a.data) - seed_a, len(b.data) - seed_b) - noise
-    zero = np.zeros(len(seed_a), dtype=np.int64)
-    starts, ends = (seed_a, seed_b), (seed_a + noise, seed_b + noise)
-    left = _agree(a, b, starts, zero, np.minimum(room_left, cap), leftward=True)
-    right = _agree(a, b, ends, zero, np.minimum(room_right, cap), leftward=False)
+    left = np.minimum(_near(a.data, b.data, (seed_a, seed_b), cap, leftward=True), room_left)
+    ends = (seed_a + noise, seed_b + noise)
+    right = np.minimum(_near(a.data, b.data, ends, cap, leftward=False), room_right)
     chain = _chains(seed_a, seed_b, seed_a + noise + right)
     first = np.flatnonzero(np.concatenate(([True], chain[1:] != chain[:-1])))
     last = np.concatenate((first[1:] - 1, [len(chain) - 1]))
@@ -384,42 +413,65 @@ def _runs(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return edges[::2], edges[1::2]
 
 
+def _free_runs(
+    texts: tuple[bytes, bytes],
+    taken: tuple[np.ndarray, np.ndarray],
+    candidate: tuple[int, int, int],
+    min_length: int,
+) -> list[tuple[int, int, int]]:
+    """The parts of a candidate free in both files and agreeing on the bytes, if long enough."""
+    start_a, start_b, length = candidate
+    usable = ~taken[0][start_a : start_a + length].astype(bool)
+    usable &= ~taken[1][start_b : start_b + length].astype(bool)
+    a_bytes = np.frombuffer(texts[0], dtype=np.uint8, count=length, offset=start_a)
+    usable &= a_bytes == np.frombuffer(texts[1], dtype=np.uint8, count=length, offset=start_b)
+    starts, ends = _runs(usable)
+    return [
+        (int(start - end), start_a + int(start), start_b + int(start))
+        for start, end in zip(starts, ends, strict=True)
+        if end - start >= min_length
+    ]
+
+
 def _select(
-    a: _Side, b: _Side, found: tuple[np.ndarray, np.ndarray, np.ndarray], min_length: int
+    texts: tuple[bytes, bytes], found: tuple[np.ndarray, np.ndarray, np.ndarray], min_length: int
 ) -> list[tuple[int, int, int]]:
     """A one-to-one set of (start in a, start in b, length), greedily longest first.
 
-    Candidates are merged when equal (seeds of one passage). A candidate overlapping passages
-    already taken, in a or in b, or whose bytes disagree somewhere (a hash collision) is cut to
-    its free, agreeing runs, re-queued when at least min_length long.
+    Candidates are merged when equal (seeds of one passage). A candidate wholly inside passages
+    already taken (in a or in b) is dropped; one partly overlapping them, or whose bytes disagree
+    somewhere (a hash collision), is cut to its free, agreeing runs, re-queued when at least
+    min_length long. Ties go to the earlier position in a, then in b.
     """
+    text_a, text_b = texts
     starts_a, starts_b, lengths = found
-    _, first = np.unique(starts_a * (len(b.data) + 1) + starts_b, return_index=True)
-    queue = [(-int(lengths[k]), int(starts_a[k]), int(starts_b[k])) for k in first]
-    heapq.heapify(queue)
-    taken_a = np.zeros(len(a.data), dtype=bool)
-    taken_b = np.zeros(len(b.data), dtype=bool)
-    chosen = []
-    while queue:
-        negative, start_a, start_b = heapq.heappop(queue)
+    _, first = np.unique(starts_a * (len(text_b) + 1) + starts_b, return_index=True)
+    first = first[np.lexsort((starts_b[first], starts_a[first], -lengths[first]))]
+    columns = (-lengths[first]).tolist(), starts_a[first].tolist(), starts_b[first].tolist()
+    pending = list(zip(*columns, strict=True))
+    requeued: list[tuple[int, int, int]] = []
+    taken_a, taken_b = bytearray(len(text_a)), bytearray(len(text_b))
+    views = (np.frombuffer(taken_a, dtype=np.uint8), np.frombuffer(taken_b, dtype=np.uint8))
+    chosen, k = [], 0
+    while k < len(pending) or requeued:
+        if requeued and (k == len(pending) or requeued[0] < pending[k]):
+            negative, start_a, start_b = heapq.heappop(requeued)
+        else:
+            negative, start_a, start_b = pending[k]
+            k += 1
         end_a, end_b = start_a - negative, start_b - negative
-        usable = ~taken_a[start_a:end_a] & ~taken_b[start_b:end_b]
-        usable &= a.data[start_a:end_a] == b.data[start_b:end_b]
-        free = int(np.count_nonzero(usable))
-        if free == -negative:
-            taken_a[start_a:end_a] = taken_b[start_b:end_b] = True
-            chosen.append((start_a, start_b, free))
+        if taken_a.find(0, start_a, end_a) < 0 or taken_b.find(0, start_b, end_b) < 0:
             continue
-        if free < min_length:
+        if (
+            taken_a.find(1, start_a, end_a) < 0
+            and taken_b.find(1, start_b, end_b) < 0
+            and text_a[start_a:end_a] == text_b[start_b:end_b]
+        ):
+            taken_a[start_a:end_a] = taken_b[start_b:end_b] = b"\x01" * -negative
+            chosen.append((start_a, start_b, -negative))
             continue
-        for run_start, run_end in zip(*_runs(usable), strict=True):
-            if run_end - run_start >= min_length:
-                item = (
-                    int(run_start - run_end),
-                    int(start_a + run_start),
-                    int(start_b + run_start),
-                )
-                heapq.heappush(queue, item)
+        for item in _free_runs(texts, views, (start_a, start_b, -negative), min_length):
+            heapq.heappush(requeued, item)
     return chosen
 
 
@@ -462,7 +514,7 @@ def shared_passages(
     seeds = _seeds_of(_index(a), _index(b), common)
     side_a, side_b = _Side.of(a), _Side.of(b)
     found = _extend(side_a, side_b, seeds, a, min_length)
-    chosen = _select(side_a, side_b, found, min_length)
+    chosen = _select((a.norm, b.norm), found, min_length)
     passages = [
         Passage(
             a_start=int(a.offsets[start_a]),
