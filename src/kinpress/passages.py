@@ -79,7 +79,12 @@ _P_INV = 1
 for _ in range(7):  # Newton's iteration doubles the correct low bits: 1 -> 128
     _P_INV = (_P_INV * (2 - _P * _P_INV)) % (1 << 64)
 _CACHE_LIMIT = 1 << 21
-_BLOCK = 1 << 15
+_BLOCK = 1 << 22
+"""Bytes compared at once, in blocks of seeds, when extending directly."""
+_NEAR = 256
+"""Passages are extended by direct comparison up to this many bytes, by hashes beyond."""
+_FEW = 1 << 16
+"""Up to this many bytes to compare, they are gathered one by one rather than as windows."""
 _powers_cache: tuple[np.ndarray, np.ndarray] = (np.ones(1, np.uint64), np.ones(1, np.uint64))
 _WHITESPACE = np.zeros(256, dtype=bool)
 _WHITESPACE[[9, 10, 11, 12, 13, 32]] = True
@@ -290,21 +295,34 @@ def _seeds_of(a_index: _Index, b_index: _Index, common: np.ndarray) -> _Index:
     return np.concatenate(seeds_a), np.concatenate(seeds_b)
 
 
-@dataclass(frozen=True)
 class _Side:
-    """One file in matching: its normalised bytes as an array, prefix sums and inverse powers."""
+    """One file in matching: its normalised bytes as an array, and (when first needed) its
+    prefix sums and inverse powers for substring hashes."""
 
-    data: np.ndarray
-    prefix: np.ndarray
-    inverse: np.ndarray
+    def __init__(self, norm: bytes) -> None:
+        self.data = np.frombuffer(norm, dtype=np.uint8)
+        self._norm = norm
+        self._prefix: tuple[np.ndarray, np.ndarray] | None = None
+        self._padded: tuple[np.ndarray, int] = (self.data, 0)
 
-    @classmethod
-    def of(cls, fp: Fingerprint) -> _Side:
-        prefix, inverse = prefix_hashes(fp.norm)
-        return cls(np.frombuffer(fp.norm, dtype=np.uint8), prefix, inverse)
+    def padded(self, width: int) -> tuple[np.ndarray, int]:
+        """The bytes with at least `width` zero bytes before and after, and that padding."""
+        if self._padded[1] < width:
+            pad = np.zeros(width, dtype=np.uint8)
+            self._padded = (np.concatenate((pad, self.data, pad)), width)
+        return self._padded
+
+    def windows(self, width: int) -> tuple[np.ndarray, int]:
+        """Every `width` bytes of the padded data (see `padded`), and the padding."""
+        padded, pad = self.padded(width)
+        return np.lib.stride_tricks.sliding_window_view(padded, width), pad
 
     def hash(self, start: np.ndarray, length: np.ndarray) -> np.ndarray:
-        return np.asarray((self.prefix[start + length] - self.prefix[start]) * self.inverse[start])
+        """Hashes of norm[start : start + length], elementwise."""
+        if self._prefix is None:
+            self._prefix = prefix_hashes(self._norm)
+        prefix, inverse = self._prefix
+        return np.asarray((prefix[start + length] - prefix[start]) * inverse[start])
 
 
 def _agree(
@@ -340,27 +358,43 @@ def _agree(
 
 
 def _near(
-    a: np.ndarray, b: np.ndarray, ends: tuple[np.ndarray, np.ndarray], cap: int, leftward: bool
+    a: _Side, b: _Side, ends: tuple[np.ndarray, np.ndarray], cap: int, leftward: bool
 ) -> np.ndarray:
     """How many bytes (at most cap) agree next to `ends`, right of them or left when `leftward`.
 
-    Compared directly, cap bytes a seed in blocks of seeds; the files are padded with cap bytes
-    at both ends, so the caller must clip the result to the room the files leave.
+    Compared directly, cap bytes a seed, in blocks of seeds. The files are padded at both ends,
+    so the caller must clip the result to the room the files leave.
     """
-    pad = np.zeros(cap, dtype=np.uint8)
-    windows = [
-        np.lib.stride_tricks.sliding_window_view(np.concatenate((pad, data, pad)), cap)
-        for data in (a, b)
-    ]
-    shift = 0 if leftward else cap
     out = np.empty(len(ends[0]), dtype=np.int64)
-    for first in range(0, len(out), _BLOCK):
-        block = slice(first, first + _BLOCK)
-        differ = windows[0][ends[0][block] + shift] != windows[1][ends[1][block] + shift]
+    if len(out) * cap <= _FEW:  # few seeds: gather the bytes, no windows over the files
+        steps = -np.arange(1, cap + 1) if leftward else np.arange(cap)
+        (padded_a, pad), (padded_b, _) = a.padded(cap), b.padded(cap)
+        differ = padded_a[ends[0][:, None] + (steps + pad)]
+        differ = differ != padded_b[ends[1][:, None] + (steps + pad)]
+        return np.where(differ.any(axis=1), differ.argmax(axis=1), cap)
+    (windows_a, pad), (windows_b, _) = a.windows(cap), b.windows(cap)
+    shift = pad - cap if leftward else pad
+    rows = max(1, _BLOCK // cap)
+    for first in range(0, len(out), rows):
+        block = slice(first, first + rows)
+        differ = windows_a[ends[0][block] + shift] != windows_b[ends[1][block] + shift]
         if leftward:
             differ = differ[:, ::-1]
         out[block] = np.where(differ.any(axis=1), differ.argmax(axis=1), cap)
     return out
+
+
+def _reach(
+    a: _Side, b: _Side, ends: tuple[np.ndarray, np.ndarray], room: np.ndarray, leftward: bool
+) -> np.ndarray:
+    """All the bytes agreeing next to `ends` (at most room): compared directly up to _NEAR
+    bytes, found by galloping on substring hashes (see `_agree`) beyond."""
+    near = np.minimum(_near(a, b, ends, _NEAR, leftward), room)
+    beyond = np.flatnonzero(near >= _NEAR)
+    if len(beyond):
+        ends = (ends[0][beyond], ends[1][beyond])
+        near[beyond] = _agree(a, b, ends, near[beyond], room[beyond], leftward)
+    return np.asarray(near)
 
 
 def _chains(seed_a: np.ndarray, seed_b: np.ndarray, reach: np.ndarray) -> np.ndarray:
@@ -391,18 +425,18 @@ def _extend(
     seed_a, seed_b = seeds[0][order], seeds[1][order]
     room_left = np.minimum(seed_a, seed_b)
     room_right = np.minimum(len(a.data) - seed_a, len(b.data) - seed_b) - noise
-    left = np.minimum(_near(a.data, b.data, (seed_a, seed_b), cap, leftward=True), room_left)
+    left = np.minimum(_near(a, b, (seed_a, seed_b), cap, leftward=True), room_left)
     ends = (seed_a + noise, seed_b + noise)
-    right = np.minimum(_near(a.data, b.data, ends, cap, leftward=False), room_right)
+    right = np.minimum(_near(a, b, ends, cap, leftward=False), room_right)
     chain = _chains(seed_a, seed_b, seed_a + noise + right)
     first = np.flatnonzero(np.concatenate(([True], chain[1:] != chain[:-1])))
     last = np.concatenate((first[1:] - 1, [len(chain) - 1]))
     span = seed_a[last] + noise + right[last] - seed_a[first] + left[first]
     live = span >= min_length
     first, last = first[live], last[live]
-    left = _agree(a, b, (seed_a[first], seed_b[first]), left[first], room_left[first], True)
+    left = _reach(a, b, (seed_a[first], seed_b[first]), room_left[first], leftward=True)
     ends = (seed_a[last] + noise, seed_b[last] + noise)
-    right = _agree(a, b, ends, right[last], room_right[last], leftward=False)
+    right = _reach(a, b, ends, room_right[last], leftward=False)
     start_a = seed_a[first] - left
     return start_a, seed_b[first] - left, seed_a[last] + noise + right - start_a
 
@@ -512,7 +546,7 @@ def shared_passages(
     if not len(common):
         return []
     seeds = _seeds_of(_index(a), _index(b), common)
-    side_a, side_b = _Side.of(a), _Side.of(b)
+    side_a, side_b = _Side(a.norm), _Side(b.norm)
     found = _extend(side_a, side_b, seeds, a, min_length)
     chosen = _select((a.norm, b.norm), found, min_length)
     passages = [
