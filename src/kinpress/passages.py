@@ -12,12 +12,16 @@ reported in original offsets (a passage never starts or ends on whitespace).
 Fingerprints: winnowing (Schleimer, Wilkerson & Aiken, "Winnowing: local algorithms for document
 fingerprinting", SIGMOD 2003). Every k-gram (k = `noise` normalised bytes) is hashed; in every
 window of w = t - k + 1 consecutive k-gram hashes (t = `guarantee`) the minimal hash is selected,
-ties kept on the previous window's choice when it is still in the window and otherwise broken to
-the rightmost (the paper's robust winnowing, which keeps low-entropy runs such as ``=====`` from
-selecting every position); each position is recorded once. Its guarantee: every passage of at
-least t normalised bytes shared by two documents contains a whole window of k-grams in both, hence
-the same selected fingerprint in both; nothing shorter than k is ever matched. About 2 / (w + 1)
-of the positions are selected.
+ties broken to the rightmost, each position recorded once. Its guarantee: every passage of at
+least t normalised bytes shared by two documents contains a whole window of k-grams in both, and
+the choice in a window depends on the window's bytes alone, so both select the same k-gram at the
+same place in the passage: a seed on the passage's own diagonal; nothing shorter than k is ever
+matched. About 2 / (w + 1) of the positions are selected in varied text. The paper's "robust"
+variant, which keeps the previous window's choice among equal hashes, is not used: its choice
+depends on bytes before the window, so two copies of a passage with a repeated k-gram can select
+different occurrences of it, which shares the hash but not the place. The price is density in
+runs of one repeated k-gram (``=====``, ``NNNN``, ``ATATAT``): one position in every period of
+the run is selected.
 
 Hashing: a polynomial hash in uint64 arithmetic (wrapping modulo 2^64) of random 64-bit values per
 byte, h(s) = sum_j T[s_j] P^j, computed for all positions at once from prefix sums
@@ -26,23 +30,26 @@ stored k-gram hash is this value mixed by the splitmix64 finaliser (a bijection)
 k-grams by the upper 32 bits of the mixed hash. The windows' minima are computed by doubling
 (log2 w vectorised passes).
 
-Matching (`shared_passages`): seeds are positions whose fingerprint hash occurs in both files.
-Each seed is extended left and right while the normalised bytes agree; the extension is a
-vectorised binary search over all seeds at once on substring hashes from the same prefix sums,
-first capped at `min_length` (seeds that cannot reach it are dropped after a few rounds), then to
-the end for the rest. Seeds inside one maximal passage on the same diagonal extend to the same
-passage and are merged, so a long copy is reported once. A one-to-one set is then chosen greedily,
-longest first: a candidate overlapping (in either file) passages already taken is cut to its free
-parts, which are re-queued if still long enough; every accepted passage is checked on the bytes
-(a hash collision is cut to its truly equal parts).
+Matching (`shared_passages`): seeds are pairs of selected positions whose hash occurs in both
+files. Each seed is first extended by direct byte comparison, only as far as min_length needs
+(at least the window): seeds that cannot reach min_length are dropped, and seeds on one diagonal
+whose agreement reaches the next seed are chained into one stretch, so a long copy (about
+2 n / w seeds) is extended once. A chain is then extended from its ends to the full, maximal
+stretch: directly up to 256 bytes, beyond that by galloping and bisection on substring hashes
+from the same prefix sums (about 2 log2 L vectorised passes for length L, all chains at once).
+A one-to-one set is chosen greedily, longest first: a candidate overlapping (in either file)
+passages already taken is cut to its free parts, re-queued if still long enough; every accepted
+passage is checked on the bytes (a hash collision is cut to its truly equal parts).
 
 Limits. A hash occurring so often in both files that it would give more than `HEAVY_PAIRS` seeds
-(a template k-gram repeated on every line of two logs) pairs each occurrence on the more frequent
-side only with the `BAND` occurrences of the same rank (scaled) on the other side, not with all:
-copies are still found whole (their other seeds, and the aligned ranks, carry them), but a
-passage seeded only by such a k-gram may be missed. Boilerplate shared by many files is better
-removed with `ignore` (see `common_hashes`). Memory: the offsets take 8 bytes per normalised byte
-and matching builds 8-byte prefix sums of both files, so files up to ~100 MB are practical.
+(a template k-gram repeated on every line of two logs, a long run) pairs each occurrence on the
+more frequent side only with the 2 `BAND` + 1 occurrences of about the same rank (scaled) on the
+other side, not with all: copies are still found whole (their other seeds, and the aligned ranks,
+carry them), but a passage seeded only by such a k-gram may be missed. Boilerplate shared by many
+files is better removed with `ignore` (see `common_hashes`). Memory: the offsets take 8 bytes per
+normalised byte, fingerprints 16 bytes per selected position (about 2 / (w + 1) of them, all of a
+long run), and matching builds 8-byte prefix sums of both files when a passage passes 256 bytes:
+files up to ~100 MB are practical.
 """
 
 from __future__ import annotations
@@ -68,7 +75,7 @@ measurements on real code and logs), so they are not what tells a copy."""
 HEAVY_PAIRS = 4096
 """A hash giving more seeds than this (occurrences in a times in b) is paired by rank."""
 
-BAND = 8
+BAND = 4
 """Occurrences of a heavy hash on the rarer side paired with each one on the other: 2 BAND + 1."""
 
 _MASK32 = np.uint64(0xFFFFFFFF)
@@ -196,35 +203,11 @@ def _window_minima(keys: np.ndarray, width: int) -> np.ndarray:
     return np.asarray(np.minimum(current[:count], current[width - span : width - span + count]))
 
 
-def _thin_ties(picks: np.ndarray, chosen: np.ndarray, values: np.ndarray, width: int) -> np.ndarray:
-    """Robust winnowing from the rightmost-minimum choices.
-
-    picks[i] is the rightmost minimum of window i, chosen its distinct values. Where the
-    rightmost rule moves to an equal value while the old choice is still in the window (chosen
-    positions of one value less than `width` apart: a tie chain), robust winnowing keeps the old
-    choice until it leaves the window at window p + 1, then takes that window's pick.
-    """
-    linked = (values[chosen[1:]] == values[chosen[:-1]]) & (np.diff(chosen) < width)
-    if not linked.any():
-        return chosen
-    keep = np.ones(len(chosen), dtype=bool)
-    edges = np.flatnonzero(np.diff(np.concatenate(([0], linked.astype(np.int8), [0]))))
-    for first, last in zip(edges[::2], edges[1::2], strict=True):  # chain chosen[first..last]
-        keep[first + 1 : last + 1] = False
-        final_window = int(np.searchsorted(picks, chosen[last], side="right")) - 1
-        position = int(chosen[first])
-        kept = []
-        while position + 1 <= final_window:
-            position = int(picks[position + 1])
-            kept.append(position)
-        keep[np.searchsorted(chosen, kept)] = True
-    return chosen[keep]
-
-
 def winnow(hashes: np.ndarray, window: int) -> np.ndarray:
-    """Positions selected by robust winnowing of k-gram hashes in windows of `window` (ascending).
+    """Positions selected by winnowing k-gram hashes in windows of `window`, ascending.
 
-    Hashes are ordered by their upper 32 bits; a sequence shorter than a window is one window.
+    In each window the rightmost minimal hash (hashes ordered by their upper 32 bits), each
+    position once; a sequence shorter than a window is one window.
     """
     count = len(hashes)
     if count == 0:
@@ -234,8 +217,7 @@ def winnow(hashes: np.ndarray, window: int) -> np.ndarray:
     index = np.arange(count, dtype=np.uint64)
     minima = _window_minima((values << np.uint64(32)) | (_MASK32 - index), width)
     picks = (_MASK32 - (minima & _MASK32)).astype(np.int64)
-    chosen = picks[np.concatenate(([True], picks[1:] != picks[:-1]))]
-    return _thin_ties(picks, chosen, values, width)
+    return picks[np.concatenate(([True], picks[1:] != picks[:-1]))]
 
 
 def fingerprint(data: bytes, noise: int = NOISE, guarantee: int = GUARANTEE) -> Fingerprint:
@@ -420,7 +402,7 @@ def _extend(
     to the end, so a long copy is extended once, not once per seed.
     """
     noise = fp.noise
-    cap = max(min_length, fp.guarantee - noise + 1) - noise
+    cap = max(max(min_length, fp.guarantee - noise + 1) - noise, 1)
     order = np.lexsort((seeds[0], seeds[1] - seeds[0]))
     seed_a, seed_b = seeds[0][order], seeds[1][order]
     room_left = np.minimum(seed_a, seed_b)
