@@ -41,15 +41,18 @@ A one-to-one set is chosen greedily, longest first: a candidate overlapping (in 
 passages already taken is cut to its free parts, re-queued if still long enough; every accepted
 passage is checked on the bytes (a hash collision is cut to its truly equal parts).
 
-Limits. A hash occurring so often in both files that it would give more than `HEAVY_PAIRS` seeds
-(a template k-gram repeated on every line of two logs, a long run) pairs each occurrence on the
-more frequent side only with the 2 `BAND` + 1 occurrences of about the same rank (scaled) on the
-other side, not with all: copies are still found whole (their other seeds, and the aligned ranks,
-carry them), but a passage seeded only by such a k-gram may be missed. Boilerplate shared by many
-files is better removed with `ignore` (see `common_hashes`). Memory: the offsets take 8 bytes per
-normalised byte, fingerprints 16 bytes per selected position (about 2 / (w + 1) of them, all of a
-long run), and matching builds 8-byte prefix sums of both files when a passage passes 256 bytes:
-files up to ~100 MB are practical.
+Limits. A hash occurring so often in both files that it would give more than `HEAVY_PAIRS`
+seeds (a template k-gram on every line of two logs, a long run, a two-letter alphabet) is paired
+again on longer keys: the k-gram with the c = (t - k) // 2 bytes before it, and with the c bytes
+after it; every passage of at least t bytes holds its seed with c bytes on one side at least,
+so the guarantee stands. Only keys still that frequent (a k-gram and its context repeated
+hundreds of times in both files) pair each occurrence on the more frequent side with the
+2 `BAND` + 1 occurrences of about the same rank (scaled) on the other: copies are still found
+whole (their other seeds, and the aligned ranks, carry them), but a passage seeded only by such
+a key may be missed. Boilerplate shared by many files is better removed with `ignore` (see
+`common_hashes`). Memory: the offsets take 8 bytes per normalised byte, fingerprints 16 bytes per
+selected position (about 2 / (w + 1) of them, all of a long run), and matching builds 8-byte
+prefix sums of both files when needed: files up to ~100 MB are practical.
 """
 
 from __future__ import annotations
@@ -247,15 +250,35 @@ def fingerprint(data: bytes, noise: int = NOISE, guarantee: int = GUARANTEE) -> 
 _Index = tuple[np.ndarray, np.ndarray]
 
 
-def _seeds_of(a_index: _Index, b_index: _Index, common: np.ndarray) -> _Index:
-    """Seed pairs (position in a, position in b) for every common hash.
+def _index(keys: np.ndarray, positions: np.ndarray) -> _Index:
+    """(keys sorted, positions in that order)."""
+    order = np.argsort(keys, kind="stable")
+    return keys[order], positions[order]
 
-    Each index is (hashes sorted, positions in that order). A hash with na occurrences in a and nb
-    in b gives all na * nb pairs, or when that exceeds HEAVY_PAIRS, rank-banded pairs (see module).
+
+def _banded(first: np.ndarray, second: np.ndarray) -> _Index:
+    """Each occurrence on the more frequent side with the 2 BAND + 1 of about its rank (scaled)
+    on the other."""
+    swap = len(first) < len(second)
+    many, few = (second, first) if swap else (first, second)
+    rank = np.arange(len(many)) * len(few) // len(many)
+    partner = rank[:, None] + np.arange(-BAND, BAND + 1)[None, :]
+    valid = (partner >= 0) & (partner < len(few))
+    pairs = (np.broadcast_to(many[:, None], partner.shape)[valid], few[partner[valid]])
+    return (pairs[1], pairs[0]) if swap else pairs
+
+
+def _pairs(
+    a_index: _Index, b_index: _Index, keys: np.ndarray, band: bool
+) -> tuple[_Index, np.ndarray]:
+    """Pairs (position in a, position in b) of equal keys, and the heavy keys.
+
+    A key with na occurrences in a and nb in b gives all na * nb pairs; when that exceeds
+    HEAVY_PAIRS it is heavy, and gives rank-banded pairs when `band`, none otherwise.
     """
     (a_sorted, a_pos), (b_sorted, b_pos) = a_index, b_index
-    a_lo, a_hi = np.searchsorted(a_sorted, common), np.searchsorted(a_sorted, common, "right")
-    b_lo, b_hi = np.searchsorted(b_sorted, common), np.searchsorted(b_sorted, common, "right")
+    a_lo, a_hi = np.searchsorted(a_sorted, keys), np.searchsorted(a_sorted, keys, "right")
+    b_lo, b_hi = np.searchsorted(b_sorted, keys), np.searchsorted(b_sorted, keys, "right")
     na, nb = a_hi - a_lo, b_hi - b_lo
     light = na * nb <= HEAVY_PAIRS
     sizes = (na * nb)[light]
@@ -264,17 +287,50 @@ def _seeds_of(a_index: _Index, b_index: _Index, common: np.ndarray) -> _Index:
     width = nb[light][group]
     seeds_a = [a_pos[a_lo[light][group] + local // width]]
     seeds_b = [b_pos[b_lo[light][group] + local % width]]
-    for g in np.flatnonzero(~light):
-        first, second = a_pos[a_lo[g] : a_hi[g]], b_pos[b_lo[g] : b_hi[g]]
-        swap = len(first) < len(second)
-        many, few = (second, first) if swap else (first, second)
-        rank = np.arange(len(many)) * len(few) // len(many)
-        partner = rank[:, None] + np.arange(-BAND, BAND + 1)[None, :]
-        valid = (partner >= 0) & (partner < len(few))
-        pairs = (np.broadcast_to(many[:, None], partner.shape)[valid], few[partner[valid]])
-        seeds_a.append(pairs[1] if swap else pairs[0])
-        seeds_b.append(pairs[0] if swap else pairs[1])
-    return np.concatenate(seeds_a), np.concatenate(seeds_b)
+    heavy = np.flatnonzero(~light)
+    for g in heavy if band else ():
+        pair_a, pair_b = _banded(a_pos[a_lo[g] : a_hi[g]], b_pos[b_lo[g] : b_hi[g]])
+        seeds_a.append(pair_a)
+        seeds_b.append(pair_b)
+    return (np.concatenate(seeds_a), np.concatenate(seeds_b)), keys[heavy]
+
+
+def _context_keys(side: _Side, fp: Fingerprint, chosen: np.ndarray, leftward: bool) -> _Index:
+    """Keys of selected k-grams joined with the c = (t - k) // 2 bytes before (or after) them,
+    and their positions; k-grams with fewer than c bytes there are left out."""
+    context = (fp.guarantee - fp.noise) // 2
+    positions, hashes = fp.positions[chosen], fp.hashes[chosen]
+    if leftward:
+        valid = positions >= context
+        starts = positions[valid] - context
+    else:
+        valid = positions + fp.noise + context <= len(fp.norm)
+        starts = positions[valid] + fp.noise
+    around = side.hash(starts, np.full(len(starts), context, dtype=np.int64))
+    return _mix(hashes[valid] * np.uint64(_P) + around), positions[valid]
+
+
+def _seeds(
+    a: Fingerprint, b: Fingerprint, sides: tuple[_Side, _Side], common: np.ndarray
+) -> _Index:
+    """Seed pairs (position in a, position in b) for the hashes in `common`.
+
+    A hash with more than HEAVY_PAIRS pairs is paired again on longer keys: the k-gram with the
+    c = (t - k) // 2 bytes before it, and with the c bytes after it. A shared passage of at least t
+    bytes holds its seed's k-gram with at least t - k bytes around it, so at least c on one side:
+    its seed is among these pairs. Keys that are still heavy are paired by rank (see `_banded`).
+    """
+    index_a, index_b = _index(a.hashes, a.positions), _index(b.hashes, b.positions)
+    found, heavy = _pairs(index_a, index_b, common, band=False)
+    seeds = [found]
+    if len(heavy):
+        in_a, in_b = np.isin(a.hashes, heavy), np.isin(b.hashes, heavy)
+        for leftward in (True, False):
+            keys_a = _context_keys(sides[0], a, in_a, leftward)
+            keys_b = _context_keys(sides[1], b, in_b, leftward)
+            both = np.intersect1d(keys_a[0], keys_b[0])
+            seeds.append(_pairs(_index(*keys_a), _index(*keys_b), both, band=True)[0])
+    return np.concatenate([s[0] for s in seeds]), np.concatenate([s[1] for s in seeds])
 
 
 class _Side:
@@ -491,11 +547,6 @@ def _select(
     return chosen
 
 
-def _index(fp: Fingerprint) -> _Index:
-    order = np.argsort(fp.hashes, kind="stable")
-    return fp.hashes[order], fp.positions[order]
-
-
 def shared_passages(
     a: Fingerprint, b: Fingerprint, *, min_length: int = GUARANTEE, ignore: np.ndarray | None = None
 ) -> list[Passage]:
@@ -527,8 +578,8 @@ def shared_passages(
         common = common[ignore[at] != common]
     if not len(common):
         return []
-    seeds = _seeds_of(_index(a), _index(b), common)
     side_a, side_b = _Side(a.norm), _Side(b.norm)
+    seeds = _seeds(a, b, (side_a, side_b), common)
     found = _extend(side_a, side_b, seeds, a, min_length)
     chosen = _select((a.norm, b.norm), found, min_length)
     passages = [
