@@ -400,7 +400,7 @@ def test_unrelated_solutions_in_one_language_share_no_long_passage(
 ) -> None:
     # Rosetta Code solutions of 40 different tasks in one language (code/<language>). Longest
     # passage measured over all 780 pairs: c 129 normalised bytes (bubble sort and insertion
-    # sort, one test harness), go 82 (the same two), java 57, python none of even 24 bytes.
+    # sort, one test harness), go 82 (the same two), java 57, python none found at 24 bytes.
     files = sorted((shared_data / "code" / language).iterdir())
     data = [path.read_bytes() for path in files]
     fps = [fingerprint(d) for d in data]

@@ -66,17 +66,24 @@ import numpy as np
 
 NOISE = 24
 """k: k-gram length in normalised bytes. Without whitespace 24 bytes are four or five words, an
-identifier with its call, or a log template's fixed words: far longer than the words and short
-phrases any two texts of one language share, so seeds are mostly worth extending."""
+identifier with its call, or a log template's fixed words: longer than the words and short
+phrases any two texts of one language share, so most seeds are worth extending (over all 780
+pairs of 40 unrelated Rosetta solutions in Python, in Ruby or in Common Lisp, no seed of k = 24
+extends to even 24 bytes; at k = 16 some do)."""
 
 GUARANTEE = 64
 """t: every shared normalised passage of at least t bytes is found (window w = t - k + 1 = 41,
 about 5 % of the positions selected). 64 normalised bytes are about one line of code or a dozen
-words; shorter shared passages are common between unrelated files of one kind (see the tests'
-measurements on real code and logs), so they are not what tells a copy."""
+words. Measured on the open datasets (normalised bytes): unrelated Rosetta solutions in one
+language share passages of up to 57 (Java) to 129 (C, two sorts with one test harness); lines
+1-500 of two Loghub systems at most 46; lines 1-500 and 1001-1500 of one system 70 to 171
+(Android: 530, one stack trace repeated), and their passages of at least t cover 2 to 51 % of
+the first chunk (HDFS 12 %; 30 % at k, t = 16, 48 and 3 % at 32, 96). So t = 64 finds every
+passage of a line or more, while a verdict of copying should ask for longer passages or more
+coverage than this chance sharing within one kind of file."""
 
 HEAVY_PAIRS = 4096
-"""A hash giving more seeds than this (occurrences in a times in b) is paired by rank."""
+"""A hash giving more seeds than this (occurrences in a times in b) is paired again by context."""
 
 BAND = 4
 """Occurrences of a heavy hash on the rarer side paired with each one on the other: 2 BAND + 1."""
@@ -559,11 +566,11 @@ def shared_passages(
     in b (a passage of a that matches several places of b is counted once), and checked on the
     bytes. Ties in length are ordered by position in a, then in b.
 
-    Every shared passage of at least a.guarantee bytes is found unless it is taken by a longer
-    one or seeded only by hashes in `ignore` (or, see the module, only by a k-gram repeated very
-    often in both files); passages shorter than the guarantee are found only when a selected
-    fingerprint falls in them. Raises ValueError for fingerprints made with other k or t, or
-    min_length < 1.
+    Every shared passage of at least a.guarantee bytes is found unless a longer passage found
+    overlaps it in a or in b, or its only seeds are hashes in `ignore` (or, see the module, a
+    k-gram that with its context repeats hundreds of times in both files); passages shorter
+    than the guarantee are found only when a selected fingerprint falls in them. Raises
+    ValueError for fingerprints made with other k or t, or min_length < 1.
     """
     if (a.noise, a.guarantee) != (b.noise, b.guarantee):
         raise ValueError(
@@ -580,6 +587,8 @@ def shared_passages(
         return []
     side_a, side_b = _Side(a.norm), _Side(b.norm)
     seeds = _seeds(a, b, (side_a, side_b), common)
+    if not len(seeds[0]):
+        return []
     found = _extend(side_a, side_b, seeds, a, min_length)
     chosen = _select((a.norm, b.norm), found, min_length)
     passages = [
