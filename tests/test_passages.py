@@ -443,3 +443,13 @@ def test_chunks_of_one_log_share_only_short_passages(shared_data: Path) -> None:
     check_passages(a, b, passages, GUARANTEE)
     assert passages and GUARANTEE <= passages[0].length < 200
     assert coverage(passages, fa, "a") < 0.3
+
+
+def test_coverage_is_the_union_of_intervals_over_normalised_bytes() -> None:
+    fp = fingerprint(b"ab cd\tef\n")  # normalised: abcdef, 6 bytes
+    first = Passage(a_start=0, a_end=2, b_start=3, b_end=5, length=2)  # ab | cd
+    second = Passage(a_start=1, a_end=5, b_start=6, b_end=8, length=3)  # bcd | ef
+    assert coverage([first, second], fp, "a") == pytest.approx(4 / 6)
+    assert coverage([first, second], fp, "b") == pytest.approx(4 / 6)
+    assert coverage([second], fp, "b") == pytest.approx(2 / 6)
+    assert coverage([first, second, first], fp, "a") == pytest.approx(4 / 6)
