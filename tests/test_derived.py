@@ -346,7 +346,19 @@ def test_derived_pairs_found_with_precision_recall_and_direction(
     assert all(found[p].relation == "identical" for p in copies)
     assert all(f.relation in RELATIONS for f in prefiltered.findings)
     keys = {"a", "b", "relation", "a_explained_by_b", "b_explained_by_a", "score", "fpr"}
+    keys |= {"a_shared_in_order", "b_shared_in_order", "passages"}
     assert all(set(row) == keys for row in prefiltered.as_json())
+    # The passages locate what was copied: inside both files, in order, and (edits aside) the
+    # same text; a reviewer can open both files at these offsets.
+    data = {item.name: item.data for item in corpus.items}
+    for f in prefiltered.findings:
+        if f.relation == "identical":
+            continue
+        assert f.stretches, f
+        for s in f.stretches:
+            a, b = data[f.a][s.a_start : s.a_end], data[f.b][s.b_start : s.b_end]
+            assert 0 <= s.a_start < s.a_end <= len(data[f.a]) and s.b_end <= len(data[f.b])
+            assert a.split()[0] == b.split()[0] and a.split()[-1] == b.split()[-1], s
 
 
 def test_unrelated_pairs_are_flagged_at_about_max_fpr(
@@ -425,3 +437,24 @@ def test_same_task_in_other_languages_is_mostly_not_derived(shared_data: Path) -
     )
     assert len(cross) / same_task_pairs <= 0.02
     assert all(f.relation == "partial_overlap" for f in cross)
+
+
+def test_the_null_is_made_of_files_of_the_candidates_kind() -> None:
+    # A null of other kinds (prose for a log, logs for code) lacks what files of one kind share,
+    # so a kind's pairs would pass it too often: where the set has at least four files of a
+    # kind, null material for its files comes from that kind only.
+    from kinpress.derived import _donor_pools, _null_material, kind_of
+
+    def item(name: str) -> Item:
+        return Item(name=name, data=name.encode() * 40 + b"\n", source=f"/share/{name}")
+
+    items = [item(f"m{k}.py") for k in range(5)] + [item(f"d{k}.txt") for k in range(2)]
+    items.append(Item(name="x", data=b"y\n", source="/logs/day1.log.gz"))
+    kinds = [kind_of(i) for i in items]
+    assert kinds[:5] == [".py"] * 5 and kinds[5] == ".txt" and kinds[7] == ".log"
+    pools = _donor_pools(kinds)
+    assert pools[".py"] == [0, 1, 2, 3, 4] and pools[".txt"] == list(range(8))
+    data = [i.data for i in items]
+    material = _null_material(0, 600, data, pools[".py"], lambda j: False, random.Random(1))
+    assert material and b"d0.txt" not in material and b"m0.py" not in material
+    assert b"m1.py" in material or b"m2.py" in material

@@ -14,7 +14,7 @@ import warnings
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
 from functools import partial
-from typing import Any, TextIO
+from typing import TYPE_CHECKING, Any, TextIO
 
 from .cache import CacheError, SizeCache, default_cache_path
 from .compressors import ADAPTERS, SpecError, compressor, describe
@@ -31,6 +31,9 @@ from .distance import (
 from .engine import ClusterError, DaskEngine, Engine, LocalEngine
 from .formats import MATRIX_FORMATS, emit, format_for, json_text, read_matrix, write_matrix
 from .items import DEFAULT_MAX_FILE_BYTES, InputError, Item, escape_name, load_items, read_labels
+
+if TYPE_CHECKING:
+    from .derived import DerivedFinding
 
 DEFAULT_COMPRESSOR = "auto"
 
@@ -364,9 +367,13 @@ def build_parser() -> argparse.ArgumentParser:
         "derived",
         help="find files copied from or derived from other files",
         description="For every candidate pair, how much of a is explained by b and of b by a "
-        "(1 - C(a|b)/C(a)), judged against a null of the set's own items with their content "
-        "block-shuffled: identical, near_copy, a_contains_b, b_contains_a or partial_overlap. "
-        "A MinHash prefilter proposes candidates unless --exhaustive. " + DERIVED_CAUTION,
+        "(1 - C(a|b)/C(a)), judged against a null of files of the same kind from the set with "
+        "their content block-shuffled. A related pair is derived when the two share long "
+        "stretches in the same order (whitespace ignored, edits allowed): identical, near_copy, "
+        "a_contains_b, b_contains_a or partial_overlap. Related pairs without such stretches "
+        "are files of one source (logs of one system, modules of one project, one template), "
+        "counted but listed only with --same-source. A MinHash prefilter proposes candidates "
+        "unless --exhaustive. " + DERIVED_CAUTION,
         formatter_class=argparse.RawDescriptionHelpFormatter,
         epilog=_examples(
             "kinpress derived exports/ --json -o findings.json",
@@ -386,6 +393,11 @@ def build_parser() -> argparse.ArgumentParser:
     )
     judge.add_argument("--seed", type=int, default=0, help="seed of the null and the sketches")
     dout = derived.add_argument_group("output")
+    dout.add_argument(
+        "--same-source",
+        action="store_true",
+        help="also list related pairs that share no long stretch (one source, nothing copied)",
+    )
     dout.add_argument("-o", "--output", metavar="FILE", help="write the findings here")
     dout.add_argument("--json", action="store_true", help="a JSON list of findings")
     _common(derived)
@@ -1167,23 +1179,48 @@ def run_derived(args: argparse.Namespace, console: Console) -> int:
         + (" (exhaustive)" if report.exhaustive else "")
         + f"; reported where the false-positive rate is at most {report.max_fpr:g}"
     )
+    kin = len(report.same_source)
+    if kin:
+        pairs = "pair shares" if kin == 1 else "pairs share"
+        console.say(
+            f"derived: {kin} more related {pairs} no long stretch in order: files of one"
+            " source, nothing copied" + ("" if args.same_source else " (--same-source lists them)")
+        )
+    shown = report.findings + (report.same_source if args.same_source else ())
     if args.json:
-        emit(json_text(report.as_json()), args.output)
+        emit(json_text([f.as_json() for f in shown]), args.output)
         return 0
     lines = []
     for number, family in enumerate(families(report.findings), start=1):
         lines.append(f"family {number}: {', '.join(map(escape_name, family.members))}")
-        for f in family.findings:
-            lines.append(
-                f"  {escape_name(f.a)}  {f.relation}  {escape_name(f.b)}   explained: a by b"
-                f" {f.a_explained_by_b:.2f}, b by a {f.b_explained_by_a:.2f};"
-                f" score {f.score:.3f}, fpr {f.fpr:.2g}"
-            )
+        lines += [f"  {line}" for f in family.findings for line in _finding_lines(f)]
+    if args.same_source and report.same_source:
+        lines += ["", "same source, nothing copied:"]
+        lines += [f"  {line}" for f in report.same_source for line in _finding_lines(f)]
     if not lines:
-        lines.append("no related pairs found")
+        lines.append("no derived pairs found")
     lines += ["", DERIVED_CAUTION]
     emit("\n".join(lines) + "\n", args.output)
     return 0
+
+
+def _finding_lines(f: DerivedFinding) -> list[str]:
+    """A finding as two lines: the relation and scores, then where the shared stretches are."""
+    head = (
+        f"{escape_name(f.a)}  {f.relation}  {escape_name(f.b)}   explained: a by b"
+        f" {f.a_explained_by_b:.2f}, b by a {f.b_explained_by_a:.2f};"
+        f" score {f.score:.3f}, fpr {f.fpr:.2g}"
+    )
+    if f.relation == "identical":
+        return [head]
+    where = f"shared in order: {f.a_in_order:.0%} of a, {f.b_in_order:.0%} of b"
+    if f.stretches:
+        s = f.stretches[0]
+        where += (
+            f"; longest stretch {s.length} bytes (whitespace aside), a bytes"
+            f" {s.a_start}-{s.a_end}, b bytes {s.b_start}-{s.b_end}"
+        )
+    return [head, f"    {where}"]
 
 
 DERIVED_CAUTION = (
