@@ -1,0 +1,254 @@
+"""`find_derived` on real data with known truth: precision, recall, direction, false findings.
+
+Corpora of benchmarks/derived_corpora.py, each run with default options (`find_derived(items)`,
+no cache):
+
+  (a) mixed_corpus, 5 seeds: log chunks, UDHR sections and Rosetta solutions with ~32 derived
+      pairs among ~200 files; goals precision >= 0.95, recall >= 0.95, direction >= 0.9.
+  (b) code_tree_corpus, 3 seeds: modules of installed Python projects, real vendored copies and
+      synthetic vendorings among sibling modules; goals precision >= 0.9, recall >= 0.9.
+  (c) same_source_corpus: no derived pair at all; goal findings <= max_fpr x pairs verified
+      (plus sampling error: the printed bound is A V + 2 sqrt(A V) + 1).
+  (r) rosetta_language_corpus, 2 seeds: the 40 Python solutions with 8 vendored-style copies
+      (imports rewritten, identifiers renamed); neighbours must not be reported.
+  (d) time_ordered_log_corpus, 1 seed (optional, with --corpora ...,d): originals from the
+      first half of each log, negatives from the second half.
+
+Recall counts a true pair found in report.findings with any relation; precision is the share
+of findings that are true pairs. Direction: excerpts and extensions found as a containment
+pointing the right way, among those found. report.same_source is counted when the attribute
+exists. False findings are listed with names, relation, scores and the independent 3-line
+window containment (`line_containment`: share of the smaller file's runs of three lines found
+in the other), so one can see what goes wrong.
+
+    python benchmarks/bench_derived_real.py [--corpora a,b,c] [--seeds-a 11,12,13,14,15]
+
+Baseline on main as of 6052ceb (see /work/notes/dcorpus-baseline.txt for the latest figures):
+filled in below after the first run.
+"""
+
+from __future__ import annotations
+
+import argparse
+import math
+import sys
+import time
+from collections import Counter
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+
+from derived_corpora import (
+    CONTAINMENT,
+    RealCorpus,
+    code_tree_corpus,
+    line_containment,
+    mixed_corpus,
+    rosetta_language_corpus,
+    same_source_corpus,
+    time_ordered_log_corpus,
+)
+
+from kinpress.derived import DerivedFinding, DerivedReport, find_derived
+
+SEEDS_A = (11, 12, 13, 14, 15)
+SEEDS_B = (21, 22, 23)
+SEED_C = 31
+SEED_D = 41
+SEEDS_R = (51, 52)
+
+
+@dataclass
+class Score:
+    """Figures of one run, or of several runs summed."""
+
+    name: str
+    files: int = 0
+    truth: int = 0
+    findings: int = 0
+    true_found: int = 0
+    verified: int = 0
+    ignored: int = 0
+    same_source: int = 0
+    same_source_true: int = 0
+    directions: int = 0
+    directions_right: int = 0
+    seconds: float = 0.0
+    max_fpr: float = 0.01
+    per_transformation: Counter[str] = field(default_factory=Counter)
+    per_transformation_found: Counter[str] = field(default_factory=Counter)
+    false: list[str] = field(default_factory=list)
+    missed: list[str] = field(default_factory=list)
+
+    def add(self, other: Score) -> None:
+        for key in (
+            "files",
+            "truth",
+            "findings",
+            "true_found",
+            "verified",
+            "same_source",
+            "ignored",
+        ):
+            setattr(self, key, getattr(self, key) + getattr(other, key))
+        self.same_source_true += other.same_source_true
+        self.directions += other.directions
+        self.directions_right += other.directions_right
+        self.seconds += other.seconds
+        self.per_transformation += other.per_transformation
+        self.per_transformation_found += other.per_transformation_found
+        self.false += other.false
+        self.missed += other.missed
+
+    @property
+    def precision(self) -> float:
+        return self.true_found / self.findings if self.findings else 1.0
+
+    @property
+    def recall(self) -> float:
+        return self.true_found / self.truth if self.truth else 1.0
+
+    @property
+    def direction(self) -> float:
+        return self.directions_right / self.directions if self.directions else math.nan
+
+    @property
+    def fpr_bound(self) -> float:
+        expected = self.max_fpr * self.verified
+        return expected + 2 * math.sqrt(expected) + 1
+
+
+def container(finding: DerivedFinding) -> str | None:
+    return {"a_contains_b": finding.a, "b_contains_a": finding.b}.get(finding.relation)
+
+
+def describe(f: DerivedFinding, corpus: RealCorpus, data: dict[str, bytes]) -> str:
+    lc = line_containment(data[f.a], data[f.b])
+    src = "same source" if corpus.source[f.a] == corpus.source[f.b] else "other sources"
+    return (
+        f"    {f.a}  {f.b}  {f.relation}  e(a|b)={f.a_explained_by_b:.3f} "
+        f"e(b|a)={f.b_explained_by_a:.3f} score={f.score:.3f} fpr={f.fpr:.4f} "
+        f"sizes={len(data[f.a])}/{len(data[f.b])} lines3={lc:.2f} ({src})"
+    )
+
+
+def evaluate(name: str, corpus: RealCorpus) -> Score:
+    """Run find_derived with default options on the corpus and score it against the truth."""
+    started = time.perf_counter()
+    report: DerivedReport = find_derived(corpus.items)
+    score = Score(name, files=len(corpus.items), truth=len(corpus.truth))
+    score.seconds = time.perf_counter() - started
+    score.max_fpr = report.max_fpr
+    score.verified = report.counts.verified
+    data = {item.name: item.data for item in corpus.items}
+    found = {frozenset((f.a, f.b)): f for f in report.findings}
+    score.ignored = sum(1 for p in found if p in corpus.ignore)
+    score.findings = len(found) - score.ignored
+    same = getattr(report, "same_source", None)
+    if same is not None:
+        score.same_source = len(same)
+        score.same_source_true = sum(1 for f in same if frozenset((f.a, f.b)) in corpus.truth)
+    for pair, how in corpus.truth.items():
+        score.per_transformation[how.transformation] += 1
+        finding = found.get(pair)
+        if finding is None:
+            a, b = sorted(pair)
+            score.missed.append(f"    {how.transformation}: {a}  {b}")
+            continue
+        score.true_found += 1
+        score.per_transformation_found[how.transformation] += 1
+        if how.relation == CONTAINMENT:
+            score.directions += 1
+            score.directions_right += container(finding) == how.container
+    score.false = [
+        describe(f, corpus, data)
+        for p, f in found.items()
+        if p not in corpus.truth and p not in corpus.ignore
+    ]
+    return score
+
+
+def show(score: Score, goals: tuple[float, float] | None, fpr: bool) -> None:
+    print(f"  {score.name}: {score.files} files, {score.truth} true pairs, {score.verified} "
+          f"verified, {score.findings} findings ({score.ignored} more on unlabeled "
+          f"pairs), {score.seconds:.1f} s")  # fmt: skip
+    if goals:
+        print(f"    precision {score.precision:.3f} (goal >= {goals[0]})  recall "
+              f"{score.recall:.3f} (goal >= {goals[1]})  direction {score.direction:.3f} "
+              f"(goal >= 0.9, {score.directions} containments found)")  # fmt: skip
+    if fpr:
+        print(f"    false findings {score.findings - score.true_found} vs bound "
+              f"{score.fpr_bound:.1f} = A V + 2 sqrt(A V) + 1 at A = {score.max_fpr}")  # fmt: skip
+    print(f"    same_source: {score.same_source} (true derived pairs among them: "
+          f"{score.same_source_true})")  # fmt: skip
+    if score.truth:
+        rows = ", ".join(
+            f"{t} {score.per_transformation_found[t]}/{n}"
+            for t, n in sorted(score.per_transformation.items())
+        )
+        print(f"    per transformation: {rows}")
+    for line in score.false:
+        print(line.replace("    ", "    FALSE ", 1))
+    for line in score.missed:
+        print(line.replace("    ", "    MISSED ", 1))
+
+
+def run(
+    label: str, builder: Callable[[int], RealCorpus], seeds: tuple[int, ...],
+    goals: tuple[float, float] | None, fpr: bool,
+) -> Score:  # fmt: skip
+    total = Score(label)
+    print(f"== {label}")
+    for seed in seeds:
+        score = evaluate(f"{label} seed {seed}", builder(seed))
+        show(score, goals, fpr)
+        total.add(score)
+        sys.stdout.flush()
+    return total
+
+
+def summary(totals: list[tuple[Score, str]]) -> None:
+    print("\n== summary (all seeds of each corpus pooled)")
+    head = (f"{'corpus':<12}{'files':>7}{'true':>6}{'find':>6}{'prec':>7}{'recall':>8}{'dir':>7}"
+            f"{'verif':>8}{'false':>7}{'bound':>7}{'same_src':>9}{'secs':>7}  goal")  # fmt: skip
+    print(head)
+    for s, goal in totals:
+        print(
+            f"{s.name:<12}{s.files:>7}{s.truth:>6}{s.findings:>6}{s.precision:>7.3f}"
+            f"{s.recall:>8.3f}{s.direction:>7.3f}{s.verified:>8}{s.findings - s.true_found:>7}"
+            f"{s.fpr_bound:>7.1f}{s.same_source:>9}{s.seconds:>7.1f}  {goal}"
+        )
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    parser.add_argument("--corpora", default="a,b,c,r", help="which of a,b,c,r,d to run")
+    parser.add_argument("--seeds-a", default=",".join(map(str, SEEDS_A)))
+    parser.add_argument("--seeds-b", default=",".join(map(str, SEEDS_B)))
+    args = parser.parse_args()
+    wanted = set(args.corpora.split(","))
+    seeds_a = tuple(int(s) for s in args.seeds_a.split(","))
+    seeds_b = tuple(int(s) for s in args.seeds_b.split(","))
+    totals: list[tuple[Score, str]] = []
+    if "a" in wanted:
+        totals.append((run("mixed", mixed_corpus, seeds_a, (0.95, 0.95), False),
+                       "prec >= 0.95, recall >= 0.95, dir >= 0.9"))  # fmt: skip
+    if "b" in wanted:
+        totals.append((run("code_tree", code_tree_corpus, seeds_b, (0.9, 0.9), False),
+                       "prec >= 0.9, recall >= 0.9, dir >= 0.9"))  # fmt: skip
+    if "c" in wanted:
+        totals.append((run("same_source", same_source_corpus, (SEED_C,), None, True),
+                       "false <= bound"))  # fmt: skip
+    if "r" in wanted:
+        totals.append((run("rosetta_py", rosetta_language_corpus, SEEDS_R, (0.9, 0.9), False),
+                       "copies found, neighbours not reported"))  # fmt: skip
+    if "d" in wanted:
+        totals.append((run("time_logs", time_ordered_log_corpus, (SEED_D,), (0.95, 0.95), True),
+                       "prec >= 0.95, recall >= 0.95 (optional)"))  # fmt: skip
+    summary(totals)
+
+
+if __name__ == "__main__":
+    main()
