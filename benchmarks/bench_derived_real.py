@@ -9,8 +9,9 @@ no cache):
       synthetic vendorings among sibling modules; goals precision >= 0.9, recall >= 0.9.
   (c) same_source_corpus: no derived pair at all; goal findings <= max_fpr x pairs verified
       (plus sampling error: the printed bound is A V + 2 sqrt(A V) + 1).
-  (r) rosetta_language_corpus, 2 seeds: the 40 Python solutions with 8 vendored-style copies
-      (imports rewritten, identifiers renamed); neighbours must not be reported.
+  (r) rosetta_language_corpus, 2 seeds each of Python and Go: the 40 solutions of the language
+      with 8 vendored-style copies (imports rewritten, identifiers renamed); goal: every copy
+      found, no neighbour reported.
   (d) time_ordered_log_corpus, 1 seed (optional, with --corpora ...,d): originals from the
       first half of each log, negatives from the second half.
 
@@ -36,6 +37,7 @@ import time
 from collections import Counter
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from functools import partial
 from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
@@ -242,8 +244,10 @@ def main() -> None:
         totals.append((run("same_source", same_source_corpus, (SEED_C,), None, True),
                        "false <= bound"))  # fmt: skip
     if "r" in wanted:
-        totals.append((run("rosetta_py", rosetta_language_corpus, SEEDS_R, (0.9, 0.9), False),
-                       "copies found, neighbours not reported"))  # fmt: skip
+        for language in ("python", "go"):
+            builder = partial(rosetta_language_corpus, language=language)
+            totals.append((run(f"rosetta_{language}", builder, SEEDS_R, (0.9, 0.9), False),
+                           "copies found, no neighbour (false = 0)"))  # fmt: skip
     if "d" in wanted:
         totals.append((run("time_logs", time_ordered_log_corpus, (SEED_D,), (0.95, 0.95), True),
                        "prec >= 0.95, recall >= 0.95 (optional)"))  # fmt: skip

@@ -95,6 +95,22 @@ class RealCorpus:
                     pairs.add(frozenset((a, b)))
         return pairs - self.truth.keys()
 
+    def mark_shared_passages(self, limit: float = 0.25) -> RealCorpus:
+        """Leave out of scoring (`ignore`) every pair not derived by construction that shares
+        `limit` of the smaller file's runs of three lines (`line_containment`): real data hold
+        such pairs (Rosetta sort solutions share one test harness copied between tasks), and
+        calling their finding false would be unfair."""
+        windows = [line_windows(item.data) for item in self.items]
+        for i, a in enumerate(self.items):
+            for j in range(i + 1, len(self.items)):
+                wa, wb = windows[i], windows[j]
+                if not wa or not wb or len(wa & wb) < limit * min(len(wa), len(wb)):
+                    continue
+                pair = frozenset((a.name, self.items[j].name))
+                if pair not in self.truth:
+                    self.ignore.add(pair)
+        return self
+
     def shuffled(self, seed: int) -> RealCorpus:
         random.Random(seed).shuffle(self.items)
         return self
@@ -452,7 +468,7 @@ def mixed_corpus(
     _log_part(corpus, rng, root, log_pairs, log_negatives)
     _text_part(corpus, rng, root, text_pairs, text_negatives)
     _code_part(corpus, rng, root, code_pairs, code_negatives)
-    return corpus.shuffled(seed + 1)
+    return corpus.mark_shared_passages().shuffled(seed + 1)
 
 
 def time_ordered_log_corpus(
@@ -481,7 +497,7 @@ def time_ordered_log_corpus(
             if span is None:
                 break
             corpus.add(f"logs/{log}-{next(serial):03d}.log", late.text(span), f"log:{log}")
-    return corpus.shuffled(seed + 1)
+    return corpus.mark_shared_passages().shuffled(seed + 1)
 
 
 # --------------------------------------------------------------------------------------------
@@ -519,7 +535,7 @@ def same_source_corpus(
             if span is not None:
                 name = f"texts/{path.stem}-{next(serial):04d}.txt"
                 corpus.add(name, ranges.text(span), f"text:{path.stem}")
-    return corpus.shuffled(seed + 1)
+    return corpus.mark_shared_passages().shuffled(seed + 1)
 
 
 # --------------------------------------------------------------------------------------------
@@ -812,7 +828,7 @@ def code_tree_corpus(
         _label_real(chosen, names)
     _synthetic_part(chosen, rng, modules, synthetic)
     _sibling_part(chosen, rng, modules, files)
-    return corpus.shuffled(seed + 1)
+    return corpus.mark_shared_passages().shuffled(seed + 1)
 
 
 def _synthetic_part(
@@ -871,7 +887,8 @@ _KEYWORDS = frozenset(
         "and as assert async await break class continue def del elif else except False finally",
         "for from global if import in is lambda None nonlocal not or pass raise return True try",
         "while with yield self print range len list dict str int float main func package var",
-        "const type struct public static void string begin end then",
+        "const type struct public static void string begin end then float64 float32 int64",
+        "int32 byte rune bool error make append strings fmt math",
     )).split()
 )  # fmt: skip
 
@@ -900,12 +917,28 @@ def rewritten_imports(data: bytes) -> bytes:
     return _IMPORT.sub(fix, data)
 
 
+_GO_IMPORT = re.compile(rb'^(\s*(?:import\s+)?(?:\w+\s+)?)"([\w./-]+)"(\s*)$', re.M)
+
+
+def rewritten_go_imports(data: bytes) -> bytes:
+    """Go import paths moved under myproj/_vendor/ (`"fmt"` -> `"myproj/_vendor/fmt"`)."""
+    return _GO_IMPORT.sub(
+        lambda m: m.group(1) + b'"myproj/_vendor/' + m.group(2) + b'"' + m.group(3), data
+    )
+
+
+REWRITE_IMPORTS: dict[str, Callable[[bytes], bytes]] = {
+    "python": rewritten_imports,
+    "go": rewritten_go_imports,
+}
+
+
 def rosetta_language_corpus(
     seed: int, root: Path = SHARED_DATA, *, language: str = "python", copies: int = 8
 ) -> RealCorpus:
     """All solutions of one Rosetta language; `copies` of them also copied with imports
-    rewritten (Python) and 3-5 identifiers renamed. The other solutions, of the same language
-    and site conventions, are the negatives."""
+    rewritten (Python, Go: `REWRITE_IMPORTS`) and 3-5 identifiers renamed. The other
+    solutions, of the same language and site conventions, are the negatives."""
     root = _require_shared(root)
     rng = random.Random(seed)
     corpus = RealCorpus()
@@ -914,8 +947,10 @@ def rosetta_language_corpus(
         data = path.read_bytes()
         name = corpus.add(f"code/{language}/{path.name}", data, f"code:{language}")
         if k < copies:
-            copy = rewritten_imports(renamed_identifiers(rng, data, rng.randint(3, 5)))
+            copy = renamed_identifiers(rng, data, rng.randint(3, 5))
+            if language in REWRITE_IMPORTS:
+                copy = REWRITE_IMPORTS[language](copy)
             other = corpus.add(f"vendor/{language}/{path.name}", copy, f"code:{language}")
             how = "copy" if copy == data else "vendor_renamed"
             corpus.derive(name, other, Derivation(how, EXPECTED.get(how, "near_copy")))
-    return corpus.shuffled(seed + 1)
+    return corpus.mark_shared_passages().shuffled(seed + 1)

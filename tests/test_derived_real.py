@@ -58,16 +58,20 @@ def test_mixed_real_corpus_precision_and_recall(shared_data: Path) -> None:
     assert precision >= 0.95, (SEED, precision, false[:10])
 
 
-@PENDING
 @pytest.mark.shared
-def test_vendored_copies_found_among_solutions_of_one_language(shared_data: Path) -> None:
-    # 40 Python solutions of one site (shared idioms, imports, comment style); 8 copied with
-    # imports moved under myproj._vendor and 3-5 identifiers renamed.
-    corpus = rosetta_language_corpus(SEED, shared_data)
-    print(f"rosetta_language_corpus seed {SEED}: {len(corpus.items)} files")
+@pytest.mark.parametrize("language", ["python", pytest.param("go", marks=PENDING)])
+def test_vendored_copies_found_among_solutions_of_one_language(
+    shared_data: Path, language: str
+) -> None:
+    # The 40 solutions of one language from one site (shared idioms, imports, comment style);
+    # 8 copied with imports moved under myproj/_vendor and 3-5 identifiers renamed. Python
+    # passes already and guards recall of renamed copies; small Go files sharing `package
+    # main` and `import "fmt"` are reported today.
+    corpus = rosetta_language_corpus(SEED, shared_data, language=language)
+    print(f"rosetta_language_corpus seed {SEED} {language}: {len(corpus.items)} files")
     _, recall, false = scored(corpus, find_derived(corpus.items))
     assert recall == 1.0, (SEED, recall)
-    assert len(false) <= 1, (SEED, false)
+    assert not false, (SEED, false)
 
 
 @PENDING
@@ -78,6 +82,5 @@ def test_same_source_files_are_reported_at_most_at_the_stated_rate(shared_data: 
     report = find_derived(corpus.items)
     print(f"same_source_corpus seed {SEED}: {len(corpus.items)} files, "
           f"{report.counts.verified} verified, {len(report.findings)} findings")  # fmt: skip
-    assert len(report.findings) <= fpr_bound(report), [
-        f"{f.a} {f.b} {f.relation} {f.score:.3f}" for f in report.findings[:10]
-    ]
+    false = [f for f in report.findings if frozenset((f.a, f.b)) not in corpus.ignore]
+    assert len(false) <= fpr_bound(report), [f"{f.a} {f.b} {f.relation}" for f in false[:10]]
