@@ -43,7 +43,6 @@ from pathlib import Path
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 from derived_corpora import (
-    CONTAINMENT,
     RealCorpus,
     code_tree_corpus,
     line_containment,
@@ -54,6 +53,9 @@ from derived_corpora import (
 )
 
 from kinpress.derived import DerivedFinding, DerivedReport, find_derived
+
+DIRECTED = ("excerpt", "extension")
+"""Transformations whose direction is scored (real vendored pairs a version apart are not)."""
 
 SEEDS_A = (11, 12, 13, 14, 15)
 SEEDS_B = (21, 22, 23)
@@ -161,9 +163,13 @@ def evaluate(name: str, corpus: RealCorpus) -> Score:
             continue
         score.true_found += 1
         score.per_transformation_found[how.transformation] += 1
-        if how.relation == CONTAINMENT:
+        if how.transformation in DIRECTED:
             score.directions += 1
-            score.directions_right += container(finding) == how.container
+            right = container(finding) == how.container
+            score.directions_right += right
+            if not right:
+                score.missed.append(f"    WRONG DIRECTION {how.transformation}: {finding.a}  "
+                                    f"{finding.b}  {finding.relation}")  # fmt: skip
     score.false = [
         describe(f, corpus, data)
         for p, f in found.items()
@@ -194,7 +200,7 @@ def show(score: Score, goals: tuple[float, float] | None, fpr: bool) -> None:
     for line in score.false:
         print(line.replace("    ", "    FALSE ", 1))
     for line in score.missed:
-        print(line.replace("    ", "    MISSED ", 1))
+        print(line if "WRONG" in line else line.replace("    ", "    MISSED ", 1))
 
 
 def run(

@@ -161,14 +161,14 @@ def extended(rng: random.Random, data: bytes, extra: bytes) -> bytes:
 
 
 def reordered(rng: random.Random, data: bytes, separator: bytes | None = None) -> bytes:
-    """Blocks in shuffled order: blocks split at `separator`, or runs of 5-15 lines.
+    """Blocks in shuffled order: blocks split at `separator` (paragraph lines of texts, blank
+    lines of code), or runs of 5-15 lines.
 
     At least two blocks change place; a file of one block is returned with its two halves
     swapped.
     """
     if separator is not None and data.count(separator) >= 2:
-        blocks = [b + separator for b in data.split(separator)]
-        blocks[-1] = blocks[-1][: -len(separator)]
+        blocks = [b + separator for b in data.split(separator) if b.strip()]
     else:
         lines, blocks = data.splitlines(keepends=True), []
         while lines:
@@ -390,7 +390,7 @@ def _text_part(
         per_line = sum(map(len, r.lines)) / len(r.lines)
         span = r.take(rng.randint(8, 20))
         assert span is not None, lang
-        make = _Maker(rng, _vocabulary(r.lines), r.taker(per_line))
+        make = _Maker(rng, _vocabulary(r.lines), r.taker(per_line), separator=b"\n")
         original = (f"texts/{lang}-{next(serial):03d}.txt", r.text(span), f"text:{lang}")
         _add_pair(corpus, make, transformation, original, f"texts/{lang}-{next(serial):03d}.txt")
     for k in range(negatives):
