@@ -22,7 +22,8 @@ exists. False findings are listed with names, relation, scores and the independe
 window containment (`line_containment`: share of the smaller file's runs of three lines found
 in the other), so one can see what goes wrong.
 
-    python benchmarks/bench_derived_real.py [--corpora a,b,c] [--seeds-a 11,12,13,14,15]
+    python benchmarks/bench_derived_real.py [--corpora a,b,c,r,d] [--seeds-a 11,12,13,14,15]
+        [--seeds-b 21,22,23] [--json figures.json]
 
 Baseline: main as of 6052ceb (derived.py before passage evidence), 2 shared cores, seeds pooled:
 
@@ -42,6 +43,7 @@ one template; (c) reports 65 of 120 verified same-source pairs where max_fpr = 0
 from __future__ import annotations
 
 import argparse
+import json
 import math
 import sys
 import time
@@ -253,7 +255,10 @@ def main() -> None:
     parser.add_argument("--corpora", default="a,b,c,r", help="which of a,b,c,r,d to run")
     parser.add_argument("--seeds-a", default=",".join(map(str, SEEDS_A)))
     parser.add_argument("--seeds-b", default=",".join(map(str, SEEDS_B)))
+    parser.add_argument("--json", type=Path, help="also write the pooled figures to this new file")
     args = parser.parse_args()
+    if args.json is not None and args.json.exists():
+        parser.error(f"{args.json} exists: not overwritten")
     wanted = set(args.corpora.split(","))
     seeds_a = tuple(int(s) for s in args.seeds_a.split(","))
     seeds_b = tuple(int(s) for s in args.seeds_b.split(","))
@@ -276,6 +281,29 @@ def main() -> None:
         totals.append((run("time_logs", time_ordered_log_corpus, (SEED_D,), (0.95, 0.95), True),
                        "prec >= 0.95, recall >= 0.95 (optional)"))  # fmt: skip
     summary(totals)
+    if args.json is not None:
+        args.json.write_text(json.dumps([figures(s) for s, _ in totals], indent=1) + "\n")
+
+
+def figures(s: Score) -> dict[str, object]:
+    """Pooled figures of one corpus, for comparing runs."""
+    return {
+        "corpus": s.name,
+        "files": s.files,
+        "true_pairs": s.truth,
+        "findings": s.findings,
+        "precision": s.precision,
+        "recall": s.recall,
+        "direction": None if math.isnan(s.direction) else s.direction,
+        "verified": s.verified,
+        "false": s.findings - s.true_found,
+        "fpr_bound": s.fpr_bound,
+        "same_source": s.same_source,
+        "seconds": s.seconds,
+        "recall_per_transformation": {
+            t: s.per_transformation_found[t] / n for t, n in sorted(s.per_transformation.items())
+        },
+    }
 
 
 if __name__ == "__main__":
