@@ -97,6 +97,7 @@ class Score:
     per_transformation: Counter[str] = field(default_factory=Counter)
     per_transformation_found: Counter[str] = field(default_factory=Counter)
     false: list[str] = field(default_factory=list)
+    false_kinds: Counter[str] = field(default_factory=Counter)
     missed: list[str] = field(default_factory=list)
 
     def add(self, other: Score) -> None:
@@ -117,6 +118,7 @@ class Score:
         self.per_transformation += other.per_transformation
         self.per_transformation_found += other.per_transformation_found
         self.false += other.false
+        self.false_kinds += other.false_kinds
         self.missed += other.missed
 
     @property
@@ -168,14 +170,16 @@ def evaluate(name: str, corpus: RealCorpus) -> Score:
         score.same_source = len(same)
         score.same_source_true = sum(1 for f in same if frozenset((f.a, f.b)) in corpus.truth)
     for pair, how in corpus.truth.items():
-        score.per_transformation[how.transformation] += 1
+        kind = corpus.source[next(iter(pair))].split(":")[0]
+        key = f"{kind}:{how.transformation}"
+        score.per_transformation[key] += 1
         finding = found.get(pair)
         if finding is None:
             a, b = sorted(pair)
             score.missed.append(f"    {how.transformation}: {a}  {b}")
             continue
         score.true_found += 1
-        score.per_transformation_found[how.transformation] += 1
+        score.per_transformation_found[key] += 1
         if how.transformation in DIRECTED:
             score.directions += 1
             right = container(finding) == how.container
@@ -183,11 +187,12 @@ def evaluate(name: str, corpus: RealCorpus) -> Score:
             if not right:
                 score.missed.append(f"    WRONG DIRECTION {how.transformation}: {finding.a}  "
                                     f"{finding.b}  {finding.relation}")  # fmt: skip
-    score.false = [
-        describe(f, corpus, data)
-        for p, f in found.items()
-        if p not in corpus.truth and p not in corpus.ignore
-    ]
+    false = [f for p, f in found.items() if p not in corpus.truth and p not in corpus.ignore]
+    score.false = [describe(f, corpus, data) for f in false]
+    for f in false:
+        kinds = sorted(corpus.source[n] if corpus.source[f.a] == corpus.source[f.b] else
+                       corpus.source[n].split(":")[0] for n in (f.a, f.b))  # fmt: skip
+        score.false_kinds[" ~ ".join(dict.fromkeys(kinds))] += 1
     return score
 
 
@@ -241,13 +246,17 @@ def summary(totals: list[tuple[Score, str]]) -> None:
             f"{s.recall:>8.3f}{s.direction:>7.3f}{s.verified:>8}{s.findings - s.true_found:>7}"
             f"{s.fpr_bound:>7.1f}{s.same_source:>9}{s.seconds:>7.1f}  {goal}"
         )
-    print("\nrecall per transformation (all seeds pooled)")
+    print("\nrecall per kind of file and transformation (all seeds pooled)")
     for s, _ in totals:
         rows = ", ".join(
             f"{t} {s.per_transformation_found[t]}/{n}"
             for t, n in sorted(s.per_transformation.items())
         )
         print(f"  {s.name}: {rows}")
+    print("\nfalse findings by source (one source, or the kinds of two sources; seeds pooled)")
+    for s, _ in totals:
+        rows = ", ".join(f"{k} {n}" for k, n in s.false_kinds.most_common())
+        print(f"  {s.name}: {rows or 'none'}")
 
 
 def main() -> None:
