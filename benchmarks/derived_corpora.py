@@ -194,6 +194,7 @@ def rewrapped(rng: random.Random, data: bytes) -> bytes:
 
 
 def crlf(data: bytes) -> bytes:
+    """Every line ending CRLF."""
     return data.replace(b"\r\n", b"\n").replace(b"\n", b"\r\n")
 
 
@@ -742,6 +743,8 @@ class _Chosen:
         self.module: dict[str, str] = {}
 
     def overlaps(self, data: bytes, module: str, limit: float) -> bool:
+        """Whether `data` shares `limit` of its line windows with a chosen file of another path
+        (or has no window at all)."""
         mine = line_windows(data)
         return not mine or any(
             len(mine & w) >= limit * min(len(mine), len(w))
