@@ -228,7 +228,10 @@ def run(
     total = Score(label)
     print(f"== {label}")
     for seed in seeds:
-        score = evaluate(f"{label} seed {seed}", builder(seed))
+        corpus = builder(seed)
+        for note in corpus.notes:
+            print(f"  note (seed {seed}): {note}")
+        score = evaluate(f"{label} seed {seed}", corpus)
         show(score, goals, fpr)
         total.add(score)
         sys.stdout.flush()
