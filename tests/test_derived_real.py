@@ -28,8 +28,6 @@ from kinpress.derived import DerivedReport, find_derived
 SEED = 101
 """Fixed (reproducible), and not among the benchmark's seeds."""
 
-PENDING = pytest.mark.xfail(strict=False, reason="derived: passage evidence not merged yet")
-
 
 def scored(corpus: RealCorpus, report: DerivedReport) -> tuple[float, float, list[str]]:
     """Precision and recall against the truth, and the false findings as readable lines."""
@@ -47,7 +45,6 @@ def fpr_bound(report: DerivedReport) -> float:
     return expected + 2 * math.sqrt(expected) + 1
 
 
-@PENDING
 @pytest.mark.shared
 def test_mixed_real_corpus_precision_and_recall(shared_data: Path) -> None:
     corpus = mixed_corpus(SEED, shared_data, log_negatives=4, text_negatives=14,
@@ -59,14 +56,14 @@ def test_mixed_real_corpus_precision_and_recall(shared_data: Path) -> None:
 
 
 @pytest.mark.shared
-@pytest.mark.parametrize("language", ["python", pytest.param("go", marks=PENDING)])
+@pytest.mark.parametrize("language", ["python", "go", "java", "c"])
 def test_vendored_copies_found_among_solutions_of_one_language(
     shared_data: Path, language: str
 ) -> None:
     # The 40 solutions of one language from one site (shared idioms, imports, comment style);
-    # 8 copied with imports moved under myproj/_vendor and 3-5 identifiers renamed. Python
-    # passes already and guards recall of renamed copies; small Go files sharing `package
-    # main` and `import "fmt"` are reported today.
+    # 8 copied with 3-5 identifiers renamed (and, in Python and Go, imports moved under
+    # myproj/_vendor). Renamed names break the stretches of small files as written; with names
+    # aside (parameterised strings) the copies line up again, and the neighbours still do not.
     corpus = rosetta_language_corpus(SEED, shared_data, language=language)
     print(f"rosetta_language_corpus seed {SEED} {language}: {len(corpus.items)} files")
     _, recall, false = scored(corpus, find_derived(corpus.items))
@@ -74,7 +71,6 @@ def test_vendored_copies_found_among_solutions_of_one_language(
     assert not false, (SEED, false)
 
 
-@PENDING
 @pytest.mark.shared
 def test_same_source_files_are_reported_at_most_at_the_stated_rate(shared_data: Path) -> None:
     corpus = same_source_corpus(SEED, shared_data, log_chunks=5, solutions=8, text_sections=2)
@@ -84,3 +80,5 @@ def test_same_source_files_are_reported_at_most_at_the_stated_rate(shared_data: 
           f"{report.counts.verified} verified, {len(report.findings)} findings")  # fmt: skip
     false = [f for f in report.findings if frozenset((f.a, f.b)) not in corpus.ignore]
     assert len(false) <= fpr_bound(report), [f"{f.a} {f.b} {f.relation}" for f in false[:10]]
+    # What the compression test relates here is one source's files, reported apart.
+    assert report.same_source and all(f.relation == "same_source" for f in report.same_source)

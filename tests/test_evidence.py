@@ -129,3 +129,26 @@ def test_boilerplate_common_to_many_files_seeds_nothing() -> None:
     # The copied 900 bytes are about 37 % of each file's distinctive (non-header) content.
     assert pair.longest >= 0.9 * len(_squeeze(copied))
     assert np.isclose(pair.a_seeded, 900 / 2400, atol=0.06)
+
+
+def test_names_aside_lines_up_a_consistently_renamed_copy(shared_data: Path) -> None:
+    # Baker's parameterised strings: a name becomes how many names back it last occurred, so
+    # renaming every `total` to `acc_v2` changes nothing, while other code stays other code.
+    from kinpress.evidence import names_aside, remapped
+
+    files = sorted((shared_data / "code" / "python").iterdir())
+    original = files[3].read_bytes()
+    names = sorted(set(re.findall(rb"\b[a-z_][a-z0-9_]{3,}\b", original)))[:4]
+    copy = original
+    for name in names:
+        copy = re.sub(rb"\b" + name + rb"\b", name + b"_v2", copy)
+    text, starts, ends = names_aside(original)
+    copy_text, copy_starts, copy_ends = names_aside(copy)
+    assert text == copy_text and len(starts) == len(ends) == len(text)
+    found = evidence(seed_print(text), seed_print(copy_text))
+    assert found.a_covered >= 0.95 and found.a_seeded >= 0.95
+    s = remapped(found, (starts, ends), (copy_starts, copy_ends)).stretches[0]
+    assert s.a_end - s.a_start >= 0.9 * len(original.strip())
+    assert s.b_end <= len(copy) and copy[s.b_start : s.b_end].strip()
+    other = names_aside(files[4].read_bytes())[0]
+    assert evidence(seed_print(text), seed_print(other)).a_covered < 0.2

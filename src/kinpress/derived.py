@@ -18,7 +18,8 @@ material of items of the same kind at matching sizes (see `find_derived`).
 
 Compression says how much two files share, not how. A related pair is derived only when the two
 share stretches in the same order that span SPANNED of the smaller file and hold FOUND_IN_ORDER of
-its own fingerprints (see `evidence`); derived pairs get a relation (see `relation`). Related
+its own fingerprints (see `evidence`), as written or with names aside (`names_aside`: a copy
+with consistently renamed identifiers); derived pairs get a relation (see `relation`). Related
 pairs without such stretches are SAME_SOURCE: logs of one system, modules of one project,
 documents of one template share vocabulary, templates and repeated lines scattered over both
 files, which compresses well together but is not copying.
@@ -44,7 +45,15 @@ from .compressors import Compressor
 from .compressors import compressor as make_compressor
 from .distance import MatrixStats, Progress, conditional_sizes, content_digest
 from .engine import Engine
-from .evidence import NO_EVIDENCE, Evidence, Stretch, evidence, seed_print
+from .evidence import (
+    NO_EVIDENCE,
+    Evidence,
+    Stretch,
+    evidence,
+    names_aside,
+    remapped,
+    seed_print,
+)
 from .items import InputError, Item
 from .passages import Fingerprint
 
@@ -560,26 +569,34 @@ def _related(
     return [pair for pair, ok in zip(pairs, passed.tolist(), strict=True) if ok]
 
 
-def _fingerprints(
-    items: Sequence[Item], wanted: set[int]
-) -> tuple[dict[int, Fingerprint], np.ndarray, int]:
-    """Fingerprints of the `wanted` items, the set's boilerplate hashes, and the file count that
-    makes a hash boilerplate (COMMON_FILES, or COMMON_SHARE of the files if more). Every item is
-    fingerprinted once for the count; only the wanted ones are kept."""
-    common = max(COMMON_FILES, math.ceil(COMMON_SHARE * len(items)))
+@dataclass(frozen=True)
+class _View:
+    """The wanted items' fingerprints in one view of the files, the set's boilerplate hashes in
+    that view, and where each byte of a view came from (None: the files as written)."""
+
+    prints: dict[int, Fingerprint]
+    ignore: np.ndarray
+    maps: dict[int, tuple[np.ndarray, np.ndarray]] | None
+
+
+def _view(items: Sequence[Item], wanted: set[int], common: int, names: bool) -> _View:
+    """Fingerprints of the files as written, or with names aside (`names_aside`). Every item is
+    fingerprinted once to count in how many files each hash occurs (common at `common` files);
+    only the wanted ones are kept."""
     kept: dict[int, Fingerprint] = {}
-    distinct = []
+    maps: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+    distinct = [np.zeros(0, dtype=np.uint64)]
     for k, item in enumerate(items):
-        found = seed_print(item.data)
+        if names:
+            text, starts, ends = names_aside(item.data)
+            if k in wanted:
+                maps[k] = (starts, ends)
+        found = seed_print(text if names else item.data)
         distinct.append(np.unique(found.hashes))
         if k in wanted:
             kept[k] = found
-    hashes, counts = (
-        np.unique(np.concatenate(distinct), return_counts=True)
-        if distinct
-        else (np.zeros(0, dtype=np.uint64), np.zeros(0, dtype=np.int64))
-    )
-    return kept, hashes[counts >= common], common
+    hashes, counts = np.unique(np.concatenate(distinct), return_counts=True)
+    return _View(kept, hashes[counts >= common], maps if names else None)
 
 
 def _is_derived(found: Evidence, a_smaller: bool, cuts: EvidenceCuts) -> bool:
@@ -657,8 +674,9 @@ def find_derived(
        breaks every run longer than a block, which is what copying leaves.
     4. A candidate with fpr(score) <= max_fpr is related. Its stretches shared in order are
        found (`evidence`, boilerplate of COMMON_FILES or COMMON_SHARE of the files left out):
-       derived when they reach the cuts (`EvidenceCuts`), with the relation of `relation`,
-       else SAME_SOURCE. Identical bytes are always derived.
+       derived when they reach the cuts (`EvidenceCuts`) in the files as written or with names
+       aside (`names_aside`), with the relation of `relation`, else SAME_SOURCE. Identical
+       bytes are always derived.
 
     max_fpr is a rate per pair verified for the compression test; the stretches then keep files
     of one source, which pass that test far more often than unrelated files, out of the
@@ -684,14 +702,23 @@ def find_derived(
     else:
         measured = _measure(items, pairs, plan, comp, engine, cache, progress)
     related = {k for pair in _related(pairs, measured, max_fpr) for k in pair}
-    prints, ignore, common = _fingerprints(items, related)
+    common = max(COMMON_FILES, math.ceil(COMMON_SHARE * n))
+    written = _view(items, related, common, names=False)
+    renamed = _view(items, related, common, names=True)
     cuts = EvidenceCuts(spanned=SPANNED, found=FOUND_IN_ORDER, common_files=common)
 
     def judge(i: int, j: int) -> tuple[Evidence, bool]:
         if digests[i] == digests[j]:
             return NO_EVIDENCE, True
-        found = evidence(prints[i], prints[j], ignore)
-        return found, _is_derived(found, len(prints[i].norm) <= len(prints[j].norm), cuts)
+        a_smaller = len(written.prints[i].norm) <= len(written.prints[j].norm)
+        found = evidence(written.prints[i], written.prints[j], written.ignore)
+        if _is_derived(found, a_smaller, cuts):
+            return found, True
+        aside = evidence(renamed.prints[i], renamed.prints[j], renamed.ignore)
+        if _is_derived(aside, a_smaller, cuts):
+            assert renamed.maps is not None
+            return remapped(aside, renamed.maps[i], renamed.maps[j]), True
+        return found, False
 
     derived, kin = _findings(items, pairs, measured, digests, max_fpr, judge)
     return DerivedReport(

@@ -25,6 +25,7 @@ of either file counts twice.
 
 from __future__ import annotations
 
+import re
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -249,6 +250,56 @@ def evidence(
         b_covered=_union(taken_b) / max(len(b.norm), 1),
         a_seeded=_in_stretches(a, b, taken_a, ignore),
         b_seeded=_in_stretches(b, a, taken_b, ignore),
+    )
+
+
+_NAME = re.compile(rb"[A-Za-z_][A-Za-z0-9_]*")
+
+
+def names_aside(data: bytes) -> tuple[bytes, np.ndarray, np.ndarray]:
+    """data as a parameterised string (Baker, "Parameterized duplication in strings", 1996):
+    every name (a word of letters, digits and underscores) is replaced by how many names back
+    the same name last occurred, or by `#` where it occurs first, so a copy whose names were
+    consistently renamed (identifiers, imports, a module prefix) reads the same as its original.
+    Returns the text and, for each of its bytes, the start and end in data of what it stands for.
+    """
+    pieces: list[bytes] = []
+    starts: list[np.ndarray] = []
+    ends: list[np.ndarray] = []
+    last: dict[bytes, int] = {}
+    position = 0
+    for count, match in enumerate(_NAME.finditer(data)):
+        gap = np.arange(position, match.start(), dtype=np.int64)
+        name = match.group()
+        back = count - last[name] if name in last else 0
+        last[name] = count
+        code = b"#" if not back else b"@" + bytes([0x80 + min(back, 127)])
+        pieces += [data[position : match.start()], code]
+        starts += [gap, np.full(len(code), match.start(), dtype=np.int64)]
+        ends += [gap + 1, np.full(len(code), match.end(), dtype=np.int64)]
+        position = match.end()
+    tail = np.arange(position, len(data), dtype=np.int64)
+    pieces.append(data[position:])
+    starts.append(tail)
+    ends.append(tail + 1)
+    return b"".join(pieces), np.concatenate(starts), np.concatenate(ends)
+
+
+def remapped(
+    found: Evidence, a_map: tuple[np.ndarray, np.ndarray], b_map: tuple[np.ndarray, np.ndarray]
+) -> Evidence:
+    """`found` (measured on `names_aside` texts) with its stretches in the original files."""
+
+    def span(bounds: tuple[np.ndarray, np.ndarray], start: int, end: int) -> tuple[int, int]:
+        return int(bounds[0][start]), int(bounds[1][end - 1])
+
+    stretches = []
+    for s in found.stretches:
+        a_start, a_end = span(a_map, s.a_start, s.a_end)
+        b_start, b_end = span(b_map, s.b_start, s.b_end)
+        stretches.append(Stretch(a_start, a_end, b_start, b_end, s.length, s.seeds))
+    return Evidence(
+        tuple(stretches), found.a_covered, found.b_covered, found.a_seeded, found.b_seeded
     )
 
 
