@@ -383,3 +383,11 @@ def test_writing_to_a_device_or_pipe_keeps_it_what_it_is(tmp_path: Path) -> None
     assert stat.S_ISFIFO(os.stat(fifo).st_mode)
     atomic_write("/dev/null", "nothing\n")
     assert stat.S_ISCHR(os.stat("/dev/null").st_mode)
+
+
+def test_a_tsv_whose_labels_look_like_a_phylip_header_reads_as_tsv(tmp_path: Path) -> None:
+    # Found by the round-trip property: labels ("0", " ") gave the header line "\t0\t ", which,
+    # stripped of its leading tab, looked like a PHYLIP item count.
+    dm = DistanceMatrix(("0", " "), np.array([[0.0, 0.5], [0.5, 0.0]]))
+    write_matrix(dm, tmp_path / "m.tsv")
+    assert_same_matrix(read_matrix(tmp_path / "m.tsv"), dm)

@@ -478,11 +478,11 @@ def read_matrix(path: str | os.PathLike[str], fmt: str | None = None) -> Distanc
     except (OSError, UnicodeDecodeError) as error:
         raise InputError(f"{source}: cannot read: {error}") from None
     if fmt is None:
-        head = text.lstrip()[:200]
-        first = head.splitlines()[0] if head else ""
-        if head.startswith("{"):
+        # The first line that is not blank, its leading tab kept: a TSV header starts with one.
+        first = next((line for line in text[:4096].splitlines() if line.strip()), "")
+        if text.lstrip().startswith("{"):
             fmt = "json"
-        elif first.strip().isdigit():
+        elif "\t" not in first and first.strip().isdigit():
             fmt = "phylip"
         elif "\t" in first and format_for(path, None) != "csv":
             fmt = "tsv"
