@@ -389,7 +389,9 @@ def build_parser() -> argparse.ArgumentParser:
         type=float,
         default=0.01,
         metavar="RATE",
-        help="report pairs whose estimated false-positive rate is at most RATE (default 0.01)",
+        help="relate pairs whose estimated false-positive rate is at most RATE (default 0.01);"
+        " pairs are derived when they also share stretches in order, or share enough of them"
+        " whatever the rate",
     )
     judge.add_argument("--seed", type=int, default=0, help="seed of the null and the sketches")
     dout = derived.add_argument_group("output")
@@ -1177,7 +1179,7 @@ def run_derived(args: argparse.Namespace, console: Console) -> int:
         f"derived: {len(report.findings)} findings among {c.possible} pairs; {c.candidates}"
         f" candidates checked, {c.pruned} pruned by the prefilter"
         + (" (exhaustive)" if report.exhaustive else "")
-        + f"; reported where the false-positive rate is at most {report.max_fpr:g}"
+        + f"; related where the false-positive rate is at most {report.max_fpr:g}"
     )
     kin = len(report.same_source)
     if kin:

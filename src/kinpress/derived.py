@@ -611,18 +611,22 @@ def _findings(
     digests: Sequence[bytes],
     max_fpr: float,
     judge: Callable[[int, int], tuple[Evidence, bool]],
+    sought: set[tuple[int, int]],
 ) -> tuple[tuple[DerivedFinding, ...], tuple[DerivedFinding, ...]]:
-    """Candidates whose fpr is at most max_fpr, or with the same bytes, highest score first:
-    derived (identical, or `judge` says the stretches reach the cuts) and same-source."""
+    """Derived pairs (the same bytes, or pairs in `sought` whose stretches reach the cuts, as
+    `judge` says) and same-source pairs (fpr at most max_fpr, stretches short of the cuts),
+    each highest score first."""
     scores = np.maximum(measured.a_by_b, measured.b_by_a)
     fprs = _fpr(scores, measured.null_sorted)
     derived: list[DerivedFinding] = []
     kin: list[DerivedFinding] = []
     for k, (i, j) in enumerate(pairs):
         same = digests[i] == digests[j]
-        if fprs[k] > max_fpr and not same:
+        if not same and (i, j) not in sought:
             continue
         found, copied = judge(i, j)
+        if not (same or copied or fprs[k] <= max_fpr):
+            continue
         a_by_b, b_by_a = float(measured.a_by_b[k]), float(measured.b_by_a[k])
         sizes = int(measured.sizes[i]), int(measured.sizes[j])
         finding = DerivedFinding(
@@ -672,11 +676,14 @@ def find_derived(
        sharing DONOR_OVERLAP of their shingles with it. Blocks keep each donor's vocabulary, line
        structure and short phrases, so the null is "a file of a's kind, of b's size"; shuffling
        breaks every run longer than a block, which is what copying leaves.
-    4. A candidate with fpr(score) <= max_fpr is related. Its stretches shared in order are
-       found (`evidence`, boilerplate of COMMON_FILES or COMMON_SHARE of the files left out):
-       derived when they reach the cuts (`EvidenceCuts`) in the files as written or with names
-       aside (`names_aside`), with the relation of `relation`, else SAME_SOURCE. Identical
-       bytes are always derived.
+    4. A candidate with fpr(score) <= max_fpr is related. The stretches shared in order of
+       every related pair and every pair the prefilter proposes are found (`evidence`,
+       boilerplate of COMMON_FILES or COMMON_SHARE of the files left out): a pair whose
+       stretches reach the cuts (`EvidenceCuts`) in the files as written or with names aside
+       (`names_aside`) is derived, with the relation of `relation`, even where the compression
+       test did not relate it (a copy edited in one word in ten loses explained fraction faster
+       than stretches; its fpr then exceeds max_fpr); a related pair short of the cuts is
+       SAME_SOURCE. Identical bytes are always derived.
 
     max_fpr is a rate per pair verified for the compression test; the stretches then keep files
     of one source, which pass that test far more often than unrelated files, out of the
@@ -691,7 +698,8 @@ def find_derived(
     digests = [content_digest(item.data) for item in items]
     sketched = sketches(items, prefilter, seed)
     n = len(items)
-    pairs = sorted(_all_pairs(n) if exhaustive else candidate_pairs(sketched, digests, prefilter))
+    proposed = candidate_pairs(sketched, digests, prefilter)
+    pairs = sorted(_all_pairs(n) if exhaustive else proposed)
     count = (null_pairs if null_pairs is not None else math.ceil(3 / max_fpr)) if pairs else 0
     plan = _plan_null(items, pairs, sketched, count, random.Random(seed))
     possible = n * (n - 1) // 2
@@ -701,7 +709,8 @@ def find_derived(
         measured = _Measured(empty, empty, empty, empty, MatrixStats())
     else:
         measured = _measure(items, pairs, plan, comp, engine, cache, progress)
-    related = {k for pair in _related(pairs, measured, max_fpr) for k in pair}
+    sought = proposed | set(_related(pairs, measured, max_fpr))
+    related = {k for pair in sought for k in pair}
     common = max(COMMON_FILES, math.ceil(COMMON_SHARE * n))
     written = _view(items, related, common, names=False)
     renamed = _view(items, related, common, names=True)
@@ -720,7 +729,7 @@ def find_derived(
             return remapped(aside, renamed.maps[i], renamed.maps[j]), True
         return found, False
 
-    derived, kin = _findings(items, pairs, measured, digests, max_fpr, judge)
+    derived, kin = _findings(items, pairs, measured, digests, max_fpr, judge, sought)
     return DerivedReport(
         findings=derived,
         counts=counts,
