@@ -378,6 +378,14 @@ def check_matrix_memory(
         )
 
 
+def conditioning_order(digests: Sequence[bytes], single: np.ndarray) -> np.ndarray:
+    """Distinct contents in order of C(x), ties broken by content hash: of any pair, the earlier
+    content conditions the later one, so that a pair's measurement (and its cache key) does not
+    depend on the order of the inputs, whichever route (matrix or neighbours) asks for it."""
+    tie = np.array([int.from_bytes(d[:8], "big") for d in digests], dtype=np.uint64)
+    return np.lexsort((tie, single))
+
+
 PAIR_CHUNK = 1 << 18
 """Pairs looked up and computed at a time: bounds the per-pair bookkeeping (cache keys, tiles)
 whatever the number of items; each chunk still spreads over every worker."""
@@ -444,8 +452,7 @@ def distance_matrix(
     # so that the order, and so the cache key, does not depend on input order); each pair's
     # earlier content conditions the later one. Self pairs C(xx) come in the same pass, first in
     # their row, so that no second wait for the slowest tile is needed.
-    tie = np.array([int.from_bytes(d[:8], "big") for d in digests], dtype=np.uint64)
-    position = np.lexsort((tie, single))
+    position = conditioning_order(digests, single)
     square = np.zeros((m, m))
     self_sizes = np.empty(m, dtype=np.int64)
     total = m * (m + 1) // 2
