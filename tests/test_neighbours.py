@@ -131,3 +131,41 @@ def test_as_json_lists_every_item() -> None:
     assert len(doc["items"]) == 50  # type: ignore[arg-type]
     first = doc["items"][0]  # type: ignore[index]
     assert len(first["neighbours"]) == 3
+
+
+def test_sparse_groups_equal_dense_groups_within_tolerance() -> None:
+    # Tolerance: adjusted Rand index >= 0.95 between the sparse and the dense assignment.
+    from sklearn.metrics import adjusted_rand_score
+
+    from kinpress.groups import find_groups
+    from kinpress.neighbours import sparse_groups
+
+    items, owner = chunk_items(800, 25, seed=11)
+    dense = find_groups(distance_matrix(items, SPEC, jobs=2).distances)
+    sparse = sparse_groups(items, SPEC, sample_items=300, jobs=2)
+    assert adjusted_rand_score(dense.assignment, sparse.grouping.assignment) >= 0.95
+    assert adjusted_rand_score(owner, sparse.grouping.assignment) >= 0.9
+    assert sparse.neighbours.fraction < 0.15
+    medoids = [g.medoid for g in sparse.grouping.groups]
+    assert all(
+        sparse.grouping.assignment[m] == g.index
+        for m, g in zip(medoids, sparse.grouping.groups, strict=True)
+    )
+
+
+def test_sparse_groups_join_components_just_above_the_longest_edge() -> None:
+    # Two tight, far apart blocks whose neighbour lists never meet: still two groups (a link
+    # much longer than the data would keep them as one, see neighbour_graph).
+    from kinpress.groups import find_groups_sparse, neighbour_graph
+
+    rng = np.random.default_rng(0)
+    points = np.concatenate(
+        [rng.normal(0, 0.01, 40), rng.normal(5, 0.01, 40), rng.normal(10, 0.01, 40)]
+    )
+    d = np.abs(points[:, None] - points[None, :])
+    index, dist = exact_neighbours(d, 5)
+    graph = neighbour_graph(index, dist)
+    assert graph.data.max() < 0.1  # no link anywhere near the real gap of 5
+    sample = np.arange(0, 120, 3)
+    grouping = find_groups_sparse(index, dist, sample, d[np.ix_(sample, sample)])
+    assert grouping.k == 3

@@ -45,8 +45,10 @@ from .distance import (
     _Sizes,
     _warn_beyond_window,
     conditioning_order,
+    distance_matrix,
 )
 from .engine import Engine, LocalEngine
+from .groups import Grouping
 from .items import Item
 
 _BATCH = 1 << 12
@@ -447,3 +449,61 @@ def recall(found: np.ndarray, rows: np.ndarray, queries: Sequence[int], k: int) 
         got = [j for j in found[q][:k] if j >= 0]
         hits.append(sum(d[j] <= kth + 1e-12 for j in got) / k)
     return float(np.mean(hits))
+
+
+SAMPLE_ITEMS = 800
+"""Items whose full matrix scores the sparse groups' candidates (silhouettes on a sample)."""
+
+
+@dataclass(frozen=True)
+class SparseGroups:
+    """Groups made from neighbour lists: the grouping, the lists, and the scoring sample."""
+
+    grouping: Grouping
+    neighbours: Neighbours
+    sample: tuple[int, ...]
+    sample_pairs_computed: int
+
+
+def sparse_groups(
+    items: Sequence[Item],
+    comp: Compressor | str = "zstd",
+    *,
+    k: int | None = None,
+    cut: float | None = None,
+    report_outliers: bool = False,
+    neighbours: int = 10,
+    sample_items: int = SAMPLE_ITEMS,
+    seed: int = 0,
+    conditional: str = "concat",
+    strand: str = "one",
+    engine: Engine | None = None,
+    jobs: int | None = None,
+    cache: SizeCache | None = None,
+    progress: Progress | None = None,
+    search: Search | None = None,
+) -> SparseGroups:
+    """Flat groups without a full matrix: each item's `neighbours` nearest
+    (`nearest_neighbours`), then `groups.find_groups_sparse` with silhouettes measured on the
+    full matrix of `sample_items` items drawn at random (`seed`), through the same engine and
+    cache; `k`, `cut` and `report_outliers` as in `groups.find_groups`."""
+    from .groups import find_groups_sparse
+
+    comp = compressor(comp)
+    engine = engine or LocalEngine(jobs)
+    found = nearest_neighbours(
+        items, comp, k=neighbours, conditional=conditional, strand=strand, engine=engine,
+        cache=cache, progress=progress, search=search,
+    )  # fmt: skip
+    rng = np.random.default_rng(seed)
+    count = min(sample_items, len(items))
+    sample = np.sort(rng.choice(len(items), count, replace=False))
+    dm = distance_matrix(
+        [items[i] for i in sample], comp, conditional=conditional, strand=strand, engine=engine,
+        cache=cache, progress=progress,
+    )  # fmt: skip
+    grouping = find_groups_sparse(
+        found.index, found.distances, sample, dm.distances, k=k, cut=cut,
+        report_outliers=report_outliers,
+    )  # fmt: skip
+    return SparseGroups(grouping, found, tuple(int(i) for i in sample), dm.stats.pairs_computed)
