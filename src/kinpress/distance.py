@@ -373,8 +373,9 @@ def check_matrix_memory(
     if need > limit:
         raise TooLarge(
             f"a full matrix of {len(items):,} items needs about {need / 2**30:.1f} GiB of memory"
-            f" and {limit / 2**30:.1f} GiB is available: compare fewer or larger items (a coarser"
-            " --split), or run on a machine with more memory"
+            f" and {limit / 2**30:.1f} GiB is available: find each item's nearest neighbours"
+            " instead ('kinpress nearest'; 'kinpress groups' works from them by itself), compare"
+            " fewer or larger items (a coarser --split), or run on a machine with more memory"
         )
 
 
@@ -384,6 +385,27 @@ def conditioning_order(digests: Sequence[bytes], single: np.ndarray) -> np.ndarr
     depend on the order of the inputs, whichever route (matrix or neighbours) asks for it."""
     tie = np.array([int.from_bytes(d[:8], "big") for d in digests], dtype=np.uint64)
     return np.lexsort((tie, single))
+
+
+def estimate_matrix_seconds(
+    items: Sequence[Item], comp: Compressor | str, jobs: int, *, sample: int = 24, seed: int = 0
+) -> float:
+    """Wall time a full matrix of `items` would take on `jobs` workers: n(n-1)/2 pairs at the
+    mean time of compressing `sample` concatenated pairs drawn at random (one thread, timed
+    here), plus every item once. A rough figure for choosing a route, not a promise."""
+    n = len(items)
+    if n < 2:
+        return 0.0
+    comp = compressor(comp)
+    rng = np.random.default_rng(seed)
+    first = rng.integers(0, n, sample)
+    second = (first + rng.integers(1, n, sample)) % n
+    joined = [items[a].data + items[b].data for a, b in zip(first, second, strict=True)]
+    comp.sizes(joined[:1])  # the first call builds the compressor's context
+    started = time.perf_counter()
+    comp.sizes(joined)
+    per_pair = (time.perf_counter() - started) / sample
+    return per_pair * (n * (n - 1) / 2 + n) / max(jobs, 1)
 
 
 PAIR_CHUNK = 1 << 18

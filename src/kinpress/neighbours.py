@@ -29,7 +29,7 @@ is measured, which is then cheaper than the search.
 from __future__ import annotations
 
 import time
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -56,7 +56,11 @@ _BATCH = 1 << 12
 
 @dataclass(frozen=True)
 class Search:
-    """How the neighbour search proposes pairs (see the module docstring); None: from k."""
+    """How the neighbour search proposes pairs (see the module docstring); None: from k.
+
+    Lists are kept `least` long at least whatever k (and cut to k at the end): short lists
+    explore too narrow a neighbourhood (with 4, 92 % of first neighbours were right, not 99 %).
+    """
 
     shingle: int = 8
     num_perm: int = 64
@@ -68,6 +72,7 @@ class Search:
     rounds: int = 10
     delta: float = 0.002
     exhaustive_below: int = 200
+    least: int = 10
     seed: int = 0
 
     def first_for(self, k: int) -> int:
@@ -110,15 +115,13 @@ class Neighbours:
         """Pairs measured as a share of all pairs."""
         return self.pairs / max(self.possible, 1)
 
-    def rows(self) -> list[tuple[str, int, str, float]]:
+    def rows(self) -> Iterator[tuple[str, int, str, float]]:
         """(item, rank, neighbour, ncd) for every found neighbour, rank from 1."""
-        out = []
         for i, name in enumerate(self.labels):
             for r in range(self.k):
                 j = int(self.index[i, r])
                 if j >= 0:
-                    out.append((name, r + 1, self.labels[j], float(self.distances[i, r])))
-        return out
+                    yield name, r + 1, self.labels[j], float(self.distances[i, r])
 
     def as_json(self) -> dict[str, object]:
         """The neighbour lists per item, how they were measured and what they cost."""
@@ -392,7 +395,7 @@ def nearest_neighbours(
     n = len(items)
     k = min(k, n - 1)
     measure = _Measure(sizes, content, single, conditional)
-    lists = _Lists.empty(n, k)
+    lists = _Lists.empty(n, min(max(k, search.least), n - 1))
     exhaustive = n <= search.exhaustive_below
     if exhaustive:
         a, b, key = _all_pairs(n)
@@ -412,8 +415,8 @@ def nearest_neighbours(
     )
     return Neighbours(
         labels=tuple(item.name for item in items),
-        index=lists.index,
-        distances=lists.distances,
+        index=lists.index[:, :k].copy(),
+        distances=lists.distances[:, :k].copy(),
         k=k,
         compressor=comp.spec,
         conditional=conditional,
@@ -485,8 +488,9 @@ def sparse_groups(
 ) -> SparseGroups:
     """Flat groups without a full matrix: each item's `neighbours` nearest
     (`nearest_neighbours`), then `groups.find_groups_sparse` with silhouettes measured on the
-    full matrix of `sample_items` items drawn at random (`seed`), through the same engine and
-    cache; `k`, `cut` and `report_outliers` as in `groups.find_groups`."""
+    full matrix of `sample_items` items (a quarter of them at most) drawn at random (`seed`),
+    through the same engine and cache; `k`, `cut` and `report_outliers` as in
+    `groups.find_groups`."""
     from .groups import find_groups_sparse
 
     comp = compressor(comp)
@@ -496,7 +500,7 @@ def sparse_groups(
         cache=cache, progress=progress, search=search,
     )  # fmt: skip
     rng = np.random.default_rng(seed)
-    count = min(sample_items, len(items))
+    count = min(sample_items, max(2, len(items) // 4))  # never near a full matrix
     sample = np.sort(rng.choice(len(items), count, replace=False))
     dm = distance_matrix(
         [items[i] for i in sample], comp, conditional=conditional, strand=strand, engine=engine,
