@@ -341,7 +341,7 @@ class TooLarge(ValueError):
 
 BYTES_PER_CELL = 12
 """Peak bytes per matrix cell: the float64 matrix, held once (8), and the bookkeeping of a chunk
-of pairs, sized to the matrix (`_chunk_for`); measured 11.0 at 1,600 items and 10.6 at 5,000
+of pairs, sized to the matrix (`_chunk_for`); measured 11.0 at 1,600 items and 10.7 at 5,000
 (benchmarks/bench_scale.py --matrix-memory)."""
 
 BASE_BYTES = 200 << 20
