@@ -59,7 +59,10 @@ class Search:
     """How the neighbour search proposes pairs (see the module docstring); None: from k.
 
     Lists are kept `least` long at least whatever k (and cut to k at the end): short lists
-    explore too narrow a neighbourhood (with 4, 92 % of first neighbours were right, not 99 %).
+    explore too narrow a neighbourhood. On 10,000 generated chunks of 30 sources (crowded, as
+    10^5 chunks of 300 sources are), recall of the true 10 nearest was 0.77 with lists of 10 and
+    at most 10 rounds (0.81 at 10^5), 0.80 with 30 rounds, 0.95 with lists of 16 (1.6 times the
+    pairs, 2.2 % of all there).
     """
 
     shingle: int = 8
@@ -69,10 +72,10 @@ class Search:
     window: int = 6
     first: int | None = None
     step: int | None = None
-    rounds: int = 10
+    rounds: int = 30
     delta: float = 0.002
     exhaustive_below: int = 200
-    least: int = 10
+    least: int = 16
     seed: int = 0
 
     def first_for(self, k: int) -> int:
