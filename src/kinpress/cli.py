@@ -94,7 +94,8 @@ def _matrix_options(parser: argparse.ArgumentParser, conditional: str = "concat"
         type=float,
         default=600.0,
         metavar="SECONDS",
-        help="with -c auto: the run time the choice may aim for (default 600)",
+        help="with -c auto: the run time the choice may aim for; groups: a full matrix "
+        "estimated to take longer goes the nearest-neighbour way (default 600)",
     )
     group.add_argument(
         "--conditional",
