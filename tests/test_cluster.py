@@ -225,3 +225,18 @@ def test_the_command_line_refuses_jobs_with_a_cluster_and_reports_no_scheduler(
     [line] = result.stderr.strip().splitlines()
     assert line.startswith("kinpress: error: cannot reach the Dask scheduler at tcp://127.0.0.1:9")
     assert not (tmp_path / "d.tsv").exists()
+
+
+def test_nearest_neighbours_on_the_cluster_equal_local(cluster: str) -> None:
+    # The neighbour search's verification is the same tiles: a cluster gives the same lists.
+    from kinpress.neighbours import nearest_neighbours
+
+    items = [
+        Item(f"t{k}", generated_text(k % 40, lines=30 + k % 7), "generated") for k in range(260)
+    ]
+    local = nearest_neighbours(items, "zstd:level=3", k=5, engine=LocalEngine(2))
+    with DaskEngine(cluster) as engine:
+        remote = nearest_neighbours(items, "zstd:level=3", k=5, engine=engine)
+    assert not local.exhaustive and local.pairs == remote.pairs
+    assert np.array_equal(local.index, remote.index)
+    assert np.array_equal(local.distances, remote.distances)

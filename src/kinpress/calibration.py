@@ -897,7 +897,7 @@ def choose_compressor(
 # The choice by task: what the job's own data shows
 
 
-JOBS = ("matrix", "tree", "groups", "derived", "classify")
+JOBS = ("matrix", "tree", "groups", "nearest", "derived", "classify")
 LABELLED_JOBS = ("classify",)
 LABELLED_CANDIDATES = (
     "zstd:level=3",
@@ -1193,7 +1193,9 @@ def choose_for_job(
     quarter of the budget (MEASURING_SHARE); the held-out sizes are
     measured through the size cache, so the winner's calibration reuses them. An unlabelled
     job (matrix, tree, groups, derived) takes :func:`choose_compressor`'s choice unless a sample
-    of real pairs shows that it finds nothing shared (see ``_check_real_pairs``).
+    of real pairs shows that it finds nothing shared (see ``_check_real_pairs``). The budget is
+    checked against a full matrix's time even for nearest, which measures far fewer pairs: on a
+    large set that favours the quicker compressors, as a large set needs.
     """
     if job not in JOBS:
         raise ValueError(f"unknown job {job!r}; use one of {', '.join(JOBS)}")

@@ -6,6 +6,7 @@ import argparse
 import dataclasses
 import difflib
 import hashlib
+import itertools
 import json
 import os
 import sys
@@ -96,7 +97,8 @@ def _matrix_options(parser: argparse.ArgumentParser, conditional: str = "concat"
         type=float,
         default=600.0,
         metavar="SECONDS",
-        help="with -c auto: the run time the choice may aim for (default 600)",
+        help="with -c auto: the run time the choice may aim for; groups: a full matrix "
+        "estimated to take longer goes the nearest-neighbour way (default 600)",
     )
     group.add_argument(
         "--conditional",
@@ -168,6 +170,30 @@ def _inputs_or_matrix(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("inputs", nargs="*", metavar="INPUT", help="files, folders, or - (stdin)")
     parser.add_argument("--matrix", metavar="FILE", help="a matrix written by 'kinpress matrix'")
     _matrix_options(parser)
+
+
+def _nearest_parser(commands: Any) -> None:
+    nearest = commands.add_parser(
+        "nearest",
+        help="each item's k nearest items, without computing every pair",
+        description="Find each item's k nearest other items by NCD without the full matrix: "
+        "candidates from MinHash sketches of the items' bytes, refined by exploring neighbours "
+        "of neighbours, every reported distance measured exactly as 'kinpress matrix' would. "
+        "Writes item, rank, neighbour and NCD per line.",
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+        epilog=_examples(
+            "kinpress nearest logs/ --split lines:40 -c zstd:level=3 -o nearest.tsv",
+            "kinpress nearest share/ --k 5 --json -o nearest.json",
+        ),
+    )
+    nearest.add_argument("inputs", nargs="+", metavar="INPUT", help="files, folders, or - (stdin)")
+    _matrix_options(nearest)
+    how = nearest.add_argument_group("neighbours")
+    how.add_argument("--k", type=int, default=10, metavar="N", help="neighbours per item (10)")
+    nout = nearest.add_argument_group("output")
+    nout.add_argument("-o", "--output", metavar="FILE", help="write here (default: stdout)")
+    nout.add_argument("--json", action="store_true", help="JSON instead of TSV")
+    _common(nearest)
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -285,6 +311,8 @@ def build_parser() -> argparse.ArgumentParser:
     gout.add_argument("-o", "--output", metavar="FILE", help="write the TSV here")
     gout.add_argument("--json", action="store_true", help="a JSON report on stdout")
     _common(groups)
+
+    _nearest_parser(commands)
 
     calibration = commands.add_parser(
         "calibrate",
@@ -606,13 +634,17 @@ Check = Callable[[Sequence[str]], None]
 
 
 def compute_matrix(
-    args: argparse.Namespace, console: Console, check: Check | None = None
+    args: argparse.Namespace,
+    console: Console,
+    check: Check | None = None,
+    items: list[Item] | None = None,
 ) -> tuple[DistanceMatrix, list[Item]]:
-    """Load the inputs and compute their matrix as the command line asks, reporting on stderr;
-    `check` sees the item names before anything is computed."""
-    items = _load(args)
-    if check is not None:
-        check([item.name for item in items])
+    """Load the inputs (unless `items` are given) and compute their matrix as the command line
+    asks, reporting on stderr; `check` sees the item names before anything is computed."""
+    if items is None:
+        items = _load(args)
+        if check is not None:
+            check([item.name for item in items])
     check_matrix_memory(items)
     comp = compressor(resolve_compressor(args, items, console))
     with _opened_cache(args) as cache, console.progress() as progress:
@@ -901,6 +933,64 @@ def run_tree(args: argparse.Namespace, console: Console) -> int:
     return 0
 
 
+def _sparse_grouping(
+    args: argparse.Namespace, console: Console, check: Check
+) -> tuple[_Grouped, Any] | None:
+    """Groups from nearest neighbours when the full matrix of the inputs would not fit in memory
+    or in --budget seconds (said on stderr), else None: the matrix route (the loaded items are
+    left in args.loaded_items)."""
+    from .distance import estimate_matrix_seconds
+    from .neighbours import SAMPLE_ITEMS, sparse_groups
+
+    if args.matrix or not args.inputs:
+        return None
+    items = _load(args)
+    check([item.name for item in items])
+    try:
+        check_matrix_memory(items)
+        reason = None
+    except TooLarge as error:
+        reason = str(error).split(":", 1)[0]
+    spec = resolve_compressor(args, items, console)
+    if reason is None:
+        seconds = estimate_matrix_seconds(items, spec, args.engine.jobs)
+        if seconds <= args.budget:
+            args.loaded_items = items
+            return None
+        reason = (
+            f"a full matrix of {len(items):,} items would take about {_duration(seconds)},"
+            f" over the --budget of {_duration(args.budget)}"
+        )
+    console.say(
+        f"groups: {reason}; grouping from each item's 10 nearest neighbours instead"
+        f" (HDBSCAN* on their graph, silhouettes on"
+        f" {min(SAMPLE_ITEMS, max(2, len(items) // 4))} sampled items)"
+    )
+    with _as_usage_errors(), _opened_cache(args) as cache, console.progress() as progress:
+        found = sparse_groups(
+            items, spec, k=args.k, cut=args.cut, report_outliers=args.outliers,
+            conditional=args.conditional, strand=args.strand, engine=args.engine, cache=cache,
+            progress=progress,
+        )  # fmt: skip
+    nb = found.neighbours
+    console.say(
+        f"nearest: {nb.pairs:,} pairs measured of {nb.possible:,} ({nb.fraction:.2%}),"
+        f" {found.sample_pairs_computed:,} more for the sample, in {nb.stats.seconds:.1f} s"
+    )
+    classes = tuple(item.label for item in items) if any(i.label for i in items) else None
+    return _Grouped(nb.labels, classes, nb.compressor, nb.conditional), found.grouping
+
+
+@dataclasses.dataclass(frozen=True)
+class _Grouped:
+    """What the groups report says of the items grouped, whichever route grouped them."""
+
+    labels: tuple[str, ...]
+    classes: tuple[str | None, ...] | None
+    compressor: str
+    conditional: str
+
+
 def run_groups(args: argparse.Namespace, console: Console) -> int:
     from .groups import agreement, find_groups
 
@@ -911,9 +1001,20 @@ def run_groups(args: argparse.Namespace, console: Console) -> int:
         if args.k is not None and args.k > len(labels):
             raise UsageError(f"--k {args.k}: more groups than the {len(labels)} items")
 
-    dm, _ = matrix_for(args, console, check=check)
-    with _as_usage_errors():
-        grouping = find_groups(dm.distances, k=args.k, cut=args.cut, report_outliers=args.outliers)
+    found = _sparse_grouping(args, console, check)
+    if found is None:
+        loaded = getattr(args, "loaded_items", None)
+        if loaded is None:
+            matrix, _ = matrix_for(args, console, check=check)
+        else:
+            matrix, _ = compute_matrix(args, console, items=loaded)
+        with _as_usage_errors():
+            grouping = find_groups(
+                matrix.distances, k=args.k, cut=args.cut, report_outliers=args.outliers
+            )
+        dm = _Grouped(matrix.labels, matrix.classes, matrix.compressor, matrix.conditional)
+    else:
+        dm, grouping = found
     rows = ["item\tgroup\tmedoid\toutlier"]
     for name, group, is_medoid, outlier in zip(
         dm.labels, grouping.assignment, grouping.is_medoid, grouping.is_outlier, strict=True
@@ -980,6 +1081,46 @@ def run_groups(args: argparse.Namespace, console: Console) -> int:
         emit(json_text(report), None)
     elif not args.output:
         emit(table, None)
+    return 0
+
+
+def run_nearest(args: argparse.Namespace, console: Console) -> int:
+    from .neighbours import nearest_neighbours
+
+    items = _load(args)
+    spec = resolve_compressor(args, items, console)
+    with _as_usage_errors(), _opened_cache(args) as cache, console.progress() as progress:
+        found = nearest_neighbours(
+            items, spec, k=args.k, conditional=args.conditional, strand=args.strand,
+            engine=args.engine, cache=cache, progress=progress,
+        )  # fmt: skip
+    s = found.stats
+    console.say(
+        f"nearest: {found.k} per item for {len(found)} items, {found.compressor}"
+        f" ({found.conditional}): {found.pairs:,} pairs measured of {found.possible:,}"
+        f" ({found.fraction:.2%}; {s.pairs_computed:,} computed, {s.pairs_from_cache:,} from"
+        f" cache)"
+        + (", every pair (small set)" if found.exhaustive else "")
+        + f" in {s.seconds:.1f} s"
+    )
+    known = [item.label for item in items]
+    if any(label is not None for label in known):
+        same = [
+            known[int(j)] == known[i]
+            for i in range(len(items))
+            if known[i] is not None
+            for j in found.index[i]
+            if j >= 0 and known[int(j)] is not None
+        ]
+        if same:
+            console.say(f"against known labels: {sum(same) / len(same):.1%} of neighbours share"
+                        " their item's label")  # fmt: skip
+    if args.json:
+        emit(json_text(found.as_json()), args.output)
+        return 0
+    header = ["item\trank\tneighbour\tncd\n"]
+    rows = (f"{escape_name(a)}\t{r}\t{escape_name(b)}\t{d:.6f}\n" for a, r, b, d in found.rows())
+    emit(itertools.chain(header, rows), args.output)
     return 0
 
 
@@ -1242,6 +1383,7 @@ COMMANDS: dict[str, Callable[[argparse.Namespace, Console], int]] = {
     "matrix": run_matrix,
     "tree": run_tree,
     "groups": run_groups,
+    "nearest": run_nearest,
     "calibrate": run_calibrate,
     "classify": run_classify,
     "derived": run_derived,

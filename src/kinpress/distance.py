@@ -58,15 +58,18 @@ class DistanceMatrix:
     """Labels, the symmetric non-negative distance array with zero diagonal, and its provenance.
 
     `self_distances` holds the measured NCD(x, x), which a real compressor makes a little above
-    zero (far above once x+x outgrows its window); `raw` is the unclipped symmetric matrix with the
-    measured NCD(x, x) on its diagonal.
+    zero (far above once x+x outgrows its window); `raw` (built when asked) is the unclipped
+    symmetric matrix with the measured NCD(x, x) on its diagonal and between identical items.
+    Only the clipped values are kept for it: `negatives` (content numbers and values, before
+    clipping) and `content` (each item's content number), so that the matrix is held once.
     """
 
     labels: tuple[str, ...]
     distances: np.ndarray
     sizes: np.ndarray | None = None
     self_distances: np.ndarray | None = None
-    raw: np.ndarray | None = None
+    content: np.ndarray | None = None
+    negatives: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None
     compressor: str = ""
     conditional: str = ""
     strand: str = "one"
@@ -82,6 +85,26 @@ class DistanceMatrix:
 
     def __len__(self) -> int:
         return len(self.labels)
+
+    @property
+    def raw(self) -> np.ndarray | None:
+        """The unclipped matrix, NCD(x, x) on the diagonal and between identical items; a new
+        array each time (None when the self distances are unknown, as in a matrix read back)."""
+        if self.self_distances is None:
+            return None
+        raw = np.array(self.distances, dtype=np.float64)
+        content = np.arange(len(self)) if self.content is None else self.content
+        if self.negatives is not None:
+            for small, large, value in zip(*self.negatives, strict=True):
+                rows, cols = np.flatnonzero(content == small), np.flatnonzero(content == large)
+                raw[np.ix_(rows, cols)] = value
+                raw[np.ix_(cols, rows)] = value
+        if self.content is not None and len(np.unique(content)) < len(self):
+            for c in np.unique(content):
+                same = np.flatnonzero(content == c)
+                raw[np.ix_(same, same)] = self.self_distances[same[0]]
+        np.fill_diagonal(raw, self.self_distances)
+        return raw
 
 
 def content_digest(data: bytes) -> bytes:
@@ -316,9 +339,10 @@ class TooLarge(ValueError):
     """A run that would need more memory than the machine has: refused before it starts."""
 
 
-BYTES_PER_CELL = 17
-"""Peak bytes per matrix cell: the distinct contents' float64 square, the items' float64
-distances and a transient mask (another square when items repeat contents); measured."""
+BYTES_PER_CELL = 12
+"""Peak bytes per matrix cell: the float64 matrix, held once (8), and the bookkeeping of a chunk
+of pairs, sized to the matrix (`_chunk_for`); measured 11.0 at 1,600 items and 10.7 at 5,000
+(benchmarks/bench_scale.py --matrix-memory)."""
 
 BASE_BYTES = 200 << 20
 """The interpreter, numpy, scipy, the compressor libraries and a chunk of pair bookkeeping."""
@@ -329,7 +353,8 @@ def matrix_memory_bytes(count: int, input_bytes: int, repeats: bool = False) -> 
 
     The inputs are held twice at most (the items, and a joined pair while it is compressed in
     each worker), and every cell of the matrix costs BYTES_PER_CELL (8 more when some items
-    share their content), above a fixed BASE_BYTES.
+    share their content: the distinct contents' matrix is expanded to the items'), above a
+    fixed BASE_BYTES.
     """
     per_cell = BYTES_PER_CELL + (8 if repeats else 0)
     return BASE_BYTES + 2 * input_bytes + per_cell * count * count
@@ -373,14 +398,51 @@ def check_matrix_memory(
     if need > limit:
         raise TooLarge(
             f"a full matrix of {len(items):,} items needs about {need / 2**30:.1f} GiB of memory"
-            f" and {limit / 2**30:.1f} GiB is available: compare fewer or larger items (a coarser"
-            " --split), or run on a machine with more memory"
+            f" and {limit / 2**30:.1f} GiB is available: find each item's nearest neighbours"
+            " instead ('kinpress nearest'; 'kinpress groups' works from them by itself), compare"
+            " fewer or larger items (a coarser --split), or run on a machine with more memory"
         )
+
+
+def conditioning_order(digests: Sequence[bytes], single: np.ndarray) -> np.ndarray:
+    """Distinct contents in order of C(x), ties broken by content hash: of any pair, the earlier
+    content conditions the later one, so that a pair's measurement (and its cache key) does not
+    depend on the order of the inputs, whichever route (matrix or neighbours) asks for it."""
+    tie = np.array([int.from_bytes(d[:8], "big") for d in digests], dtype=np.uint64)
+    return np.lexsort((tie, single))
+
+
+def estimate_matrix_seconds(
+    items: Sequence[Item], comp: Compressor | str, jobs: int, *, sample: int = 24, seed: int = 0
+) -> float:
+    """Wall time a full matrix of `items` would take on `jobs` workers: n(n-1)/2 pairs at the
+    mean time of compressing `sample` concatenated pairs drawn at random (one thread, timed
+    here), plus every item once. A rough figure for choosing a route, not a promise."""
+    n = len(items)
+    if n < 2:
+        return 0.0
+    comp = compressor(comp)
+    rng = np.random.default_rng(seed)
+    first = rng.integers(0, n, sample)
+    second = (first + rng.integers(1, n, sample)) % n
+    joined = [items[a].data + items[b].data for a, b in zip(first, second, strict=True)]
+    comp.sizes(joined[:1])  # the first call builds the compressor's context
+    started = time.perf_counter()
+    comp.sizes(joined)
+    per_pair = (time.perf_counter() - started) / sample
+    return per_pair * (n * (n - 1) / 2 + n) / max(jobs, 1)
 
 
 PAIR_CHUNK = 1 << 18
 """Pairs looked up and computed at a time: bounds the per-pair bookkeeping (cache keys, tiles)
 whatever the number of items; each chunk still spreads over every worker."""
+
+
+def _chunk_for(m: int) -> int:
+    """Pairs per chunk for m distinct contents: PAIR_CHUNK, or less for smaller matrices, so that
+    the chunk's bookkeeping (about 200 bytes a pair) stays a small share of the matrix's 8 bytes
+    a cell (at least 16 chunks a run, none below 16,384 pairs)."""
+    return max(1 << 14, min(PAIR_CHUNK, m * m // 128))
 
 
 def _row_chunks(m: int, chunk: int) -> Iterator[tuple[np.ndarray, np.ndarray]]:
@@ -444,13 +506,14 @@ def distance_matrix(
     # so that the order, and so the cache key, does not depend on input order); each pair's
     # earlier content conditions the later one. Self pairs C(xx) come in the same pass, first in
     # their row, so that no second wait for the slowest tile is needed.
-    tie = np.array([int.from_bytes(d[:8], "big") for d in digests], dtype=np.uint64)
-    position = np.lexsort((tie, single))
-    square = np.zeros((m, m))
+    position = conditioning_order(digests, single)
+    counts = np.bincount(index, minlength=m)
+    square = np.zeros((m, m))  # the one n x n array of the run (m x m, then n x n, with repeats)
     self_sizes = np.empty(m, dtype=np.int64)
+    negatives: list[tuple[np.ndarray, np.ndarray, np.ndarray]] = []
     total = m * (m + 1) // 2
-    done = pairs_cached = self_cached = 0
-    for first, second in _row_chunks(m, PAIR_CHUNK):
+    done = pairs_cached = self_cached = above_one = 0
+    for first, second in _row_chunks(m, _chunk_for(m)):
         small, large = position[first], position[second]
         found, cached = sizes.fetch("pairs", small, large, done=done, total=total)
         done += len(found)
@@ -462,22 +525,24 @@ def distance_matrix(
         if conditional == "concat":
             found = found - single[small]
         ncd = found / np.maximum(single[large], 1)
+        below = ncd < 0
+        if below.any():
+            negatives.append((small[below], large[below], ncd[below]))
+            ncd[below] = 0.0
+        above_one += int((counts[small] * counts[large])[ncd > 1].sum())
         square[small, large] = ncd
         square[large, small] = ncd
     if conditional == "concat":
         self_sizes = self_sizes - single
     self_unique = self_sizes / np.maximum(single, 1)
-    diag = np.arange(m)
-    square[diag, diag] = self_unique
-
-    # Expand distinct contents back to items; identical items sit at their measured NCD(x, x).
-    duplicates = m < len(items)
-    raw = square[np.ix_(index, index)] if duplicates else square
-    distances = raw.copy()
-    if duplicates:
-        distances[index[:, None] == index[None, :]] = 0.0
-    else:
-        np.fill_diagonal(distances, 0.0)
+    # Expand distinct contents back to items; identical items are at distance 0.
+    distances = square[np.ix_(index, index)] if m < len(items) else square
+    del square
+    for c in np.flatnonzero(counts > 1):
+        same = np.flatnonzero(index == c)
+        distances[np.ix_(same, same)] = 0.0
+    np.fill_diagonal(distances, 0.0)
+    clipped = [np.concatenate(parts) for parts in zip(*negatives, strict=True)]
     pairs = m * (m - 1) // 2
     stats = MatrixStats(
         pairs_computed=pairs - pairs_cached,
@@ -487,19 +552,18 @@ def distance_matrix(
         self_pairs_computed=m - self_cached,
         bytes_compressed=sizes.bytes_compressed,
         seconds=time.perf_counter() - started,
-        clipped_below_zero=int(np.count_nonzero(distances < 0)) // 2,  # symmetric, zero diagonal
-        above_one=int(np.count_nonzero(distances > 1)) // 2,
+        clipped_below_zero=int(sum((counts[s] * counts[b]).sum() for s, b, _ in negatives)),
+        above_one=above_one,
         identical_items=len(items) - m,
     )
-    np.clip(distances, 0.0, None, out=distances)
-    for array in (distances, raw):
-        array.setflags(write=False)
+    distances.setflags(write=False)
     return DistanceMatrix(
         labels=tuple(item.name for item in items),
         distances=distances,
         sizes=single[index],
         self_distances=self_unique[index],
-        raw=raw,
+        content=index,
+        negatives=(clipped[0], clipped[1], clipped[2]) if clipped else None,
         compressor=comp.spec,
         conditional=conditional,
         strand=strand,
