@@ -264,25 +264,35 @@ def names_aside(data: bytes) -> tuple[bytes, np.ndarray, np.ndarray]:
     Returns the text and, for each of its bytes, the start and end in data of what it stands for.
     """
     pieces: list[bytes] = []
-    starts: list[np.ndarray] = []
-    ends: list[np.ndarray] = []
+    spans: list[tuple[int, int, int]] = []  # (start, end, length written) of each piece
     last: dict[bytes, int] = {}
     position = 0
     for count, match in enumerate(_NAME.finditer(data)):
-        gap = np.arange(position, match.start(), dtype=np.int64)
         name = match.group()
         back = count - last[name] if name in last else 0
         last[name] = count
         code = b"#" if not back else b"@" + bytes([0x80 + min(back, 127)])
         pieces += [data[position : match.start()], code]
-        starts += [gap, np.full(len(code), match.start(), dtype=np.int64)]
-        ends += [gap + 1, np.full(len(code), match.end(), dtype=np.int64)]
+        spans += [(position, match.start(), match.start() - position)]
+        spans += [(match.start(), match.end(), len(code))]
         position = match.end()
-    tail = np.arange(position, len(data), dtype=np.int64)
     pieces.append(data[position:])
-    starts.append(tail)
-    ends.append(tail + 1)
-    return b"".join(pieces), np.concatenate(starts), np.concatenate(ends)
+    spans.append((position, len(data), len(data) - position))
+    return b"".join(pieces), *_piece_maps(np.array(spans, dtype=np.int64).reshape(-1, 3))
+
+
+def _piece_maps(spans: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Per written byte, the start and end of what it stands for: a byte of text copied as it
+    was stands for itself, a name's code for the whole name. `spans` holds (start, end, length
+    written) per piece; pieces alternate text, code, text, ..., text."""
+    start, end, written = spans[:, 0], spans[:, 1], spans[:, 2]
+    is_code = np.zeros(len(spans), dtype=bool)
+    is_code[1::2] = True
+    piece = np.repeat(np.arange(len(spans)), written)
+    within = np.arange(int(written.sum())) - np.repeat(np.cumsum(written) - written, written)
+    starts = start[piece] + np.where(is_code[piece], 0, within)
+    ends = np.where(is_code[piece], end[piece], starts + 1)
+    return starts, ends
 
 
 def remapped(
