@@ -36,6 +36,7 @@ import os
 import random
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 from datasketch import MinHash, MinHashLSHEnsemble
@@ -54,8 +55,8 @@ from .evidence import (
     remapped,
     seed_print,
 )
-from .items import InputError, Item
-from .passages import Fingerprint
+from .items import InputError, Item, uncompressed_name
+from .passages import Fingerprint, common_among
 
 RELATIONS = ("identical", "near_copy", "a_contains_b", "b_contains_a", "partial_overlap")
 """Relations of a derived pair: one file holds the other's content, in order."""
@@ -104,8 +105,6 @@ DONOR_OVERLAP = 0.5
 
 MIN_KIND_DONORS = 3
 """Null material comes from files of the candidate's kind when the set has at least this many."""
-
-_PACKED = (".gz", ".bz2", ".xz", ".zst")
 
 _FNV_OFFSET = np.uint64(0xCBF29CE484222325)
 _FNV_PRIME = np.uint64(0x100000001B3)
@@ -400,13 +399,9 @@ def line_blocks(data: bytes, size: int) -> list[bytes]:
 
 def kind_of(item: Item) -> str:
     """The kind of file an item comes from: its source's suffix in lower case ('' if none), a
-    packing suffix (.gz, .bz2, .xz, .zst) dropped. Items split from one file share its kind."""
-    name = os.path.basename(item.source.lower())
-    for packed in _PACKED:
-        if name.endswith(packed):
-            name = name[: -len(packed)]
-            break
-    return os.path.splitext(name)[1]
+    suffix kinpress reads through (`items.uncompressed_name`) dropped. Items split from one file
+    share its kind."""
+    return os.path.splitext(uncompressed_name(os.path.basename(item.source.lower())))[1]
 
 
 def _donor_pools(kinds: Sequence[str]) -> dict[str, list[int]]:
@@ -531,6 +526,16 @@ class _Measured:
     null_sorted: np.ndarray
     stats: MatrixStats
 
+    @cached_property
+    def scores(self) -> np.ndarray:
+        """max(e(a|b), e(b|a)) of each candidate."""
+        return np.asarray(np.maximum(self.a_by_b, self.b_by_a), dtype=np.float64)
+
+    @cached_property
+    def fprs(self) -> np.ndarray:
+        """The estimated false-positive rate of each candidate's score (`_fpr`)."""
+        return _fpr(self.scores, self.null_sorted)
+
 
 def _measure(
     items: Sequence[Item],
@@ -564,8 +569,7 @@ def _related(
     pairs: Sequence[tuple[int, int]], measured: _Measured, max_fpr: float
 ) -> list[tuple[int, int]]:
     """The candidates that pass the compression test (identical ones are checked apart)."""
-    scores = np.maximum(measured.a_by_b, measured.b_by_a)
-    passed = _fpr(scores, measured.null_sorted) <= max_fpr
+    passed = measured.fprs <= max_fpr
     return [pair for pair, ok in zip(pairs, passed.tolist(), strict=True) if ok]
 
 
@@ -585,7 +589,7 @@ def _view(items: Sequence[Item], wanted: set[int], common: int, names: bool) -> 
     only the wanted ones are kept."""
     kept: dict[int, Fingerprint] = {}
     maps: dict[int, tuple[np.ndarray, np.ndarray]] = {}
-    distinct = [np.zeros(0, dtype=np.uint64)]
+    distinct = []
     for k, item in enumerate(items):
         if names:
             text, starts, ends = names_aside(item.data)
@@ -595,8 +599,7 @@ def _view(items: Sequence[Item], wanted: set[int], common: int, names: bool) -> 
         distinct.append(np.unique(found.hashes))
         if k in wanted:
             kept[k] = found
-    hashes, counts = np.unique(np.concatenate(distinct), return_counts=True)
-    return _View(kept, hashes[counts >= common], maps if names else None)
+    return _View(kept, common_among(distinct, common), maps if names else None)
 
 
 def _is_derived(found: Evidence, a_smaller: bool, cuts: EvidenceCuts) -> bool:
@@ -616,8 +619,7 @@ def _findings(
     """Derived pairs (the same bytes, or pairs in `sought` whose stretches reach the cuts, as
     `judge` says) and same-source pairs (fpr at most max_fpr, stretches short of the cuts),
     each highest score first."""
-    scores = np.maximum(measured.a_by_b, measured.b_by_a)
-    fprs = _fpr(scores, measured.null_sorted)
+    scores, fprs = measured.scores, measured.fprs
     derived: list[DerivedFinding] = []
     kin: list[DerivedFinding] = []
     for k, (i, j) in enumerate(pairs):

@@ -26,7 +26,6 @@ of either file counts twice.
 from __future__ import annotations
 
 import re
-from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -311,12 +310,3 @@ def remapped(
     return Evidence(
         tuple(stretches), found.a_covered, found.b_covered, found.a_seeded, found.b_seeded
     )
-
-
-def evidence_for_pairs(
-    fingerprints: Sequence[Fingerprint],
-    pairs: Sequence[tuple[int, int]],
-    ignore: np.ndarray | None = None,
-) -> list[Evidence]:
-    """`evidence` of every pair (i, j) of fingerprint indices, in order."""
-    return [evidence(fingerprints[i], fingerprints[j], ignore) for i, j in pairs]

@@ -96,7 +96,7 @@ def is_nucleotide(letters: bytes) -> bool:
 def sequence_format(path: str) -> str | None:
     """The sequence format a file name implies (a compression suffix is looked through), or
     None."""
-    name = _uncompressed_name(path.lower())
+    name = uncompressed_name(path.lower())
     return SEQUENCE_FORMATS.get(os.path.splitext(name)[1])
 
 
@@ -196,7 +196,7 @@ _DECOMPRESSORS: dict[str, Callable[[str], Any]] = {
 """Compressed inputs read through their decompressor, by file name suffix."""
 
 
-def _uncompressed_name(name: str) -> str:
+def uncompressed_name(name: str) -> str:
     """`name` without a compression suffix that kinpress reads through (`genome.fa.gz`)."""
     stem, suffix = os.path.splitext(name)
     return stem if suffix.lower() in _DECOMPRESSORS else name
@@ -259,7 +259,7 @@ def _file_items(
     path: str, split: Split, stdin: BinaryIO | None, limit: int = DEFAULT_MAX_FILE_BYTES
 ) -> Iterator[Item]:
     data = _read(path, stdin, limit)
-    base = "stdin" if path == "-" else _uncompressed_name(os.path.basename(path))
+    base = "stdin" if path == "-" else uncompressed_name(os.path.basename(path))
     if not data:
         warnings.warn(f"{path}: empty file; left out", InputWarning, stacklevel=2)
         return

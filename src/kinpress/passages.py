@@ -632,9 +632,14 @@ def common_hashes(fingerprints: Sequence[Fingerprint], min_files: int) -> np.nda
     headers, templates) from seeding passages; a passage of two files that runs through such
     boilerplate is still found from its other seeds.
     """
-    if not fingerprints:
+    return common_among([np.unique(fp.hashes) for fp in fingerprints], min_files)
+
+
+def common_among(distinct: Sequence[np.ndarray], min_files: int) -> np.ndarray:
+    """Sorted hashes found in at least min_files of the arrays, each array holding one file's
+    distinct hashes (see `common_hashes`; this form needs only the hashes, not whole
+    fingerprints)."""
+    if not distinct:
         return np.zeros(0, dtype=np.uint64)
-    values, counts = np.unique(
-        np.concatenate([np.unique(fp.hashes) for fp in fingerprints]), return_counts=True
-    )
+    values, counts = np.unique(np.concatenate(distinct), return_counts=True)
     return values[counts >= min_files].astype(np.uint64)
