@@ -35,7 +35,7 @@ from __future__ import annotations
 
 import math
 import numbers
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -410,23 +410,46 @@ def _summarise(
     requested_k: int | None,
     report_outliers: bool,
 ) -> Grouping:
-    is_outlier = raw == OUTLIER
     labels = _renumber(raw if report_outliers else _attach(d, raw))
-    sil = _silhouettes(d, labels)
+    return _grouping(
+        labels, raw == OUTLIER, _silhouettes(d, labels),
+        lambda g, members: medoid(d, members.tolist()),
+        method, min_size, neighbours, cut, requested_k, report_outliers,
+    )  # fmt: skip
+
+
+def _grouping(
+    labels: IntArray,
+    is_outlier: npt.NDArray[np.bool_],
+    sil: FloatArray,
+    medoid_of: Callable[[int, IntArray], int],
+    method: str,
+    min_size: int | None,
+    neighbours: int,
+    cut: float | None,
+    requested_k: int | None,
+    report_outliers: bool,
+) -> Grouping:
+    """The grouping of final `labels`: each group's medoid (`medoid_of(group, members)`) and
+    mean silhouette, the mean over grouped items. Silhouettes are NaN where not measured (the
+    sparse route measures a sample; undefined everywhere with fewer than two groups): means are
+    over the measured ones, NaN when there are none."""
     is_medoid = np.zeros(labels.shape, dtype=bool)
     summaries = []
     for g in _group_ids(labels):
         members = np.flatnonzero(labels == g)
-        m = medoid(d, members.tolist())
+        m = medoid_of(g, members)
         is_medoid[m] = True
-        summaries.append(GroupSummary(g, int(members.size), m, float(np.mean(sil[members]))))
-    grouped = labels != OUTLIER
+        values = sil[members][~np.isnan(sil[members])]
+        mean = float(values.mean()) if values.size else math.nan
+        summaries.append(GroupSummary(g, int(members.size), m, mean))
+    scored = sil[(labels != OUTLIER) & ~np.isnan(sil)]
     return Grouping(
         assignment=tuple(int(g) for g in labels),
         is_medoid=tuple(bool(x) for x in is_medoid),
         is_outlier=tuple(bool(x) for x in is_outlier),
         groups=tuple(summaries),
-        silhouette=float(np.mean(sil[grouped])) if np.any(grouped) else math.nan,
+        silhouette=float(scored.mean()) if scored.size else math.nan,
         method=method,
         min_size=min_size,
         core_neighbours=neighbours,
@@ -598,34 +621,14 @@ class _SampleScore:
         requested_k: int | None,
         report_outliers: bool,
     ) -> Grouping:
-        is_outlier = raw == OUTLIER
         labels = _renumber(raw if report_outliers else self.attach(raw))
         sil = np.full(labels.shape, np.nan)
         sil[self.sample] = self.silhouettes(labels)
         medoids = _sparse_medoids(index, np.asarray(distances, dtype=np.float64), labels)
-        is_medoid = np.zeros(labels.shape, dtype=bool)
-        summaries = []
-        for g in _group_ids(labels):
-            members = labels == g
-            m = medoids[g]
-            is_medoid[m] = True
-            values = sil[members & ~np.isnan(sil)]
-            mean = float(values.mean()) if values.size else math.nan
-            summaries.append(GroupSummary(g, int(members.sum()), m, mean))
-        scored = sil[~np.isnan(sil) & (labels != OUTLIER)]
-        return Grouping(
-            assignment=tuple(int(g) for g in labels),
-            is_medoid=tuple(bool(x) for x in is_medoid),
-            is_outlier=tuple(bool(x) for x in is_outlier),
-            groups=tuple(summaries),
-            silhouette=float(scored.mean()) if scored.size else math.nan,
-            method=method,
-            min_size=min_size,
-            core_neighbours=neighbours,
-            cut=cut,
-            requested_k=requested_k,
-            outliers_reported=report_outliers,
-        )
+        return _grouping(
+            labels, raw == OUTLIER, sil, lambda g, members: medoids[g],
+            method, min_size, neighbours, cut, requested_k, report_outliers,
+        )  # fmt: skip
 
 
 def _sparse_medoids(index: IntArray, distances: FloatArray, labels: IntArray) -> dict[int, int]:
