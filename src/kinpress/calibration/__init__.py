@@ -1,0 +1,82 @@
+"""Calibration: measure how far each compressor is from an ideal one on controls with known answers.
+
+Every distance here is the project's NCD by concatenation,
+
+    NCD(x, y) = (C(ab) - C(a)) / C(b),   a, b = x, y ordered so that C(a) <= C(b)
+
+(Li et al. 2004; Cilibrasi & Vitányi 2005, "Clustering by compression", IEEE TIT 51(4)). A normal
+compressor gives NCD(x, x) ≈ 0 and NCD ≈ 1 for unrelated inputs; real ones fail in known ways:
+once x and its partner no longer fit the window or block, identity distances jump towards 1
+(Cebrián, Alfonseca & Ortega 2005, "Common pitfalls using the normalized compression distance",
+Commun. Inf. Syst. 5(4)), and a coder that only counts symbols cannot tell x from a shuffle of x.
+
+The package in three steps, each a module:
+
+* :mod:`.controls`: the inputs with known answers (identity, independence, composition, a
+  mutation ladder, block moves), made from the user's items or synthetic text by a seed;
+* :mod:`.measure`: each compressor's figures on them (bias, a size sweep of NCD(x, x) over sizes
+  doubling from 1 KiB, the four properties of a normal compressor), with the rules that turn
+  figures into a reliable size and a resolution;
+* :mod:`.choose`: the recommendation and its reasons in words, job-time estimates, and
+  :func:`choose_for_job`, the one function ``-c auto`` calls for every job kind.
+"""
+
+from .choose import (
+    DEFAULT_BUDGET_SECONDS,
+    DEFAULT_CANDIDATES,
+    JOBS,
+    LABELLED_CANDIDATES,
+    LABELLED_JOBS,
+    Choice,
+    TaskFigures,
+    calibrate,
+    choose_compressor,
+    choose_for_job,
+    estimate_classify_seconds,
+    estimate_job_seconds,
+    holds,
+)
+from .controls import BLOCK_COUNTS, DEFAULT_SEED, MUTATION_RATES, Controls, make_controls
+from .measure import (
+    DEFAULT_MAX_BYTES,
+    RELIABLE_NCD,
+    REPORT_KEYS,
+    CalibrationReport,
+    CompressorCalibration,
+    Normality,
+    SizeSweep,
+    calibrate_compressor,
+    normality_violations,
+    size_sweep,
+)
+
+__all__ = [
+    "BLOCK_COUNTS",
+    "DEFAULT_BUDGET_SECONDS",
+    "DEFAULT_CANDIDATES",
+    "DEFAULT_MAX_BYTES",
+    "DEFAULT_SEED",
+    "JOBS",
+    "LABELLED_CANDIDATES",
+    "LABELLED_JOBS",
+    "MUTATION_RATES",
+    "RELIABLE_NCD",
+    "REPORT_KEYS",
+    "CalibrationReport",
+    "Choice",
+    "CompressorCalibration",
+    "Controls",
+    "Normality",
+    "SizeSweep",
+    "TaskFigures",
+    "calibrate",
+    "calibrate_compressor",
+    "choose_compressor",
+    "choose_for_job",
+    "estimate_classify_seconds",
+    "estimate_job_seconds",
+    "holds",
+    "make_controls",
+    "normality_violations",
+    "size_sweep",
+]
