@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import itertools
 import math
+import os
 import time
 import xml.etree.ElementTree as ET
 from pathlib import Path
@@ -20,6 +21,7 @@ from matplotlib.transforms import Bbox, BboxBase
 from kinpress import plots
 from kinpress.distance import DistanceMatrix
 from kinpress.plots import heatmap_figure, plot_heatmap, plot_tree, tree_figure
+from kinpress.plots.tree import _positions
 from kinpress.trees import Node, add_support, build_tree, leaf_order, preorder
 
 FORMATS = ["png", "svg", "pdf"]
@@ -215,7 +217,7 @@ def texts_with_gid_exact(fig: Figure, gid: str) -> list[Text]:
 @pytest.mark.parametrize("unit", [1e-4, 0.03, 1.0, 70.0])
 def test_scale_bar_is_a_round_length_near_a_fifth_of_the_depth(unit: float) -> None:
     tree = build_tree(random_labels(9), random_distances(9) * unit)
-    depth = max(plots._positions(tree).x.values())
+    depth = max(_positions(tree).x.values())
     length, label = scale_bar(tree_figure(tree, scale_label="NCD"))
     mantissa = length / 10 ** math.floor(math.log10(length) + 1e-9)
     assert round(mantissa, 6) in (1, 2, 5)
@@ -331,7 +333,7 @@ def test_failed_write_leaves_the_old_file_and_no_temporary(
     def broken_replace(source: str, destination: str) -> None:
         raise OSError("disk gone")
 
-    monkeypatch.setattr(plots.os, "replace", broken_replace)
+    monkeypatch.setattr(os, "replace", broken_replace)
     with pytest.raises(OSError, match="disk gone"):
         plot_tree(random_tree(5), target)
     assert target.read_text() == "old"
