@@ -283,6 +283,30 @@ def test_heatmap_colour_bar_is_labelled_ncd() -> None:
     assert bar.get_ylabel() == "NCD"
 
 
+def test_heatmap_colours_span_the_off_diagonal_range_so_close_distances_show_blocks() -> None:
+    # Real log chunks of two kinds measure 0.84-1.06 apart (issue 12); with the zero diagonal
+    # fixing the scale at 0-1, both blocks came out one colour.
+    rng = np.random.default_rng(3)
+    n = 8
+    block = np.arange(n) < n // 2
+    d = np.where(block[:, None] == block[None, :], 0.84, 1.0) + rng.uniform(0, 0.06, (n, n))
+    d = (d + d.T) / 2
+    np.fill_diagonal(d, 0.0)
+    dm = DistanceMatrix(labels=tuple(f"chunk{i}" for i in range(n)), distances=d)
+    fig = heatmap_figure(dm)
+    image = axes_labelled(fig, "matrix").get_images()[0]
+    off = d[~np.eye(n, dtype=bool)]
+    assert image.norm.vmin == pytest.approx(off.min())
+    assert image.norm.vmax == pytest.approx(off.max())
+    rgba = image.to_rgba(image.get_array())
+    within, between = rgba[0, 1, :3], rgba[0, n - 1, :3]
+    assert np.abs(within - between).max() > 0.3
+    assert np.ma.getmaskarray(image.get_array())[np.diag_indices(n)].all()
+    assert f"colours span {off.min():.3g} to {off.max():.3g}" in " ".join(
+        t.get_text() for t in fig.texts
+    )
+
+
 def test_heatmap_tick_labels_fit_inside_the_figure() -> None:
     fig = drawn(heatmap_figure(matrix(60, classes=True), title="sixty"))
     labels = [

@@ -6,6 +6,7 @@ import os
 from collections.abc import Sequence
 from dataclasses import dataclass
 
+import matplotlib
 import numpy as np
 from matplotlib.axes import Axes
 from matplotlib.figure import Figure
@@ -51,12 +52,30 @@ def _permutation(dm: DistanceMatrix, order: Sequence[str] | None) -> list[int]:
     return [where[label] for label in order]
 
 
-def _caption(dm: DistanceMatrix) -> str:
+_DIAGONAL_COLOUR = "#d9d9d9"  # neutral grey: an item against itself says nothing of the others
+
+
+def _colour_range(values: np.ndarray) -> tuple[float, float]:
+    """The smallest and largest finite distance off the diagonal, which the colours span.
+
+    A zero diagonal would pin the scale at 0 and leave a set whose distances all lie in, say,
+    0.84-1.06 (log chunks of one kind) in one colour; without two distinct values off the
+    diagonal, 0 to the largest distance or 1.
+    """
+    off = values[~np.eye(len(values), dtype=bool)]
+    finite = off[np.isfinite(off)]
+    if finite.size and finite.max() > finite.min():
+        return float(finite.min()), float(finite.max())
+    return 0.0, max(1.0, float(finite.max()) if finite.size else 1.0)
+
+
+def _caption(dm: DistanceMatrix, low: float, high: float) -> str:
     parts = [f"compressor {dm.compressor}"] if dm.compressor else []
     if dm.conditional:
         parts.append(f"conditional {dm.conditional}")
     if dm.strand == "both":
         parts.append("both strands")
+    parts.append(f"colours span {low:.3g} to {high:.3g} (off the diagonal, which is grey)")
     return ", ".join(parts)
 
 
@@ -142,8 +161,11 @@ def _class_strips(fig: Figure, ax: Axes, sizes: _HeatmapSizes, colours: Sequence
 def heatmap_figure(
     dm: DistanceMatrix, *, order: Sequence[str] | None = None, title: str | None = None
 ) -> Figure:
-    """The distances as a heatmap (viridis, 0 to the largest distance or 1, whichever is more),
-    rows and columns in ``order`` (default: as in ``dm``), e.g. a tree's leaf order.
+    """The distances as a heatmap, rows and columns in ``order`` (default: as in ``dm``), e.g. a
+    tree's leaf order.
+
+    Colours (viridis) span the range of the finite distances off the diagonal, which the caption
+    states; the diagonal, and any distance not measured, is grey.
 
     Rows and columns are named up to :data:`LABEL_LIMIT` items; known classes colour a strip
     along the left and top edges. Axes carry the labels ``matrix``, ``colorbar`` and, with
@@ -154,12 +176,16 @@ def heatmap_figure(
     values = np.asarray(dm.distances, dtype=np.float64)[np.ix_(index, index)]
     classes = [dm.classes[i] or _NO_CLASS for i in index] if dm.classes is not None else []
     colours = _class_colours(classes)
-    caption = _caption(dm)
+    low, high = _colour_range(values)
+    caption = _caption(dm, low, high)
     sizes = _heatmap_sizes(labels, list(colours), _heading_size(title, caption), bool(classes))
     page = sizes.page
     fig = Figure(figsize=(page.width, page.height))
     ax = fig.add_axes(page.rect(sizes.left, sizes.bottom, sizes.side, sizes.side), label="matrix")
-    image = ax.imshow(values, cmap="viridis", vmin=0.0, vmax=max(1.0, float(values.max())))
+    shown = np.ma.masked_invalid(values)
+    shown[np.diag_indices(len(values))] = np.ma.masked
+    cmap = matplotlib.colormaps["viridis"].with_extremes(bad=_DIAGONAL_COLOUR)
+    image = ax.imshow(shown, cmap=cmap, vmin=low, vmax=high)
     ax.set_aspect("auto")
     side_ax = _class_strips(fig, ax, sizes, [colours[c] for c in classes]) if classes else ax
     _name_axes(ax, side_ax, labels, sizes)
