@@ -10,7 +10,16 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from conftest import random_bytes
-from kinpress.compressors import ADAPTERS, Compressor, SpecError, compressor, parse_spec
+from kinpress.calibration import calibrate
+from kinpress.compressors import (
+    ADAPTERS,
+    AUTO_CANDIDATES,
+    Compressor,
+    SpecError,
+    compressor,
+    parse_spec,
+)
+from kinpress.items import Item
 
 
 def self_distance(comp: Compressor, x: bytes) -> float:
@@ -21,6 +30,25 @@ def self_distance(comp: Compressor, x: bytes) -> float:
 def independent_distance(comp: Compressor, x: bytes, y: bytes) -> float:
     cx, cy = comp.size(x), comp.size(y)
     return (comp.size(x + y) - min(cx, cy)) / max(cx, cy)
+
+
+def test_auto_candidates_are_distinct_specs_of_registered_adapters() -> None:
+    assert set(AUTO_CANDIDATES) == {"unlabelled", "labelled"}
+    for specs in AUTO_CANDIDATES.values():
+        assert len({compressor(spec).spec for spec in specs}) == len(specs)
+        for spec in specs:
+            assert parse_spec(spec)[0] is ADAPTERS[spec.partition(":")[0]]
+
+
+def test_auto_reads_its_candidates_from_the_registry(monkeypatch: pytest.MonkeyPatch) -> None:
+    # The one list a new adapter joins: calibration takes it from the registry when called.
+    monkeypatch.setitem(AUTO_CANDIDATES, "unlabelled", ("zlib:level=1", "bz2:level=1"))
+    items = [Item(f"x{k}", random_bytes(2000, seed=k), "test") for k in range(3)]
+    report = calibrate(items, sweep_seconds=0.5)
+    assert [r.spec for r in report.compressors] == [
+        compressor(spec).spec for spec in AUTO_CANDIDATES["unlabelled"]
+    ]
+    assert [r.spec.partition(":")[0] for r in report.compressors] == ["zlib", "bz2"]
 
 
 def test_every_adapter_has_a_level_and_a_canonical_spec() -> None:

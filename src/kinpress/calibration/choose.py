@@ -24,7 +24,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from ..cache import SizeCache
-from ..compressors import Compressor, compressor
+from ..compressors import AUTO_CANDIDATES, Compressor, compressor
 from ..engine import Engine
 from ..items import Item
 from .controls import (
@@ -44,16 +44,9 @@ from .measure import (
     calibrate_compressor,
 )
 
-DEFAULT_CANDIDATES = (
-    "zstd:level=3",
-    "zstd:level=19",
-    "zstd:level=19,window=27",
-    "lzma:level=9",
-    "brotli:level=11",
-    "bz2:level=9",
-    "zlib:level=9",
-    "ppmd:order=16",
-)
+# What the registry holds at import, for callers that list the candidates; the choosing functions
+# read the registry itself when called.
+DEFAULT_CANDIDATES = AUTO_CANDIDATES["unlabelled"]
 DEFAULT_BUDGET_SECONDS = 600.0
 QUALITY_TIE = 0.02
 
@@ -195,8 +188,9 @@ def calibrate(
     normality_bytes: int = DEFAULT_NORMALITY_BYTES,
     sweep_seconds: float = DEFAULT_SWEEP_SECONDS,
 ) -> CalibrationReport:
-    """Calibrate ``candidates`` (default :data:`DEFAULT_CANDIDATES`) on controls made from
-    ``items`` (or generic ones) and recommend one by quality (module rules), speed breaking ties.
+    """Calibrate ``candidates`` (default: the registry's unlabelled ``AUTO_CANDIDATES``) on
+    controls made from ``items`` (or generic ones) and recommend one by quality (module rules),
+    speed breaking ties.
 
     >>> report = calibrate(load_items(["genomes/"]))  # doctest: +SKIP
     >>> report.recommended, report.as_json()["reasons"]  # doctest: +SKIP
@@ -210,7 +204,7 @@ def calibrate(
     )
     results = tuple(
         calibrate_compressor(spec, controls, max_bytes=max_bytes, sweep_seconds=sweep_seconds)
-        for spec in candidates or DEFAULT_CANDIDATES
+        for spec in candidates or AUTO_CANDIDATES["unlabelled"]
     )
     inputs = {**controls.inputs, "max_bytes": max_bytes}
     recommended, reasons = _recommend(results, _need(inputs))
@@ -296,15 +290,7 @@ def choose_compressor(
 
 JOBS = ("matrix", "tree", "groups", "nearest", "derived", "classify")
 LABELLED_JOBS = ("classify",)
-LABELLED_CANDIDATES = (
-    "zstd:level=3",
-    "zstd:level=19",
-    "lzma:level=9",
-    "brotli:level=11",
-    "ppmd:order=32",
-    "bz2:level=9",
-    "zlib:level=9",
-)
+LABELLED_CANDIDATES = AUTO_CANDIDATES["labelled"]
 MEASURED_FOLDS = (0, 2, 4)
 REAL_PAIR_ITEMS = 8
 SATURATED_SHARE = 0.25
@@ -599,7 +585,11 @@ def choose_for_job(
     cores = jobs or _cores()
     if job in LABELLED_JOBS:
         report = calibrate(
-            items, candidates or LABELLED_CANDIDATES, seed=seed, samples=2, sweep_seconds=1.0
+            items,
+            candidates or AUTO_CANDIDATES["labelled"],
+            seed=seed,
+            samples=2,
+            sweep_seconds=1.0,
         )
         spec, figures, reasons = _choose_labelled(
             items, targets, report, budget_seconds, cores, engine, cache

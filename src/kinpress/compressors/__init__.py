@@ -15,10 +15,34 @@ from .zstd import Zstd
 ADAPTERS: dict[str, type[Compressor]] = {
     cls.name: cls for cls in (Zstd, Brotli, Lzma, Bz2, Zlib, Ppmd)
 }
+AUTO_CANDIDATES: dict[str, tuple[str, ...]] = {
+    "unlabelled": (
+        "zstd:level=3",
+        "zstd:level=19",
+        "zstd:level=19,window=27",
+        "lzma:level=9",
+        "brotli:level=11",
+        "bz2:level=9",
+        "zlib:level=9",
+        "ppmd:order=16",
+    ),
+    "labelled": (
+        "zstd:level=3",
+        "zstd:level=19",
+        "lzma:level=9",
+        "brotli:level=11",
+        "ppmd:order=32",
+        "bz2:level=9",
+        "zlib:level=9",
+    ),
+}
+"""The specs ``-c auto`` calibrates, by kind of job (a labelled reference or not), in the order
+its reasons list them; the one list beside ``ADAPTERS`` a new compressor joins to be chosen."""
 NAME_ALIASES = {"xz": "lzma", "deflate": "zlib", "bzip2": "bz2", "brotli": "brotli"}
 
 __all__ = [
     "ADAPTERS",
+    "AUTO_CANDIDATES",
     "Compressor",
     "CompressorInfo",
     "Param",
