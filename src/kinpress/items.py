@@ -24,6 +24,8 @@ from typing import Any, BinaryIO
 
 import zstandard
 
+from .units import size_text
+
 
 class InputError(ValueError):
     """An input cannot be read: the message names the file, and the line for parse errors."""
@@ -208,13 +210,6 @@ DEFAULT_MAX_FILE_BYTES = 1 << 30
 _READ_PIECE = 1 << 20
 
 
-def _size_text(n: int) -> str:
-    for unit, shift in (("GiB", 30), ("MiB", 20), ("KiB", 10)):
-        if n >= 1 << shift:
-            return f"{n / (1 << shift):g} {unit}"
-    return f"{n} bytes"
-
-
 def _read_capped(handle: BinaryIO, path: str, limit: int) -> bytes:
     """Everything in `handle`, read a piece at a time; more than `limit` bytes is an InputError
     raised as soon as the limit is passed, so no more than that is ever held."""
@@ -225,7 +220,7 @@ def _read_capped(handle: BinaryIO, path: str, limit: int) -> bytes:
         held += len(piece)
         if held > limit:
             raise InputError(
-                f"{path}: larger than {_size_text(limit)} (after decompression);"
+                f"{path}: larger than {size_text(limit)} (after decompression);"
                 " raise the limit with --max-file-size to read it"
             )
     return b"".join(pieces)
@@ -243,7 +238,7 @@ def _read(path: str, stdin: BinaryIO | None, limit: int = DEFAULT_MAX_FILE_BYTES
             info = os.fstat(handle.fileno())
             if stat.S_ISREG(info.st_mode) and info.st_size > limit:
                 raise InputError(
-                    f"{path}: larger than {_size_text(limit)} ({_size_text(info.st_size)});"
+                    f"{path}: larger than {size_text(limit)} ({size_text(info.st_size)});"
                     " raise the limit with --max-file-size to read it"
                 )
             return _read_capped(handle, path, limit)

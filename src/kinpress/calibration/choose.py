@@ -27,6 +27,7 @@ from ..cache import SizeCache
 from ..compressors import AUTO_CANDIDATES, Compressor, compressor
 from ..engine import Engine
 from ..items import Item
+from ..units import duration_text, size_text
 from .controls import (
     _STREAM_SAMPLES,
     DEFAULT_NORMALITY_BYTES,
@@ -51,21 +52,6 @@ DEFAULT_BUDGET_SECONDS = 600.0
 QUALITY_TIE = 0.02
 
 
-def _size(n: float) -> str:
-    """Bytes in round decimal units, as the reasons print them."""
-    for unit, scale in (("MB", 1e6), ("KB", 1e3)):
-        if n >= scale:
-            return f"{n / scale:.3g} {unit}"
-    return f"{n:.0f} B"
-
-
-def _binary(n: int) -> str:
-    for unit, shift in (("GiB", 30), ("MiB", 20), ("KiB", 10)):
-        if n >= 1 << shift and n % (1 << shift) == 0:
-            return f"{n >> shift} {unit}"
-    return _size(n)
-
-
 def holds(result: CompressorCalibration, need: int | None) -> bool:
     """Whether a compressor holds a pair of `need` bytes: by its measured reliable size, or, when
     its sweep was stopped for time before reaching `need`, by its documented window (checked
@@ -78,12 +64,12 @@ def holds(result: CompressorCalibration, need: int | None) -> bool:
 
 
 def _too_small(result: CompressorCalibration, largest: int, need: int) -> str:
-    window = f", documented window {_binary(result.window_bytes)}" if result.window_bytes else ""
+    window = f", documented window {size_text(result.window_bytes)}" if result.window_bytes else ""
     bound = "at least " if result.reliable_capped else ""
+    reliable = size_text(result.reliable_up_to_bytes)
     return (
-        f"{result.spec}: passed over: items up to {_size(largest)} (the two largest together "
-        f"{_size(need)}) exceed its reliable size, {bound}{_size(result.reliable_up_to_bytes)}"
-        f"{window}"
+        f"{result.spec}: passed over: items up to {size_text(largest)} (the two largest together "
+        f"{size_text(need)}) exceed its reliable size, {bound}{reliable}{window}"
     )
 
 
@@ -142,7 +128,7 @@ def _recommend(
     if not quick:
         return _fallback(results, pair, fitting, reasons)
     best = _best(quick)
-    scope = f"reaches the largest pair ({_size(pair)})" if pair else "no inputs to size"
+    scope = f"reaches the largest pair ({size_text(pair)})" if pair else "no inputs to size"
     lead = f"{best.spec}: chosen: {scope}; {_summary(best)}; quality score {best.quality:.3f}"
     for other in quick:
         if other is best:
@@ -169,7 +155,8 @@ def _fallback(
         best = max(results, key=lambda r: (r.reliable_up_to_bytes, -r.quality))
         lead = (
             f"{best.spec}: chosen although no candidate reaches the largest pair "
-            f"({_size(pair or 0)}): it reaches furthest, {_size(best.reliable_up_to_bytes)}; "
+            f"({size_text(pair or 0)}): it reaches furthest,"
+            f" {size_text(best.reliable_up_to_bytes)}; "
             "distances of larger pairs drift towards 1, so consider splitting the items"
         )
     else:
@@ -233,15 +220,7 @@ def estimate_job_seconds(
 
 
 def _estimate(seconds: float) -> str:
-    return "under 1 s" if seconds < 1 else f"about {_duration(seconds)}"
-
-
-def _duration(seconds: float) -> str:
-    if seconds < 90:
-        return f"{seconds:.0f} s"
-    if seconds < 5400:
-        return f"{seconds / 60:.0f} min"
-    return f"{seconds / 3600:.1f} h"
+    return "under 1 s" if seconds < 1 else f"about {duration_text(seconds)}"
 
 
 def choose_compressor(
@@ -269,7 +248,7 @@ def choose_compressor(
             return None
         return (
             f"the whole job would take {_estimate(seconds)} on {cores} cores, over the "
-            f"{_duration(budget_seconds)} budget"
+            f"{duration_text(budget_seconds)} budget"
         )
 
     recommended, reasons = _recommend(report.compressors, _need(report.inputs), slow)
@@ -279,7 +258,7 @@ def choose_compressor(
     estimate = (
         f"estimated job time with {recommended}: "
         f"{_estimate(estimate_job_seconds(chosen, lengths, cores, strand))} on {cores} cores "
-        f"(budget {_duration(budget_seconds)})"
+        f"(budget {duration_text(budget_seconds)})"
     )
     report = replace(report, recommended=recommended, reasons=(*reasons, estimate))
     return recommended, report
@@ -428,7 +407,7 @@ def _choose_labelled(
     for result in report.compressors:
         if not holds(result, longest):
             reasons.append(
-                f"{result.spec}: passed over: cannot hold the largest item ({_size(longest)})"
+                f"{result.spec}: passed over: cannot hold the largest item ({size_text(longest)})"
             )
             continue
         seconds = estimate_classify_seconds(
@@ -438,7 +417,7 @@ def _choose_labelled(
         if seconds > budget_seconds:
             reasons.append(
                 f"{result.spec}: passed over: the job would take {_estimate(seconds)} on {cores}"
-                f" cores, over the {_duration(budget_seconds)} budget"
+                f" cores, over the {duration_text(budget_seconds)} budget"
             )
             continue
         timed.append((seconds, result.spec))
@@ -455,7 +434,7 @@ def _choose_labelled(
         if figures and spent + share > allowance:
             reasons.append(
                 f"{spec}: passed over: measuring it too would take more than"
-                f" {_duration(allowance)} ({MEASURING_SHARE:.0%} of the budget)"
+                f" {duration_text(allowance)} ({MEASURING_SHARE:.0%} of the budget)"
             )
             continue
         spent += share

@@ -11,6 +11,7 @@ from matplotlib.axes import Axes
 from matplotlib.figure import Figure
 
 from ..calibration import RELIABLE_NCD, CalibrationReport
+from ..units import size_text
 from ._layout import _literal, figure_format, write_figure
 
 _CALIBRATION_PANEL = (5.0, 3.6)  # inches of each of the two panels
@@ -28,23 +29,16 @@ def _window_marks(ax: Axes, report: CalibrationReport, low: float, high: float) 
         ax.axvline(window, color="#777777", linestyle=":", linewidth=1.0, zorder=1)
     top = ax.secondary_xaxis("top")
     windows = sorted(marks)
-    names = [f"{'/'.join(dict.fromkeys(marks[w]))} {_window_label(w)}" for w in windows]
+    names = [f"{'/'.join(dict.fromkeys(marks[w]))} {size_text(w)}" for w in windows]
     top.set_xticks(windows, [_literal(name) for name in names], rotation=90, fontsize=7.5)
     top.tick_params(length=3, colors="#555555")
     top.minorticks_off()
 
 
-def _window_label(size: int) -> str:
-    for unit, shift in (("MiB", 20), ("KiB", 10)):
-        if size >= 1 << shift and size % (1 << shift) == 0:
-            return f"{size >> shift} {unit}"
-    return f"{size / 1e3:.4g} kB" if size >= 1000 else f"{size} B"
-
-
 def _size_ticks(ax: Axes, low: float, high: float) -> None:
     """Ticks at powers of four in binary units, so the doubling sweep reads directly."""
     ticks = [float(1 << k) for k in range(0, 64, 2) if low <= 1 << k <= high]
-    ax.set_xticks(ticks, [_window_label(int(t)) for t in ticks], fontsize=8)
+    ax.set_xticks(ticks, [size_text(int(t)) for t in ticks], fontsize=8)
     ax.minorticks_off()
 
 
