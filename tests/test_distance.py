@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import csv
+import re
 import zlib
 from pathlib import Path
 
@@ -231,3 +232,67 @@ def test_conditional_sizes_give_both_directions_and_agree_with_the_matrix(
     # the matrix conditions the larger item (big) on the smaller (excerpt)
     assert dm.distances[0, 1] == pytest.approx(big_given_excerpt / sizes[0])
     assert dm.stats.pairs_from_cache == 1  # that pair came from conditional_sizes' run
+
+
+# --- the one validator every consumer calls ---------------------------------------------------
+
+
+def test_every_consumer_refuses_the_same_faults_with_the_same_words() -> None:
+    from kinpress.distance import DistanceMatrix, check_distances
+    from kinpress.groups import find_groups
+    from kinpress.trees import build_tree
+
+    labels = ("a", "b", "c")
+    good = np.array([[0.0, 1.0, 2.0], [1.0, 0.0, 1.5], [2.0, 1.5, 0.0]])
+    faults = {
+        "not symmetric": good + np.triu(np.full((3, 3), 0.5), 1),
+        "not finite": np.where(good == 1.0, np.nan, good),
+        "negative": -good,
+    }
+    for message, bad in faults.items():
+        for consumer in (
+            lambda d: check_distances(d, labels),
+            lambda d: DistanceMatrix(labels, d),
+            lambda d: build_tree(list(labels), d),
+            lambda d: find_groups(d),
+        ):
+            with pytest.raises(ValueError, match=message):
+                consumer(bad)
+
+
+def test_a_diagonal_of_self_distances_is_read_as_zero_except_by_groups() -> None:
+    from kinpress.distance import DistanceMatrix, check_distances
+    from kinpress.groups import find_groups
+
+    d = np.array([[0.03, 0.9], [0.9, 0.05]])
+    assert np.diag(check_distances(d)).tolist() == [0.0, 0.0]
+    assert d[0, 0] == 0.03  # the caller's array is not written into
+    assert np.diag(DistanceMatrix(("a", "b"), d).distances).tolist() == [0.0, 0.0]
+    with pytest.raises(ValueError, match=re.escape("zero diagonal: item 0 is 0.03 from itself")):
+        check_distances(d, strict_diagonal=True)
+    with pytest.raises(ValueError, match="zero diagonal"):
+        find_groups(d)
+
+
+def test_a_valid_float_matrix_is_returned_without_a_copy() -> None:
+    from kinpress.distance import check_distances
+
+    d = np.array([[0.0, 0.5], [0.5, 0.0]])
+    assert check_distances(d) is d
+
+
+def test_near_symmetry_is_judged_relative_to_the_largest_distance(
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    from kinpress import distance
+    from kinpress.distance import check_distances
+
+    # Read in blocks of one row, so the check across blocks is exercised too.
+    monkeypatch.setattr(distance, "_CHECK_CELLS", 1)
+    d = np.array([[0.0, 1e6, 1.0], [1e6 + 1e-3, 0.0, 2.0], [1.0, 2.0, 0.0]])
+    checked = check_distances(d)
+    assert checked[0, 1] == checked[1, 0] == pytest.approx(1e6 + 5e-4)
+    d[2, 0] = 1.5
+    message = "not symmetric: item 0→item 2 is 1.0 but item 2→item 0 is 1.5"
+    with pytest.raises(ValueError, match=re.escape(message)):
+        check_distances(d)

@@ -21,6 +21,7 @@ from hypothesis import strategies as st
 from scipy.cluster.hierarchy import cophenet, leaves_list, linkage
 from scipy.spatial.distance import squareform
 
+from kinpress.distance import check_distances
 from kinpress.items import escape_name
 from kinpress.trees import (
     Node,
@@ -38,7 +39,6 @@ from kinpress.trees import (
     preorder,
     splits,
     to_newick,
-    validate_distances,
 )
 
 # Wikipedia, "Neighbor joining", worked example with five taxa a–e. The numbers were recalled
@@ -298,13 +298,13 @@ def test_invalid_distance_input_raises_clear_value_error(
     labels: list[str], distances: npt.ArrayLike, message: str
 ) -> None:
     with pytest.raises(ValueError, match=message):
-        validate_distances(labels, distances)
+        check_distances(distances, labels)
     with pytest.raises(ValueError, match=message):
         build_tree(labels, distances)
 
 
 def test_near_symmetric_input_is_accepted_and_symmetrised() -> None:
-    d = validate_distances(["a", "b"], [[0, 1.0], [1.0 + 1e-12, 0]])
+    d = check_distances([[0, 1.0], [1.0 + 1e-12, 0]], ["a", "b"])
     assert d[0, 1] == d[1, 0]
 
 

@@ -13,10 +13,12 @@ from __future__ import annotations
 import hashlib
 import time
 import warnings
+from collections import Counter
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
+import numpy.typing as npt
 
 from .cache import SizeCache
 from .compressors import ADAPTERS, Compressor, SpecError, compressor
@@ -53,9 +55,113 @@ class MatrixStats:
         return dict(self.__dict__)
 
 
+_CHECK_CELLS = 1 << 22  # cells per block of rows the validator reads at once
+
+
+def _blocks(n: int) -> Iterator[slice]:
+    """Blocks of rows of an n×n matrix, so checks hold at most a few MB of temporaries."""
+    step = max(1, _CHECK_CELLS // max(n, 1))
+    return (slice(start, min(start + step, n)) for start in range(0, n, step))
+
+
+def check_distances(
+    distances: npt.ArrayLike,
+    labels: Sequence[str] | None = None,
+    *,
+    strict_diagonal: bool = False,
+) -> npt.NDArray[np.float64]:
+    """The one check of a distance matrix, called by every consumer (DistanceMatrix, trees,
+    groups); returns it as float64, raising ValueError naming the first fault.
+
+    Parameters
+    ----------
+    distances : array_like, n×n
+        Must be non-empty and square; every value finite (no NaN or infinity: a distance not
+        measured has no place in a matrix), non-negative, and symmetric within
+        ``1e-8 · max(1, max d)``; a near-symmetric matrix is returned as (D + Dᵀ) / 2.
+    labels : sequence of str, optional
+        The items' names, one per row, distinct; faults then name the items.
+    strict_diagonal : bool
+        The diagonal rule, the same for every consumer: a non-zero diagonal is read as the
+        items' measured distances to themselves, NCD(x, x), small but not zero with a real
+        compressor, which no method uses: it is returned as zero. Groups pass True to refuse
+        one instead (their functions take arrays from anyone, where a non-zero diagonal more
+        likely means similarities or misaligned rows).
+
+    Returns
+    -------
+    ndarray of float64
+        ``distances`` itself when it needed no change (so a large matrix is not copied), else a
+        new array; a caller that writes into it copies it first.
+
+    Examples
+    --------
+    >>> check_distances([[0.05, 1.0], [1.0, 0.04]], ["a", "b"]).tolist()
+    [[0.0, 1.0], [1.0, 0.0]]
+    >>> check_distances([[0, 1.0], [1.2, 0]], ["a", "b"])
+    Traceback (most recent call last):
+    ...
+    ValueError: distance matrix is not symmetric: 'a'→'b' is 1.0 but 'b'→'a' is 1.2
+    """
+    d = np.asarray(distances, dtype=np.float64)
+    if d.ndim != 2 or d.shape[0] != d.shape[1] or d.shape[0] == 0:
+        raise ValueError(f"distances must be a non-empty square matrix, got shape {d.shape}")
+    n = d.shape[0]
+    if labels is not None:
+        if len(labels) != n:
+            raise ValueError(f"{len(labels)} labels for a {n}×{n} distance matrix")
+        if not all(isinstance(label, str) for label in labels):
+            raise ValueError("labels must be strings")
+        if len(set(labels)) != n:
+            repeated = sorted(k for k, count in Counter(labels).items() if count > 1)
+            raise ValueError(f"labels must be unique; repeated: {repeated}")
+
+    def name(i: int) -> str:
+        return repr(labels[i]) if labels is not None else f"item {i}"
+
+    largest, asymmetric = 0.0, False
+    for rows in _blocks(n):
+        block = d[rows]
+        for problem, where in (("not finite", ~np.isfinite(block)), ("negative", block < 0)):
+            if where.any():
+                i, j = (int(k) for k in np.argwhere(where)[0])
+                i += rows.start
+                raise ValueError(
+                    f"distance between {name(i)} and {name(j)} is {problem}: {d[i, j]}"
+                    " (distances must be finite and non-negative)"
+                )
+        largest = max(largest, float(block.max()))
+        asymmetric = asymmetric or not np.array_equal(block, d[:, rows].T)
+    if asymmetric:
+        tolerance = 1e-8 * max(1.0, largest)
+        for rows in _blocks(n):
+            skew = np.abs(d[rows] - d[:, rows].T)
+            if skew.max() > tolerance:
+                i, j = divmod(int(skew.argmax()), n)
+                i += rows.start
+                raise ValueError(
+                    f"distance matrix is not symmetric: {name(i)}→{name(j)} is {d[i, j]} "
+                    f"but {name(j)}→{name(i)} is {d[j, i]}"
+                )
+        d = (d + d.T) / 2
+    diagonal = np.diagonal(d)
+    if diagonal.any():
+        if strict_diagonal:
+            i = int(np.flatnonzero(diagonal)[0])
+            raise ValueError(
+                f"distances must have a zero diagonal: {name(i)} is {diagonal[i]} from itself"
+            )
+        d = d.copy() if not asymmetric else d
+        np.fill_diagonal(d, 0.0)
+    return d
+
+
 @dataclass(frozen=True)
 class DistanceMatrix:
     """Labels, the symmetric non-negative distance array with zero diagonal, and its provenance.
+
+    The array is checked by :func:`check_distances` when the value is made (a non-zero diagonal
+    read as zero).
 
     `self_distances` holds the measured NCD(x, x), which a real compressor makes a little above
     zero (far above once x+x outgrows its window); `raw` (built when asked) is the unclipped
@@ -77,11 +183,9 @@ class DistanceMatrix:
     stats: MatrixStats = field(default_factory=MatrixStats)
 
     def __post_init__(self) -> None:
-        n = len(self.labels)
-        if self.distances.shape != (n, n):
-            raise ValueError(f"distances must be {n}x{n}, got {self.distances.shape}")
-        if len(set(self.labels)) != n:
-            raise ValueError("labels must be unique")
+        checked = check_distances(self.distances, self.labels)
+        if checked is not self.distances:
+            object.__setattr__(self, "distances", checked)
 
     def __len__(self) -> int:
         return len(self.labels)

@@ -44,6 +44,8 @@ import numpy.typing as npt
 from sklearn.cluster import HDBSCAN
 from sklearn.metrics import adjusted_rand_score, silhouette_samples
 
+from .distance import check_distances
+
 FloatArray = npt.NDArray[np.float64]
 IntArray = npt.NDArray[np.intp]
 
@@ -57,7 +59,6 @@ _CORE_NEIGHBOURS = 3
 # A geometric grid keeps the scan at a few seconds for a thousand items while still trying every
 # small size, where counts change fastest.
 _SIZE_GRID = 40
-_SYMMETRY_TOLERANCE = 1e-9
 _TINY = 1e-12
 _MAX_ROUNDS = 100
 
@@ -121,26 +122,6 @@ class Agreement:
     scored: int
 
 
-def check_distances(distances: npt.ArrayLike) -> FloatArray:
-    """Return ``distances`` as a float array, or raise ValueError if it is not a distance matrix.
-
-    It must be square, finite, symmetric (to 1e-9), non-negative and have a zero diagonal, which
-    the silhouette (Rousseeuw 1987) computed on precomputed distances requires.
-    """
-    d = np.asarray(distances, dtype=np.float64)
-    if d.ndim != 2 or d.shape[0] != d.shape[1] or d.shape[0] == 0:
-        raise ValueError(f"distances must be a non-empty square matrix, got shape {d.shape}")
-    if not np.all(np.isfinite(d)):
-        raise ValueError("distances must be finite")
-    if np.any(d < 0):
-        raise ValueError("distances must be non-negative")
-    if not np.allclose(d, d.T, rtol=0.0, atol=_SYMMETRY_TOLERANCE):
-        raise ValueError("distances must be symmetric")
-    if np.any(np.diag(d) != 0):
-        raise ValueError("distances must have a zero diagonal")
-    return d
-
-
 def medoid(distances: npt.ArrayLike, members: Sequence[int]) -> int:
     """The member with the smallest summed distance to the other members (lowest index on ties).
 
@@ -171,7 +152,7 @@ def find_groups(
     (-1); with ``k`` above what the density step supports and too few grouped items to split,
     outliers are grouped like the others.
     """
-    d = check_distances(distances)
+    d = check_distances(distances, strict_diagonal=True)
     n = d.shape[0]
     if k is not None and cut is not None:
         raise ValueError("give k or cut, not both")
@@ -531,7 +512,7 @@ def find_groups_sparse(
     n = graph.shape[0]
     idx = np.asarray(index)
     rows = np.asarray(sample, dtype=np.intp)
-    d = check_distances(sample_distances)
+    d = check_distances(sample_distances, strict_diagonal=True)
     if k is not None and not 1 <= k <= n:
         raise ValueError(f"k must be an integer from 1 to the number of items ({n}), got {k!r}")
     neighbours = min(_CORE_NEIGHBOURS, n)

@@ -21,6 +21,7 @@ import numpy.typing as npt
 from scipy.cluster.hierarchy import linkage
 from scipy.spatial.distance import squareform
 
+from .distance import check_distances
 from .items import escape_name, unescape_name
 
 __all__ = [
@@ -41,7 +42,6 @@ __all__ = [
     "preorder",
     "splits",
     "to_newick",
-    "validate_distances",
 ]
 
 Method = Literal["nj", "average", "complete", "single"]
@@ -135,45 +135,6 @@ def leaf_order(tree: Node) -> list[str]:
     return names
 
 
-def validate_distances(labels: Sequence[str], distances: npt.ArrayLike) -> FloatMatrix:
-    """Check a labelled distance matrix and return it as a symmetric float64 copy.
-
-    The matrix must be square, match ``labels`` (distinct strings), be finite and non-negative,
-    and be symmetric within ``1e-8 · max(1, max d)``; it is returned as (D + Dᵀ)/2. The diagonal
-    is set to zero rather than checked, since compression distances of an item with itself are
-    small but not zero and no method here uses them.
-    """
-    d = np.array(distances, dtype=np.float64)
-    if d.ndim != 2 or d.shape[0] != d.shape[1]:
-        raise ValueError(f"distance matrix must be square, got shape {d.shape}")
-    n = d.shape[0]
-    if n == 0:
-        raise ValueError("distance matrix is empty")
-    if len(labels) != n:
-        raise ValueError(f"{len(labels)} labels for a {n}×{n} distance matrix")
-    if not all(isinstance(label, str) for label in labels):
-        raise ValueError("labels must be strings")
-    if len(set(labels)) != n:
-        raise ValueError(f"labels must be unique; repeated: {_repeated(labels)}")
-    for problem, where in (("not finite", ~np.isfinite(d)), ("negative", d < 0)):
-        if where.any():
-            i, j = (int(k) for k in np.argwhere(where)[0])
-            raise ValueError(
-                f"distance between {labels[i]!r} and {labels[j]!r} is {problem}: {d[i, j]}"
-            )
-    asymmetry = np.abs(d - d.T)
-    tolerance = 1e-8 * max(1.0, float(d.max()))
-    if asymmetry.max() > tolerance:
-        i, j = divmod(int(asymmetry.argmax()), n)
-        raise ValueError(
-            f"distance matrix is not symmetric: {labels[i]!r}→{labels[j]!r} is {d[i, j]} "
-            f"but {labels[j]!r}→{labels[i]!r} is {d[j, i]}"
-        )
-    d = (d + d.T) / 2
-    np.fill_diagonal(d, 0.0)
-    return d
-
-
 def neighbour_joining(labels: Sequence[str], distances: npt.ArrayLike) -> Node:
     """Unrooted neighbour-joining tree, as a root with three children (two when n = 2).
 
@@ -196,7 +157,7 @@ def neighbour_joining(labels: Sequence[str], distances: npt.ArrayLike) -> Node:
     place (the joined node takes the lower slot, the last active node moves into the upper), so
     the run is O(n³) time and O(n²) memory.
     """
-    d = validate_distances(labels, distances)
+    d = check_distances(distances, labels).copy()  # joined in place
     n = len(labels)
     nodes = [Node(name=label) for label in labels]
     if n == 1:
@@ -271,7 +232,7 @@ def linkage_tree(
     """
     if method not in _LINKAGE_METHODS:
         raise ValueError(f"unknown linkage method {method!r}; choose from {_LINKAGE_METHODS}")
-    d = validate_distances(labels, distances)
+    d = check_distances(distances, labels)
     n = len(labels)
     nodes = [Node(name=label) for label in labels]
     if n == 1:
@@ -538,7 +499,7 @@ def fit_correlation(tree: Node, labels: Sequence[str], distances: npt.ArrayLike)
     this is the cophenetic correlation (Sokal RR, Rohlf FJ (1962) Taxon 11:33–40). NaN when
     either side is constant (including fewer than three items).
     """
-    d = validate_distances(labels, distances)
+    d = check_distances(distances, labels)
     if len(labels) < 3:
         return math.nan
     upper = np.triu_indices(len(labels), k=1)
