@@ -252,3 +252,19 @@ def test_real_mitogenome_tree_with_the_calibrated_compressor_keeps_bats_together
     for order in ("Primates", "Carnivora", "Lagomorpha", "Artiodactyla", "Chiroptera"):
         members = frozenset(n for n, o in orders.items() if o == order)
         assert members in found or leaves - members in found, order
+
+
+def test_bootstrap_reports_progress_through_the_one_progress_signature() -> None:
+    from conftest import random_bytes
+    from kinpress import Item, compressor
+    from kinpress.support import bootstrap_support
+
+    base = random_bytes(4000, seed=1)
+    items = [Item(f"x{k}", base[k * 100 :] + random_bytes(500, seed=k), "test") for k in range(4)]
+    dm = distance_matrix(items, "zlib:level=1")
+    calls: list[tuple[str, int, int]] = []
+    bootstrap_support(
+        build_tree(dm.labels, dm.distances), items, compressor("zlib:level=1"),
+        replicates=2, progress=lambda phase, done, total: calls.append((phase, done, total)),
+    )  # fmt: skip
+    assert calls == [("replicates", 1, 2), ("replicates", 2, 2)]

@@ -16,6 +16,7 @@ import warnings
 from collections import Counter
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field
+from typing import Protocol
 
 import numpy as np
 import numpy.typing as npt
@@ -28,8 +29,19 @@ from .items import InputError, Item
 CONDITIONALS = ("concat", "primed")
 STRANDS = ("one", "both")
 
-Progress = Callable[[str, int, int], None]
-"""Called with (phase, done, total) as tiles finish; a unit is one compression to compute."""
+
+class Progress(Protocol):
+    """The one progress callback of the library, for every long call that takes ``progress=``
+    (distance_matrix, conditional_sizes, the neighbour search, derived, origins, support).
+
+    Called as ``progress(phase, done, total)`` whenever work finishes: ``done`` of ``total``
+    units of ``phase`` are done. The phase names, for a person, what is counted: compressions
+    to compute (``"single items"``, ``"pairs"``, with a note such as ``"pairs (round 2)"``) or
+    bootstrap matrices (``"replicates"``). It is called from the calling thread, may skip
+    values and must return quickly; what it shows is the caller's business.
+    """
+
+    def __call__(self, phase: str, done: int, total: int, /) -> None: ...
 
 
 class MeasurementWarning(UserWarning):

@@ -9,13 +9,13 @@ replicate trees that contain its split (Felsenstein 1985).
 
 from __future__ import annotations
 
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from dataclasses import replace
 
 import numpy as np
 
 from .compressors import Compressor
-from .distance import distance_matrix
+from .distance import Progress, distance_matrix
 from .engine import Engine
 from .items import Item
 from .trees import Method, Node, add_support, build_tree
@@ -61,7 +61,7 @@ def bootstrap_support(
     conditional: str = "concat",
     strand: str = "one",
     engine: Engine | None = None,
-    progress: Callable[[int, int], None] | None = None,
+    progress: Progress | None = None,
 ) -> Node:
     """`tree` with support percentages from `replicates` block-bootstrap replicates.
 
@@ -79,5 +79,5 @@ def bootstrap_support(
         )
         trees.append(build_tree(dm.labels, dm.distances, method=method))
         if progress is not None:
-            progress(k + 1, replicates)
+            progress("replicates", k + 1, replicates)
     return add_support(tree, trees)
