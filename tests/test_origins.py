@@ -30,6 +30,7 @@ from sklearn.utils.estimator_checks import (
 from kinpress import InputError, InputWarning, Item, MeasurementWarning, SizeCache, compressor
 from kinpress import distance_matrix as matrix_of
 from kinpress.calibration import choose_for_job
+from kinpress.items import reference_items
 from kinpress.origins import (
     TESTS,
     CompressionClassifier,
@@ -45,7 +46,6 @@ from kinpress.origins import (
     novelty_aucs,
     pairwise_distances,
     reference_folds,
-    reference_items,
 )
 
 SHARED_DATA = Path(__file__).resolve().parents[2] / "shared" / "datasets-real"

@@ -36,11 +36,9 @@ cut on the score can be given instead.
 
 from __future__ import annotations
 
-import os
 import warnings
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, replace
-from pathlib import Path
 from typing import Any, Self
 
 import numpy as np
@@ -58,7 +56,10 @@ from .distance import (
     distance_matrix,
 )
 from .engine import Engine
-from .items import InputError, InputWarning, Item, Split, load_items
+from .items import InputError, Item
+
+# Moved to items, where inputs become items; importable from here while callers move over.
+from .items import reference_items as reference_items
 
 METHODS = ("conditional", "knn")
 _VOTE_EPSILON = 1e-9
@@ -66,36 +67,6 @@ _VOTE_EPSILON = 1e-9
 
 
 # -- the reference -----------------------------------------------------------------------------
-
-
-def reference_items(
-    folder: str | os.PathLike[str], split: str | Split = "auto", **reading: Any
-) -> list[Item]:
-    """Items of `folder/<origin>/<files>`, each labelled with its subfolder's name.
-
-    Names are `origin/item`, so equal file names in two origins stay apart. Files lying directly
-    in `folder` belong to no origin: they are left out with an InputWarning. `reading` passes
-    on to `load_items` (follow_links, max_file_bytes).
-    """
-    root = Path(folder)
-    if not root.is_dir():
-        raise InputError(f"{root}: reference must be a folder with one subfolder per origin")
-    entries = sorted(p for p in root.iterdir() if not p.name.startswith("."))
-    loose = [p.name for p in entries if not p.is_dir()]
-    if loose:
-        warnings.warn(
-            f"{root}: {len(loose)} files are not in an origin subfolder (first: {loose[0]});"
-            " left out",
-            InputWarning,
-            stacklevel=2,
-        )
-    items: list[Item] = []
-    for sub in (p for p in entries if p.is_dir()):
-        for item in load_items([sub], split, **reading):
-            items.append(replace(item, name=f"{sub.name}/{item.name}", label=sub.name))
-    if not items:
-        raise InputError(f"{root}: no origin subfolders with files")
-    return items
 
 
 @dataclass(frozen=True)
