@@ -289,10 +289,12 @@ def test_near_symmetry_is_judged_relative_to_the_largest_distance(
 
     # Read in blocks of one row, so the check across blocks is exercised too.
     monkeypatch.setattr(distance, "_CHECK_CELLS", 1)
-    d = np.array([[0.0, 1e6, 1.0], [1e6 + 1e-3, 0.0, 2.0], [1.0, 2.0, 0.0]])
+    d = np.array([[0.0, 1e6, 1.0], [1e6 + 5.0, 0.0, 2.0], [1.0, 2.0, 0.0]])
     checked = check_distances(d)
-    assert checked[0, 1] == checked[1, 0] == pytest.approx(1e6 + 5e-4)
-    d[2, 0] = 1.5
-    message = "not symmetric: item 0→item 2 is 1.0 but item 2→item 0 is 1.5"
+    assert checked[0, 1] == checked[1, 0] == 1e6 + 2.5
+    # Six decimals rounded apart, as a file from another program may hold them.
+    assert check_distances([[0, 0.123457], [0.123456, 0]])[0, 1] == pytest.approx(0.1234565)
+    d[2, 0] = 20.0  # 19 apart: beyond 1e-5 of the largest distance, 1e6
+    message = "not symmetric: item 0→item 2 is 1.0 but item 2→item 0 is 20.0"
     with pytest.raises(ValueError, match=re.escape(message)):
         check_distances(d)

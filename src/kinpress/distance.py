@@ -90,7 +90,8 @@ def check_distances(
     distances : array_like, n×n
         Must be non-empty and square; every value finite (no NaN or infinity: a distance not
         measured has no place in a matrix), non-negative, and symmetric within
-        ``1e-8 · max(1, max d)``; a near-symmetric matrix is returned as (D + Dᵀ) / 2.
+        ``1e-5 · max(1, max d)`` (as the matrix readers allow: files other programs round to
+        six decimals pass); a near-symmetric matrix is returned as (D + Dᵀ) / 2.
     labels : sequence of str, optional
         The items' names, one per row, distinct; faults then name the items.
     strict_diagonal : bool
@@ -145,7 +146,7 @@ def check_distances(
         largest = max(largest, float(block.max()))
         asymmetric = asymmetric or not np.array_equal(block, d[:, rows].T)
     if asymmetric:
-        tolerance = 1e-8 * max(1.0, largest)
+        tolerance = 1e-5 * max(1.0, largest)
         for rows in _blocks(n):
             skew = np.abs(d[rows] - d[:, rows].T)
             if skew.max() > tolerance:
