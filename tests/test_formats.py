@@ -503,6 +503,7 @@ def test_every_output_kinpress_writes_is_left_out_of_a_folder_of_inputs(tmp_path
     texts = {f"t{k}.txt": f"line {k} of a text about things\n" * 20 for k in range(4)}
     texts["notes.json"] = '{"title": "not ours", "labels": [1, 2]}\n'
     texts["code.js"] = "(function(){console.log(1)})();\n"
+    texts["pairs.json"] = '[{"a": 1, "b": 2}]\n'
     for name, text in texts.items():
         (folder / name).write_text(text)
     dm = small_matrix(("t0.txt", "t1.txt", "t2 x.txt"))

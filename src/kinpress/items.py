@@ -426,17 +426,17 @@ _OUTPUT_HEADERS = {
 """First rows (cells split by tabs, commas or blanks) of the tables kinpress writes."""
 
 _OUTPUT_KEYS: dict[tuple[str, ...], str] = {
-    ("labels", "compressor"): "kinpress matrix (JSON)",
-    ("newick", "method"): "kinpress tree (JSON)",
-    ("items", "item"): "kinpress groups (JSON)",
-    ("k", "compressor"): "kinpress nearest neighbours (JSON)",
-    ("item", "predicted"): "kinpress classification (JSON)",
-    ("accuracy", "refusal_rate"): "kinpress evaluation (JSON)",
-    ("a", "b"): "kinpress findings (JSON)",
+    ("labels", "compressor", "conditional"): "kinpress matrix (JSON)",
+    ("newick", "method", "rooting"): "kinpress tree (JSON)",
+    ("items", "item", "group"): "kinpress groups (JSON)",
+    ("k", "compressor", "conditional"): "kinpress nearest neighbours (JSON)",
+    ("item", "predicted", "decision"): "kinpress classification (JSON)",
+    ("accuracy", "refusal_rate", "ambiguous_rate"): "kinpress evaluation (JSON)",
+    ("a", "b", "relation"): "kinpress findings (JSON)",
     ("seed", "inputs"): "kinpress calibration (JSON)",
-    ("name", "spec"): "kinpress compressor list (JSON)",
+    ("name", "spec", "levels"): "kinpress compressor list (JSON)",
 }
-"""The first two keys of the JSON kinpress writes, by what it is."""
+"""The first keys of the JSON kinpress writes, by what it is."""
 
 _NEWICK_TOKEN = re.compile(r"'(?:[^']|'')*'|[(),:;]|[^()\[\]':;,\s]+")
 _JSON_KEY = re.compile(r'"((?:[^"\\]|\\.)*)"\s*:')
@@ -499,8 +499,8 @@ def _earlier_output(text: str, whole: bool = True) -> str | None:
         return None
     start = text.lstrip()
     if start.startswith(("{", "[")):
-        keys = tuple(_JSON_KEY.findall(start[:4096])[:2])
-        return _OUTPUT_KEYS.get(keys)
+        keys = tuple(_JSON_KEY.findall(start[:4096])[:3])
+        return next((kind for k, kind in _OUTPUT_KEYS.items() if keys[: len(k)] == k), None)
     if len(lines) == 1 and _is_newick(lines[0].strip(), whole):
         return "Newick tree"
     for sep in ("\t", ",", None):
