@@ -7,6 +7,7 @@ pairs made from an original by a known transformation, which is the ground truth
 
 from __future__ import annotations
 
+import hashlib
 import random
 import re
 import textwrap
@@ -308,7 +309,8 @@ def test_relation_rules_follow_explained_fractions_and_sizes() -> None:
 
 def test_families_are_connected_components() -> None:
     def link(a: str, b: str) -> DerivedFinding:
-        return DerivedFinding(a, b, "near_copy", 0.9, 0.9, 0.9, 0.001)
+        return DerivedFinding(a, b, "near_copy", 0.9, 0.9, 0.9, 0.001, a_path=a, b_path=b,
+                              a_hash="", b_hash="")  # fmt: skip
 
     found = families([link("x", "y"), link("p", "q"), link("y", "z")])
     assert [f.members for f in found] == [("x", "y", "z"), ("p", "q")]
@@ -347,6 +349,7 @@ def test_derived_pairs_found_with_precision_recall_and_direction(
     assert all(f.relation in RELATIONS for f in prefiltered.findings)
     keys = {"a", "b", "relation", "a_explained_by_b", "b_explained_by_a", "score", "fpr"}
     keys |= {"a_shared_in_order", "b_shared_in_order", "passages"}
+    keys |= {"a_path", "b_path", "a_hash", "b_hash"}
     assert all(set(row) == keys for row in prefiltered.as_json())
     # The passages locate what was copied: inside both files, in order, and (edits aside) the
     # same text; a reviewer can open both files at these offsets.
@@ -458,3 +461,21 @@ def test_the_null_is_made_of_files_of_the_candidates_kind() -> None:
     material = _null_material(0, 600, data, pools[".py"], lambda j: False, random.Random(1))
     assert material and b"d0.txt" not in material and b"m0.py" not in material
     assert b"m1.py" in material or b"m2.py" in material
+
+
+def test_findings_say_where_each_file_came_from_and_the_hash_of_its_bytes(tmp_path: Path) -> None:
+    rng = random.Random(5)
+    kind = Kind.make(5)
+    original = prose(kind, rng, 3000)
+    files = {"notes.txt": original, "copy of notes.txt": original[:1500],
+             "other.txt": prose(kind, rng, 3000)}  # fmt: skip
+    for name, data in files.items():
+        (tmp_path / name).write_bytes(data)
+    found = find_derived(load_items([tmp_path]), "zlib:level=9", exhaustive=True)
+    [finding] = found.findings
+    row = finding.as_json()
+    for side in ("a", "b"):
+        name = row[side]
+        assert row[f"{side}_path"] == str(tmp_path / name)
+        # reference: hashlib's BLAKE2b (RFC 7693) at 16 bytes, the digest the cache keys on
+        assert row[f"{side}_hash"] == hashlib.blake2b(files[name], digest_size=16).hexdigest()

@@ -44,6 +44,7 @@ def test_copies_and_excerpts_are_found_with_their_direction(
     findings = json.loads(capsys.readouterr().out)
     keys = {"a", "b", "relation", "a_explained_by_b", "b_explained_by_a", "score", "fpr"}
     keys |= {"a_shared_in_order", "b_shared_in_order", "passages"}
+    keys |= {"a_path", "b_path", "a_hash", "b_hash"}
     assert all(set(f) == keys for f in findings)
     by_pair = {_pair(f): f for f in findings}
     copy = by_pair[frozenset(("report.txt", "report-copy.txt"))]

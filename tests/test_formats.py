@@ -16,16 +16,31 @@ from hypothesis import strategies as st
 
 import kinpress.formats
 from kinpress import DistanceMatrix, InputError, Item, MatrixStats, distance_matrix
+from kinpress.derived import DerivedFinding
+from kinpress.evidence import Stretch
 from kinpress.formats import (
+    FINDING_COLUMNS,
+    FINDING_FORMATS,
+    MATRIX_FORMATS,
     FormatWarning,
     atomic_write,
+    emit,
     format_for,
+    group_lines,
+    json_ready,
+    json_safe,
+    json_text,
     matrix_to_csv,
+    matrix_to_json,
     matrix_to_phylip,
     matrix_to_tsv,
     read_matrix,
+    write_findings,
     write_matrix,
 )
+from kinpress.groups import GroupingResult, find_groups
+from kinpress.items import InputWarning, expand_paths, unescape_name
+from kinpress.trees import TreeResult, build_tree
 
 # Labels as kinpress makes them are never empty; the awkward characters are what matters here.
 PLAIN = "abcXYZ019 _-.,;:#~|()[]'\"éßλ中"
@@ -391,3 +406,123 @@ def test_a_tsv_whose_labels_look_like_a_phylip_header_reads_as_tsv(tmp_path: Pat
     dm = DistanceMatrix(("0", " "), np.array([[0.0, 0.5], [0.5, 0.0]]))
     write_matrix(dm, tmp_path / "m.tsv")
     assert_same_matrix(read_matrix(tmp_path / "m.tsv"), dm)
+
+
+# --- results as JSON values, findings tables, earlier outputs in a folder ------------------------
+
+
+def test_json_ready_makes_numpy_values_nan_and_dataclasses_plain_json() -> None:
+    stats = MatrixStats(pairs_computed=3)
+    value = {
+        "fit": np.float64("nan"),
+        "cut": float("inf"),
+        "rows": np.array([[1, 0], [0, 1]], dtype=np.int64),
+        "near": np.array([0.5, np.nan]),
+        "count": np.int64(4),
+        "flag": np.bool_(True),
+        "names": ("a", "b"),
+        "stats": stats,
+        "where": Path("x/y.txt"),
+    }
+    got = json_ready(value)
+    assert got == {
+        "fit": None,
+        "cut": None,
+        "rows": [[1, 0], [0, 1]],
+        "near": [0.5, None],
+        "count": 4,
+        "flag": True,
+        "names": ["a", "b"],
+        "stats": stats.as_dict(),
+        "where": "x/y.txt",
+    }
+    # reference: Python's json module refusing NaN and infinities (RFC 8259, section 6)
+    json.dumps(got, allow_nan=False)
+    assert type(got["count"]) is int and type(got["flag"]) is bool
+
+
+def test_matrix_json_file_is_the_matrix_as_json(tmp_path: Path) -> None:
+    dm = DistanceMatrix(
+        ("a", "b\tc", "d"),
+        np.array([[0, 0.123456789, 0.5], [0.123456789, 0, 0.25], [0.5, 0.25, 0]]),
+        sizes=np.array([10, 20, 30]),
+        self_distances=np.array([0.01, 0.02, 0.03]),
+        compressor="zlib:level=6,window=15",
+        conditional="concat",
+        classes=("x", None, "y"),
+    )
+    doc = dm.as_json()
+    assert json.loads(matrix_to_json(dm)) == json_safe(doc)
+    assert list(doc) == ["labels", "compressor", "conditional", "strand", "sizes",
+                         "self_distances", "stats", "kinpress", "classes", "distances"]  # fmt: skip
+    assert doc["distances"][0][1] == 0.12345679 and doc["classes"]["b\tc"] is None
+    assert "distances" not in dm.as_json(rows=False)
+
+
+def _finding(a: str, b: str, stretches: tuple[Stretch, ...]) -> DerivedFinding:
+    return DerivedFinding(a, b, "a_contains_b", 0.25, 0.9, 0.8, 0.003, 0.2, 0.95, stretches,
+                          a_path=f"share/{a}", b_path=f"share/{b}", a_hash="ab" * 16,
+                          b_hash="cd" * 16)  # fmt: skip
+
+
+def test_findings_are_written_as_tsv_and_csv_with_paths_hashes_and_the_longest_passage(
+    tmp_path: Path,
+) -> None:
+    longest, shorter = Stretch(10, 500, 0, 480, 470, 30), Stretch(600, 700, 520, 610, 90, 5)
+    findings = [
+        _finding("big, report.txt", "part\tone.txt", (longest, shorter)),
+        _finding("same.txt", "same copy.txt", ()),
+    ]
+    for fmt, delimiter in (("tsv", "\t"), ("csv", ",")):
+        path = tmp_path / f"findings.{fmt}"
+        write_findings(findings, path)
+        with open(path, newline="", encoding="utf-8") as handle:
+            # reference: Python's csv module (RFC 4180 for CSV; TSV is written unquoted)
+            quoting = csv.QUOTE_NONE if fmt == "tsv" else csv.QUOTE_MINIMAL
+            rows = list(csv.DictReader(handle, delimiter=delimiter, quoting=quoting))
+        assert list(rows[0]) == list(FINDING_COLUMNS)
+        first, second = rows
+        assert [unescape_name(first[k]) for k in ("a", "b", "a_path", "b_path")] == [
+            "big, report.txt", "part\tone.txt", "share/big, report.txt", "share/part\tone.txt"
+        ]  # fmt: skip
+        assert first["relation"] == "a_contains_b" and float(first["fpr"]) == 0.003
+        assert float(first["b_shared_in_order"]) == 0.95
+        assert (first["a_hash"], first["b_hash"]) == ("ab" * 16, "cd" * 16)
+        assert [int(first[k]) for k in ("a_start", "a_end", "b_start", "b_end")] == [
+            10, 500, 0, 480
+        ]  # fmt: skip
+        assert [second[k] for k in ("a_start", "a_end", "b_start", "b_end")] == ["", "", "", ""]
+    write_findings(findings, tmp_path / "findings.json")
+    listed = json.loads((tmp_path / "findings.json").read_text())
+    assert [row["a_path"] for row in listed] == ["share/big, report.txt", "share/same.txt"]
+
+
+def test_every_output_kinpress_writes_is_left_out_of_a_folder_of_inputs(tmp_path: Path) -> None:
+    folder = tmp_path / "texts"
+    folder.mkdir()
+    texts = {f"t{k}.txt": f"line {k} of a text about things\n" * 20 for k in range(4)}
+    texts["notes.json"] = '{"title": "not ours", "labels": [1, 2]}\n'
+    texts["code.js"] = "(function(){console.log(1)})();\n"
+    texts["pairs.json"] = '[{"a": 1, "b": 2}]\n'
+    for name, text in texts.items():
+        (folder / name).write_text(text)
+    dm = small_matrix(("t0.txt", "t1.txt", "t2 x.txt"))
+    for fmt in MATRIX_FORMATS:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", FormatWarning)
+            write_matrix(dm, folder / f"dist-{fmt}.out", fmt)
+    tree = TreeResult.of(build_tree(dm.labels, dm.distances), "nj", dm.distances, dm.labels)
+    emit(tree.newick + "\n", folder / "tree.nwk")
+    emit(json_text(tree.as_json()), folder / "tree.json")
+    grouped = GroupingResult.of(dm.labels, find_groups(dm.distances, k=2))
+    emit(group_lines(grouped), folder / "groups.tsv")
+    emit(json_text(grouped.as_json()), folder / "groups.json")
+    found = [_finding("t0.txt", "t1.txt", (Stretch(0, 9, 0, 9, 9, 2),))]
+    for fmt in FINDING_FORMATS:
+        write_findings(found, folder / f"found.{fmt}")
+    ours = {p.name for p in folder.iterdir()} - set(texts)
+    with pytest.warns(InputWarning, match=rf"left out {len(ours)} file\(s\).*kinpress") as caught:
+        kept = expand_paths([folder])
+    assert sorted(os.path.basename(p) for p in kept) == sorted(texts)
+    message = str(caught[0].message)
+    assert "dist-json.out: kinpress matrix (JSON)" in message

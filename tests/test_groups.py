@@ -15,7 +15,8 @@ from scipy.spatial.distance import cdist, squareform
 from sklearn.metrics import adjusted_rand_score, silhouette_samples, silhouette_score
 
 import kinpress
-from kinpress.groups import OUTLIER, agreement, find_groups, medoid
+from kinpress.formats import group_lines
+from kinpress.groups import OUTLIER, GroupingResult, agreement, find_groups, medoid
 
 REAL = Path(__file__).resolve().parents[2] / "shared" / "datasets-real"
 LOGS = REAL / "logs"
@@ -299,3 +300,38 @@ def test_real_logs_grouped_by_system(
     assert d.shape == (80, 80) and len(set(systems)) == 8
     g = find_groups(d, k=k)
     assert agreement(g.assignment, systems).adjusted_rand >= 0.9
+
+
+# --- the grouping as a result ------------------------------------------------------------------
+
+
+def test_grouping_result_as_json_names_items_groups_and_agreement() -> None:
+    d = np.array([[0, 0.1, 0.9, 0.9], [0.1, 0, 0.9, 0.9], [0.9, 0.9, 0, 0.2], [0.9, 0.9, 0.2, 0]])
+    grouping = find_groups(d, k=2)
+    result = GroupingResult.of(
+        ("a", "b", "c", "d"), grouping, ("x", "x", "y", None), "zstd", "concat"
+    )
+    doc = result.as_json()
+    assert list(doc) == ["items", "groups", "k", "method", "silhouette", "compressor",
+                         "conditional", "agreement"]  # fmt: skip
+    assert doc["items"][0] == {"item": "a", "group": 0, "medoid": grouping.is_medoid[0],
+                               "outlier": False}  # fmt: skip
+    assert [g["medoid"] for g in doc["groups"]] == [
+        ("a", "b", "c", "d")[g.medoid] for g in grouping.groups
+    ]
+    assert doc["agreement"] == {
+        "adjusted_rand": 1.0, "purity": 1.0, "scored": 3,
+        "confusion": {"labels": ["x", "y"], "groups": [0, 1], "counts": [[2, 0], [0, 1]]},
+    }  # fmt: skip
+    assert doc["silhouette"] == round(grouping.silhouette, 6)
+    lines = list(group_lines(result))
+    assert lines[0] == "item\tgroup\tmedoid\toutlier\n" and len(lines) == 5
+
+
+def test_grouping_result_without_labels_or_silhouette_has_no_nan_and_no_agreement() -> None:
+    d = np.array([[0, 0.1, 0.12], [0.1, 0, 0.11], [0.12, 0.11, 0]])
+    grouping = find_groups(d, k=1)
+    assert math.isnan(grouping.silhouette)
+    doc = GroupingResult.of(("a", "b", "c"), grouping, (None, None, None)).as_json()
+    assert "agreement" not in doc and doc["silhouette"] is None
+    assert all(g["silhouette"] is None for g in doc["groups"])

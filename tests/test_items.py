@@ -28,8 +28,10 @@ from kinpress.items import (
     Split,
     expand_paths,
     is_nucleotide,
+    label_spec,
     load_items,
     parse_fasta,
+    read_label_table,
     read_labels,
     reverse_complement,
     sequence_records,
@@ -547,3 +549,65 @@ def test_protein_fasta_records_are_not_nucleotide(tmp_path: Path) -> None:
     items = load_items([tmp_path / "p.faa"])
     assert [(i.name, i.nucleotide) for i in items] == [("ins", False), ("dna", True)]
     assert items[0].data == INSULIN
+
+
+# --- label tables ------------------------------------------------------------------------------
+
+FROGS = Path(__file__).resolve().parent.parent / "datasets" / "karsvell-frogs"
+
+
+def test_a_column_of_a_label_table_is_chosen_by_name_and_titles_the_labels() -> None:
+    # reference: Python's csv module reading the dataset's own TSV (columns item ... clade ...)
+    with open(FROGS / "labels.tsv", newline="", encoding="utf-8") as handle:
+        clades = {row["item"]: row["clade"] for row in csv.DictReader(handle, delimiter="\t")}
+    table = read_label_table(*label_spec(f"{FROGS / 'labels.tsv'}:clade"))
+    assert table.column == "clade" and dict(table.mapping) == clades
+    assert table.source == str(FROGS / "labels.tsv")
+    # Without a column the second one is read, as the two-column format always was.
+    species = read_label_table(FROGS / "labels.tsv")
+    assert species.column == "species" and species.mapping["KVM30418"] == "Obrunella antiqua"
+    with pytest.raises(InputError, match=r"no column 'kingdom'; its columns: species, genus"):
+        read_label_table(FROGS / "labels.tsv", "kingdom")
+
+
+def test_items_without_a_label_in_the_chosen_column_are_named(tmp_path: Path) -> None:
+    for name in ("a.log", "b.log", "c.log"):
+        (tmp_path / name).write_text(f"{name}\n" * 5)
+    table = tmp_path / "truth.csv"
+    table.write_text('file,system,"owner, team"\na.log,web,"ops, east"\nb.log,,x\n')
+    labels = read_label_table(table, "system")
+    assert dict(labels.mapping) == {"a.log": "web"} and labels.column == "system"
+    items = load_items([tmp_path / n for n in ("a.log", "b.log", "c.log")], "lines:2",
+                       labels=f"{table}:owner, team")  # fmt: skip
+    assert {i.name: i.label for i in items if i.name.endswith("#1")} == {
+        "a.log#1": "ops, east", "b.log#1": "x", "c.log#1": None
+    }  # fmt: skip
+    assert labels.missing(items) == [i.name for i in items if not i.name.startswith("a.log")]
+    assert labels.label_of("a.log#2", "elsewhere/a.log") == "web"
+
+
+def test_a_label_file_named_with_a_colon_is_taken_whole(tmp_path: Path) -> None:
+    odd = tmp_path / "run:3.tsv"
+    odd.write_text("item\tlabel\na\tx\n")
+    assert label_spec(str(odd)) == (str(odd), None)
+    assert label_spec(f"{odd}:label") == (str(odd), "label")
+    assert label_spec("truth.tsv") == ("truth.tsv", None)
+    assert read_labels(odd) == {"a": "x"}
+
+
+def test_label_tables_beside_texts_are_left_out_of_any_folder(tmp_path: Path) -> None:
+    texts = tmp_path / "texts"
+    (texts / "eng").mkdir(parents=True)
+    for name in ("eng/one.txt", "eng/two.txt", "fra.txt"):
+        (texts / name).write_text(f"{name} words and more words\n" * 30)
+    (texts / "labels.tsv").write_text("file\tlanguage\neng/one.txt\ten\nfra.txt\tfr\n")
+    (texts / "meta.csv").write_text("name,family\none,germanic\nfra,romance\n")
+    (texts / "scores.tsv").write_text("city\tscore\nParis\t3\nRome\t4\n")  # names no file
+    (texts / "pairs.tsv").write_text("one.txt\ttwo.txt\n")  # no header: data, kept
+    with pytest.warns(InputWarning, match=r"left out 2 file\(s\).*labels\.tsv: label table"):
+        kept = expand_paths([texts])
+    assert sorted(os.path.relpath(p, texts) for p in kept) == [
+        "eng/one.txt", "eng/two.txt", "fra.txt", "pairs.tsv", "scores.tsv"
+    ]  # fmt: skip
+    # Named on its own, a label table is read like any file.
+    assert expand_paths([texts / "labels.tsv"]) == [str(texts / "labels.tsv")]

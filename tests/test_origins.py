@@ -5,9 +5,12 @@ from __future__ import annotations
 
 import dataclasses
 import gzip
+import hashlib
 import json
 import math
 import random
+import shutil
+import subprocess
 import warnings
 from collections.abc import Iterator
 from pathlib import Path
@@ -27,7 +30,15 @@ from sklearn.utils.estimator_checks import (
     check_set_params,
 )
 
-from kinpress import InputError, InputWarning, Item, MeasurementWarning, SizeCache, compressor
+from kinpress import (
+    InputError,
+    InputWarning,
+    Item,
+    MeasurementWarning,
+    SizeCache,
+    compressor,
+    load_items,
+)
 from kinpress import distance_matrix as matrix_of
 from kinpress.calibration import choose_for_job
 from kinpress.items import reference_items
@@ -183,8 +194,38 @@ def test_json_rows_have_the_documented_keys(cache: SizeCache) -> None:
         "distance": p.distance,
         "scores": {"o0": result.scores[0, 0], "o1": result.scores[0, 1]},
         "p_values": {"o0": result.p_values[0, 0], "o1": result.p_values[0, 1]},  # type: ignore[index]
+        "path": "generated",
+        # reference: hashlib's BLAKE2b (RFC 7693) at 16 bytes, the digest the cache keys on
+        "hash": hashlib.blake2b(origin_text(0, 15).encode(), digest_size=16).hexdigest(),
     }
     assert json.loads(json.dumps(row)) == row
+
+
+def test_json_says_unknown_and_ambiguous_in_words_never_null(
+    cache: SizeCache, tmp_path: Path
+) -> None:
+    reference = origin_items(range(3), range(8))
+    stranger = tmp_path / "stranger.log"
+    stranger.write_text(origin_text(7, 10))
+    # A cut no score reaches leaves every item unknown; one every score reaches, ambiguous.
+    strict = classify(load_items([stranger]), reference, threshold=0.0, cache=cache)
+    [row] = strict.as_json()
+    assert row["decision"] == "unknown" and row["predicted"] == "unknown"
+    assert row["path"] == str(stranger) and row["candidates"] == []
+    # reference: GNU coreutils b2sum -l 128 (BLAKE2b-128 of the file's bytes), where installed
+    b2sum = shutil.which("b2sum")
+    if b2sum is not None:
+        printed = subprocess.run([b2sum, "-l", "128", str(stranger)], capture_output=True,
+                                 text=True, check=True).stdout  # fmt: skip
+        assert row["hash"] == printed.split()[0]
+    loose = classify(load_items([stranger]), reference, threshold=math.inf, cache=cache)
+    [row] = loose.as_json()
+    assert row["decision"] == "ambiguous" and row["predicted"] == "ambiguous"
+    assert sorted(row["candidates"]) == ["o0", "o1", "o2"]
+    # Without a runner-up the confidence is infinite: null in JSON, which has no Infinity.
+    alone = dataclasses.replace(loose.predictions[0], confidence=math.inf).as_json()
+    assert alone["confidence"] is None
+    json.dumps(alone, allow_nan=False)
 
 
 def test_k2_with_nearer_neighbour_ties_equals_1nn(cache: SizeCache) -> None:

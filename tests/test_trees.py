@@ -5,6 +5,7 @@ from __future__ import annotations
 import copy
 import io
 import itertools
+import math
 import pickle
 import sys
 from dataclasses import replace
@@ -21,10 +22,13 @@ from hypothesis import strategies as st
 from scipy.cluster.hierarchy import cophenet, leaves_list, linkage
 from scipy.spatial.distance import squareform
 
+from kinpress.distance import DistanceMatrix as Matrix
 from kinpress.distance import check_distances
 from kinpress.items import escape_name
 from kinpress.trees import (
     Node,
+    Resampling,
+    TreeResult,
     add_support,
     build_tree,
     fit_correlation,
@@ -561,3 +565,37 @@ def test_2000_leaf_caterpillar_round_trips_without_recursion_error() -> None:
     assert to_newick(pickle.loads(pickle.dumps(parsed))) == text
     assert to_newick(copy.deepcopy(parsed)) == text
     assert "children=<2>" in repr(parsed)
+
+
+# --- the tree as a result ----------------------------------------------------------------------
+
+TREE_KEYS = ["newick", "method", "rooting", "outgroup", "leaves", "fit", "bootstrap",
+             "compressor", "conditional", "strand"]  # fmt: skip
+
+
+def test_tree_result_as_json_says_how_the_tree_was_made() -> None:
+    dm = Matrix(tuple(WIKI_LABELS), WIKI_D.astype(float), compressor="zstd:level=19",
+                conditional="primed", strand="both")  # fmt: skip
+    tree = build_tree(dm.labels, dm.distances, "nj", outgroup=["d", "e"])
+    support = Resampling(replicates=100, block_fraction=0.02, seed=7)
+    result = TreeResult.of_matrix(tree, "nj", dm, outgroup=["d", "e"], support=support)
+    doc = result.as_json()
+    assert list(doc) == TREE_KEYS
+    assert doc["rooting"] == "on d, e" and doc["outgroup"] == ["d", "e"] and doc["leaves"] == 5
+    assert doc["bootstrap"] == {"replicates": 100, "block_fraction": 0.02, "seed": 7}
+    assert (doc["compressor"], doc["conditional"], doc["strand"]) == (
+        "zstd:level=19", "primed", "both"
+    )  # fmt: skip
+    # The Wikipedia matrix is additive for its tree, so the fit is perfect.
+    assert doc["fit"] == 1.0
+    assert parse_newick(doc["newick"]) is not None and doc["newick"] == to_newick(tree)
+
+
+def test_tree_result_rooting_and_an_undefined_fit_read_plainly() -> None:
+    d = np.array([[0.0, 1.0], [1.0, 0.0]])
+    nj = TreeResult.of(build_tree(["x", "y"], d, "nj"), "nj", d, ["x", "y"])
+    assert nj.rooting == "at the midpoint" and nj.as_json()["bootstrap"] is None
+    # Two leaves leave the correlation undefined: null in JSON, which has no NaN (RFC 8259, 6).
+    assert math.isnan(nj.fit) and nj.as_json()["fit"] is None
+    upgma = TreeResult.of(build_tree(["x", "y"], d, "average"), "average", d, ["x", "y"])
+    assert upgma.rooting == "by construction" and upgma.outgroup is None

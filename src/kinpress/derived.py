@@ -35,7 +35,7 @@ import math
 import os
 import random
 from collections.abc import Callable, Iterator, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from functools import cached_property
 
 import numpy as np
@@ -55,6 +55,7 @@ from .evidence import (
     remapped,
     seed_print,
 )
+from .formats import json_ready
 from .items import InputError, Item, uncompressed_name
 from .passages import Fingerprint, common_among
 
@@ -142,7 +143,11 @@ class DerivedFinding:
     """One related pair: names, relation, explained fractions, score, fpr, and the stretches.
 
     `a_in_order` and `b_in_order` are the fractions of a and b (normalised bytes) that lie in
-    stretches shared in order; `stretches` locate them in both files (see `evidence`).
+    stretches shared in order; `stretches` locate them in both files (see `evidence`), longest
+    first. `a_path`, `b_path` say where each item came from (`Item.source`: its file, '-' for
+    standard input) and `a_hash`, `b_hash` are the hex BLAKE2b-128 of its bytes
+    (`content_digest`, as the cache keys them), so a reviewer opens and checks the very bytes
+    compared.
     """
 
     a: str
@@ -155,20 +160,34 @@ class DerivedFinding:
     a_in_order: float = 0.0
     b_in_order: float = 0.0
     stretches: tuple[Stretch, ...] = ()
+    a_path: str = field(kw_only=True)
+    b_path: str = field(kw_only=True)
+    a_hash: str = field(kw_only=True)
+    b_hash: str = field(kw_only=True)
 
     def as_json(self) -> dict[str, object]:
-        return {
-            "a": self.a,
-            "b": self.b,
-            "relation": self.relation,
-            "a_explained_by_b": self.a_explained_by_b,
-            "b_explained_by_a": self.b_explained_by_a,
-            "score": self.score,
-            "fpr": self.fpr,
-            "a_shared_in_order": self.a_in_order,
-            "b_shared_in_order": self.b_in_order,
-            "passages": [stretch.as_json() for stretch in self.stretches],
-        }
+        """Names, relation, explained fractions, score, fpr, shares in order, the passages
+        (offsets in both files), and where each item came from with the hash of its bytes."""
+        return dict(
+            json_ready(
+                {
+                    "a": self.a,
+                    "b": self.b,
+                    "relation": self.relation,
+                    "a_explained_by_b": self.a_explained_by_b,
+                    "b_explained_by_a": self.b_explained_by_a,
+                    "score": self.score,
+                    "fpr": self.fpr,
+                    "a_shared_in_order": self.a_in_order,
+                    "b_shared_in_order": self.b_in_order,
+                    "passages": self.stretches,
+                    "a_path": self.a_path,
+                    "b_path": self.b_path,
+                    "a_hash": self.a_hash,
+                    "b_hash": self.b_hash,
+                }
+            )
+        )
 
 
 @dataclass(frozen=True)
@@ -186,7 +205,7 @@ class NullSummary:
     """The null scores: how many pairs, the block size, quantiles, and the score cut they give.
 
     A score passes the `max_fpr` cut when it is above `cut` (infinity when no score can, with too
-    few null pairs for so small a rate).
+    few null pairs for so small a rate; null in JSON, which has no infinity).
     """
 
     pairs: int
@@ -198,7 +217,7 @@ class NullSummary:
     cut: float
 
     def as_json(self) -> dict[str, object]:
-        return dict(self.__dict__)
+        return dict(json_ready(dict(self.__dict__)))
 
 
 @dataclass(frozen=True)
@@ -212,7 +231,7 @@ class EvidenceCuts:
     common_files: int
 
     def as_json(self) -> dict[str, object]:
-        return dict(self.__dict__)
+        return dict(json_ready(dict(self.__dict__)))
 
 
 @dataclass(frozen=True)
@@ -234,8 +253,8 @@ class DerivedReport:
     cuts: EvidenceCuts | None = None
 
     def as_json(self) -> list[dict[str, object]]:
-        """Per finding: names, relation, explained fractions, score, fpr, passages."""
-        return [finding.as_json() for finding in self.findings]
+        """Per finding: see `DerivedFinding.as_json`."""
+        return list(json_ready(self.findings))
 
 
 @dataclass(frozen=True)
@@ -642,6 +661,10 @@ def _findings(
             a_in_order=1.0 if same else found.a_seeded,
             b_in_order=1.0 if same else found.b_seeded,
             stretches=found.stretches,
+            a_path=items[i].source,
+            b_path=items[j].source,
+            a_hash=digests[i].hex(),
+            b_hash=digests[j].hex(),
         )
         (derived if same or copied else kin).append(finding)
 

@@ -16,11 +16,12 @@ import warnings
 from collections import Counter
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field
-from typing import Protocol
+from typing import Any, Protocol
 
 import numpy as np
 import numpy.typing as npt
 
+from ._version import __version__
 from .cache import SizeCache
 from .compressors import ADAPTERS, Compressor, SpecError, compressor
 from .engine import Engine, LocalEngine, SizeJob, Tile, plan_tiles
@@ -202,6 +203,34 @@ class DistanceMatrix:
 
     def __len__(self) -> int:
         return len(self.labels)
+
+    def as_json(self, rows: bool = True) -> dict[str, Any]:
+        """Labels, the compressor and method, per-item C(x) and NCD(x, x) (by label), run stats,
+        the kinpress version, the known classes when there are any, and the distances (rounded
+        to 8 decimals) unless not `rows` (`formats.json_lines` then streams them a row at a
+        time)."""
+        # formats reads and writes matrices, so it imports this module: imported when called.
+        from .formats import json_ready
+
+        doc: dict[str, Any] = {
+            "labels": list(self.labels),
+            "compressor": self.compressor,
+            "conditional": self.conditional,
+            "strand": self.strand,
+            "sizes": {}
+            if self.sizes is None
+            else dict(zip(self.labels, map(int, self.sizes), strict=True)),
+            "self_distances": {}
+            if self.self_distances is None
+            else dict(zip(self.labels, np.round(self.self_distances, 8), strict=True)),
+            "stats": self.stats.as_dict(),
+            "kinpress": __version__,
+        }
+        if self.classes is not None:
+            doc["classes"] = dict(zip(self.labels, self.classes, strict=True))
+        if rows:
+            doc["distances"] = np.round(self.distances, 8)
+        return dict(json_ready(doc))
 
     @property
     def raw(self) -> np.ndarray | None:

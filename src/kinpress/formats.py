@@ -3,8 +3,10 @@
 from __future__ import annotations
 
 import csv
+import dataclasses
 import io
 import json
+import math
 import os
 import re
 import stat
@@ -15,12 +17,16 @@ import warnings
 from collections import Counter
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from .distance import DistanceMatrix, MatrixStats
 from .items import InputError, escape_name, unescape_name
+
+if TYPE_CHECKING:  # both import json_ready from here
+    from .derived import DerivedFinding
+    from .groups import GroupingResult
 
 MATRIX_FORMATS = ("tsv", "csv", "phylip", "json")
 _EXTENSIONS = {
@@ -251,6 +257,41 @@ def phylip_lines(dm: DistanceMatrix) -> Iterator[str]:
         yield name.ljust(width) + " ".join(map(_number, row)) + "\n"
 
 
+def json_ready(value: Any) -> Any:
+    """`value` as the plain values JSON holds, the one conversion every result's `as_json` uses.
+
+    A result (anything with `as_json`) gives its own; another dataclass gives its fields by name;
+    tuples and numpy arrays become lists, numpy numbers Python ones, paths strings; a number JSON
+    cannot hold (NaN: undefined, or an infinity) becomes null (RFC 8259, section 6: "Numeric
+    values that cannot be represented ... (such as Infinity and NaN) are not permitted"). Names
+    are kept as they are: `json_text` escapes them when the text is written.
+
+    >>> json_ready({"fit": np.float64("nan"), "rows": np.eye(2, dtype=int), "k": (1, 2)})
+    {'fit': None, 'rows': [[1, 0], [0, 1]], 'k': [1, 2]}
+    """
+    if isinstance(value, str | bool | int | None):
+        return value
+    if isinstance(value, float | np.floating):
+        return float(value) if math.isfinite(value) else None
+    if isinstance(value, np.generic):
+        return value.item()
+    if isinstance(value, np.ndarray):
+        if value.dtype.kind in "iub" or (value.dtype.kind == "f" and np.isfinite(value).all()):
+            return value.tolist()  # one call for a whole matrix of plain numbers
+        return [json_ready(v) for v in value]
+    if hasattr(value, "as_json"):
+        return value.as_json()
+    if dataclasses.is_dataclass(value) and not isinstance(value, type):
+        return {f.name: json_ready(getattr(value, f.name)) for f in dataclasses.fields(value)}
+    if isinstance(value, dict):
+        return {str(k): json_ready(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [json_ready(v) for v in value]
+    if isinstance(value, os.PathLike):
+        return os.fspath(value)
+    raise TypeError(f"no JSON value for {type(value).__name__}")
+
+
 def json_safe(value: Any) -> Any:
     """`value` with every string, keys included, written by `escape_name` (tabs and line breaks
     kept, JSON has escapes of its own for them): bytes of file names that are not UTF-8 cannot be
@@ -270,25 +311,10 @@ def json_text(value: Any) -> str:
 
 
 def json_lines(dm: DistanceMatrix) -> Iterator[str]:
-    """Labels, rows, the compressor and method, per-item C(x) and NCD(x, x), and run stats.
+    """The document of `DistanceMatrix.as_json`, its distances one matrix row per line.
 
     Names are written by `escape_name` (see `json_safe`)."""
-    from . import __version__
-
-    doc: dict[str, Any] = {
-        "labels": list(dm.labels),
-        "compressor": dm.compressor,
-        "conditional": dm.conditional,
-        "strand": dm.strand,
-        "sizes": {} if dm.sizes is None else dict(zip(dm.labels, map(int, dm.sizes), strict=True)),
-        "self_distances": {}
-        if dm.self_distances is None
-        else {k: round(float(v), 8) for k, v in zip(dm.labels, dm.self_distances, strict=True)},
-        "stats": dm.stats.as_dict(),
-        "kinpress": __version__,
-    }
-    if dm.classes is not None:
-        doc["classes"] = dict(zip(dm.labels, dm.classes, strict=True))
+    doc = dm.as_json(rows=False)
     head = json.dumps(json_safe(doc), indent=1, ensure_ascii=False)
     yield head[: head.rindex("}")].rstrip() + ',\n "distances": [\n'
     # One matrix row per line: readable, and far faster than a number per line.
@@ -333,6 +359,65 @@ def write_matrix(
 ) -> None:
     """Write a matrix in `fmt` (default: from the extension, else TSV); None or '-' is stdout."""
     emit(WRITERS[format_for(path, fmt)](dm), path)
+
+
+GROUP_COLUMNS = ("item", "group", "medoid", "outlier")
+
+
+def group_lines(result: GroupingResult) -> Iterator[str]:
+    """The groups TSV: a header, then per item its group and whether it is its group's medoid
+    and an outlier (yes/no); names written by `escape_name`."""
+    yield "\t".join(GROUP_COLUMNS) + "\n"
+    for name, group, is_medoid, outlier in result.rows():
+        flags = ("yes" if is_medoid else "no", "yes" if outlier else "no")
+        yield "\t".join([escape_name(name), str(group), *flags]) + "\n"
+
+
+FINDING_FORMATS = ("tsv", "csv", "json")
+FINDING_COLUMNS = (
+    "a", "b", "relation", "a_explained_by_b", "b_explained_by_a", "score", "fpr",
+    "a_shared_in_order", "b_shared_in_order", "a_path", "b_path", "a_hash", "b_hash",
+    "a_start", "a_end", "b_start", "b_end",
+)  # fmt: skip
+"""The columns of a findings table; the last four locate the longest passage (empty without)."""
+
+
+def finding_lines(findings: Iterable[DerivedFinding], fmt: str = "tsv") -> Iterator[str]:
+    """Derived findings as a TSV or CSV table, one row per finding (FINDING_COLUMNS), or as the
+    JSON list of their `as_json`. Names and paths are written by `escape_name` (CSV quoting them
+    by RFC 4180 where needed, JSON by `json_safe`)."""
+    if fmt == "json":
+        yield json_text([f.as_json() for f in findings])
+        return
+    if fmt not in ("tsv", "csv"):
+        raise ValueError(f"unknown format {fmt!r}; use {', '.join(FINDING_FORMATS)}")
+    cell, sep = (escape_name, "\t") if fmt == "tsv" else (_csv_cell, ",")
+    yield sep.join(FINDING_COLUMNS) + "\n"
+    for f in findings:
+        numbers = (f.a_explained_by_b, f.b_explained_by_a, f.score, f.fpr, f.a_in_order,
+                   f.b_in_order)  # fmt: skip
+        longest = f.stretches[0] if f.stretches else None
+        offsets = (
+            ("", "", "", "")
+            if longest is None
+            else (longest.a_start, longest.a_end, longest.b_start, longest.b_end)
+        )
+        row = [cell(f.a), cell(f.b), f.relation, *map(_number, numbers), cell(f.a_path),
+               cell(f.b_path), f.a_hash, f.b_hash, *map(str, offsets)]  # fmt: skip
+        yield sep.join(row) + "\n"
+
+
+def write_findings(
+    findings: Iterable[DerivedFinding],
+    path: str | os.PathLike[str] | None = None,
+    fmt: str | None = None,
+) -> None:
+    """Write findings in `fmt` (tsv, csv or json; default: from the extension, else TSV); None
+    or '-' is stdout."""
+    if fmt is None:
+        suffix = "" if path is None else Path(path).suffix.lower()
+        fmt = {".csv": "csv", ".json": "json"}.get(suffix, "tsv")
+    emit(finding_lines(findings, fmt), path)
 
 
 def _square(rows: list[list[str]], labels: list[str], source: str, first_line: int) -> np.ndarray:

@@ -35,7 +35,7 @@ from __future__ import annotations
 
 import math
 import numbers
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -45,6 +45,7 @@ from sklearn.cluster import HDBSCAN
 from sklearn.metrics import adjusted_rand_score, silhouette_samples
 
 from .distance import check_distances
+from .formats import json_ready
 
 FloatArray = npt.NDArray[np.float64]
 IntArray = npt.NDArray[np.intp]
@@ -120,6 +121,91 @@ class Agreement:
     group_ids: tuple[int, ...]
     confusion: tuple[tuple[int, ...], ...]
     scored: int
+
+    def as_json(self) -> dict[str, object]:
+        """The scores (6 decimals), the items scored and the confusion table."""
+        return dict(
+            json_ready(
+                {
+                    "adjusted_rand": round(self.adjusted_rand, 6),
+                    "purity": round(self.purity, 6),
+                    "scored": self.scored,
+                    "confusion": {
+                        "labels": self.known_labels,
+                        "groups": self.group_ids,
+                        "counts": self.confusion,
+                    },
+                }
+            )
+        )
+
+
+@dataclass(frozen=True)
+class GroupingResult:
+    """A grouping of named items, its agreement with their known labels (None when no item has
+    one) and the measurement behind the distances.
+
+    >>> d = np.array([[0, .1, .9, .9], [.1, 0, .9, .9], [.9, .9, 0, .1], [.9, .9, .1, 0]])
+    >>> found = GroupingResult.of(["a", "b", "c", "d"], find_groups(d, k=2), ["x", "x", "y", None])
+    >>> [row["group"] for row in found.as_json()["items"]], found.agreement.purity
+    ([0, 0, 1, 1], 1.0)
+    """
+
+    labels: tuple[str, ...]
+    grouping: Grouping
+    agreement: Agreement | None = None
+    compressor: str = ""
+    conditional: str = ""
+
+    @classmethod
+    def of(
+        cls,
+        labels: Sequence[str],
+        grouping: Grouping,
+        classes: Sequence[str | None] | None = None,
+        compressor: str = "",
+        conditional: str = "",
+    ) -> GroupingResult:
+        """The result for `grouping` of the items named `labels`, scored against their known
+        `classes` when any is known."""
+        scores = None
+        if classes is not None and any(c is not None for c in classes):
+            scores = agreement(grouping.assignment, classes)
+        return cls(tuple(labels), grouping, scores, compressor, conditional)
+
+    def rows(self) -> Iterator[tuple[str, int, bool, bool]]:
+        """(item, group, medoid, outlier) for every item, in input order."""
+        g = self.grouping
+        yield from zip(self.labels, g.assignment, g.is_medoid, g.is_outlier, strict=True)
+
+    def as_json(self) -> dict[str, object]:
+        """Per item its group, medoid and outlier flags; per group its size, medoid item and
+        mean silhouette (6 decimals; null when undefined); the count, method, mean silhouette,
+        compressor, conditional, and the agreement with known labels when there is one."""
+        g = self.grouping
+        doc: dict[str, object] = {
+            "items": [
+                {"item": n, "group": group, "medoid": m, "outlier": o}
+                for n, group, m, o in self.rows()
+            ],
+            "groups": [
+                {
+                    "group": s.index,
+                    "size": s.size,
+                    "medoid": self.labels[s.medoid],
+                    "silhouette": round(s.silhouette, 6),
+                }
+                for s in g.groups
+            ],
+            "k": g.k,
+            "method": g.method,
+            "silhouette": round(g.silhouette, 6),
+            "compressor": self.compressor,
+            "conditional": self.conditional,
+        }
+        if self.agreement is not None:
+            doc["agreement"] = self.agreement
+        return dict(json_ready(doc))
 
 
 def medoid(distances: npt.ArrayLike, members: Sequence[int]) -> int:

@@ -56,6 +56,7 @@ from .distance import (
     distance_matrix,
 )
 from .engine import Engine
+from .formats import json_ready
 from .items import InputError, Item
 
 # Moved to items, where inputs become items; importable from here while callers move over.
@@ -713,18 +714,24 @@ class Abstention:
         return text
 
     def as_json(self) -> dict[str, object]:
-        return {
-            "significance": self.significance,
-            "threshold": self.threshold,
-            "test": self.test,
-            "fit_auc": self.fit_auc,
-            "separation_auc": self.separation_auc,
-            "calibration_scores": self.calibration_scores,
-            "label_conditional": list(self.label_conditional),
-            "smallest_rate": self.smallest_rate,
-            "blocks": self.blocks,
-            "guarantee": self.guarantee,
-        }
+        """The fields by name and the guarantee in words; with a given cut `significance`,
+        `test`, the AUCs and `smallest_rate` are null (no test was calibrated)."""
+        return dict(
+            json_ready(
+                {
+                    "significance": self.significance,
+                    "threshold": self.threshold,
+                    "test": self.test,
+                    "fit_auc": self.fit_auc,
+                    "separation_auc": self.separation_auc,
+                    "calibration_scores": self.calibration_scores,
+                    "label_conditional": self.label_conditional,
+                    "smallest_rate": self.smallest_rate,
+                    "blocks": self.blocks,
+                    "guarantee": self.guarantee,
+                }
+            )
+        )
 
 
 def _abstention(conformity: Conformity, blocks: int) -> Abstention:
@@ -773,7 +780,9 @@ class Prediction:
     `predicted` is None) and "unknown" when fewer do. With a given cut, origins whose score is
     within it accept. `confidence` is the runner-up's score minus the best one; `credibility`
     the p-value of the deciding test for the best origin; `p_values` each origin's fit p-value
-    (see Conformity).
+    (see Conformity). `path` is where the item came from (`Item.source`: its file, '-' for
+    standard input) and `hash` the hex BLAKE2b-128 of its bytes (`content_digest`, as the cache
+    keys them), so a reviewer can find and check the very bytes classified.
     """
 
     item: str
@@ -787,21 +796,33 @@ class Prediction:
     distance: float
     scores: tuple[tuple[str, float], ...]
     p_values: tuple[tuple[str, float], ...] | None
+    path: str
+    hash: str
 
     def as_json(self) -> dict[str, object]:
-        return {
-            "item": self.item,
-            "predicted": self.predicted,
-            "decision": self.decision,
-            "candidates": list(self.candidates),
-            "best": self.best,
-            "confidence": self.confidence,
-            "credibility": self.credibility,
-            "nearest": self.nearest,
-            "distance": self.distance,
-            "scores": dict(self.scores),
-            "p_values": None if self.p_values is None else dict(self.p_values),
-        }
+        """The fields by name; `predicted` says what the text does: the origin when one is
+        named, else the decision ("ambiguous", with its `candidates`, or "unknown"), never null.
+        `confidence` is null with a single origin (no runner-up); `credibility` and `p_values`
+        are null with a given cut."""
+        return dict(
+            json_ready(
+                {
+                    "item": self.item,
+                    "predicted": self.predicted or self.decision,
+                    "decision": self.decision,
+                    "candidates": self.candidates,
+                    "best": self.best,
+                    "confidence": self.confidence,
+                    "credibility": self.credibility,
+                    "nearest": self.nearest,
+                    "distance": self.distance,
+                    "scores": dict(self.scores),
+                    "p_values": None if self.p_values is None else dict(self.p_values),
+                    "path": self.path,
+                    "hash": self.hash,
+                }
+            )
+        )
 
 
 @dataclass(frozen=True)
@@ -868,6 +889,8 @@ def _decide(
                 p_values=None
                 if fit_p is None
                 else tuple((o, float(p)) for o, p in zip(origins, fit_p[t], strict=True)),
+                path=target.source,
+                hash=content_digest(target.data).hex(),
             )
         )
     return out
@@ -894,7 +917,7 @@ class Classification:
 
     def as_json(self) -> list[dict[str, object]]:
         """One object per item (see Prediction.as_json)."""
-        return [p.as_json() for p in self.predictions]
+        return list(json_ready(self.predictions))
 
     def counts(self) -> dict[str, int]:
         """How many items were named, ambiguous and unknown."""
@@ -1004,20 +1027,26 @@ class Evaluation:
     abstention: Abstention
 
     def as_json(self) -> dict[str, object]:
-        return {
-            "accuracy": self.accuracy,
-            "refusal_rate": self.refusal_rate,
-            "ambiguous_rate": self.ambiguous_rate,
-            "left_out_unknown_rate": self.left_out_unknown_rate,
-            "left_out_unknown": dict(zip(self.origins, self.left_out_unknown, strict=True)),
-            "origins": list(self.origins),
-            "confusion": {
-                "rows": list(self.origins),
-                "columns": [*self.origins, "ambiguous", "unknown"],
-                "counts": self.confusion.tolist(),
-            },
-            "abstention": self.abstention.as_json(),
-        }
+        """The rates, per origin its missing-origin refusal rate, the confusion table (rows:
+        true origins; columns: origins named, then ambiguous and unknown) and the abstention."""
+        return dict(
+            json_ready(
+                {
+                    "accuracy": self.accuracy,
+                    "refusal_rate": self.refusal_rate,
+                    "ambiguous_rate": self.ambiguous_rate,
+                    "left_out_unknown_rate": self.left_out_unknown_rate,
+                    "left_out_unknown": dict(zip(self.origins, self.left_out_unknown, strict=True)),
+                    "origins": self.origins,
+                    "confusion": {
+                        "rows": self.origins,
+                        "columns": [*self.origins, "ambiguous", "unknown"],
+                        "counts": self.confusion,
+                    },
+                    "abstention": self.abstention,
+                }
+            )
+        )
 
 
 def _options(
