@@ -1222,3 +1222,80 @@ def choose_for_job(
     kept = (*extra, *report.reasons) if chosen == spec else (*extra, *report.reasons[1:])
     return Choice(chosen, job, replace(report, recommended=chosen, reasons=kept), figures,
                   kept)  # fmt: skip
+
+
+# The ``-c auto`` resolution: a choice per job, kept in the size cache
+
+
+def resolve_auto(
+    items: Sequence[Item],
+    job: str,
+    *,
+    targets: Sequence[Item] = (),
+    budget_seconds: float = DEFAULT_BUDGET_SECONDS,
+    strand: str = "one",
+    engine: Engine,
+    cache: SizeCache | None = None,
+    say: Callable[[str], None] = lambda message: None,
+) -> str:
+    """The spec ``-c auto`` uses for ``job`` on ``items``: :func:`choose_for_job`'s choice
+    (classify: ``items`` is the labelled reference, ``targets`` the unknowns), said through
+    ``say``, with a MeasurementWarning when even it cannot hold the largest pair of items.
+
+    The choice is kept in ``cache``, keyed by the items' contents (and labels for a labelled
+    job), the job, the candidates (with their library versions), the seed, the budget, the
+    cores of ``engine`` and the strand, so a rerun does not calibrate again.
+    """
+    import hashlib
+    import json
+
+    from .distance import MeasurementWarning, content_digest
+
+    labelled = job in LABELLED_JOBS
+    cores = engine.jobs
+    candidates = LABELLED_CANDIDATES if labelled else DEFAULT_CANDIDATES
+    lines = [
+        *sorted(
+            content_digest(item.data).hex() + (f"\t{item.label}" if labelled else "")
+            for item in items
+        ),
+        *(compressor(spec).cache_key for spec in candidates),
+        f"seed={DEFAULT_SEED} budget={budget_seconds} cores={cores} strand={strand}",
+        f"job={job} targets={len(targets)}:{sum(len(t.data) for t in targets)} ranked=merit"
+        if labelled
+        else "job=unlabelled",
+    ]
+    key = "auto:" + hashlib.blake2b("\n".join(lines).encode(), digest_size=16).hexdigest()
+    stored = cache.get_choice(key) if cache is not None else None
+    if stored is None:
+        say(f"auto: calibrating the compressors on these inputs for {job} ...")
+        choice = choose_for_job(items, job, targets=targets, budget_seconds=budget_seconds,
+                                jobs=cores, strand=strand, engine=engine, cache=cache)  # fmt: skip
+        pair = int(sum(sorted((len(item.data) for item in items), reverse=True)[:2]))
+        result = choice.report.result(choice.spec)
+        # A labelled choice leads with its task figures; an unlabelled one with the controls'
+        # comparison when there was one, else with the time estimate that settled it.
+        lead = labelled or " chosen over " in choice.reasons[0]
+        stored = json.dumps(
+            {
+                "spec": choice.spec,
+                "why": choice.reasons[0] if lead else choice.reasons[-1],
+                "holds": labelled or holds(result, pair),
+                "reliable": result.reliable_up_to_bytes,
+                "pair": pair,
+            }
+        )
+        if cache is not None:
+            cache.put_choice(key, stored)
+    else:
+        say("auto: the choice for these inputs is in the cache")
+    chosen = json.loads(stored)
+    say(f"auto: chose {chosen['spec']}: {chosen['why']}")
+    if not chosen["holds"]:
+        warnings.warn(
+            f"{chosen['spec']}: reliable up to {chosen['reliable']:,} bytes, below the largest"
+            f" pair of items ({chosen['pair']:,} bytes); their distances drift towards 1",
+            MeasurementWarning,
+            stacklevel=2,
+        )
+    return str(chosen["spec"])

@@ -1,0 +1,48 @@
+"""kinpress compressors: the compressors, their settings and limits."""
+
+from __future__ import annotations
+
+import argparse
+
+from ..compressors import ADAPTERS, describe
+from ..formats import json_text
+from . import _options
+from ._common import human, table
+from ._console import Console
+
+
+def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
+    parser = _options.command(
+        subparsers,
+        "compressors",
+        help="list the compressors, their settings and limits",
+        description="List the compressors: default spec, levels, window or block limit, "
+        "whether they can be primed, and the fixed bytes each adds to every size.",
+        example=["kinpress compressors", "kinpress compressors --json"],
+    )
+    parser.add_argument("--json", action="store_true", help="a JSON list of objects")
+
+
+def run(args: argparse.Namespace, console: Console) -> int:
+    rows = [describe(cls()) for cls in ADAPTERS.values()]
+    if args.json:
+        print(json_text([row.as_json() for row in rows]), end="")
+        return 0
+    header = ("name", "default spec", "levels", "window/block", "primed", "overhead")
+    listing = [header] + [
+        (
+            r.name,
+            r.spec,
+            f"{r.levels[0]}-{r.levels[1]}",
+            human(r.window_bytes),
+            "yes" if r.primed else "no",
+            f"{r.overhead_bytes} B",
+        )
+        for r in rows
+    ]
+    print(table(listing), end="")
+    print()
+    for r in rows:
+        keys = ", ".join(f"{p.name} {p.low}-{p.high}" for p in r.keys)
+        print(f"{r.name}: {r.summary}. Keys: {keys}. Limit: {r.window_source}.")
+    return 0
