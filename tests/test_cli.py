@@ -358,3 +358,46 @@ def test_progress_off_a_terminal_is_a_line_now_and_then(monkeypatch: pytest.Monk
     assert len(stream.getvalue().splitlines()) == 1
     with Console(quiet=True, stream=stream).progress() as update:
         assert update is None
+
+
+# --- one JSON convention: --json selects JSON, -o says where, stdout otherwise ---------------
+
+
+@pytest.mark.parametrize(
+    ("command", "key"),
+    [
+        (["compressors"], None),
+        (["matrix", "{folder}", *FAST], "labels"),
+        (["tree", "{folder}", *FAST], "newick"),
+        (["groups", "{folder}", *FAST, "--k", "2"], "items"),
+    ],
+)
+def test_json_goes_where_o_says_and_nothing_else_goes_to_stdout(
+    capsys: pytest.CaptureFixture[str],
+    text_folder: Path,
+    tmp_path: Path,
+    command: list[str],
+    key: str | None,
+) -> None:
+    argv = [a.replace("{folder}", str(text_folder)) for a in command]
+    path = tmp_path / "out.json"
+    code, out, err = run(capsys, *argv, "--json", "-o", str(path))
+    assert code == 0, err
+    assert out == ""
+    written = json.loads(path.read_text())
+    assert key is None or key in written
+    code, out, err = run(capsys, *argv, "--json")
+    assert code == 0, err
+    shown = json.loads(out)
+    assert shown == written if key is None else key in shown
+
+
+def test_matrix_json_is_format_json_and_refuses_another_format(
+    capsys: pytest.CaptureFixture[str], text_folder: Path
+) -> None:
+    code, by_option, _ = run(capsys, "matrix", str(text_folder), *FAST, "--json")
+    assert code == 0
+    code, by_format, _ = run(capsys, "matrix", str(text_folder), *FAST, "--format", "json")
+    assert json.loads(by_option)["labels"] == json.loads(by_format)["labels"]
+    code, _, err = run(capsys, "matrix", str(text_folder), *FAST, "--json", "--format", "tsv")
+    assert code == 2 and "--json and --format tsv" in err

@@ -6,10 +6,10 @@ import argparse
 from typing import Any
 
 from ..compressors import compressor
-from ..formats import emit, json_text
+from ..formats import emit
 from ..items import load_items
 from . import _options
-from ._common import check_plot, human, input_options
+from ._common import check_plot, human, input_options, write_json
 from ._console import Console
 
 
@@ -53,7 +53,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
         compressor(spec)  # a bad spec fails before any work
     report = calibrate(items, candidates, seed=args.seed, max_bytes=args.max_bytes)
     if args.json:
-        emit(json_text(report.as_json()), args.output)
+        write_json(args, report.as_json())
     else:
         emit(_calibration_text(report), args.output)
     if args.plot:

@@ -5,10 +5,10 @@ from __future__ import annotations
 import argparse
 from typing import Any
 
-from ..formats import emit, json_text
+from ..formats import emit
 from ..items import escape_name, load_items
 from . import _options
-from ._common import as_usage_errors, input_options, opened_cache, resolve_spec, table
+from ._common import as_usage_errors, input_options, opened_cache, resolve_spec, table, write_json
 from ._console import Console
 from ._options import UsageError
 
@@ -92,8 +92,10 @@ def run(args: argparse.Namespace, console: Console) -> int:
             found = classify(unknowns, reference, spec, k=args.k, cache=cache,
                              progress=progress, **options)  # fmt: skip
     if args.evaluate:
-        emit(_evaluation_text(result) if not args.json else json_text(result.as_json()),
-             args.output)  # fmt: skip
+        if args.json:
+            write_json(args, result.as_json())
+        else:
+            emit(_evaluation_text(result), args.output)
         return 0
     counts = found.counts()
     console.say(
@@ -102,7 +104,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
         + found.abstention.guarantee
     )
     if args.json:
-        emit(json_text(found.as_json()), args.output)
+        write_json(args, found.as_json())
     else:
         emit(_classification_text(found), args.output)
     return 0

@@ -5,9 +5,9 @@ from __future__ import annotations
 import argparse
 
 from ..compressors import ADAPTERS, describe
-from ..formats import json_text
+from ..formats import emit
 from . import _options
-from ._common import human, table
+from ._common import human, table, write_json
 from ._console import Console
 
 
@@ -20,13 +20,13 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
         "whether they can be primed, and the fixed bytes each adds to every size.",
         example=["kinpress compressors", "kinpress compressors --json"],
     )
-    parser.add_argument("--json", action="store_true", help="a JSON list of objects")
+    _options.output(parser, "the list", "a JSON list of objects")
 
 
 def run(args: argparse.Namespace, console: Console) -> int:
     rows = [describe(cls()) for cls in ADAPTERS.values()]
     if args.json:
-        print(json_text([row.as_json() for row in rows]), end="")
+        write_json(args, [row.as_json() for row in rows])
         return 0
     header = ("name", "default spec", "levels", "window/block", "primed", "overhead")
     listing = [header] + [
@@ -40,9 +40,10 @@ def run(args: argparse.Namespace, console: Console) -> int:
         )
         for r in rows
     ]
-    print(table(listing), end="")
-    print()
-    for r in rows:
-        keys = ", ".join(f"{p.name} {p.low}-{p.high}" for p in r.keys)
-        print(f"{r.name}: {r.summary}. Keys: {keys}. Limit: {r.window_source}.")
+    notes = [
+        f"{r.name}: {r.summary}. Keys: {', '.join(f'{p.name} {p.low}-{p.high}' for p in r.keys)}."
+        f" Limit: {r.window_source}.\n"
+        for r in rows
+    ]
+    emit([table(listing), "\n", *notes], args.output)
     return 0

@@ -5,10 +5,10 @@ from __future__ import annotations
 import argparse
 from typing import TYPE_CHECKING
 
-from ..formats import emit, json_text
+from ..formats import emit
 from ..items import escape_name
 from . import _options
-from ._common import as_usage_errors, load, opened_cache, resolve_spec
+from ._common import as_usage_errors, load, opened_cache, resolve_spec, write_json
 from ._console import Console
 
 if TYPE_CHECKING:
@@ -92,7 +92,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
         )
     shown = report.findings + (report.same_source if args.same_source else ())
     if args.json:
-        emit(json_text([f.as_json() for f in shown]), args.output)
+        write_json(args, [f.as_json() for f in shown])
         return 0
     lines = []
     for number, family in enumerate(families(report.findings), start=1):

@@ -9,7 +9,7 @@ from collections.abc import Sequence
 from typing import Any
 
 from ..distance import TooLarge, check_matrix_memory
-from ..formats import emit, json_text
+from ..formats import emit
 from ..items import escape_name
 from . import _options
 from ._common import (
@@ -20,6 +20,7 @@ from ._common import (
     matrix_for,
     opened_cache,
     resolve_spec,
+    write_json,
 )
 from ._console import Console, duration
 from ._options import UsageError, budget_seconds
@@ -47,9 +48,7 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
     how.add_argument(
         "--outliers", action="store_true", help="report outliers as group -1 instead of joining"
     )
-    out = parser.add_argument_group("output")
-    out.add_argument("-o", "--output", metavar="FILE", help="write the TSV here")
-    out.add_argument("--json", action="store_true", help="a JSON report on stdout")
+    _options.output(parser, "the TSV of groups", "a JSON report instead of the TSV")
 
 
 @dataclasses.dataclass(frozen=True)
@@ -219,10 +218,8 @@ def run(args: argparse.Namespace, console: Console) -> int:
         )
         if not args.json and not args.quiet:
             print(_confusion_text(scores), file=sys.stderr)
-    if args.output:
-        emit(tsv, args.output)
     if args.json:
-        emit(json_text(_report(dm, grouping, scores)), None)
-    elif not args.output:
-        emit(tsv, None)
+        write_json(args, _report(dm, grouping, scores))
+    else:
+        emit(tsv, args.output)
     return 0

@@ -8,6 +8,7 @@ from ..formats import MATRIX_FORMATS, format_for, write_matrix
 from . import _options
 from ._common import check_plot, compute_matrix
 from ._console import Console
+from ._options import UsageError
 
 
 def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
@@ -25,10 +26,11 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
     )
     _options.inputs(parser)
     _options.measuring(parser)
-    out = parser.add_argument_group("output")
-    out.add_argument("-o", "--output", metavar="FILE", help="write here (default: stdout)")
-    out.add_argument(
-        "--plot", metavar="FILE", help="also draw a heatmap in tree order (.png, .svg or .pdf)"
+    out = _options.output(
+        parser,
+        "the matrix",
+        "the matrix as JSON (the same as --format json)",
+        plot="also draw a heatmap in tree order",
     )
     out.add_argument(
         "--format", choices=MATRIX_FORMATS, help="default: from the file extension, else tsv"
@@ -36,7 +38,9 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
 
 
 def run(args: argparse.Namespace, console: Console) -> int:
-    fmt = format_for(args.output, args.format)
+    if args.json and args.format not in (None, "json"):
+        raise UsageError(f"--json and --format {args.format}: give one")
+    fmt = format_for(args.output, "json" if args.json else args.format)
     check_plot(args.plot)
     dm, _ = compute_matrix(args, console)
     write_matrix(dm, args.output, fmt)

@@ -5,10 +5,10 @@ from __future__ import annotations
 import argparse
 import itertools
 
-from ..formats import emit, json_text
+from ..formats import emit
 from ..items import escape_name
 from . import _options
-from ._common import as_usage_errors, load, opened_cache, resolve_spec
+from ._common import as_usage_errors, load, opened_cache, resolve_spec, write_json
 from ._console import Console
 
 
@@ -65,7 +65,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
             console.say(f"against known labels: {sum(same) / len(same):.1%} of neighbours share"
                         " their item's label")  # fmt: skip
     if args.json:
-        emit(json_text(found.as_json()), args.output)
+        write_json(args, found.as_json())
         return 0
     header = ["item\trank\tneighbour\tncd\n"]
     rows = (f"{escape_name(a)}\t{r}\t{escape_name(b)}\t{d:.6f}\n" for a, r, b, d in found.rows())

@@ -9,9 +9,9 @@ from functools import partial
 
 from ..compressors import compressor
 from ..distance import DistanceMatrix
-from ..formats import emit, json_text
+from ..formats import emit
 from . import _options
-from ._common import as_usage_errors, check_plot, matrix_for
+from ._common import as_usage_errors, check_plot, matrix_for, write_json
 from ._console import Console
 from ._options import UsageError
 
@@ -58,10 +58,12 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
         help="bootstrap block size as a fraction of each item (default 0.02)",
     )
     shape.add_argument("--seed", type=int, default=1, help="bootstrap random seed (default 1)")
-    out = parser.add_argument_group("output")
-    out.add_argument("-o", "--output", metavar="FILE", help="write the Newick tree here")
-    out.add_argument("--plot", metavar="FILE", help="draw the tree (.png, .svg or .pdf)")
-    out.add_argument("--json", action="store_true", help="a JSON report on stdout")
+    _options.output(
+        parser,
+        "the Newick tree",
+        "a JSON report (the Newick tree in it) instead of the Newick tree",
+        plot="draw the tree",
+    )
 
 
 def _outgroup(text: str | None, labels: Sequence[str]) -> list[str] | None:
@@ -128,8 +130,6 @@ def run(args: argparse.Namespace, console: Console) -> int:
         f" with distances at r = {fit:.3f}"
     )
     newick = to_newick(tree) + "\n"
-    if args.output:
-        emit(newick, args.output)
     if args.plot:
         from ..plots import plot_tree
 
@@ -153,7 +153,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
             "conditional": dm.conditional,
             "strand": dm.strand,
         }
-        emit(json_text(report), None)
-    elif not args.output:
-        emit(newick, None)
+        write_json(args, report)
+    else:
+        emit(newick, args.output)
     return 0
