@@ -29,6 +29,15 @@ def run(capsys: pytest.CaptureFixture[str], *argv: str) -> tuple[int, str, str]:
     return code, out, err
 
 
+def exit_code(capsys: pytest.CaptureFixture[str], *argv: str) -> tuple[int, str, str]:
+    """As run, for command lines argparse itself refuses (it exits rather than returns)."""
+    try:
+        return run(capsys, *argv)
+    except SystemExit as stopped:
+        out, err = capsys.readouterr()
+        return int(str(stopped.code)), out, err
+
+
 def parse_tsv(text: str) -> tuple[list[str], np.ndarray]:
     rows = list(csv.reader(io.StringIO(text), delimiter="\t"))
     assert rows[0][0] == ""
@@ -401,3 +410,55 @@ def test_matrix_json_is_format_json_and_refuses_another_format(
     assert json.loads(by_option)["labels"] == json.loads(by_format)["labels"]
     code, _, err = run(capsys, "matrix", str(text_folder), *FAST, "--json", "--format", "tsv")
     assert code == 2 and "--json and --format tsv" in err
+
+
+# --- no option silently ignored ------------------------------------------------------------
+
+
+@pytest.fixture
+def saved_matrix(text_folder: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> Path:
+    path = tmp_path / "m.tsv"
+    assert main(["matrix", str(text_folder), *FAST, "-o", str(path)]) == 0
+    capsys.readouterr()
+    return path
+
+
+IGNORED = {
+    "tree --matrix with -c": (["tree", "--matrix", "{m}", "-c", "zlib"], "--compressor"),
+    "groups --matrix with --strand": (
+        ["groups", "--matrix", "{m}", "--strand", "both"],
+        "--strand",
+    ),
+    "tree --matrix with --jobs": (["tree", "--matrix", "{m}", "--jobs", "2"], "--jobs"),
+    "tree --seed without --bootstrap": (["tree", "--matrix", "{m}", "--seed", "3"], "--seed"),
+    "tree --block-fraction without --bootstrap": (
+        ["tree", "{f}", *FAST, "--block-fraction", "0.1"],
+        "--block-fraction",
+    ),
+    "tree --labels without --plot": (["tree", "--matrix", "{m}", "--labels", "{m}"], "--labels"),
+    "classify --k with the conditional method": (
+        ["classify", "--reference", "{f}", "{f}", *FAST, "--k", "3"],
+        "--k",
+    ),
+    "classify --evaluate with inputs": (
+        ["classify", "--reference", "{f}", "{f}", *FAST, "--evaluate"],
+        "--evaluate",
+    ),
+    "derived --labels": (["derived", "{f}", *FAST, "--labels", "{m}"], "--labels"),
+    "matrix --budget with -c named": (["matrix", "{f}", *FAST, "--budget", "9"], "--budget"),
+    "matrix --labels in TSV": (["matrix", "{f}", *FAST, "--labels", "{labels}"], "--labels"),
+    "--cache with --no-cache": (["nearest", "{f}", *FAST, "--cache", "{m}.db"], "--cache"),
+}
+
+
+@pytest.mark.parametrize("case", list(IGNORED))
+def test_an_option_that_would_do_nothing_is_a_usage_error_naming_it(
+    capsys: pytest.CaptureFixture[str], text_folder: Path, saved_matrix: Path, case: str
+) -> None:
+    argv, option = IGNORED[case]
+    labels = saved_matrix.parent / "labels.tsv"
+    labels.write_text("a.txt\tweb\nb.txt\tdb\n")
+    args = [a.format(m=saved_matrix, f=text_folder, labels=labels) for a in argv]
+    code, out, err = exit_code(capsys, *args)
+    assert code == 2 and out == ""
+    assert option in err

@@ -58,7 +58,7 @@ def input_options(args: argparse.Namespace) -> dict[str, Any]:
 
 
 def load(args: argparse.Namespace) -> list[Item]:
-    return load_items(args.inputs, args.split, args.labels, **input_options(args))
+    return load_items(args.inputs, args.split, getattr(args, "labels", None), **input_options(args))
 
 
 @contextmanager

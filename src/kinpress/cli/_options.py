@@ -194,10 +194,13 @@ words."""
 
 
 def check_values(args: argparse.Namespace) -> None:
+    """Each option's value by its rule, and no size cache named when --no-cache turns it off."""
     for dest, (allowed, words) in VALUE_RULES.items():
         value = getattr(args, dest, None)
         if value is not None and not allowed(value):
             raise UsageError(f"--{dest.replace('_', '-')} {value}: give {words}")
+    if getattr(args, "no_cache", False) and getattr(args, "cache", None):
+        raise UsageError("--cache: names the size cache, which --no-cache turns off; give one")
 
 
 MEASURING = ("compressor", "budget", "conditional", "strand", "split", "follow_links",
@@ -218,6 +221,13 @@ def option_name(args: argparse.Namespace, dest: str) -> str:
         if action.dest == dest and action.option_strings:
             return action.option_strings[-1]
     return dest
+
+
+def refuse_budget_without_auto(args: argparse.Namespace) -> None:
+    """--budget aims the -c auto choice; with a compressor named it would do nothing."""
+    if args.compressor != "auto":
+        refuse_given(args, ("budget",), f"aims the -c auto choice; with -c {args.compressor} it"
+                     " does nothing")  # fmt: skip
 
 
 def refuse_given(args: argparse.Namespace, dests: Sequence[str], why: str) -> None:

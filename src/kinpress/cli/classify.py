@@ -67,6 +67,13 @@ def run(args: argparse.Namespace, console: Console) -> int:
 
     if args.significance is not None and args.threshold is not None:
         raise UsageError("give --significance or --threshold, not both")
+    if args.evaluate and args.inputs:
+        raise UsageError("give unknown inputs to classify or --evaluate, not both")
+    if args.evaluate or args.method != "knn":
+        _options.refuse_given(args, ("k",), "counts neighbours for --method knn when classifying;"
+                              " it does nothing " + ("with --evaluate" if args.evaluate else
+                              "with the conditional method"))  # fmt: skip
+    _options.refuse_budget_without_auto(args)
     if args.labels:
         reference = load_items([args.reference], args.split, args.labels, **input_options(args))
         missing = [i.name for i in reference if i.label is None]

@@ -39,7 +39,7 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
         ],
     )
     _options.inputs(parser)
-    _options.measuring(parser)
+    _options.measuring(parser, labels=False)
     judge = parser.add_argument_group("judging")
     judge.add_argument("--exhaustive", action="store_true", help="check all pairs, no prefilter")
     judge.add_argument(
@@ -63,6 +63,7 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
 def run(args: argparse.Namespace, console: Console) -> int:
     from ..derived import families, find_derived
 
+    _options.refuse_budget_without_auto(args)
     items = load(args)
     spec = resolve_spec(args, items, console)
     with as_usage_errors(), opened_cache(args) as cache, console.progress() as progress:

@@ -24,7 +24,7 @@ from ._common import (
 )
 from ._console import Console, duration
 from ._options import UsageError, budget_seconds
-from .tree import inputs_or_matrix
+from .tree import inputs_or_matrix, refuse_measuring
 
 
 def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
@@ -176,6 +176,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
 
     if args.k is not None and args.cut is not None:
         raise UsageError("give --k or --cut, not both")
+    refuse_measuring(args)
 
     def check(labels: Sequence[str]) -> None:
         if args.k is not None and args.k > len(labels):

@@ -6,7 +6,7 @@ import argparse
 
 from ..formats import MATRIX_FORMATS, format_for, write_matrix
 from . import _options
-from ._common import check_plot, compute_matrix
+from ._common import check_plot, compute_matrix, load
 from ._console import Console
 from ._options import UsageError
 
@@ -42,7 +42,12 @@ def run(args: argparse.Namespace, console: Console) -> int:
         raise UsageError(f"--json and --format {args.format}: give one")
     fmt = format_for(args.output, "json" if args.json else args.format)
     check_plot(args.plot)
-    dm, _ = compute_matrix(args, console)
+    _options.refuse_budget_without_auto(args)
+    items = load(args)  # a missing labels file is reported before the check below
+    if fmt != "json":
+        _options.refuse_given(args, ("labels",), f"only the JSON matrix carries labels, not"
+                              f" {fmt}; add --json")  # fmt: skip
+    dm, _ = compute_matrix(args, console, items=items)
     write_matrix(dm, args.output, fmt)
     if args.plot:
         from ..plots import plot_heatmap

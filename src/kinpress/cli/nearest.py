@@ -36,6 +36,7 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
 def run(args: argparse.Namespace, console: Console) -> int:
     from ..neighbours import nearest_neighbours
 
+    _options.refuse_budget_without_auto(args)
     items = load(args)
     spec = resolve_spec(args, items, console)
     with as_usage_errors(), opened_cache(args) as cache, console.progress() as progress:

@@ -79,6 +79,16 @@ def _outgroup(text: str | None, labels: Sequence[str]) -> list[str] | None:
     return wanted
 
 
+def refuse_measuring(args: argparse.Namespace) -> None:
+    """Options that say how to measure do nothing when a saved matrix is read; so does --budget
+    with a compressor named."""
+    if args.matrix:
+        _options.refuse_given(args, _options.MEASURING, "does nothing with --matrix: a saved"
+                              " matrix is read as it is, not measured")  # fmt: skip
+    elif args.command != "groups":
+        _options.refuse_budget_without_auto(args)
+
+
 def classes(dm: DistanceMatrix) -> dict[str, str] | None:
     if dm.classes is None:
         return None
@@ -91,6 +101,11 @@ def run(args: argparse.Namespace, console: Console) -> int:
 
     if args.bootstrap and args.matrix:
         raise UsageError("--bootstrap resamples the items, so it needs inputs, not --matrix")
+    refuse_measuring(args)
+    if not args.bootstrap:
+        _options.refuse_given(args, ("seed", "block_fraction"), "does nothing without --bootstrap")
+    if not args.plot:
+        _options.refuse_given(args, ("labels",), "colours the leaves of --plot; give --plot")
     check_plot(args.plot)
 
     def check(labels: Sequence[str]) -> None:
