@@ -14,7 +14,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from conftest import generated_text
+from conftest import DATASETS, generated_text
 from kinpress import InputError, read_matrix
 from kinpress.cli import main
 
@@ -462,3 +462,38 @@ def test_an_option_that_would_do_nothing_is_a_usage_error_naming_it(
     code, out, err = exit_code(capsys, *args)
     assert code == 2 and out == ""
     assert option in err
+
+
+# --- calibrate takes the shared options; unknown options show the command's usage ----------
+
+
+def test_calibrate_weighs_the_budget_on_the_cores_and_keeps_its_report_in_the_cache(
+    capsys: pytest.CaptureFixture[str], text_folder: Path, tmp_path: Path
+) -> None:
+    cache = str(tmp_path / "c.sqlite")
+    argv = ["calibrate", str(text_folder), "-c", "zstd:level=3", "--max-bytes", "65536",
+            "--budget", "60", "--jobs", "1", "--cache", cache, "--json"]  # fmt: skip
+    code, out, err = run(capsys, *argv)
+    assert code == 0, err
+    first = json.loads(out)
+    assert any("on 1 cores (budget 60 s)" in reason for reason in first["reasons"])
+    code, out, err = run(capsys, *argv)
+    assert code == 0 and "calibrate: the report for these inputs is in the cache" in err
+    assert json.loads(out) == first
+
+
+@pytest.mark.parametrize("option", [["--budget", "60"], ["--jobs", "2"]])
+def test_calibrate_without_inputs_refuses_what_weighs_their_run_time(
+    capsys: pytest.CaptureFixture[str], option: list[str]
+) -> None:
+    code, _, err = exit_code(capsys, "calibrate", "-c", "zstd:level=3", *option)
+    assert code == 2 and option[0] in err and "give inputs" in err
+
+
+def test_an_unknown_option_shows_the_usage_of_its_command(
+    capsys: pytest.CaptureFixture[str], text_folder: Path
+) -> None:
+    code, _, err = exit_code(capsys, "matrix", str(text_folder), "--bogus")
+    assert code == 2
+    assert err.startswith("usage: kinpress matrix ")
+    assert "unrecognized arguments: --bogus" in err

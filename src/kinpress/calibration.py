@@ -1299,3 +1299,66 @@ def resolve_auto(
             stacklevel=2,
         )
     return str(chosen["spec"])
+
+
+def calibration_report(
+    items: Sequence[Item] | None,
+    candidates: Sequence[str],
+    *,
+    seed: int = DEFAULT_SEED,
+    max_bytes: int = DEFAULT_MAX_BYTES,
+    budget_seconds: float | None = None,
+    jobs: int | None = None,
+    cache: SizeCache | None = None,
+    say: Callable[[str], None] = lambda message: None,
+) -> CalibrationReport:
+    """What ``kinpress calibrate`` reports: :func:`calibrate`, or with ``budget_seconds`` (which
+    needs ``items``) :func:`choose_compressor`, whose recommendation is the best compressor
+    whose whole matrix of the items is estimated to fit the budget on ``jobs`` cores.
+
+    The report is kept in ``cache``, keyed by the items' contents, the candidates (with their
+    library versions), the seed, the size cap, the budget and the cores, so a rerun does not
+    measure again (its throughputs are those of the first run).
+    """
+    import hashlib
+    import json
+
+    from .distance import content_digest
+
+    if budget_seconds is not None and not items:
+        raise ValueError("a budget weighs the run time of the inputs' matrix: give inputs")
+    lines = [
+        *sorted(content_digest(item.data).hex() for item in items or ()),
+        *(compressor(spec).cache_key for spec in candidates),
+        f"seed={seed} max_bytes={max_bytes} budget={budget_seconds} cores={jobs}",
+    ]
+    key = "calibrate:" + hashlib.blake2b("\n".join(lines).encode(), digest_size=16).hexdigest()
+    stored = cache.get_choice(key) if cache is not None else None
+    if stored is not None:
+        say("calibrate: the report for these inputs is in the cache")
+        return _report_from_json(stored)
+    if budget_seconds is None or not items:
+        report = calibrate(items, candidates, seed=seed, max_bytes=max_bytes)
+    else:
+        _, report = choose_compressor(items, budget_seconds=budget_seconds, candidates=candidates,
+                                      seed=seed, jobs=jobs, max_bytes=max_bytes)  # fmt: skip
+    if cache is not None:
+        cache.put_choice(key, json.dumps(report.as_json()))
+    return report
+
+
+def _report_from_json(text: str) -> CalibrationReport:
+    """The report :meth:`CalibrationReport.as_json` wrote (its derived figures recomputed)."""
+    import json
+
+    doc = json.loads(text)
+    derived = {"mutation_distance", "quality"}
+    results = []
+    for entry in doc["compressors"]:
+        fields = {k: v for k, v in entry.items() if k not in derived}
+        fields["normality"] = Normality(**fields["normality"])
+        for curve in ("size_sweep", "mutation_ladder", "block_moves"):
+            fields[curve] = tuple(tuple(point) for point in fields[curve])
+        results.append(CompressorCalibration(**fields))
+    return CalibrationReport(doc["seed"], doc["inputs"], tuple(results), doc["recommended"],
+                             tuple(doc["reasons"]))  # fmt: skip

@@ -85,7 +85,12 @@ def _show_warning(
 
 def main(argv: Sequence[str] | None = None) -> int:
     parser = build_parser()
-    args = parser.parse_args(argv)
+    args, unknown = parser.parse_known_args(argv)
+    if unknown:
+        # The command's own usage, which lists the options it does take.
+        (getattr(args, "command_parser", None) or parser).error(
+            f"unrecognized arguments: {' '.join(unknown)}"
+        )
     if args.command is None:
         parser.print_help(sys.stderr)
         return 2

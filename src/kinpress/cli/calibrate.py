@@ -9,8 +9,9 @@ from ..compressors import compressor
 from ..formats import emit
 from ..items import load_items
 from . import _options
-from ._common import check_plot, human, input_options, write_json
+from ._common import check_plot, human, input_options, opened_cache, write_json
 from ._console import Console
+from ._options import budget_seconds
 
 
 def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
@@ -32,26 +33,38 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
         "-c", "--compressor", action="append", metavar="SPEC", help="compressor to calibrate "
         "(repeat; default: a handful of strong and fast ones)"
     )  # fmt: skip
-    _options.reading(parser.add_argument_group("reading"))
     parser.add_argument("--seed", type=int, default=2005, help="controls' seed (default 2005)")
     parser.add_argument(
         "--max-bytes", type=int, default=64 << 20, metavar="N",
         help="cap of the size sweep in bytes (default 64 MiB)",
     )  # fmt: skip
+    _options.budget(parser)
+    _options.reading(parser.add_argument_group("reading"))
+    _options.running(parser)
     _options.output(
         parser, "the report", "the report as JSON", plot="draw identity vs size and vs mutation"
     )
 
 
 def run(args: argparse.Namespace, console: Console) -> int:
-    from ..calibration import DEFAULT_CANDIDATES, calibrate
+    from ..calibration import DEFAULT_CANDIDATES, calibration_report
 
     check_plot(args.plot)
+    weighs_time = ("budget", "jobs", "cluster")
+    if not args.inputs:
+        _options.refuse_given(args, weighs_time, "weighs the run time of a matrix of the inputs;"
+                              " give inputs")  # fmt: skip
     items = load_items(args.inputs, args.split, **input_options(args)) if args.inputs else None
     candidates = args.compressor or list(DEFAULT_CANDIDATES)
     for spec in candidates:
         compressor(spec)  # a bad spec fails before any work
-    report = calibrate(items, candidates, seed=args.seed, max_bytes=args.max_bytes)
+    timed = any(_options.given(args, dest) for dest in weighs_time)
+    with opened_cache(args) as cache:
+        report = calibration_report(
+            items, candidates, seed=args.seed, max_bytes=args.max_bytes,
+            budget_seconds=budget_seconds(args) if timed else None,
+            jobs=args.engine.jobs if timed else None, cache=cache, say=console.say,
+        )  # fmt: skip
     if args.json:
         write_json(args, report.as_json())
     else:
