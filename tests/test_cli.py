@@ -497,3 +497,26 @@ def test_an_unknown_option_shows_the_usage_of_its_command(
     assert code == 2
     assert err.startswith("usage: kinpress matrix ")
     assert "unrecognized arguments: --bogus" in err
+
+
+# --- classify's text explains every score it prints --------------------------------------
+
+
+def test_classify_text_has_a_legend_for_every_column_under_its_table(
+    capsys: pytest.CaptureFixture[str], tmp_path: Path
+) -> None:
+    logs = DATASETS / "quendle-logs" / "logs"
+    for name in ("brisquet", "tarnwheel"):
+        (tmp_path / "known" / name).mkdir(parents=True)
+        lines = (logs / f"{name}.log").read_text().splitlines(keepends=True)
+        (tmp_path / "known" / name / "first.log").write_text("".join(lines[:1000]))
+    unknown = tmp_path / "later.log"
+    unknown.write_text("".join(lines[1000:1200]))
+    code, out, err = run(capsys, "classify", "--reference", str(tmp_path / "known"),
+                         str(unknown), *FAST, "--split", "lines:100")  # fmt: skip
+    assert code == 0, err
+    text = out.splitlines()
+    header = text[0].split()
+    rows = [line for line in text[1:] if line.startswith("later.log#")]
+    legend = text[1 + len(rows)]
+    assert all(f"{column}:" in legend or f"{column}," in legend for column in header[1:])

@@ -16,6 +16,14 @@ ORIGIN_CAUTION = (
     "An origin is evidence for a person to review, not proof of where an item came from."
 )
 
+LEGEND = (
+    "origin: the one named, or ambiguous (the origins that fit) or unknown (none does);"
+    " p-value: how well the best origin accepts the item (- with --threshold); confidence: how"
+    " far the runner-up's score lies behind the best one's (0: a tie); nearest, distance: the"
+    " closest reference item and its NCD"
+)
+"""What each column of the text table means, printed under it."""
+
 
 def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     parser = _options.command(
@@ -129,13 +137,13 @@ def _classification_text(found: Any) -> str:
                      f"{p.distance:.3f}"))  # fmt: skip
     lines = [
         table(rows).rstrip("\n"),
+        LEGEND,
         "",
         f"p-value: of the {found.abstention.test} test for the best origin (below"
         f" {found.abstention.significance} it does not accept the item: fit, how typical the"
         " item is of that origin's own held-out items; separation, how much better it explains"
-        " the item than the next origin does, against its own items); confidence: the"
-        " runner-up's score minus the best one (scores: C(x | origin) / C(x), lower is"
-        " better).",
+        " the item than the next origin does, against its own items); an origin's score is"
+        " C(x | origin) / C(x), lower is better.",
         f"Abstention: {found.abstention.guarantee}.",
         ORIGIN_CAUTION,
     ]
