@@ -176,7 +176,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
 
     if args.k is not None and args.cut is not None:
         raise UsageError("give --k or --cut, not both")
-    refuse_measuring(args)
+    refuse_measuring(args, budget_beyond_auto=True)  # a matrix over budget goes the sparse way
 
     def check(labels: Sequence[str]) -> None:
         if args.k is not None and args.k > len(labels):

@@ -79,13 +79,13 @@ def _outgroup(text: str | None, labels: Sequence[str]) -> list[str] | None:
     return wanted
 
 
-def refuse_measuring(args: argparse.Namespace) -> None:
+def refuse_measuring(args: argparse.Namespace, budget_beyond_auto: bool = False) -> None:
     """Options that say how to measure do nothing when a saved matrix is read; so does --budget
-    with a compressor named."""
+    with a compressor named, unless the command uses it for more (`budget_beyond_auto`)."""
     if args.matrix:
         _options.refuse_given(args, _options.MEASURING, "does nothing with --matrix: a saved"
                               " matrix is read as it is, not measured")  # fmt: skip
-    elif args.command != "groups":
+    elif not budget_beyond_auto:
         _options.refuse_budget_without_auto(args)
 
 
