@@ -14,7 +14,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from conftest import generated_text
+from conftest import DATASETS, generated_text
 from kinpress import InputError, read_matrix
 from kinpress.cli import main
 
@@ -27,6 +27,15 @@ def run(capsys: pytest.CaptureFixture[str], *argv: str) -> tuple[int, str, str]:
     code = main(list(argv))
     out, err = capsys.readouterr()
     return code, out, err
+
+
+def exit_code(capsys: pytest.CaptureFixture[str], *argv: str) -> tuple[int, str, str]:
+    """As run, for command lines argparse itself refuses (it exits rather than returns)."""
+    try:
+        return run(capsys, *argv)
+    except SystemExit as stopped:
+        out, err = capsys.readouterr()
+        return int(str(stopped.code)), out, err
 
 
 def parse_tsv(text: str) -> tuple[list[str], np.ndarray]:
@@ -358,3 +367,156 @@ def test_progress_off_a_terminal_is_a_line_now_and_then(monkeypatch: pytest.Monk
     assert len(stream.getvalue().splitlines()) == 1
     with Console(quiet=True, stream=stream).progress() as update:
         assert update is None
+
+
+# --- one JSON convention: --json selects JSON, -o says where, stdout otherwise ---------------
+
+
+@pytest.mark.parametrize(
+    ("command", "key"),
+    [
+        (["compressors"], None),
+        (["matrix", "{folder}", *FAST], "labels"),
+        (["tree", "{folder}", *FAST], "newick"),
+        (["groups", "{folder}", *FAST, "--k", "2"], "items"),
+    ],
+)
+def test_json_goes_where_o_says_and_nothing_else_goes_to_stdout(
+    capsys: pytest.CaptureFixture[str],
+    text_folder: Path,
+    tmp_path: Path,
+    command: list[str],
+    key: str | None,
+) -> None:
+    argv = [a.replace("{folder}", str(text_folder)) for a in command]
+    path = tmp_path / "out.json"
+    code, out, err = run(capsys, *argv, "--json", "-o", str(path))
+    assert code == 0, err
+    assert out == ""
+    written = json.loads(path.read_text())
+    assert key is None or key in written
+    code, out, err = run(capsys, *argv, "--json")
+    assert code == 0, err
+    shown = json.loads(out)
+    assert shown == written if key is None else key in shown
+
+
+def test_matrix_json_is_format_json_and_refuses_another_format(
+    capsys: pytest.CaptureFixture[str], text_folder: Path
+) -> None:
+    code, by_option, _ = run(capsys, "matrix", str(text_folder), *FAST, "--json")
+    assert code == 0
+    code, by_format, _ = run(capsys, "matrix", str(text_folder), *FAST, "--format", "json")
+    assert json.loads(by_option)["labels"] == json.loads(by_format)["labels"]
+    code, _, err = run(capsys, "matrix", str(text_folder), *FAST, "--json", "--format", "tsv")
+    assert code == 2 and "--json and --format tsv" in err
+
+
+# --- no option silently ignored ------------------------------------------------------------
+
+
+@pytest.fixture
+def saved_matrix(text_folder: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> Path:
+    path = tmp_path / "m.tsv"
+    assert main(["matrix", str(text_folder), *FAST, "-o", str(path)]) == 0
+    capsys.readouterr()
+    return path
+
+
+IGNORED = {
+    "tree --matrix with -c": (["tree", "--matrix", "{m}", "-c", "zlib"], "--compressor"),
+    "groups --matrix with --strand": (
+        ["groups", "--matrix", "{m}", "--strand", "both"],
+        "--strand",
+    ),
+    "tree --matrix with --jobs": (["tree", "--matrix", "{m}", "--jobs", "2"], "--jobs"),
+    "tree --seed without --bootstrap": (["tree", "--matrix", "{m}", "--seed", "3"], "--seed"),
+    "tree --block-fraction without --bootstrap": (
+        ["tree", "{f}", *FAST, "--block-fraction", "0.1"],
+        "--block-fraction",
+    ),
+    "tree --labels without --plot": (["tree", "--matrix", "{m}", "--labels", "{m}"], "--labels"),
+    "classify --k with the conditional method": (
+        ["classify", "--reference", "{f}", "{f}", *FAST, "--k", "3"],
+        "--k",
+    ),
+    "classify --evaluate with inputs": (
+        ["classify", "--reference", "{f}", "{f}", *FAST, "--evaluate"],
+        "--evaluate",
+    ),
+    "derived --labels": (["derived", "{f}", *FAST, "--labels", "{m}"], "--labels"),
+    "matrix --budget with -c named": (["matrix", "{f}", *FAST, "--budget", "9"], "--budget"),
+    "matrix --labels in TSV": (["matrix", "{f}", *FAST, "--labels", "{labels}"], "--labels"),
+    "--cache with --no-cache": (["nearest", "{f}", *FAST, "--cache", "{m}.db"], "--cache"),
+}
+
+
+@pytest.mark.parametrize("case", list(IGNORED))
+def test_an_option_that_would_do_nothing_is_a_usage_error_naming_it(
+    capsys: pytest.CaptureFixture[str], text_folder: Path, saved_matrix: Path, case: str
+) -> None:
+    argv, option = IGNORED[case]
+    labels = saved_matrix.parent / "labels.tsv"
+    labels.write_text("a.txt\tweb\nb.txt\tdb\n")
+    args = [a.format(m=saved_matrix, f=text_folder, labels=labels) for a in argv]
+    code, out, err = exit_code(capsys, *args)
+    assert code == 2 and out == ""
+    assert option in err
+
+
+# --- calibrate takes the shared options; unknown options show the command's usage ----------
+
+
+def test_calibrate_weighs_the_budget_on_the_cores_and_keeps_its_report_in_the_cache(
+    capsys: pytest.CaptureFixture[str], text_folder: Path, tmp_path: Path
+) -> None:
+    cache = str(tmp_path / "c.sqlite")
+    argv = ["calibrate", str(text_folder), "-c", "zstd:level=3", "--max-bytes", "65536",
+            "--budget", "60", "--jobs", "1", "--cache", cache, "--json"]  # fmt: skip
+    code, out, err = run(capsys, *argv)
+    assert code == 0, err
+    first = json.loads(out)
+    assert any("on 1 cores (budget 60 s)" in reason for reason in first["reasons"])
+    code, out, err = run(capsys, *argv)
+    assert code == 0 and "calibrate: the report for these inputs is in the cache" in err
+    assert json.loads(out) == first
+
+
+@pytest.mark.parametrize("option", [["--budget", "60"], ["--jobs", "2"]])
+def test_calibrate_without_inputs_refuses_what_weighs_their_run_time(
+    capsys: pytest.CaptureFixture[str], option: list[str]
+) -> None:
+    code, _, err = exit_code(capsys, "calibrate", "-c", "zstd:level=3", *option)
+    assert code == 2 and option[0] in err and "give inputs" in err
+
+
+def test_an_unknown_option_shows_the_usage_of_its_command(
+    capsys: pytest.CaptureFixture[str], text_folder: Path
+) -> None:
+    code, _, err = exit_code(capsys, "matrix", str(text_folder), "--bogus")
+    assert code == 2
+    assert err.startswith("usage: kinpress matrix ")
+    assert "unrecognized arguments: --bogus" in err
+
+
+# --- classify's text explains every score it prints --------------------------------------
+
+
+def test_classify_text_has_a_legend_for_every_column_under_its_table(
+    capsys: pytest.CaptureFixture[str], tmp_path: Path
+) -> None:
+    logs = DATASETS / "quendle-logs" / "logs"
+    for name in ("brisquet", "tarnwheel"):
+        (tmp_path / "known" / name).mkdir(parents=True)
+        lines = (logs / f"{name}.log").read_text().splitlines(keepends=True)
+        (tmp_path / "known" / name / "first.log").write_text("".join(lines[:1000]))
+    unknown = tmp_path / "later.log"
+    unknown.write_text("".join(lines[1000:1200]))
+    code, out, err = run(capsys, "classify", "--reference", str(tmp_path / "known"),
+                         str(unknown), *FAST, "--split", "lines:100")  # fmt: skip
+    assert code == 0, err
+    text = out.splitlines()
+    header = text[0].split()
+    rows = [line for line in text[1:] if line.startswith("later.log#")]
+    legend = text[1 + len(rows)]
+    assert all(f"{column}:" in legend or f"{column}," in legend for column in header[1:])

@@ -30,11 +30,13 @@ from .choose import (
     Choice,
     TaskFigures,
     calibrate,
+    calibration_report,
     choose_compressor,
     choose_for_job,
     estimate_classify_seconds,
     estimate_job_seconds,
     holds,
+    resolve_auto,
 )
 from .controls import BLOCK_COUNTS, DEFAULT_SEED, MUTATION_RATES, Controls, make_controls
 from .measure import (
@@ -71,6 +73,7 @@ __all__ = [
     "TaskFigures",
     "calibrate",
     "calibrate_compressor",
+    "calibration_report",
     "choose_compressor",
     "choose_for_job",
     "estimate_classify_seconds",
@@ -78,5 +81,6 @@ __all__ = [
     "holds",
     "make_controls",
     "normality_violations",
+    "resolve_auto",
     "size_sweep",
 ]

@@ -1,0 +1,173 @@
+"""kinpress tree: a tree of the items from their compression distances."""
+
+from __future__ import annotations
+
+import argparse
+import difflib
+from collections.abc import Sequence
+
+from ..compressors import compressor
+from ..distance import DistanceMatrix
+from ..formats import emit
+from . import _options
+from ._common import as_usage_errors, check_plot, matrix_for, write_json
+from ._console import Console
+from ._options import UsageError
+
+
+def inputs_or_matrix(parser: argparse.ArgumentParser) -> None:
+    """Inputs to measure, or a matrix saved by `kinpress matrix`, and the measuring options."""
+    _options.inputs(parser, nargs="*")
+    parser.add_argument("--matrix", metavar="FILE", help="a matrix written by 'kinpress matrix'")
+    _options.measuring(parser)
+
+
+def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
+    parser = _options.command(
+        subparsers,
+        "tree",
+        help="a tree of the items from their compression distances",
+        description="Build a tree (Newick) from the NCD matrix of the inputs, or from a saved "
+        "matrix: neighbour joining (default, midpoint-rooted unless --outgroup) or a "
+        "hierarchical linkage. A tree from compression distances is a hypothesis to check, "
+        "not a phylogeny on its own.",
+        example=[
+            "kinpress tree genomes/ --outgroup danio_rerio -o tree.nwk --plot tree.png",
+            "kinpress tree --matrix dist.phy --method average -o tree.nwk",
+            "kinpress tree genomes/ --bootstrap 100 -o tree.nwk",
+        ],
+    )
+    inputs_or_matrix(parser)
+    shape = parser.add_argument_group("tree")
+    shape.add_argument(
+        "--method",
+        choices=("nj", "average", "complete", "single"),
+        default="nj",
+        help="nj: neighbour joining (default); average: UPGMA; complete, single: linkage",
+    )
+    shape.add_argument("--outgroup", metavar="LABELS", help="root on these items (comma list)")
+    shape.add_argument(
+        "--bootstrap", type=int, default=0, metavar="N", help="support from N block replicates"
+    )
+    shape.add_argument(
+        "--block-fraction",
+        type=float,
+        default=0.02,
+        metavar="F",
+        help="bootstrap block size as a fraction of each item (default 0.02)",
+    )
+    shape.add_argument("--seed", type=int, default=1, help="bootstrap random seed (default 1)")
+    _options.output(
+        parser,
+        "the Newick tree",
+        "a JSON report (the Newick tree in it) instead of the Newick tree",
+        plot="draw the tree",
+    )
+
+
+def _outgroup(text: str | None, labels: Sequence[str]) -> list[str] | None:
+    """The --outgroup names, each checked against the item names."""
+    if not text:
+        return None
+    wanted = [t.strip() for t in text.split(",") if t.strip()]
+    missing = [t for t in wanted if t not in labels]
+    if missing:
+        close = difflib.get_close_matches(missing[0], labels, n=3)
+        hint = f"; did you mean {', '.join(close)}?" if close else ""
+        raise UsageError(f"--outgroup: no item named {missing[0]!r}{hint}")
+    return wanted
+
+
+def refuse_measuring(args: argparse.Namespace, budget_beyond_auto: bool = False) -> None:
+    """Options that say how to measure do nothing when a saved matrix is read; so does --budget
+    with a compressor named, unless the command uses it for more (`budget_beyond_auto`)."""
+    if args.matrix:
+        _options.refuse_given(args, _options.MEASURING, "does nothing with --matrix: a saved"
+                              " matrix is read as it is, not measured")  # fmt: skip
+    elif not budget_beyond_auto:
+        _options.refuse_budget_without_auto(args)
+
+
+def classes(dm: DistanceMatrix) -> dict[str, str] | None:
+    if dm.classes is None:
+        return None
+    return {n: c for n, c in zip(dm.labels, dm.classes, strict=True) if c is not None}
+
+
+def run(args: argparse.Namespace, console: Console) -> int:
+    from ..support import bootstrap_support
+    from ..trees import build_tree, fit_correlation, outgroup_root, to_newick
+
+    if args.bootstrap and args.matrix:
+        raise UsageError("--bootstrap resamples the items, so it needs inputs, not --matrix")
+    refuse_measuring(args)
+    if not args.bootstrap:
+        _options.refuse_given(args, ("seed", "block_fraction"), "does nothing without --bootstrap")
+    if not args.plot:
+        _options.refuse_given(args, ("labels",), "colours the leaves of --plot; give --plot")
+    check_plot(args.plot)
+
+    def check(labels: Sequence[str]) -> None:
+        _outgroup(args.outgroup, labels)
+
+    dm, items = matrix_for(args, console, check=check)
+    outgroup = _outgroup(args.outgroup, dm.labels)
+    with as_usage_errors():
+        tree = build_tree(dm.labels, dm.distances, method=args.method, outgroup=outgroup)
+        if args.bootstrap:
+            with console.progress() as progress:
+                tree = bootstrap_support(
+                    tree,
+                    items,
+                    compressor(dm.compressor),
+                    replicates=args.bootstrap,
+                    block_fraction=args.block_fraction,
+                    seed=args.seed,
+                    method=args.method,
+                    conditional=args.conditional,
+                    strand=args.strand,
+                    engine=args.engine,
+                    progress=progress,
+                )
+    if outgroup is not None and args.bootstrap:
+        tree = outgroup_root(tree, outgroup)
+    fit = fit_correlation(tree, dm.labels, dm.distances)
+    rooting = (
+        f"on {', '.join(outgroup)}"
+        if outgroup
+        else "at the midpoint"
+        if args.method == "nj"
+        else "by construction"
+    )
+    console.say(
+        f"tree: {args.method}, {len(dm)} leaves, rooted {rooting}; fit: path lengths correlate"
+        f" with distances at r = {fit:.3f}"
+    )
+    newick = to_newick(tree) + "\n"
+    if args.plot:
+        from ..plots import plot_tree
+
+        plot_tree(tree, args.plot, classes=classes(dm), scale_label="NCD")
+    if args.json:
+        report = {
+            "newick": newick.strip(),
+            "method": args.method,
+            "rooting": rooting,
+            "outgroup": outgroup,
+            "leaves": len(dm),
+            "fit": round(fit, 6),
+            "bootstrap": None
+            if not args.bootstrap
+            else {
+                "replicates": args.bootstrap,
+                "block_fraction": args.block_fraction,
+                "seed": args.seed,
+            },
+            "compressor": dm.compressor,
+            "conditional": dm.conditional,
+            "strand": dm.strand,
+        }
+        write_json(args, report)
+    else:
+        emit(newick, args.output)
+    return 0
