@@ -55,6 +55,7 @@ from kinpress.origins import (
     fold_report,
     fold_scores,
     novelty_aucs,
+    novelty_detection,
     pairwise_distances,
     reference_folds,
 )
@@ -261,10 +262,13 @@ def test_fit_runs_from_a_typical_own_item_to_a_typical_stranger() -> None:
     # origin a: own items' median 0.4, strangers' median 0.95; origin b: 0.5 and 0.85
     assert conformity.centre.tolist() == pytest.approx([0.4, 0.5])
     assert conformity.scale.tolist() == pytest.approx([0.55, 0.35])
-    fit, strange = _statistics(np.array([[0.4, 0.85]]), conformity.centre, conformity.scale,
-                               np.array([0]))  # fmt: skip
-    assert fit[0] == pytest.approx(0.0)  # typical of a
-    assert -strange[0] == pytest.approx((0.85 - 0.4) / 0.55)  # separation from b, in a's scale
+    found = _statistics(np.array([[0.4, 0.85]]), conformity.centre, conformity.scale,
+                        np.array([0]))  # fmt: skip
+    assert found["fit"][0] == pytest.approx(0.0)  # typical of a
+    # separation from b, in a's scale
+    assert -found["separation"][0] == pytest.approx((0.85 - 0.4) / 0.55)
+    # contrast: fit less the lead over the typical other origin (b alone here), in a's scale
+    assert found["contrast"][0] == pytest.approx(0.0 - (0.85 - 0.4) / 0.55)
 
 
 def test_an_origin_with_enough_held_out_items_gets_p_values_of_its_own() -> None:
@@ -307,10 +311,8 @@ def test_known_items_are_refused_at_the_significance_within_sampling_error(
     for _ in range(400):
         cal_scores, cal_codes = draw(30)
         conformity = Conformity.of(cal_scores, cal_codes, ("a", "b", "c"), significance)
-        fit, separation = _statistics(cal_scores, conformity.centre, conformity.scale, cal_codes)
-        conformity = dataclasses.replace(
-            conformity, test=test, test_calibration=fit if test == "fit" else separation
-        )
+        found = _statistics(cal_scores, conformity.centre, conformity.scale, cal_codes)
+        conformity = dataclasses.replace(conformity, test=test, test_calibration=found[test])
         new_scores, _ = draw(20)
         _, _, test_p = conformity.p_values(new_scores)
         refused += int(np.sum(test_p <= significance))
@@ -566,6 +568,37 @@ def test_real_code_by_language_with_default_options_beats_gzip_knn(
     assert refused <= 0.07
 
 
+@pytest.mark.shared
+def test_real_code_of_a_language_missing_from_the_reference_comes_back_unknown(
+    shared: Path, cache: SizeCache
+) -> None:
+    # Issue 10's goal: with languages left out of the reference, >= 0.8 of their files come
+    # back unknown, default options. Two of the 8 Rosetta languages at a time left out, in
+    # rotation (these tasks are solved in every language, so a missing language shares tasks
+    # and idioms with a present one: a hard negative). Measured when written: 0.812 unknown,
+    # known files 0.971 named right, 0.027 refused (the fit test alone: 0.69 unknown).
+    reference, held_out = _code(shared)
+    languages = sorted({str(i.label) for i in reference})
+    unknown = strangers = refused = known = 0
+    for start in range(0, len(languages), 2):
+        missing = set(languages[start : start + 2])
+        kept = [i for i in reference if i.label not in missing]
+        spec = choose_for_job(kept, "classify", targets=held_out, cache=cache).spec
+        result = classify(held_out, kept, spec, cache=cache)
+        for p, item in zip(result.predictions, held_out, strict=True):
+            if item.label in missing:
+                strangers += 1
+                unknown += p.decision == "unknown"
+            else:
+                known += 1
+                refused += p.decision != "named"
+    print(
+        f"missing languages unknown {unknown / strangers:.3f}, known refused {refused / known:.3f}"
+    )
+    assert unknown / strangers >= 0.8
+    assert refused / known <= 0.07
+
+
 def _log_protocol(folder: Path) -> list[tuple[list[Item], list[Item], set[str]]]:
     """The time-ordered protocol: of each system, chunks 1-10 of 100 lines as reference and
     chunks 11-20 to classify; two systems at a time missing from the reference, rotated."""
@@ -651,6 +684,71 @@ def _rank(item: Item, items: list[Item]) -> int:
     """Position of an item among its origin's items, in name order."""
     names = sorted(i.name for i in items if i.label == item.label)
     return names.index(item.name)
+
+
+def _kindred_scores(rng: np.random.Generator, codes: np.ndarray, origins: int) -> np.ndarray:
+    """Synthetic scores (lower is better) with a known answer: origins 0-3 explain their own
+    items well (about 0.6) and nothing else (0.95); origins 4 and up are generalists, whose items
+    every origin explains moderately (about 0.72) and their own somewhat better (0.6)."""
+    n = len(codes)
+    scores = rng.normal(0.95, 0.02, (n, origins))
+    general = codes >= 4
+    scores[general] = rng.normal(0.72, 0.03, (int(general.sum()), origins))
+    own = codes < origins
+    scores[np.flatnonzero(own), codes[own]] = rng.normal(0.6, 0.08, int(own.sum()))
+    return scores
+
+
+def test_the_reference_chooses_the_test_that_refuses_most_held_out_strangers() -> None:
+    # An origin missing from the reference whose items a kindred origin explains about as well
+    # as its own (fit alone accepts many) but which every other origin explains nearly as well
+    # too (contrast sees it): the reference holds one such generalist origin, so leaving it out
+    # shows contrast the better test, and a second generalist, never in the reference, is then
+    # refused far more often, while known items keep the stated rate (Vovk et al. 2005).
+    rng = np.random.default_rng(23)
+    eps = 0.05
+    codes = np.repeat(np.arange(5), 30)
+    held = _kindred_scores(rng, codes, 5)
+    detection = novelty_detection(held, codes, eps)
+    assert detection["contrast"] > detection["fit"] + 0.1, detection
+    conformity = Conformity.of(held, codes, tuple("abcde"), eps)
+    assert conformity.test == max(TESTS, key=lambda t: detection[t]) == "contrast"
+    assert dict(conformity.detection) == pytest.approx(detection)
+    new_codes = np.repeat(np.arange(6), 200)
+    new = _kindred_scores(rng, new_codes, 6)[:, :5]
+    stranger = new_codes == 5
+    _, _, chosen_p = conformity.p_values(new)
+    fit = _statistics(held, conformity.centre, conformity.scale, codes)["fit"]
+    fit_only = dataclasses.replace(conformity, test="fit", test_calibration=fit)
+    _, _, fit_p = fit_only.p_values(new)
+    assert np.mean(chosen_p[stranger] <= eps) >= np.mean(fit_p[stranger] <= eps) + 0.2
+    assert np.mean(chosen_p[stranger] <= eps) >= 0.8
+    known_refused = np.mean(chosen_p[~stranger] <= eps)
+    assert known_refused <= eps + 3 * math.sqrt(eps * (1 - eps) / int((~stranger).sum()))
+
+
+def test_novelty_detection_is_the_share_of_left_out_items_refused() -> None:
+    # Recomputed by hand for one left-out origin from the public pieces: the others' held-out
+    # items calibrate the fit test, the left-out origin's items are tested on their best origin.
+    rng = np.random.default_rng(5)
+    codes = np.repeat(np.arange(3), 12)
+    held = _kindred_scores(rng, codes, 3)
+    rates = []
+    for missing in range(3):
+        keep = np.array([o for o in range(3) if o != missing])
+        known = codes != missing
+        reduced = held[:, keep]
+        relabel = np.searchsorted(keep, codes[known])
+        own = reduced[known][np.arange(int(known.sum())), relabel]
+        centre = np.array([np.median(own[relabel == o]) for o in range(2)])
+        other = [np.median(reduced[known][relabel != o, o]) for o in range(2)]
+        scale = np.maximum(np.array(other) - centre, 1e-3)
+        calibration = (own - centre[relabel]) / scale[relabel]
+        best = reduced[~known].argmin(axis=1)
+        fit = (reduced[~known].min(axis=1) - centre[best]) / scale[best]
+        rates.append(np.mean(conformal_p_values(calibration, fit) <= 0.1))
+    assert novelty_detection(held, codes, 0.1)["fit"] == pytest.approx(np.mean(rates))
+    assert np.isnan(novelty_detection(held[:, :2], codes % 2, 0.1)["fit"])  # two origins
 
 
 def test_novelty_auc_agrees_with_scikit_learn() -> None:

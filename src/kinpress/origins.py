@@ -493,10 +493,8 @@ def fold_scores(
 # -- conformal p-values -------------------------------------------------------------------------
 
 
-TESTS = ("fit", "separation")
-SEPARATION_PREFERENCE = 0.05
-"""The fit test decides unless separation parts held-out strangers from known items clearly
-better: by this much novelty AUC (measured: fit keeps the stated rate better under drift)."""
+TESTS = ("fit", "separation", "contrast")
+"""The statistics an abstention can test (see Conformity); the reference chooses among them."""
 
 
 def conformal_p_values(sample: np.ndarray, values: np.ndarray) -> np.ndarray:
@@ -535,15 +533,26 @@ def _second_best(scores: np.ndarray, best: np.ndarray) -> np.ndarray:
     return np.asarray(masked.min(axis=1))
 
 
+def _typical_other(scores: np.ndarray, own: np.ndarray) -> np.ndarray:
+    """Each row's median score over the origins other than `own[row]` (1, explaining nothing,
+    with one origin)."""
+    if scores.shape[1] == 1:
+        return np.ones(len(scores))
+    others = np.where(np.arange(scores.shape[1])[None, :] == own[:, None], np.nan, scores)
+    return np.asarray(np.nanmedian(others, axis=1))
+
+
 def _statistics(
     scores: np.ndarray, centre: np.ndarray, scale: np.ndarray, own: np.ndarray
-) -> tuple[np.ndarray, np.ndarray]:
-    """fit and -separation of each row for the origin `own[row]` (see Conformity)."""
+) -> dict[str, np.ndarray]:
+    """Each test's statistic (larger is stranger) of each row for the origin `own[row]`: fit,
+    -separation and contrast (see Conformity)."""
     rows = np.arange(len(scores))
     chosen = scores[rows, own]
     fit = (chosen - centre[own]) / scale[own]
     separation = (_second_best(scores, own) - chosen) / scale[own]
-    return fit, -separation
+    lead = (_typical_other(scores, own) - chosen) / scale[own]
+    return {"fit": fit, "separation": -separation, "contrast": fit - lead}
 
 
 def _auc(positive: np.ndarray, values: np.ndarray) -> float:
@@ -569,13 +578,44 @@ def novelty_aucs(scores: np.ndarray, codes: np.ndarray) -> tuple[float, float]:
         reduced = scores[:, keep]
         relabel = np.searchsorted(keep, codes[known])
         centre, scale = _profile(reduced[known], relabel)
-        fit, separation = _statistics(reduced, centre, scale, reduced.argmin(axis=1))
+        found = _statistics(reduced, centre, scale, reduced.argmin(axis=1))
         stranger = ~known
-        fit_aucs.append(_auc(stranger, fit))
-        separation_aucs.append(_auc(stranger, separation))
+        fit_aucs.append(_auc(stranger, found["fit"]))
+        separation_aucs.append(_auc(stranger, found["separation"]))
     if not fit_aucs:
         return float("nan"), float("nan")
     return float(np.mean(fit_aucs)), float(np.mean(separation_aucs))
+
+
+def novelty_detection(
+    scores: np.ndarray, codes: np.ndarray, significance: float
+) -> dict[str, float]:
+    """Per test, the share of held-out items of an origin missing from the reference that the
+    test refuses at `significance`, each origin left out in turn: the others' held-out items
+    calibrate, as they would for new data (pooled conformal p-values), and the left-out
+    origin's items are scored on the rest. NaN with fewer than three origins."""
+    m = scores.shape[1]
+    refused: dict[str, list[float]] = {test: [] for test in TESTS}
+    for missing in range(m if m >= 3 else 0):
+        keep = np.array([o for o in range(m) if o != missing])
+        known = codes != missing
+        if known.all() or not known.any():
+            continue
+        reduced = scores[:, keep]
+        relabel = np.searchsorted(keep, codes[known])
+        centre, scale = _profile(reduced[known], relabel)
+        calibration = _statistics(reduced[known], centre, scale, relabel)
+        strangers = _statistics(reduced[~known], centre, scale, reduced[~known].argmin(axis=1))
+        for test in TESTS:
+            p = conformal_p_values(calibration[test], strangers[test])
+            refused[test].append(float(np.mean(p <= significance)))
+    return {test: float(np.mean(v)) if v else float("nan") for test, v in refused.items()}
+
+
+def _choose_test(detection: dict[str, float]) -> str:
+    """The test that refused most held-out strangers; fit on ties or without a measure."""
+    measured = {t: v for t, v in detection.items() if v == v}
+    return max(TESTS, key=lambda t: (measured.get(t, -1.0), t == "fit")) if measured else "fit"
 
 
 @dataclass(frozen=True)
@@ -590,12 +630,16 @@ class Conformity:
     on o (`centre`, `scale`: see `_profile`); and the best origin b (lowest score) has
 
         separation(x) = (second lowest score - s(x, b)) / scale[b]
+        contrast(x)   = fit(x, b) - (median of the other origins' scores - s(x, b)) / scale[b]
 
-    how much better b explains x than any other origin. `test` is the one that decides whether
-    b accepts x: "fit" (x is as typical of b as b's own held-out items) or "separation" (b
-    explains x as much better than the rest as it does its own held-out items), chosen on the
-    reference (`fit_auc`, `separation_auc`: how well each told held-out items of a left-out
-    origin from the others; separation only where clearly better, SEPARATION_PREFERENCE).
+    how much better b explains x than the next origin, and how typical of b x is less how much
+    better b explains it than a typical other origin does (an item of an origin missing from
+    the reference, explained by a kindred origin hardly better than by the rest, is strange on
+    both counts). `test` is the one that decides whether b accepts x: "fit" (x is as typical
+    of b as b's own held-out items), "separation" (b explains x as much better than the next
+    as it does its own held-out items) or "contrast", chosen on the reference: the test that
+    refuses most held-out items of an origin left out of it at the significance
+    (`detection`, see novelty_detection; fit on ties).
     p-values are conformal (Vovk, Gammerman & Shafer 2005, "Algorithmic Learning in a Random
     World"): the share of held-out statistics at least as strange, label-conditional for an
     origin with 2 / significance - 1 held-out items or more (Mondrian, ch. 4.5 there), pooled
@@ -607,12 +651,10 @@ class Conformity:
     centre: np.ndarray
     scale: np.ndarray
     test: str
-    fit_calibration: np.ndarray
     test_calibration: np.ndarray
     codes: np.ndarray
     significance: float
-    fit_auc: float
-    separation_auc: float
+    detection: tuple[tuple[str, float], ...]
 
     @classmethod
     def of(
@@ -620,20 +662,18 @@ class Conformity:
     ) -> Conformity:
         """Calibrate on held-out scores (one row per held-out item, `codes` their origins)."""
         centre, scale = _profile(scores, codes)
-        fit, separation = _statistics(scores, centre, scale, codes)
-        fit_auc, separation_auc = novelty_aucs(scores, codes)
-        test = "separation" if separation_auc > fit_auc + SEPARATION_PREFERENCE else "fit"
+        found = _statistics(scores, centre, scale, codes)
+        detection = novelty_detection(scores, codes, significance)
+        test = _choose_test(detection)
         return cls(
             origins=tuple(origins),
             centre=centre,
             scale=scale,
             test=test,
-            fit_calibration=fit,
-            test_calibration=fit if test == "fit" else separation,
+            test_calibration=found[test],
             codes=codes,
             significance=significance,
-            fit_auc=fit_auc,
-            separation_auc=separation_auc,
+            detection=tuple(detection.items()),
         )
 
     @property
@@ -646,22 +686,16 @@ class Conformity:
         return conformal_p_values(calibration[self.codes == origin] if own else calibration, values)
 
     def p_values(self, scores: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """Each item's fit p-value for every origin, the best origin, and the deciding test's
-        p-value for the best origin."""
+        """Each item's p-value of the deciding test for every origin (the item taken as that
+        origin's), the best origin, and the p-value for the best origin."""
         n, m = scores.shape
-        fit = (scores - self.centre[None, :]) / self.scale[None, :]
-        fit_p = np.column_stack([self._against(self.fit_calibration, o, fit[:, o])
-                                 for o in range(m)]) if n else np.zeros((0, m))  # fmt: skip
+        p = np.zeros((n, m))
+        for origin in range(m):
+            own = np.full(n, origin)
+            strange = _statistics(scores, self.centre, self.scale, own)[self.test]
+            p[:, origin] = self._against(self.test_calibration, origin, strange)
         best = scores.argmin(axis=1)
-        if self.test == "fit":
-            test_p = fit_p[np.arange(n), best]
-        else:
-            _, strange = _statistics(scores, self.centre, self.scale, best)
-            test_p = np.empty(n)
-            for origin in np.unique(best):
-                rows = best == origin
-                test_p[rows] = self._against(self.test_calibration, int(origin), strange[rows])
-        return fit_p, best, test_p
+        return p, best, p[np.arange(n), best]
 
 
 @dataclass(frozen=True)
@@ -671,7 +705,8 @@ class Abstention:
     `calibration_scores` counts the held-out reference items behind the p-values; origins in
     `label_conditional` are tested against their own items only, the others against all;
     `smallest_rate` is the smallest significance those items can support (1 / (n + 1)); `test`
-    is the deciding test and `fit_auc`, `separation_auc` why it was chosen (see Conformity).
+    is the deciding test and `detection` why it was chosen: each test's share of held-out items
+    of a left-out origin refused at the significance (see Conformity).
     """
 
     significance: float | None
@@ -681,8 +716,7 @@ class Abstention:
     smallest_rate: float | None = None
     blocks: int = DEFAULT_BLOCKS
     test: str | None = None
-    fit_auc: float | None = None
-    separation_auc: float | None = None
+    detection: tuple[tuple[str, float], ...] = ()
 
     @property
     def guarantee(self) -> str:
@@ -722,8 +756,7 @@ class Abstention:
                     "significance": self.significance,
                     "threshold": self.threshold,
                     "test": self.test,
-                    "fit_auc": self.fit_auc,
-                    "separation_auc": self.separation_auc,
+                    "detection": dict(self.detection),
                     "calibration_scores": self.calibration_scores,
                     "label_conditional": self.label_conditional,
                     "smallest_rate": self.smallest_rate,
@@ -759,8 +792,7 @@ def _abstention(conformity: Conformity, blocks: int) -> Abstention:
         smallest_rate=smallest,
         blocks=blocks,
         test=conformity.test,
-        fit_auc=conformity.fit_auc,
-        separation_auc=conformity.separation_auc,
+        detection=conformity.detection,
     )
 
 
@@ -776,10 +808,11 @@ class Prediction:
 
     `decision` is "named" when the best origin (lowest score, `best`) accepts the item
     (`predicted` is that origin); otherwise "ambiguous" when several origins fit it
-    (`candidates`, best score first, each with a fit p-value above the significance;
+    (`candidates`, best score first, each with a p-value above the significance;
     `predicted` is None) and "unknown" when fewer do. With a given cut, origins whose score is
     within it accept. `confidence` is the runner-up's score minus the best one; `credibility`
-    the p-value of the deciding test for the best origin; `p_values` each origin's fit p-value
+    the p-value of the deciding test for the best origin; `p_values` each origin's p-value of
+    that test, the item taken as that origin's
     (see Conformity). `path` is where the item came from (`Item.source`: its file, '-' for
     standard input) and `hash` the hex BLAKE2b-128 of its bytes (`content_digest`, as the cache
     keys them), so a reviewer can find and check the very bytes classified.
@@ -828,11 +861,11 @@ class Prediction:
 @dataclass(frozen=True)
 class _Decisions:
     """What the abstention says of each item: decision, candidate origins (best score first),
-    fit p-values (None with a cut) and the deciding test's p-value for the best origin."""
+    the deciding test's p-values for every origin (None with a cut) and for the best origin."""
 
     decisions: list[str]
     candidates: list[list[int]]
-    fit_p: np.ndarray | None
+    origin_p: np.ndarray | None
     test_p: np.ndarray | None
 
 
@@ -848,7 +881,7 @@ def _decisions(
             "unknown" if not c else "named" if len(c) == 1 else "ambiguous" for c in candidates
         ]
         return _Decisions(decisions, candidates, None, None)
-    fit_p, best, test_p = conformity.p_values(scores)
+    origin_p, best, test_p = conformity.p_values(scores)
     rate = conformity.significance
     decisions, candidates = [], []
     for t, row in enumerate(order):
@@ -856,10 +889,10 @@ def _decisions(
             decisions.append("named")
             candidates.append([int(best[t])])
             continue
-        fitting = [int(o) for o in row if fit_p[t, o] > rate]
+        fitting = [int(o) for o in row if origin_p[t, o] > rate]
         decisions.append("ambiguous" if len(fitting) > 1 else "unknown")
         candidates.append(fitting if len(fitting) > 1 else [])
-    return _Decisions(decisions, candidates, fit_p, test_p)
+    return _Decisions(decisions, candidates, origin_p, test_p)
 
 
 def _decide(
@@ -873,7 +906,7 @@ def _decide(
         row = scores.scores[t]
         decision, candidates = decided.decisions[t], decided.candidates[t]
         ranked = np.sort(row)
-        fit_p = decided.fit_p
+        origin_p = decided.origin_p
         out.append(
             Prediction(
                 item=target.name,
@@ -887,8 +920,8 @@ def _decide(
                 distance=float(scores.distance[t]),
                 scores=tuple((o, float(v)) for o, v in zip(origins, row, strict=True)),
                 p_values=None
-                if fit_p is None
-                else tuple((o, float(p)) for o, p in zip(origins, fit_p[t], strict=True)),
+                if origin_p is None
+                else tuple((o, float(p)) for o, p in zip(origins, origin_p[t], strict=True)),
                 path=target.source,
                 hash=content_digest(target.data).hex(),
             )
@@ -902,7 +935,7 @@ class Classification:
 
     `scores` holds one row per item and one column per origin (lower is better): NCD to the
     origin's nearest reference item for knn, C(x | corpus) / C(x) for conditional; `p_values`
-    the fit p-value of each (None with a given threshold; see Conformity).
+    the deciding test's p-value of each (None with a given threshold; see Conformity).
     """
 
     predictions: tuple[Prediction, ...]
@@ -1161,7 +1194,7 @@ def classify(
         predictions=tuple(_decide(scores, decided, ref, unknowns)),
         origins=ref.origins,
         scores=scores.scores,
-        p_values=decided.fit_p,
+        p_values=decided.origin_p,
         abstention=fitted.abstention,
         method=method,
         k=k,
@@ -1310,9 +1343,10 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         return scores.scores
 
     def p_values(self, X: Sequence[bytes | str]) -> np.ndarray:
-        """Conformal fit p-values, shaped (len(X), len(classes_)): how typical each input is of
-        each class (see Conformity). Raises ValueError when fitted with a threshold."""
-        p = self.calibrated_.decide(self._scores(X)).fit_p
+        """Conformal p-values of the deciding test, shaped (len(X), len(classes_)): how typical
+        each input is of each class (see Conformity). Raises ValueError when fitted with a
+        threshold."""
+        p = self.calibrated_.decide(self._scores(X)).origin_p
         if p is None:
             raise ValueError("fitted with a threshold: no p-values")
         return p

@@ -142,7 +142,9 @@ def _classification_text(found: Any) -> str:
         f"p-value: of the {found.abstention.test} test for the best origin (below"
         f" {found.abstention.significance} it does not accept the item: fit, how typical the"
         " item is of that origin's own held-out items; separation, how much better it explains"
-        " the item than the next origin does, against its own items); an origin's score is"
+        " the item than the next origin does, against its own items; contrast, fit less how"
+        " much better it explains the item than a typical other origin does); an origin's"
+        " score is"
         " C(x | origin) / C(x), lower is better.",
         f"Abstention: {found.abstention.guarantee}.",
         ORIGIN_CAUTION,
