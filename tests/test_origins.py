@@ -38,6 +38,7 @@ from kinpress import (
     SizeCache,
     compressor,
     load_items,
+    pairwise_distances,
 )
 from kinpress import distance_matrix as matrix_of
 from kinpress.calibration import choose_for_job
@@ -55,7 +56,6 @@ from kinpress.origins import (
     fold_report,
     fold_scores,
     novelty_aucs,
-    pairwise_distances,
     reference_folds,
 )
 

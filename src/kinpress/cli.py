@@ -19,19 +19,11 @@ from typing import TYPE_CHECKING, Any, TextIO
 
 from .cache import CacheError, SizeCache, default_cache_path
 from .compressors import ADAPTERS, SpecError, compressor, describe
-from .distance import (
-    CONDITIONALS,
-    STRANDS,
-    DistanceMatrix,
-    MeasurementWarning,
-    Progress,
-    TooLarge,
-    check_matrix_memory,
-    distance_matrix,
-)
+from .distance import DistanceMatrix, TooLarge, check_matrix_memory, distance_matrix
 from .engine import ClusterError, DaskEngine, Engine, LocalEngine
 from .formats import MATRIX_FORMATS, emit, format_for, json_text, read_matrix, write_matrix
 from .items import DEFAULT_MAX_FILE_BYTES, InputError, Item, escape_name, load_items, read_labels
+from .measure import CONDITIONALS, STRANDS, MeasurementWarning, Progress
 
 if TYPE_CHECKING:
     from .derived import DerivedFinding
@@ -684,7 +676,7 @@ def resolve_compressor(
         choose_for_job,
         holds,
     )
-    from .distance import content_digest
+    from .measure import content_digest
 
     job = args.command
     labelled = job in LABELLED_JOBS
@@ -717,7 +709,7 @@ def resolve_compressor(
         if stored is None:
             console.say(f"auto: calibrating the compressors on these inputs for {job} ...")
             choice = choose_for_job(
-                items, job, targets=targets, budget_seconds=args.budget, jobs=cores,
+                items, job, targets=targets, budget_seconds=args.budget,
                 strand=args.strand, engine=args.engine, cache=cache,
             )  # fmt: skip
             pair = int(sum(sorted((len(item.data) for item in items), reverse=True)[:2]))

@@ -25,7 +25,7 @@ import numpy as np
 
 from ..cache import SizeCache
 from ..compressors import AUTO_CANDIDATES, Compressor, compressor
-from ..engine import Engine
+from ..engine import Engine, LocalEngine
 from ..items import Item
 from ..units import duration_text, size_text
 from .controls import (
@@ -539,7 +539,6 @@ def choose_for_job(
     budget_seconds: float = DEFAULT_BUDGET_SECONDS,
     candidates: Sequence[str | Compressor] | None = None,
     seed: int = DEFAULT_SEED,
-    jobs: int | None = None,
     strand: str = "one",
     engine: Engine | None = None,
     cache: SizeCache | None = None,
@@ -557,11 +556,14 @@ def choose_for_job(
     job (matrix, tree, groups, derived) takes :func:`choose_compressor`'s choice unless a sample
     of real pairs shows that it finds nothing shared (see ``_check_real_pairs``). The budget is
     checked against a full matrix's time even for nearest, which measures far fewer pairs: on a
-    large set that favours the quicker compressors, as a large set needs.
+    large set that favours the quicker compressors, as a large set needs. The job's time is
+    estimated on the ``engine``'s workers (default: a `LocalEngine` on every core), where the
+    measuring runs too.
     """
     if job not in JOBS:
         raise ValueError(f"unknown job {job!r}; use one of {', '.join(JOBS)}")
-    cores = jobs or _cores()
+    engine = engine or LocalEngine()
+    cores = engine.jobs
     if job in LABELLED_JOBS:
         report = calibrate(
             items,
