@@ -233,7 +233,7 @@ def warn_beyond_window(comp: Compressor, lengths: np.ndarray) -> None:
             f"{comp.spec}: {over} item pairs are longer together than its {window:,}-byte window;"
             " their distances drift towards 1",
             MeasurementWarning,
-            stacklevel=3,
+            stacklevel=4,  # the caller of distance_matrix or nearest_neighbours
         )
 
 
