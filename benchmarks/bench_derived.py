@@ -34,7 +34,7 @@ from kinpress.derived import (
     find_derived,
     sketches,
 )
-from kinpress.distance import content_digest
+from kinpress.measure import content_digest
 from test_derived import TRANSFORMS, Corpus, make_corpus
 
 SIZE = (2000, 4000)

@@ -39,8 +39,9 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests"))
 
 from kinpress.compressors import compressor
-from kinpress.distance import conditional_sizes, distance_matrix
+from kinpress.distance import distance_matrix
 from kinpress.items import Item
+from kinpress.measure import conditional_sizes
 from kinpress.neighbours import recall, sparse_groups
 from scale_corpus import log_chunks
 

@@ -28,8 +28,8 @@ def text_items(text: bytes, n: int, size: int = 3000) -> list[Item]:
 def test_rerun_computes_nothing_new(tmp_path: Path, text_corpus: bytes) -> None:
     items = text_items(text_corpus, 8)
     with SizeCache(tmp_path / "c.sqlite") as cache:
-        first = distance_matrix(items, "zstd:level=3", cache=cache, jobs=1)
-        again = distance_matrix(items, "zstd:level=3", cache=cache, jobs=1)
+        first = distance_matrix(items, "zstd:level=3", cache=cache, engine=LocalEngine(1))
+        again = distance_matrix(items, "zstd:level=3", cache=cache, engine=LocalEngine(1))
     assert first.stats.pairs_computed == 28 and first.stats.pairs_from_cache == 0
     assert again.stats.pairs_computed == 0 and again.stats.pairs_from_cache == 28
     assert again.stats.singles_computed == 0 and again.stats.self_pairs_computed == 0
@@ -40,8 +40,8 @@ def test_rerun_computes_nothing_new(tmp_path: Path, text_corpus: bytes) -> None:
 def test_adding_one_item_computes_only_its_pairs(tmp_path: Path, text_corpus: bytes) -> None:
     items = text_items(text_corpus, 10)
     with SizeCache(tmp_path / "c.sqlite") as cache:
-        distance_matrix(items[:9], "zstd:level=3", cache=cache, jobs=1)
-        grown = distance_matrix(items, "zstd:level=3", cache=cache, jobs=1)
+        distance_matrix(items[:9], "zstd:level=3", cache=cache, engine=LocalEngine(1))
+        grown = distance_matrix(items, "zstd:level=3", cache=cache, engine=LocalEngine(1))
     assert grown.stats.pairs_computed == 9
     assert grown.stats.pairs_from_cache == 36
     assert grown.stats.singles_computed == 1
@@ -50,9 +50,11 @@ def test_adding_one_item_computes_only_its_pairs(tmp_path: Path, text_corpus: by
 def test_other_settings_do_not_reuse_sizes(tmp_path: Path, text_corpus: bytes) -> None:
     items = text_items(text_corpus, 4)
     with SizeCache(tmp_path / "c.sqlite") as cache:
-        distance_matrix(items, "zstd:level=3", cache=cache, jobs=1)
-        other = distance_matrix(items, "zstd:level=4", cache=cache, jobs=1)
-        primed = distance_matrix(items, "zstd:level=3", conditional="primed", cache=cache, jobs=1)
+        distance_matrix(items, "zstd:level=3", cache=cache, engine=LocalEngine(1))
+        other = distance_matrix(items, "zstd:level=4", cache=cache, engine=LocalEngine(1))
+        primed = distance_matrix(
+            items, "zstd:level=3", conditional="primed", cache=cache, engine=LocalEngine(1)
+        )
     assert other.stats.pairs_computed == 6
     assert primed.stats.pairs_computed == 6 and primed.stats.singles_computed == 0
 
@@ -89,12 +91,12 @@ def test_an_interrupted_run_resumes_where_it_stopped(tmp_path: Path, text_corpus
     total = 30 * 29 // 2
     assert 0 < engine.pairs_done < total
     with SizeCache(path) as cache:
-        resumed = distance_matrix(items, "zstd:level=3", cache=cache, jobs=1)
+        resumed = distance_matrix(items, "zstd:level=3", cache=cache, engine=LocalEngine(1))
     assert resumed.stats.pairs_from_cache == engine.pairs_done
     assert resumed.stats.pairs_computed == total - engine.pairs_done
     assert resumed.stats.singles_computed == 0
     assert resumed.stats.self_pairs_computed == 30 - engine.self_pairs_done
-    fresh = distance_matrix(items, "zstd:level=3", jobs=1)
+    fresh = distance_matrix(items, "zstd:level=3", engine=LocalEngine(1))
     assert np.array_equal(resumed.distances, fresh.distances)
 
 
@@ -126,7 +128,7 @@ def test_two_runs_can_share_a_cache(tmp_path: Path, text_corpus: bytes) -> None:
 
 
 def fresh(items: list[Item]) -> np.ndarray:
-    return distance_matrix(items, "zstd:level=3", jobs=1).distances
+    return distance_matrix(items, "zstd:level=3", engine=LocalEngine(1)).distances
 
 
 def set_aside(folder: Path) -> list[Path]:
@@ -141,13 +143,13 @@ def test_a_damaged_cache_is_set_aside_and_rebuilt(tmp_path: Path, text_corpus: b
     items = text_items(text_corpus, 40, size=1500)
     path = tmp_path / "c.sqlite"
     with SizeCache(path) as cache:
-        distance_matrix(items, "zstd:level=3", cache=cache, jobs=1)
+        distance_matrix(items, "zstd:level=3", cache=cache, engine=LocalEngine(1))
     data = bytearray(path.read_bytes())
     assert len(data) > 3 * 4096
     data[4096:] = b"\xa5" * (len(data) - 4096)  # every page but the header's
     path.write_bytes(bytes(data))
     with pytest.warns(CacheWarning, match="set aside") as record, SizeCache(path) as cache:
-        dm = distance_matrix(items, "zstd:level=3", cache=cache, jobs=1)
+        dm = distance_matrix(items, "zstd:level=3", cache=cache, engine=LocalEngine(1))
     assert any("malformed" in m or "not a database" in m for m in messages(record))
     assert dm.stats.pairs_from_cache == 0 and np.array_equal(dm.distances, fresh(items))
     aside = [p for p in set_aside(tmp_path) if not p.name.endswith(("-wal", "-shm"))]
@@ -162,7 +164,7 @@ def test_an_edited_size_is_detected_dropped_and_recomputed(
     items = text_items(text_corpus, 6)
     path = tmp_path / "c.sqlite"
     with SizeCache(path) as cache:
-        first = distance_matrix(items, "zstd:level=3", cache=cache, jobs=1)
+        first = distance_matrix(items, "zstd:level=3", cache=cache, engine=LocalEngine(1))
     with sqlite3.connect(path) as db:
         edited = db.execute(  # the pairs conditioned on one item: a user's casual edit
             "UPDATE sizes SET size = size + 300 WHERE method = 'concat' AND a != b "
@@ -171,11 +173,11 @@ def test_an_edited_size_is_detected_dropped_and_recomputed(
     db.close()
     assert edited >= 1
     with pytest.warns(CacheWarning, match="do not match their checksums"), SizeCache(path) as c:
-        again = distance_matrix(items, "zstd:level=3", cache=c, jobs=1)
+        again = distance_matrix(items, "zstd:level=3", cache=c, engine=LocalEngine(1))
     assert again.stats.pairs_computed == edited
     assert np.array_equal(again.distances, first.distances)
     with SizeCache(path) as cache:  # the damaged rows were replaced by good ones
-        third = distance_matrix(items, "zstd:level=3", cache=cache, jobs=1)
+        third = distance_matrix(items, "zstd:level=3", cache=cache, engine=LocalEngine(1))
     assert third.stats.pairs_computed == 0
 
 
@@ -203,14 +205,14 @@ def test_a_held_lock_is_waited_for_then_the_run_goes_on_without_storing(
     items = text_items(text_corpus, 8)
     path = tmp_path / "c.sqlite"
     with SizeCache(path) as cache:
-        distance_matrix(items[:5], "zstd:level=3", cache=cache, jobs=1)
+        distance_matrix(items[:5], "zstd:level=3", cache=cache, engine=LocalEngine(1))
     holder = lock_holder(path)
     waits: list[float] = []
     with (
         pytest.warns(CacheWarning) as record,
         SizeCache(path, busy_timeout=1, on_wait=waits.append) as cache,
     ):
-        dm = distance_matrix(items, "zstd:level=3", cache=cache, jobs=1)
+        dm = distance_matrix(items, "zstd:level=3", cache=cache, engine=LocalEngine(1))
     assert waits and max(waits) < 1  # it told the caller while it waited
     assert dm.stats.pairs_from_cache == 10 and np.array_equal(dm.distances, fresh(items))
     said = messages(record)
@@ -219,7 +221,7 @@ def test_a_held_lock_is_waited_for_then_the_run_goes_on_without_storing(
     assert not set_aside(tmp_path)
     holder.rollback()
     with SizeCache(path) as cache:  # still the same healthy cache, and writable again
-        rerun = distance_matrix(items, "zstd:level=3", cache=cache, jobs=1)
+        rerun = distance_matrix(items, "zstd:level=3", cache=cache, engine=LocalEngine(1))
         assert rerun.stats.pairs_from_cache == 10 and rerun.stats.pairs_computed == 18
         assert len(cache) == 8 + 8 + 28
 
@@ -315,13 +317,13 @@ def test_a_full_disk_uses_what_the_cache_holds_and_warns(
     items = text_items(text_corpus, 8)
     path = tmpfs / "c.sqlite"
     with SizeCache(path) as cache:
-        distance_matrix(items[:5], "zstd:level=3", cache=cache, jobs=1)
+        distance_matrix(items[:5], "zstd:level=3", cache=cache, engine=LocalEngine(1))
     if when == "before opening":
         fill(tmpfs)
     with pytest.warns(CacheWarning) as record, SizeCache(path) as cache:
         if when == "while open":
             fill(tmpfs)
-        dm = distance_matrix(items, "zstd:level=3", cache=cache, jobs=1)
+        dm = distance_matrix(items, "zstd:level=3", cache=cache, engine=LocalEngine(1))
     assert dm.stats.pairs_from_cache == 10 and np.array_equal(dm.distances, fresh(items))
     assert messages(record) == [  # 3 singles, 3 self-pairs and 18 pairs were new
         f"cache {path}: the disk is full; using the sizes it holds, new sizes are not stored",
@@ -340,7 +342,7 @@ def test_a_read_only_cache_gives_every_size_it_holds(
     items = text_items(text_corpus, 8)
     path = tmpfs / "c.sqlite"
     cache = SizeCache(path)
-    distance_matrix(items, "zstd:level=3", cache=cache, jobs=1)
+    distance_matrix(items, "zstd:level=3", cache=cache, engine=LocalEngine(1))
     if left == "closed cleanly":
         cache.close()
     else:  # copy the database with its -wal and -shm files while it is open
@@ -353,12 +355,12 @@ def test_a_read_only_cache_gives_every_size_it_holds(
     with warnings.catch_warnings():
         warnings.simplefilter("error")  # nothing to store, nothing to say
         with SizeCache(path) as cache:
-            again = distance_matrix(items, "zstd:level=3", cache=cache, jobs=1)
+            again = distance_matrix(items, "zstd:level=3", cache=cache, engine=LocalEngine(1))
     assert again.stats.pairs_computed == 0 and again.stats.singles_computed == 0
     assert np.array_equal(again.distances, fresh(items))
     more = [*items, Item("new", text_corpus[40_000:43_000], "test")]
     with pytest.warns(CacheWarning) as record, SizeCache(path) as cache:
-        grown = distance_matrix(more, "zstd:level=3", cache=cache, jobs=1)
+        grown = distance_matrix(more, "zstd:level=3", cache=cache, engine=LocalEngine(1))
     assert messages(record) == [
         f"cache {path}: it is read-only; using the sizes it holds, new sizes are not stored",
         f"cache {path}: 10 sizes computed in this run were not stored; a rerun computes them again",
@@ -386,7 +388,7 @@ def schema_1_cache(path: Path, items: list[Item]) -> None:
     """A cache of schema 1 holding the right sizes of `items` (taken from a present one)."""
     present = path.with_name("present.sqlite")
     with SizeCache(present) as cache:
-        distance_matrix(items, "zstd:level=3", cache=cache, jobs=1)
+        distance_matrix(items, "zstd:level=3", cache=cache, engine=LocalEngine(1))
     with sqlite3.connect(present) as source:
         rows = source.execute("SELECT compressor, method, a, b, size FROM sizes").fetchall()
         choices = [("auto:x", "zstd:level=3")]
@@ -406,7 +408,7 @@ def test_a_schema_1_cache_is_upgraded_in_place(tmp_path: Path, text_corpus: byte
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         with SizeCache(path) as cache:
-            dm = distance_matrix(items, "zstd:level=3", cache=cache, jobs=1)
+            dm = distance_matrix(items, "zstd:level=3", cache=cache, engine=LocalEngine(1))
             assert cache.get_choice("auto:x") == "zstd:level=3"
     assert dm.stats.pairs_computed == 0 and dm.stats.singles_computed == 0
     assert np.array_equal(dm.distances, fresh(items))
@@ -473,7 +475,9 @@ def test_an_unrecognised_file_at_the_default_location_is_set_aside(
     path.parent.mkdir(parents=True)
     path.write_bytes(b"damaged beyond recognition" * 50)
     with pytest.warns(CacheWarning, match="set aside"), SizeCache(path) as cache:
-        dm = distance_matrix(text_items(text_corpus, 3), "zstd:level=3", cache=cache, jobs=1)
+        dm = distance_matrix(
+            text_items(text_corpus, 3), "zstd:level=3", cache=cache, engine=LocalEngine(1)
+        )
     assert dm.stats.pairs_computed == 3
     aside = set_aside(path.parent)
     assert len(aside) == 1 and aside[0].read_bytes().startswith(b"damaged beyond")
@@ -485,11 +489,11 @@ def test_a_read_only_file_in_a_writable_folder_is_read_and_not_written(
     items = text_items(text_corpus, 6)
     path = tmp_path / "c.sqlite"
     with SizeCache(path) as cache:
-        distance_matrix(items[:4], "zstd:level=3", cache=cache, jobs=1)
+        distance_matrix(items[:4], "zstd:level=3", cache=cache, engine=LocalEngine(1))
     before = path.read_bytes()
     read_only_file(path)
     with pytest.warns(CacheWarning) as record, SizeCache(path) as cache:
-        dm = distance_matrix(items, "zstd:level=3", cache=cache, jobs=1)
+        dm = distance_matrix(items, "zstd:level=3", cache=cache, engine=LocalEngine(1))
     assert dm.stats.pairs_from_cache == 6 and np.array_equal(dm.distances, fresh(items))
     assert messages(record) == [  # 2 singles, 2 self-pairs and 9 pairs were new
         f"cache {path}: it is read-only; using the sizes it holds, new sizes are not stored",
@@ -506,7 +510,7 @@ def test_a_read_only_schema_1_cache_still_gives_its_sizes(tmpfs: Path, text_corp
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         with SizeCache(path) as cache:
-            dm = distance_matrix(items, "zstd:level=3", cache=cache, jobs=1)
+            dm = distance_matrix(items, "zstd:level=3", cache=cache, engine=LocalEngine(1))
     assert dm.stats.pairs_computed == 0 and dm.stats.singles_computed == 0
     assert np.array_equal(dm.distances, fresh(items))
 

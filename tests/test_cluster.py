@@ -63,7 +63,9 @@ def test_a_cluster_gives_exactly_the_local_matrix(
     cluster: str, spec: str, conditional: str, strand: str
 ) -> None:
     items = dna_items() if strand == "both" else text_items(9)
-    local = distance_matrix(items, spec, conditional=conditional, strand=strand, jobs=2)
+    local = distance_matrix(
+        items, spec, conditional=conditional, strand=strand, engine=LocalEngine(2)
+    )
     with DaskEngine(cluster) as engine:
         assert engine.jobs == 2
         remote = distance_matrix(items, spec, conditional=conditional, strand=strand, engine=engine)

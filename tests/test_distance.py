@@ -16,6 +16,7 @@ from conftest import random_bytes
 from kinpress import (
     InputError,
     Item,
+    LocalEngine,
     MeasurementWarning,
     SpecError,
     compressor,
@@ -49,7 +50,7 @@ def test_matrix_equals_the_textbook_formula_with_raw_deflate(text_corpus: bytes)
         return len(c.compress(b) + c.flush())
 
     blobs = [text_corpus[k * 5000 : k * 5000 + 4000] for k in range(5)]
-    dm = distance_matrix(items_of(*blobs), "zlib:level=6", jobs=1)
+    dm = distance_matrix(items_of(*blobs), "zlib:level=6", engine=LocalEngine(1))
     for i in range(5):
         for j in range(5):
             if i == j:
@@ -66,7 +67,7 @@ def test_matrix_equals_the_textbook_formula_with_raw_deflate(text_corpus: bytes)
 @settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(st.lists(st.binary(min_size=1, max_size=3000), min_size=2, max_size=6))
 def test_matrix_is_symmetric_non_negative_with_zero_diagonal(blobs: list[bytes]) -> None:
-    dm = distance_matrix(items_of(*blobs), "zstd:level=3", jobs=1)
+    dm = distance_matrix(items_of(*blobs), "zstd:level=3", engine=LocalEngine(1))
     d = dm.distances
     assert np.array_equal(d, d.T)
     assert np.all(np.diag(d) == 0)
@@ -77,7 +78,7 @@ def test_matrix_is_symmetric_non_negative_with_zero_diagonal(blobs: list[bytes])
 def test_self_distance_is_small_when_the_pair_fits_the_window(text_corpus: bytes) -> None:
     blobs = [text_corpus[k * 20_000 : k * 20_000 + 10_000] for k in range(3)]
     for spec in ("zstd:level=19", "lzma:level=6", "zlib:level=9", "brotli:level=9"):
-        dm = distance_matrix(items_of(*blobs), spec, jobs=1)
+        dm = distance_matrix(items_of(*blobs), spec, engine=LocalEngine(1))
         assert dm.self_distances is not None
         assert np.all(dm.self_distances < 0.06), (spec, dm.self_distances)
 
@@ -85,7 +86,7 @@ def test_self_distance_is_small_when_the_pair_fits_the_window(text_corpus: bytes
 def test_self_distance_is_kept_and_large_beyond_the_window() -> None:
     blobs = [random_bytes(40_000, seed=s) for s in (1, 2)]
     with pytest.warns(MeasurementWarning, match="window"):
-        dm = distance_matrix(items_of(*blobs), "zlib:level=6", jobs=1)
+        dm = distance_matrix(items_of(*blobs), "zlib:level=6", engine=LocalEngine(1))
     assert dm.self_distances is not None
     assert np.all(dm.self_distances > 0.95)
     assert np.all(np.diag(dm.distances) == 0)
@@ -94,7 +95,7 @@ def test_self_distance_is_kept_and_large_beyond_the_window() -> None:
 
 def test_identical_items_are_at_distance_zero_and_computed_once(text_corpus: bytes) -> None:
     a, b = text_corpus[:5000], text_corpus[9000:14000]
-    dm = distance_matrix(items_of(a, b, a), "zstd:level=3", jobs=1)
+    dm = distance_matrix(items_of(a, b, a), "zstd:level=3", engine=LocalEngine(1))
     assert dm.distances[0, 2] == 0
     assert dm.distances[0, 1] == dm.distances[2, 1]
     assert dm.stats.identical_items == 1
@@ -104,15 +105,17 @@ def test_identical_items_are_at_distance_zero_and_computed_once(text_corpus: byt
 def test_distance_rises_with_mutation_rate() -> None:
     base = random_dna(8000, seed=3)
     copies = [mutate(base, rate, seed=4) for rate in (0.01, 0.05, 0.2, 0.5)]
-    dm = distance_matrix(items_of(base, *copies), "zstd:level=19", jobs=1)
+    dm = distance_matrix(items_of(base, *copies), "zstd:level=19", engine=LocalEngine(1))
     row = dm.distances[0, 1:]
     assert np.all(np.diff(row) > 0), row
 
 
 def test_primed_distances_are_close_to_concatenation(text_corpus: bytes) -> None:
     blobs = [text_corpus[k * 9000 : k * 9000 + 12_000] for k in range(12)]
-    concat = distance_matrix(items_of(*blobs), "zstd:level=19", jobs=1)
-    primed = distance_matrix(items_of(*blobs), "zstd:level=19", conditional="primed", jobs=1)
+    concat = distance_matrix(items_of(*blobs), "zstd:level=19", engine=LocalEngine(1))
+    primed = distance_matrix(
+        items_of(*blobs), "zstd:level=19", conditional="primed", engine=LocalEngine(1)
+    )
     gap = np.abs(concat.distances - primed.distances)[np.triu_indices(12, 1)]
     assert np.median(gap) <= 0.03
     assert np.percentile(gap, 95) <= 0.06
@@ -128,12 +131,14 @@ def test_both_strands_find_a_reverse_complemented_copy() -> None:
     relative = mutate(genome, 0.02, seed=6)
     unrelated = random_dna(6000, seed=7)
     items = items_of(genome, reverse_complement(relative), unrelated, nucleotide=True)
-    one = distance_matrix(items, "zstd:level=19", jobs=1)
-    both = distance_matrix(items, "zstd:level=19", strand="both", jobs=1)
+    one = distance_matrix(items, "zstd:level=19", engine=LocalEngine(1))
+    both = distance_matrix(items, "zstd:level=19", strand="both", engine=LocalEngine(1))
     assert one.distances[0, 1] > 0.9  # as deposited, the two strands look unrelated
     assert both.distances[0, 1] < 0.3
     assert both.distances[0, 2] > 0.9
-    primed = distance_matrix(items, "zstd:level=19", strand="both", conditional="primed", jobs=1)
+    primed = distance_matrix(
+        items, "zstd:level=19", strand="both", conditional="primed", engine=LocalEngine(1)
+    )
     assert primed.distances[0, 1] < 0.3
 
 
@@ -154,7 +159,9 @@ def test_negative_distances_are_clipped_and_counted(text_corpus: bytes) -> None:
     comp = compressor("brotli:level=11")
     for offset in range(0, 1_000_000, 50_000):
         x = text_corpus[offset : offset + 20_000]
-        dm = distance_matrix(items_of(x, x[:-1], text_corpus[-20_000:]), comp, jobs=1)
+        dm = distance_matrix(
+            items_of(x, x[:-1], text_corpus[-20_000:]), comp, engine=LocalEngine(1)
+        )
         raw = np.asarray(dm.raw)
         if raw[0, 1] < 0:
             break
@@ -168,16 +175,18 @@ def test_negative_distances_are_clipped_and_counted(text_corpus: bytes) -> None:
 def test_parallel_engines_give_the_serial_result(text_corpus: bytes) -> None:
     blobs = [text_corpus[k * 3000 : k * 3000 + 2500] for k in range(10)]
     for spec in ("zstd:level=3", "ppmd:order=6,memory=16"):  # threads, then processes
-        serial = distance_matrix(items_of(*blobs), spec, jobs=1)
-        parallel = distance_matrix(items_of(*blobs), spec, jobs=2)
+        serial = distance_matrix(items_of(*blobs), spec, engine=LocalEngine(1))
+        parallel = distance_matrix(items_of(*blobs), spec, engine=LocalEngine(2))
         assert np.array_equal(serial.distances, parallel.distances), spec
 
 
 def test_result_does_not_depend_on_input_order(text_corpus: bytes) -> None:
     blobs = [text_corpus[k * 4000 : k * 4000 + 3000] for k in range(6)]
-    forward = distance_matrix(items_of(*blobs), "zstd:level=3", jobs=1)
+    forward = distance_matrix(items_of(*blobs), "zstd:level=3", engine=LocalEngine(1))
     order = [3, 1, 5, 0, 4, 2]
-    shuffled = distance_matrix([items_of(*blobs)[k] for k in order], "zstd:level=3", jobs=1)
+    shuffled = distance_matrix(
+        [items_of(*blobs)[k] for k in order], "zstd:level=3", engine=LocalEngine(1)
+    )
     assert np.allclose(shuffled.distances, forward.distances[np.ix_(order, order)])
 
 
@@ -193,7 +202,7 @@ def test_related_mitogenomes_are_nearer_than_distant_ones(shared_data: Path) -> 
     root = shared_data / "genomes" / "mitogenomes"
     labels = _mitogenome_labels(root)
     files = sorted(root.glob("*.fa"))
-    dm = distance_matrix(load_items(files), "zstd:level=19", strand="both", jobs=2)
+    dm = distance_matrix(load_items(files), "zstd:level=19", strand="both", engine=LocalEngine(2))
     name = {item.name: Path(item.source).name for item in load_items(files)}
     family = [labels[name[n]]["family"] for n in dm.labels]
     klass = [labels[name[n]]["class"] for n in dm.labels]
@@ -223,7 +232,7 @@ def test_conditional_sizes_give_both_directions_and_agree_with_the_matrix(
     items = items_of(big, excerpt, other)
     with SizeCache(tmp_path / "c.sqlite") as cache:
         cond = conditional_sizes(items, [(0, 1), (1, 0), (2, 1)], "zstd:level=19", cache=cache)
-        dm = distance_matrix(items, "zstd:level=19", cache=cache, jobs=1)
+        dm = distance_matrix(items, "zstd:level=19", cache=cache, engine=LocalEngine(1))
     sizes = cond.sizes
     excerpt_given_big, big_given_excerpt, excerpt_given_other = cond.conditional
     assert excerpt_given_big < 0.1 * sizes[1]  # the excerpt is all in the big text

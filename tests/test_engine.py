@@ -56,7 +56,8 @@ def test_processes_work_from_a_script_without_a_main_guard(tmp_path: Path) -> No
     script.write_text(
         "import kinpress\n"
         "items = [kinpress.Item(f'i{k}', bytes([k]) * 3000 + b'x' * k, 't') for k in range(6)]\n"
-        "dm = kinpress.distance_matrix(items, 'ppmd:order=6,memory=16', jobs=2)\n"
+        "engine = kinpress.LocalEngine(2)\n"
+        "dm = kinpress.distance_matrix(items, 'ppmd:order=6,memory=16', engine=engine)\n"
         "print(len(dm))\n"
     )
     done = subprocess.run(

@@ -15,7 +15,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 import kinpress.formats
-from kinpress import DistanceMatrix, InputError, Item, MatrixStats, distance_matrix
+from kinpress import DistanceMatrix, InputError, Item, LocalEngine, MatrixStats, distance_matrix
 from kinpress.derived import DerivedFinding
 from kinpress.evidence import Stretch
 from kinpress.formats import (
@@ -265,7 +265,7 @@ def test_strict_phylip_names_touching_the_numbers_are_read() -> None:
 
 def test_json_holds_the_documented_keys_of_a_real_run() -> None:
     items = [Item(f"t{k}", (f"line {k} of text " * (20 + k)).encode(), "test") for k in range(3)]
-    dm = distance_matrix(items, "zlib:level=6", jobs=1)
+    dm = distance_matrix(items, "zlib:level=6", engine=LocalEngine(1))
     doc = json.loads(kinpress.formats.matrix_to_json(dm))
     required = {"labels", "distances", "compressor", "conditional", "sizes", "stats"}
     assert required <= set(doc)

@@ -285,7 +285,7 @@ def real_log_chunks(tmp_path_factory: pytest.TempPathFactory) -> tuple[np.ndarra
         paths.append(str(folder / log.name))
     items = kinpress.load_items(paths, split="lines:100")
     comp = kinpress.compressor("zstd:level=9")
-    dm = kinpress.distance_matrix(items, comp, cache=None, jobs=1)
+    dm = kinpress.distance_matrix(items, comp, cache=None, engine=kinpress.LocalEngine(1))
     return np.asarray(dm.distances), [name.partition("#")[0] for name in dm.labels]
 
 

@@ -8,7 +8,7 @@ import pytest
 from kinpress import SizeCache
 from kinpress.compressors import compressor
 from kinpress.distance import distance_matrix
-from kinpress.engine import SizeJob, Tile
+from kinpress.engine import LocalEngine, SizeJob, Tile
 from kinpress.items import Item
 from kinpress.neighbours import (
     Search,
@@ -44,7 +44,7 @@ def textbook_rows(items: list[Item], queries: list[int]) -> np.ndarray:
 
 def test_recall_of_the_true_ten_nearest_on_generated_logs() -> None:
     items, _ = chunk_items(1000, 40)
-    found = nearest_neighbours(items, SPEC, k=10, jobs=2)
+    found = nearest_neighbours(items, SPEC, k=10, engine=LocalEngine(2))
     queries = list(range(0, 1000, 10))
     rows = textbook_rows(items, queries)
     assert recall(found.index, rows, queries, 10) >= 0.9
@@ -63,8 +63,8 @@ def test_sketch_alone_misses_what_the_rounds_find() -> None:
     items, _ = chunk_items(600, 20, seed=3)
     queries = list(range(0, 600, 12))
     rows = textbook_rows(items, queries)
-    full = nearest_neighbours(items, SPEC, k=10, jobs=2)
-    sketch = nearest_neighbours(items, SPEC, k=10, jobs=2, search=Search(rounds=0))
+    full = nearest_neighbours(items, SPEC, k=10, engine=LocalEngine(2))
+    sketch = nearest_neighbours(items, SPEC, k=10, engine=LocalEngine(2), search=Search(rounds=0))
     assert recall(full.index, rows, queries, 10) > recall(sketch.index, rows, queries, 10) + 0.1
 
 
@@ -87,7 +87,7 @@ def test_small_sets_equal_the_exact_neighbours_of_the_matrix(tmp_path) -> None: 
 def test_identical_items_are_each_others_nearest_at_zero() -> None:
     items, _ = chunk_items(300, 10, seed=9)
     twin = Item(name="twin", data=items[17].data, source="generated")
-    found = nearest_neighbours([*items, twin], SPEC, k=3, jobs=1)
+    found = nearest_neighbours([*items, twin], SPEC, k=3, engine=LocalEngine(1))
     assert found.index[-1, 0] == 17 and found.distances[-1, 0] == 0.0
     assert found.stats.identical_items == 1
 
@@ -141,8 +141,8 @@ def test_sparse_groups_equal_dense_groups_within_tolerance() -> None:
     from kinpress.neighbours import sparse_groups
 
     items, owner = chunk_items(800, 25, seed=11)
-    dense = find_groups(distance_matrix(items, SPEC, jobs=2).distances)
-    sparse = sparse_groups(items, SPEC, sample_items=300, jobs=2)
+    dense = find_groups(distance_matrix(items, SPEC, engine=LocalEngine(2)).distances)
+    sparse = sparse_groups(items, SPEC, sample_items=300, engine=LocalEngine(2))
     assert adjusted_rand_score(dense.assignment, sparse.grouping.assignment) >= 0.95
     assert adjusted_rand_score(owner, sparse.grouping.assignment) >= 0.9
     assert sparse.neighbours.fraction < 0.25

@@ -38,6 +38,7 @@ from kinpress import (
     SizeCache,
     compressor,
     load_items,
+    pairwise_distances,
 )
 from kinpress import distance_matrix as matrix_of
 from kinpress.calibration import choose_for_job
@@ -56,7 +57,6 @@ from kinpress.origins import (
     fold_scores,
     novelty_aucs,
     novelty_detection,
-    pairwise_distances,
     reference_folds,
 )
 

@@ -11,7 +11,7 @@ import pytest
 from Bio import Phylo
 
 from conftest import DATASETS
-from kinpress import cli, distance_matrix, load_items
+from kinpress import LocalEngine, cli, distance_matrix, load_items
 from kinpress.support import replicate_items, resample_blocks
 from kinpress.trees import build_tree, leaf_order, parse_newick, splits
 
@@ -188,7 +188,7 @@ def test_real_mitogenome_tree_keeps_mammalian_orders_together(shared_data: Path)
     root = shared_data / "genomes" / "mitogenomes"
     order, klass = _orders(root)
     items = load_items(sorted(root.glob("*.fa")))
-    dm = distance_matrix(items, "zstd:level=19", strand="both", jobs=2)
+    dm = distance_matrix(items, "zstd:level=19", strand="both", engine=LocalEngine(2))
     tree = build_tree(dm.labels, dm.distances, method="nj", outgroup="danio_rerio")
     found = splits(tree)
     leaves = frozenset(dm.labels)

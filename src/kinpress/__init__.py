@@ -11,23 +11,22 @@ from __future__ import annotations
 from ._version import __version__
 from .cache import CacheError, CacheWarning, SizeCache, default_cache_path
 from .compressors import Compressor, SpecError, compressor
-from .distance import (
-    ConditionalSizes,
-    DistanceMatrix,
-    MatrixStats,
-    MeasurementWarning,
-    conditional_sizes,
-    distance_matrix,
-)
+from .distance import DistanceMatrix, distance_matrix, pairwise_distances
 from .engine import DaskEngine, LocalEngine
 from .formats import read_matrix, write_matrix
 from .items import InputError, InputWarning, Item, load_items
+from .measure import (
+    ConditionalSizes,
+    MatrixStats,
+    Measurement,
+    MeasurementWarning,
+    conditional_sizes,
+)
 
 _LAZY = {
     # scikit-learn is slow to import; the classifier loads it only when asked for.
     "CompressionClassifier": "origins",
     "classify": "origins",
-    "pairwise_distances": "origins",
 }
 
 
@@ -52,6 +51,7 @@ __all__ = [
     "Item",
     "LocalEngine",
     "MatrixStats",
+    "Measurement",
     "MeasurementWarning",
     "SizeCache",
     "SpecError",

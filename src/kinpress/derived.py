@@ -43,8 +43,6 @@ from datasketch import MinHash, MinHashLSHEnsemble
 
 from .cache import SizeCache
 from .compressors import Compressor
-from .compressors import compressor as make_compressor
-from .distance import MatrixStats, Progress, conditional_sizes, content_digest
 from .engine import Engine
 from .evidence import (
     NO_EVIDENCE,
@@ -57,6 +55,14 @@ from .evidence import (
 )
 from .formats import json_ready
 from .items import InputError, Item, uncompressed_name
+from .measure import (
+    MatrixStats,
+    Measurement,
+    Progress,
+    content_digest,
+    measure_conditional,
+    ncd,
+)
 from .passages import Fingerprint, common_among
 
 RELATIONS = ("identical", "near_copy", "a_contains_b", "b_contains_a", "partial_overlap")
@@ -560,21 +566,15 @@ def _measure(
     items: Sequence[Item],
     pairs: Sequence[tuple[int, int]],
     plan: _NullPlan,
-    comp: Compressor,
-    engine: Engine | None,
-    cache: SizeCache | None,
-    progress: Progress | None,
+    measurement: Measurement,
 ) -> _Measured:
     """e(x|y) = 1 - C(x|y) / C(x) both ways for the candidates and the null pairs, in one run."""
     n, m, z = len(items), len(pairs), len(plan.partners)
     null = [(n + k, a) for k, a in enumerate(plan.partners)]
     requested = [(j, i) for i, j in pairs] + [(i, j) for i, j in pairs]
     requested += null + [(a, b) for b, a in null]
-    measured = conditional_sizes(
-        [*items, *plan.items], requested, comp, engine=engine, cache=cache, progress=progress
-    )
-    target_sizes = np.maximum(measured.sizes[measured.target], 1)
-    explained = 1.0 - measured.conditional / target_sizes
+    measured = measure_conditional([*items, *plan.items], requested, measurement)
+    explained = 1.0 - ncd(measured.conditional, measured.sizes[measured.target])
     return _Measured(
         a_by_b=explained[:m],
         b_by_a=explained[m : 2 * m],
@@ -719,7 +719,8 @@ def find_derived(
         raise ValueError(f"max_fpr must be in (0, 1], got {max_fpr}")
     if len(items) < 2:
         raise InputError(f"need at least two items to compare, got {len(items)}")
-    comp, prefilter = make_compressor(compressor), prefilter or Prefilter()
+    measurement = Measurement.of(compressor, engine=engine, cache=cache, progress=progress)
+    prefilter = prefilter or Prefilter()
     digests = [content_digest(item.data) for item in items]
     sketched = sketches(items, prefilter, seed)
     n = len(items)
@@ -733,7 +734,7 @@ def find_derived(
         empty = np.zeros(0)
         measured = _Measured(empty, empty, empty, empty, MatrixStats())
     else:
-        measured = _measure(items, pairs, plan, comp, engine, cache, progress)
+        measured = _measure(items, pairs, plan, measurement)
     sought = proposed | set(_related(pairs, measured, max_fpr))
     related = {k for pair in sought for k in pair}
     common = max(COMMON_FILES, math.ceil(COMMON_SHARE * n))
@@ -759,7 +760,7 @@ def find_derived(
         findings=derived,
         counts=counts,
         null=_summary(measured.null_sorted, max_fpr),
-        compressor=comp.spec,
+        compressor=measurement.compressor.spec,
         max_fpr=max_fpr,
         exhaustive=exhaustive,
         stats=measured.stats,

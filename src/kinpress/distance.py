@@ -1,72 +1,41 @@
-"""Normalized compression distance and the DistanceMatrix value.
+"""Normalized compression distance: the DistanceMatrix value, the one validator of a distance
+array, the matrix of items, and NCD of chosen pairs.
 
 NCD(x, y) = max(C(x|y), C(y|x)) / max(C(x), C(y))   (Li et al. 2004; Cilibrasi & Vitanyi 2005)
 
-For C(x) >= C(y) the larger conditional is C(x|y) (symmetry of information, up to logarithmic
-terms), so each unordered pair costs one compression: C(x|y) = C(yx) - C(y) by concatenation, or x
-compressed with a compressor primed by y. NCD is then C(x|y) / C(x), the same as the classic
-(C(xy) - min(C(x), C(y))) / max(C(x), C(y)).
+Sizes, the rule for which item of a pair conditions the other, and the formula itself
+(`measure.ncd`) live in :mod:`kinpress.measure`; every distance here is computed through them.
 """
 
 from __future__ import annotations
 
-import hashlib
 import time
-import warnings
 from collections import Counter
-from collections.abc import Callable, Iterator, Sequence
+from collections.abc import Iterable, Iterator, Sequence
 from dataclasses import dataclass, field
-from typing import Any, Protocol
+from typing import Any
 
 import numpy as np
 import numpy.typing as npt
 
 from ._version import __version__
 from .cache import SizeCache
-from .compressors import ADAPTERS, Compressor, SpecError, compressor
-from .engine import Engine, LocalEngine, SizeJob, Tile, plan_tiles
-from .items import InputError, Item
-
-CONDITIONALS = ("concat", "primed")
-STRANDS = ("one", "both")
-
-
-class Progress(Protocol):
-    """The one progress callback of the library, for every long call that takes ``progress=``
-    (distance_matrix, conditional_sizes, the neighbour search, derived, origins, support).
-
-    Called as ``progress(phase, done, total)`` whenever work finishes: ``done`` of ``total``
-    units of ``phase`` are done. The phase names, for a person, what is counted: compressions
-    to compute (``"single items"``, ``"pairs"``, with a note such as ``"pairs (round 2)"``) or
-    bootstrap matrices (``"replicates"``). It is called from the calling thread, may skip
-    values and must return quickly; what it shows is the caller's business.
-    """
-
-    def __call__(self, phase: str, done: int, total: int, /) -> None: ...
-
-
-class MeasurementWarning(UserWarning):
-    """A measurement is less trustworthy than it looks (pairs beyond the window, say)."""
-
-
-@dataclass(frozen=True)
-class MatrixStats:
-    """What a run did: how much it computed and how much it took from the cache."""
-
-    pairs_computed: int = 0
-    pairs_from_cache: int = 0
-    singles_computed: int = 0
-    singles_from_cache: int = 0
-    self_pairs_computed: int = 0
-    bytes_compressed: int = 0
-    seconds: float = 0.0
-    clipped_below_zero: int = 0
-    above_one: int = 0
-    identical_items: int = 0
-
-    def as_dict(self) -> dict[str, float | int]:
-        return dict(self.__dict__)
-
+from .compressors import Compressor, compressor
+from .engine import Engine
+from .items import Item, as_items
+from .measure import (
+    MatrixStats,
+    Measurement,
+    Progress,
+    Sizes,
+    conditional_of,
+    conditioned,
+    conditioning_order,
+    conditioning_rank,
+    measure_singles,
+    ncd,
+    warn_beyond_window,
+)
 
 _CHECK_CELLS = 1 << 22  # cells per block of rows the validator reads at once
 
@@ -253,234 +222,6 @@ class DistanceMatrix:
         return raw
 
 
-def content_digest(data: bytes) -> bytes:
-    """The 128-bit BLAKE2b hash that keys cached sizes."""
-    return hashlib.blake2b(data, digest_size=16).digest()
-
-
-class _Sizes:
-    """Sizes for one job: cached where possible, the rest computed by the engine in tiles."""
-
-    def __init__(
-        self,
-        data: Sequence[bytes],
-        digests: Sequence[bytes],
-        comp: Compressor,
-        job: SizeJob,
-        engine: Engine,
-        cache: SizeCache | None,
-        progress: Progress | None,
-    ) -> None:
-        self.data, self.digests, self.comp, self.job = data, digests, comp, job
-        self.engine, self.cache, self.progress = engine, cache, progress
-        self.bytes_compressed = 0
-        self.lengths = np.array([len(d) for d in data], dtype=np.int64)
-
-    def fetch(
-        self,
-        phase: str,
-        first: np.ndarray,
-        second: np.ndarray | None,
-        *,
-        done: int = 0,
-        total: int | None = None,
-    ) -> tuple[np.ndarray, np.ndarray]:
-        """Sizes for singles (second None) or pairs, and which of them came from the cache.
-
-        Progress counts the sizes this call computes, or, with `total`, places the call in a
-        longer run of `total` sizes of which `done` are behind it (cached ones count as done).
-        """
-        method = "single" if second is None else self.job.pair_method
-        keys = [
-            (self.digests[f], b"" if second is None else self.digests[s])
-            for f, s in zip(first, first if second is None else second, strict=True)
-        ]
-        stored = self.cache.get_many(self.comp.cache_key, method, keys) if self.cache else {}
-        out = np.array([stored.get(k, -1) for k in keys], dtype=np.int64)
-        cached = out >= 0
-        todo = np.flatnonzero(~cached)
-        if todo.size:
-            start = 0 if total is None else done + int(cached.sum())
-            scale = int(todo.size) if total is None else total
-            self._compute(phase, method, first, second, todo, keys, out, (start, scale))
-        return out, cached
-
-    def _compute(
-        self,
-        phase: str,
-        method: str,
-        first: np.ndarray,
-        second: np.ndarray | None,
-        todo: np.ndarray,
-        keys: list[tuple[bytes, bytes]],
-        out: np.ndarray,
-        progress: tuple[int, int],
-    ) -> None:
-        tiles = plan_tiles(
-            self.data,
-            first[todo].tolist(),
-            None if second is None else second[todo].tolist(),
-            self.engine.jobs,
-            target_bytes=4 << 20,
-        )
-        where: dict[Tile, np.ndarray] = {}
-        start = 0
-        for tile in tiles:
-            where[tile] = todo[start : start + len(tile.first)]
-            start += len(tile.first)
-        done, total = progress
-        for tile, sizes in self.engine.run(self.data, self.job, tiles):
-            slots = where[tile]
-            out[slots] = sizes
-            fed = int(self.lengths[list(tile.first)].sum())
-            if not tile.singles:  # pairs feed both sides, twice when both strands are tried
-                fed += int(self.lengths[list(tile.second)].sum())
-                fed *= 2 if self.job.strand == "both" else 1
-            self.bytes_compressed += fed
-            if self.cache is not None:
-                rows = [(*keys[k], int(out[k])) for k in slots]
-                self.cache.put_many(self.comp.cache_key, method, rows)
-            done += len(slots)
-            if self.progress is not None:
-                self.progress(phase, done, total)
-
-
-def _check_job(comp: Compressor, conditional: str, strand: str, items: Sequence[Item]) -> None:
-    if conditional not in CONDITIONALS:
-        raise SpecError(f"unknown conditional {conditional!r}; use {' or '.join(CONDITIONALS)}")
-    if conditional == "primed" and not comp.primable:
-        names = " or ".join(name for name, cls in ADAPTERS.items() if cls.primable)
-        raise SpecError(f"{comp.name} cannot be primed; use --conditional concat or {names}")
-    if strand not in STRANDS:
-        raise SpecError(f"unknown strand {strand!r}; use {' or '.join(STRANDS)}")
-    if strand == "both":
-        other = next((i for i in items if not i.nucleotide), None)
-        if other is not None:
-            raise InputError(
-                f"{other.source}: --strand both needs nucleotide sequences; {other.name} is not one"
-            )
-    if len(items) < 2:
-        raise InputError(f"need at least two items to compare, got {len(items)}")
-
-
-def _warn_beyond_window(comp: Compressor, lengths: np.ndarray) -> None:
-    window = comp.window_bytes
-    if window is None:
-        return
-    order = np.sort(lengths)
-    # Pairs (i, j) with len_i + len_j > window, counted from the sorted lengths.
-    over = len(order) * (len(order) - 1) // 2 - int(
-        sum(
-            np.searchsorted(order[k + 1 :], window - order[k], side="right")
-            for k in range(len(order))
-        )
-    )
-    if over:
-        warnings.warn(
-            f"{comp.spec}: {over} item pairs are longer together than its {window:,}-byte window;"
-            " their distances drift towards 1",
-            MeasurementWarning,
-            stacklevel=3,
-        )
-
-
-def _distinct(items: Sequence[Item]) -> tuple[list[bytes], list[bytes], np.ndarray]:
-    """Distinct contents, their digests, and for each item the index of its content."""
-    unique: dict[bytes, int] = {}
-    data: list[bytes] = []
-    index = np.empty(len(items), dtype=np.int64)
-    for k, item in enumerate(items):
-        digest = content_digest(item.data)
-        if digest not in unique:
-            unique[digest] = len(data)
-            data.append(item.data)
-        index[k] = unique[digest]
-    return data, list(unique), index
-
-
-@dataclass(frozen=True)
-class ConditionalSizes:
-    """C(x) of every item and C(x|y) of requested ordered pairs (y given, x compressed)."""
-
-    sizes: np.ndarray
-    given: np.ndarray
-    target: np.ndarray
-    conditional: np.ndarray
-    stats: MatrixStats
-
-
-def _singles(
-    items: Sequence[Item],
-    comp: Compressor,
-    conditional: str,
-    strand: str,
-    engine: Engine,
-    cache: SizeCache | None,
-    progress: Progress | None,
-    before: Callable[[int], None] | None = None,
-) -> tuple[_Sizes, np.ndarray, np.ndarray, int]:
-    """The checked job's sizes source, each item's index into the distinct contents, every
-    distinct C(x), and how many of those came from the cache; `before` is called with the number
-    of distinct contents before anything is compressed."""
-    _check_job(comp, conditional, strand, items)
-    data, digests, index = _distinct(items)
-    if before is not None:
-        before(len(data))
-    sizes = _Sizes(data, digests, comp, SizeJob(comp.spec, conditional, strand), engine, cache,
-                   progress)  # fmt: skip
-    single, cached = sizes.fetch("single items", np.arange(len(data)), None)
-    return sizes, index, single, int(cached.sum())
-
-
-def conditional_sizes(
-    items: Sequence[Item],
-    pairs: Sequence[tuple[int, int]],
-    comp: Compressor | str = "zstd",
-    *,
-    conditional: str = "concat",
-    strand: str = "one",
-    engine: Engine | None = None,
-    jobs: int | None = None,
-    cache: SizeCache | None = None,
-    progress: Progress | None = None,
-) -> ConditionalSizes:
-    """C(x|y) for each (y, x) index pair into `items`, both directions as asked, and every C(x).
-
-    By concatenation C(x|y) = C(yx) - C(y); primed, x compressed by a compressor primed with y.
-    Sizes come from the cache where possible and are computed in tiles by the engine otherwise.
-    """
-    started = time.perf_counter()
-    sizes, index, single, singles_cached = _singles(
-        items, compressor(comp), conditional, strand, engine or LocalEngine(jobs), cache, progress
-    )
-    data = sizes.data
-    requested = np.asarray(pairs, dtype=np.int64).reshape(-1, 2)
-    given, target = index[requested[:, 0]], index[requested[:, 1]]
-    order = np.lexsort((target, given))
-    found, found_cached = sizes.fetch("pairs", given[order], target[order])
-    cached = int(found_cached.sum())
-    paired = np.empty_like(found)
-    paired[order] = found
-    if conditional == "concat":
-        paired = paired - single[given]
-    stats = MatrixStats(
-        pairs_computed=len(requested) - cached,
-        pairs_from_cache=cached,
-        singles_computed=len(data) - singles_cached,
-        singles_from_cache=singles_cached,
-        bytes_compressed=sizes.bytes_compressed,
-        seconds=time.perf_counter() - started,
-        identical_items=len(items) - len(data),
-    )
-    return ConditionalSizes(
-        sizes=single[index],
-        given=requested[:, 0],
-        target=requested[:, 1],
-        conditional=paired,
-        stats=stats,
-    )
-
-
 class TooLarge(ValueError):
     """A run that would need more memory than the machine has: refused before it starts."""
 
@@ -550,14 +291,6 @@ def check_matrix_memory(
         )
 
 
-def conditioning_order(digests: Sequence[bytes], single: np.ndarray) -> np.ndarray:
-    """Distinct contents in order of C(x), ties broken by content hash: of any pair, the earlier
-    content conditions the later one, so that a pair's measurement (and its cache key) does not
-    depend on the order of the inputs, whichever route (matrix or neighbours) asks for it."""
-    tie = np.array([int.from_bytes(d[:8], "big") for d in digests], dtype=np.uint64)
-    return np.lexsort((tie, single))
-
-
 def estimate_matrix_seconds(
     items: Sequence[Item], comp: Compressor | str, jobs: int, *, sample: int = 24, seed: int = 0
 ) -> float:
@@ -615,43 +348,48 @@ def distance_matrix(
     conditional: str = "concat",
     strand: str = "one",
     engine: Engine | None = None,
-    jobs: int | None = None,
     cache: SizeCache | None = None,
     progress: Progress | None = None,
     memory_limit: int | None = None,
 ) -> DistanceMatrix:
     """The NCD matrix of `items` under a compressor.
 
-    Each distinct content is compressed once, each unordered pair once (one direction, see the
-    module docstring), and NCD(x, x) once per item. Negative values (real compressors give a few)
-    are clipped to 0 and counted; values above 1 are kept and counted.
+    Each distinct content is compressed once, each unordered pair once (one direction, the
+    smaller content conditioning the larger: `measure.conditioning_order`), and NCD(x, x) once
+    per item. Negative values (real compressors give a few) are clipped to 0 and counted; values
+    above 1 are kept and counted.
 
     Before any compression the peak memory of the run is estimated (`matrix_memory_bytes`) and
     compared with `memory_limit` (default: the memory this machine has available,
-    `available_memory`); a run that would not fit raises `TooLarge`.
+    `available_memory`); a run that would not fit raises `TooLarge`. The other keyword
+    arguments make the `Measurement` (`measure_matrix` takes one).
 
     >>> dm = distance_matrix(load_items(["genomes/"]), "zstd:level=19")  # doctest: +SKIP
     """
+    measurement = Measurement.of(
+        comp, conditional=conditional, strand=strand, engine=engine, cache=cache, progress=progress
+    )
+    return measure_matrix(items, measurement, memory_limit=memory_limit)
+
+
+def measure_matrix(
+    items: Sequence[Item], measurement: Measurement, *, memory_limit: int | None = None
+) -> DistanceMatrix:
+    """`distance_matrix` under a `Measurement`."""
     started = time.perf_counter()
-    comp = compressor(comp)
-    sizes, index, single, singles_cached = _singles(
+    comp, conditional = measurement.compressor, measurement.conditional
+    sizes, index, single, singles_cached = measure_singles(
         items,
-        comp,
-        conditional,
-        strand,
-        engine or LocalEngine(jobs),
-        cache,
-        progress,
+        measurement,
         before=lambda distinct: check_matrix_memory(items, distinct, memory_limit),
     )
-    _warn_beyond_window(comp, sizes.lengths)
+    warn_beyond_window(comp, sizes.lengths)
     digests = sizes.digests
     m = len(sizes.data)
 
-    # Condition the larger on the smaller: distinct contents in order of C (ties broken by hash,
-    # so that the order, and so the cache key, does not depend on input order); each pair's
-    # earlier content conditions the later one. Self pairs C(xx) come in the same pass, first in
-    # their row, so that no second wait for the slowest tile is needed.
+    # Distinct contents in conditioning order; each pair's earlier content conditions the later
+    # one. Self pairs C(xx) come in the same pass, first in their row, so that no second wait
+    # for the slowest tile is needed.
     position = conditioning_order(digests, single)
     counts = np.bincount(index, minlength=m)
     square = np.zeros((m, m))  # the one n x n array of the run (m x m, then n x n, with repeats)
@@ -668,19 +406,15 @@ def distance_matrix(
         self_cached += int(cached[own].sum())
         pairs_cached += int(cached[~own].sum())
         small, large, found = small[~own], large[~own], found[~own]
-        if conditional == "concat":
-            found = found - single[small]
-        ncd = found / np.maximum(single[large], 1)
-        below = ncd < 0
+        value = ncd(conditional_of(found, single[small], conditional), single[large])
+        below = value < 0
         if below.any():
-            negatives.append((small[below], large[below], ncd[below]))
-            ncd[below] = 0.0
-        above_one += int((counts[small] * counts[large])[ncd > 1].sum())
-        square[small, large] = ncd
-        square[large, small] = ncd
-    if conditional == "concat":
-        self_sizes = self_sizes - single
-    self_unique = self_sizes / np.maximum(single, 1)
+            negatives.append((small[below], large[below], value[below]))
+            value[below] = 0.0
+        above_one += int((counts[small] * counts[large])[value > 1].sum())
+        square[small, large] = value
+        square[large, small] = value
+    self_unique = ncd(conditional_of(self_sizes, single, conditional), single)
     # Expand distinct contents back to items; identical items are at distance 0.
     distances = square[np.ix_(index, index)] if m < len(items) else square
     del square
@@ -712,7 +446,86 @@ def distance_matrix(
         negatives=(clipped[0], clipped[1], clipped[2]) if clipped else None,
         compressor=comp.spec,
         conditional=conditional,
-        strand=strand,
+        strand=measurement.strand,
         classes=tuple(item.label for item in items) if any(i.label for i in items) else None,
         stats=stats,
     )
+
+
+class PairDistances:
+    """NCD of item pairs through a sizes source, measured as `measure_matrix` measures them:
+    one direction (`measure.conditioned`), identical contents at 0, values below 0 clipped to 0
+    (counted in `clipped`); `computed` and `cached` count the distinct pairs' sizes."""
+
+    def __init__(
+        self, sizes: Sizes, content: np.ndarray, single: np.ndarray, conditional: str
+    ) -> None:
+        self.sizes, self.content, self.single = sizes, content, single
+        self.conditional = conditional
+        self.rank = conditioning_rank(sizes.digests, single)
+        self.computed = self.cached = self.clipped = 0
+
+    def __call__(self, a: np.ndarray, b: np.ndarray, phase: str) -> np.ndarray:
+        """NCD of items a[k] and b[k] (indices into the items), `phase` named to progress."""
+        ca, cb = self.content[a], self.content[b]
+        out = np.zeros(len(a))
+        other = ca != cb
+        small, large = conditioned(self.rank, ca[other], cb[other])
+        m = len(self.single)
+        keys, inverse = np.unique(small * m + large, return_inverse=True)
+        small, large = keys // m, keys % m
+        found = np.empty(len(keys), dtype=np.int64)
+        for start in range(0, len(keys), PAIR_CHUNK):
+            part = slice(start, start + PAIR_CHUNK)
+            got, cached = self.sizes.fetch(
+                phase, small[part], large[part], done=start, total=len(keys)
+            )
+            found[part] = got
+            self.cached += int(cached.sum())
+            self.computed += int((~cached).sum())
+        value = ncd(conditional_of(found, self.single[small], self.conditional), self.single[large])
+        self.clipped += int(np.count_nonzero(value < 0))
+        out[other] = np.clip(value, 0.0, None)[inverse]
+        return out
+
+
+def pair_distances(
+    items: Sequence[Item], pairs: Sequence[tuple[int, int]], measurement: Measurement
+) -> np.ndarray:
+    """NCD of each unordered index pair into `items`, the same numbers `measure_matrix` gives."""
+    sizes, content, single, _ = measure_singles(items, measurement)
+    a, b = np.asarray(pairs, dtype=np.int64).reshape(-1, 2).T
+    return PairDistances(sizes, content, single, measurement.conditional)(a, b, "pairs")
+
+
+def cross_distances(
+    rows: Sequence[Item], columns: Sequence[Item], measurement: Measurement
+) -> np.ndarray:
+    """The (len(rows), len(columns)) block of the NCD matrix of rows + columns."""
+    n = len(rows)
+    pairs = [(i, n + j) for i in range(n) for j in range(len(columns))]
+    return pair_distances([*rows, *columns], pairs, measurement).reshape(n, len(columns))
+
+
+def pairwise_distances(
+    X: Iterable[bytes | str],
+    Y: Iterable[bytes | str] | None = None,
+    compressor: str | Compressor = "zstd:level=19",
+    *,
+    conditional: str = "concat",
+    engine: Engine | None = None,
+    cache: SizeCache | None = None,
+) -> np.ndarray:
+    """NCD between inputs, shaped (len(X), len(Y)), for scikit-learn's ``metric="precomputed"``.
+
+    Without Y, the square matrix of `distance_matrix` (symmetric, zero diagonal, non-negative);
+    with Y, the block of rows X and columns Y of the matrix of X + Y, measured the same way.
+    Strings are encoded as UTF-8.
+    """
+    measurement = Measurement.of(compressor, conditional=conditional, engine=engine, cache=cache)
+    rows = as_items(X, "x")
+    if Y is None:
+        if len(rows) < 2:
+            return np.zeros((len(rows), len(rows)))
+        return np.array(measure_matrix(rows, measurement).distances)
+    return cross_distances(rows, as_items(Y, "y"), measurement)

@@ -21,8 +21,9 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from .distance import DistanceMatrix, MatrixStats
+from .distance import DistanceMatrix
 from .items import InputError, escape_name, unescape_name
+from .measure import MatrixStats
 
 if TYPE_CHECKING:  # both import json_ready from here
     from .derived import DerivedFinding

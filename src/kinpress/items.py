@@ -816,6 +816,20 @@ def _warn_mixed(items: Sequence[Item]) -> None:
         )
 
 
+def as_items(values: Iterable[bytes | str], prefix: str = "x") -> list[Item]:
+    """Items named prefix0, prefix1, ... from bytes, or from strings encoded as UTF-8."""
+    out = []
+    for k, value in enumerate(values):
+        if isinstance(value, str):
+            data = value.encode("utf-8")
+        elif isinstance(value, bytes | bytearray | memoryview):
+            data = bytes(value)
+        else:
+            raise TypeError(f"expected bytes or str, got {type(value).__name__} at position {k}")
+        out.append(Item(f"{prefix}{k}", data, "input"))
+    return out
+
+
 def load_items(
     paths: Iterable[str | os.PathLike[str]],
     split: str | Split = "auto",

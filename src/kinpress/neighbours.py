@@ -35,21 +35,13 @@ from dataclasses import dataclass
 import numpy as np
 
 from .cache import SizeCache
-from .compressors import Compressor, compressor
+from .compressors import Compressor
 from .derived import shingle_hashes
-from .distance import (
-    PAIR_CHUNK,
-    MatrixStats,
-    Progress,
-    _singles,
-    _Sizes,
-    _warn_beyond_window,
-    conditioning_order,
-    distance_matrix,
-)
-from .engine import Engine, LocalEngine
+from .distance import PAIR_CHUNK, PairDistances, measure_matrix
+from .engine import Engine
 from .groups import Grouping
 from .items import Item
+from .measure import MatrixStats, Measurement, Progress, measure_singles, warn_beyond_window
 
 _BATCH = 1 << 12
 
@@ -223,46 +215,6 @@ def _forest_pairs(sig: np.ndarray, content: np.ndarray, search: Search) -> tuple
     return low, high, key
 
 
-class _Measure:
-    """NCD of item pairs through the sizes source, measured as `distance_matrix` measures them."""
-
-    def __init__(
-        self, sizes: _Sizes, content: np.ndarray, single: np.ndarray, conditional: str
-    ) -> None:
-        self.sizes, self.content, self.single = sizes, content, single
-        self.conditional = conditional
-        order = conditioning_order(sizes.digests, single)
-        self.rank = np.empty(len(order), dtype=np.int64)
-        self.rank[order] = np.arange(len(order))
-        self.computed = self.cached = self.clipped = 0
-
-    def __call__(self, a: np.ndarray, b: np.ndarray, phase: str) -> np.ndarray:
-        ca, cb = self.content[a], self.content[b]
-        out = np.zeros(len(a))
-        other = ca != cb
-        swap = self.rank[ca] > self.rank[cb]
-        small = np.where(swap, cb, ca)[other]
-        large = np.where(swap, ca, cb)[other]
-        m = len(self.single)
-        keys, inverse = np.unique(small * m + large, return_inverse=True)
-        small, large = keys // m, keys % m
-        found = np.empty(len(keys), dtype=np.int64)
-        for start in range(0, len(keys), PAIR_CHUNK):
-            part = slice(start, start + PAIR_CHUNK)
-            got, cached = self.sizes.fetch(
-                phase, small[part], large[part], done=start, total=len(keys)
-            )
-            found[part] = got
-            self.cached += int(cached.sum())
-            self.computed += int((~cached).sum())
-        if self.conditional == "concat":
-            found = found - self.single[small]
-        ncd = found / np.maximum(self.single[large], 1)
-        self.clipped += int(np.count_nonzero(ncd < 0))
-        out[other] = np.clip(ncd, 0.0, None)[inverse]
-        return out
-
-
 @dataclass
 class _Lists:
     """The current neighbour lists, which entries are new since the last round, what is measured."""
@@ -358,7 +310,11 @@ def _all_pairs(n: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
 
 
 def _searched(
-    lists: _Lists, measure: _Measure, data: Sequence[bytes], content: np.ndarray, search: Search
+    lists: _Lists,
+    measure: PairDistances,
+    data: Sequence[bytes],
+    content: np.ndarray,
+    search: Search,
 ) -> int:
     """Fill `lists` by sketch candidates and neighbourhood rounds; return the rounds run."""
     n, k = lists.index.shape
@@ -390,7 +346,6 @@ def nearest_neighbours(
     conditional: str = "concat",
     strand: str = "one",
     engine: Engine | None = None,
-    jobs: int | None = None,
     cache: SizeCache | None = None,
     progress: Progress | None = None,
     search: Search | None = None,
@@ -400,18 +355,23 @@ def nearest_neighbours(
     Pairs are measured exactly as in `distance_matrix` (one direction, the smaller content
     conditioning the larger, negative values clipped to 0), through the same engine, tiles and
     cache, so a matrix and a neighbour search of the same items share every size they compute.
+    The keyword arguments `conditional` to `progress` make the `Measurement`.
     """
+    measurement = Measurement.of(
+        comp, conditional=conditional, strand=strand, engine=engine, cache=cache, progress=progress
+    )
+    return _nearest(items, measurement, k, search or Search())
+
+
+def _nearest(items: Sequence[Item], measurement: Measurement, k: int, search: Search) -> Neighbours:
     started = time.perf_counter()
-    comp, search = compressor(comp), search or Search()
     if k < 1:
         raise ValueError(f"k must be at least 1, got {k}")
-    sizes, content, single, singles_cached = _singles(
-        items, comp, conditional, strand, engine or LocalEngine(jobs), cache, progress
-    )
-    _warn_beyond_window(comp, sizes.lengths)
+    sizes, content, single, singles_cached = measure_singles(items, measurement)
+    warn_beyond_window(measurement.compressor, sizes.lengths)
     n = len(items)
     k = min(k, n - 1)
-    measure = _Measure(sizes, content, single, conditional)
+    measure = PairDistances(sizes, content, single, measurement.conditional)
     lists = _Lists.empty(n, min(max(k, search.least), n - 1))
     exhaustive = n <= search.exhaustive_below
     if exhaustive:
@@ -435,9 +395,9 @@ def nearest_neighbours(
         index=lists.index[:, :k].copy(),
         distances=lists.distances[:, :k].copy(),
         k=k,
-        compressor=comp.spec,
-        conditional=conditional,
-        strand=strand,
+        compressor=measurement.compressor.spec,
+        conditional=measurement.conditional,
+        strand=measurement.strand,
         pairs=len(lists.measured),
         possible=n * (n - 1) // 2,
         rounds=rounds,
@@ -498,7 +458,6 @@ def sparse_groups(
     conditional: str = "concat",
     strand: str = "one",
     engine: Engine | None = None,
-    jobs: int | None = None,
     cache: SizeCache | None = None,
     progress: Progress | None = None,
     search: Search | None = None,
@@ -506,23 +465,18 @@ def sparse_groups(
     """Flat groups without a full matrix: each item's `neighbours` nearest
     (`nearest_neighbours`), then `groups.find_groups_sparse` with silhouettes measured on the
     full matrix of `sample_items` items (a quarter of them at most) drawn at random (`seed`),
-    through the same engine and cache; `k`, `cut` and `report_outliers` as in
-    `groups.find_groups`."""
+    under the same `Measurement` (made from `conditional` to `progress`); `k`, `cut` and
+    `report_outliers` as in `groups.find_groups`."""
     from .groups import find_groups_sparse
 
-    comp = compressor(comp)
-    engine = engine or LocalEngine(jobs)
-    found = nearest_neighbours(
-        items, comp, k=neighbours, conditional=conditional, strand=strand, engine=engine,
-        cache=cache, progress=progress, search=search,
-    )  # fmt: skip
+    measurement = Measurement.of(
+        comp, conditional=conditional, strand=strand, engine=engine, cache=cache, progress=progress
+    )
+    found = _nearest(items, measurement, neighbours, search or Search())
     rng = np.random.default_rng(seed)
     count = min(sample_items, max(2, len(items) // 4))  # never near a full matrix
     sample = np.sort(rng.choice(len(items), count, replace=False))
-    dm = distance_matrix(
-        [items[i] for i in sample], comp, conditional=conditional, strand=strand, engine=engine,
-        cache=cache, progress=progress,
-    )  # fmt: skip
+    dm = measure_matrix([items[i] for i in sample], measurement)
     grouping = find_groups_sparse(
         found.index, found.distances, sample, dm.distances, k=k, cut=cut,
         report_outliers=report_outliers,

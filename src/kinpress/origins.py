@@ -37,7 +37,7 @@ cut on the score can be given instead.
 from __future__ import annotations
 
 import warnings
-from collections.abc import Iterable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass, replace
 from typing import Any, Self
 
@@ -48,19 +48,21 @@ from sklearn.utils.validation import check_is_fitted
 from .cache import SizeCache
 from .compressors import Compressor
 from .compressors import compressor as build_compressor
-from .distance import (
-    MeasurementWarning,
-    Progress,
-    conditional_sizes,
-    content_digest,
-    distance_matrix,
-)
+from .distance import cross_distances, measure_matrix, pair_distances
 from .engine import Engine
 from .formats import json_ready
-from .items import InputError, Item
+from .items import InputError, Item, as_items
 
 # Moved to items, where inputs become items; importable from here while callers move over.
 from .items import reference_items as reference_items
+from .measure import (
+    Measurement,
+    MeasurementWarning,
+    Progress,
+    content_digest,
+    measure_conditional,
+    ncd,
+)
 
 METHODS = ("conditional", "knn")
 _VOTE_EPSILON = 1e-9
@@ -100,100 +102,6 @@ class _Reference:
                     "calibrating the abstention needs two reference items per origin; "
                     f"{', '.join(thin)} has one (give a threshold to classify without it)"
                 )
-
-
-@dataclass(frozen=True)
-class _Options:
-    """How sizes are measured: compressor, conditional method and where the work runs."""
-
-    comp: Compressor
-    conditional: str
-    engine: Engine | None
-    jobs: int | None
-    cache: SizeCache | None
-    progress: Progress | None
-
-    def sizes_kwargs(self, conditional: str | None = None) -> dict[str, Any]:
-        return {
-            "conditional": conditional or self.conditional,
-            "engine": self.engine,
-            "jobs": self.jobs,
-            "cache": self.cache,
-            "progress": self.progress,
-        }
-
-
-# -- NCD between chosen pairs, the same numbers distance_matrix gives --------------------------
-
-
-def _pair_distances(
-    items: Sequence[Item], pairs: Sequence[tuple[int, int]], options: _Options, conditional: str
-) -> np.ndarray:
-    """NCD of each unordered index pair, measured exactly as `distance_matrix` measures it.
-
-    The item with the smaller C (ties by content hash) conditions the other, one compression per
-    pair; identical contents are at distance 0 and values below 0 are clipped to 0.
-    """
-    kwargs = options.sizes_kwargs(conditional)
-    sizes = conditional_sizes(items, [], options.comp, **kwargs).sizes
-    digests = [content_digest(item.data) for item in items]
-    order = [(int(sizes[k]), int.from_bytes(d[:8], "big")) for k, d in enumerate(digests)]
-    directed = [(a, b) if order[a] <= order[b] else (b, a) for a, b in pairs]
-    measured = conditional_sizes(items, directed, options.comp, **kwargs)
-    targets = np.array([b for _, b in directed], dtype=np.int64).reshape(-1)
-    ncd = measured.conditional / np.maximum(measured.sizes[targets], 1)
-    same = np.array([digests[a] == digests[b] for a, b in directed], dtype=bool).reshape(-1)
-    return np.where(same, 0.0, np.clip(ncd, 0.0, None))
-
-
-def _cross_distances(
-    rows: Sequence[Item], columns: Sequence[Item], options: _Options, conditional: str
-) -> np.ndarray:
-    """The (len(rows), len(columns)) block of the NCD matrix of rows + columns."""
-    n = len(rows)
-    pairs = [(i, n + j) for i in range(n) for j in range(len(columns))]
-    found = _pair_distances([*rows, *columns], pairs, options, conditional)
-    return found.reshape(n, len(columns))
-
-
-def pairwise_distances(
-    X: Sequence[bytes | str],
-    Y: Sequence[bytes | str] | None = None,
-    compressor: str | Compressor = "zstd:level=19",
-    *,
-    conditional: str = "concat",
-    engine: Engine | None = None,
-    jobs: int | None = None,
-    cache: SizeCache | None = None,
-) -> np.ndarray:
-    """NCD between inputs, shaped (len(X), len(Y)), for scikit-learn's ``metric="precomputed"``.
-
-    Without Y, the square matrix of `distance_matrix` (symmetric, zero diagonal, non-negative);
-    with Y, the block of rows X and columns Y of the matrix of X + Y, measured the same way.
-    Strings are encoded as UTF-8.
-    """
-    options = _Options(build_compressor(compressor), conditional, engine, jobs, cache, None)
-    rows = as_items(X, "x")
-    if Y is None:
-        if len(rows) < 2:
-            return np.zeros((len(rows), len(rows)))
-        matrix = distance_matrix(rows, options.comp, **options.sizes_kwargs())
-        return np.array(matrix.distances)
-    return _cross_distances(rows, as_items(Y, "y"), options, conditional)
-
-
-def as_items(values: Iterable[bytes | str], prefix: str = "x") -> list[Item]:
-    """Items named prefix0, prefix1, ... from bytes, or from strings encoded as UTF-8."""
-    out = []
-    for k, value in enumerate(values):
-        if isinstance(value, str):
-            data = value.encode("utf-8")
-        elif isinstance(value, bytes | bytearray | memoryview):
-            data = bytes(value)
-        else:
-            raise TypeError(f"expected bytes or str, got {type(value).__name__} at position {k}")
-        out.append(Item(f"{prefix}{k}", data, "input"))
-    return out
 
 
 # -- scores: per item, one number per origin, lower is better ----------------------------------
@@ -242,16 +150,18 @@ def _check_k(k: int, reference: _Reference) -> None:
 
 
 def _knn_scores(
-    targets: Sequence[Item], reference: _Reference, options: _Options, k: int
+    targets: Sequence[Item], reference: _Reference, measurement: Measurement, k: int
 ) -> _Scores:
     _check_k(k, reference)
-    distances = _cross_distances(targets, reference.items, options, options.conditional)
+    distances = cross_distances(targets, reference.items, measurement)
     return _knn_decision(distances, reference.codes, len(reference.origins), k)
 
 
-def _knn_fold_scores(reference: _Reference, options: _Options, folds: np.ndarray) -> np.ndarray:
+def _knn_fold_scores(
+    reference: _Reference, measurement: Measurement, folds: np.ndarray
+) -> np.ndarray:
     """Each reference item's NCD to the nearest item of every origin outside its own fold."""
-    matrix = distance_matrix(reference.items, options.comp, **options.sizes_kwargs())
+    matrix = measure_matrix(reference.items, measurement)
     distances = np.array(matrix.distances)
     distances[folds[:, None] == folds[None, :]] = np.inf
     scores = np.full((len(folds), len(reference.origins)), np.inf)
@@ -328,24 +238,21 @@ def _conditional_ratios(
     targets: Sequence[Item],
     corpora: Sequence[Item],
     wanted: Sequence[tuple[int, int]],
-    options: _Options,
+    measurement: Measurement,
 ) -> np.ndarray:
     """C(target | corpus) / C(target) for each (target, corpus) index pair."""
     n = len(targets)
     pairs = [(n + c, t) for t, c in wanted]
-    measured = conditional_sizes(
-        [*targets, *corpora], pairs, options.comp, **options.sizes_kwargs()
-    )
+    measured = measure_conditional([*targets, *corpora], pairs, measurement)
     singles = measured.sizes[np.array([t for t, _ in wanted], dtype=np.int64).reshape(-1)]
-    ratios: np.ndarray = measured.conditional / np.maximum(singles, 1)
-    return ratios
+    return ncd(measured.conditional, singles)
 
 
 def _nearest_in_origin(
     targets: Sequence[Item],
     reference: _Reference,
     picked: np.ndarray,
-    options: _Options,
+    measurement: Measurement,
     exclude_self: bool,
 ) -> tuple[np.ndarray, np.ndarray]:
     """The nearest reference item by NCD among those of each target's picked origin."""
@@ -358,7 +265,7 @@ def _nearest_in_origin(
                 pairs.append((t, n + int(m)))
                 owners.append((t, int(m)))
     items = [*targets, *reference.items]
-    found = _pair_distances(items, pairs, options, options.conditional)
+    found = pair_distances(items, pairs, measurement)
     nearest = np.zeros(n, dtype=np.int64)
     distance = np.full(n, np.inf)
     for (t, m), d in zip(owners, found, strict=True):
@@ -368,12 +275,12 @@ def _nearest_in_origin(
 
 
 def _conditional_scores(
-    targets: Sequence[Item], reference: _Reference, options: _Options, longest: int
+    targets: Sequence[Item], reference: _Reference, measurement: Measurement, longest: int
 ) -> _Scores:
-    corpora = _origin_corpora(reference, _corpus_budget(options.comp, longest))
+    corpora = _origin_corpora(reference, _corpus_budget(measurement.compressor, longest))
     m = len(reference.origins)
     wanted = [(t, o) for t in range(len(targets)) for o in range(m)]
-    scores = _conditional_ratios(targets, corpora, wanted, options).reshape(len(targets), m)
+    scores = _conditional_ratios(targets, corpora, wanted, measurement).reshape(len(targets), m)
     return _Scores(scores, scores.argmin(axis=1))
 
 
@@ -381,13 +288,15 @@ def _with_nearest(
     scores: _Scores,
     targets: Sequence[Item],
     reference: _Reference,
-    options: _Options,
+    measurement: Measurement,
     exclude_self: bool,
 ) -> _Scores:
     """Scores with the nearest reference item filled in, searched in the picked origin."""
     if scores.nearest is not None:
         return scores
-    nearest, distance = _nearest_in_origin(targets, reference, scores.picked, options, exclude_self)
+    nearest, distance = _nearest_in_origin(
+        targets, reference, scores.picked, measurement, exclude_self
+    )
     return replace(scores, nearest=nearest, distance=distance)
 
 
@@ -436,7 +345,7 @@ class FoldScores:
 
 def _fold_scores(
     reference: _Reference,
-    options: _Options,
+    measurement: Measurement,
     method: str,
     blocks: int,
     longest: int,
@@ -445,9 +354,9 @@ def _fold_scores(
     folds = reference_folds(reference.codes, blocks)
     n, m = len(reference.items), len(reference.origins)
     if method == "knn":
-        scores = _knn_fold_scores(reference, options, folds)
+        scores = _knn_fold_scores(reference, measurement, folds)
         return FoldScores(reference.origins, reference.codes, folds, scores)
-    budget = _corpus_budget(options.comp, longest)
+    budget = _corpus_budget(measurement.compressor, longest)
     corpora: list[Item] = []
     wanted: list[tuple[int, int]] = []
     for fold in sorted(set(folds.tolist()) if only is None else set(only)):
@@ -457,7 +366,7 @@ def _fold_scores(
         wanted += [(int(t), base + o) for t in np.flatnonzero(held) for o in range(m)]
     scores = np.full((n, m), np.nan)
     if wanted:
-        found = _conditional_ratios(reference.items, corpora, wanted, options)
+        found = _conditional_ratios(reference.items, corpora, wanted, measurement)
         for (t, c), value in zip(wanted, found, strict=True):
             scores[t, c % m] = value
     return FoldScores(reference.origins, reference.codes, folds, scores)
@@ -473,7 +382,6 @@ def fold_scores(
     longest: int = 0,
     conditional: str = "auto",
     engine: Engine | None = None,
-    jobs: int | None = None,
     cache: SizeCache | None = None,
     progress: Progress | None = None,
 ) -> FoldScores:
@@ -485,9 +393,9 @@ def fold_scores(
     """
     ref = _Reference.of(reference)
     ref.check(calibrate=True)
-    options = _options(comp, method, conditional, engine, jobs, cache, progress)
+    measurement = _measurement(comp, method, conditional, engine, cache, progress)
     longest = max(longest, max(len(i.data) for i in ref.items))
-    return _fold_scores(ref, options, method, blocks, longest, folds)
+    return _fold_scores(ref, measurement, method, blocks, longest, folds)
 
 
 # -- conformal p-values -------------------------------------------------------------------------
@@ -1082,35 +990,38 @@ class Evaluation:
         )
 
 
-def _options(
+def _measurement(
     comp: str | Compressor,
     method: str,
     conditional: str,
     engine: Engine | None,
-    jobs: int | None,
     cache: SizeCache | None,
     progress: Progress | None,
-) -> _Options:
+) -> Measurement:
+    """The measurement of a classification: `conditional` "auto" primes where the compressor
+    can for the conditional method and concatenates otherwise."""
     if method not in METHODS:
         raise ValueError(f"unknown method {method!r}; use {' or '.join(METHODS)}")
     built = build_compressor(comp)
     if conditional == "auto":
         primed = method == "conditional" and built.primable
         conditional = "primed" if primed else "concat"
-    return _Options(built, conditional, engine, jobs, cache, progress)
+    return Measurement.of(
+        built, conditional=conditional, engine=engine, cache=cache, progress=progress
+    )
 
 
 def _score(
     targets: Sequence[Item],
     reference: _Reference,
-    options: _Options,
+    measurement: Measurement,
     method: str,
     k: int,
     longest: int,
 ) -> _Scores:
     if method == "knn":
-        return _knn_scores(targets, reference, options, k)
-    return _conditional_scores(targets, reference, options, longest)
+        return _knn_scores(targets, reference, measurement, k)
+    return _conditional_scores(targets, reference, measurement, longest)
 
 
 @dataclass(frozen=True)
@@ -1127,7 +1038,7 @@ class _Calibrated:
 
 def _calibrate(
     reference: _Reference,
-    options: _Options,
+    measurement: Measurement,
     method: str,
     significance: float | None,
     threshold: float | None,
@@ -1142,7 +1053,7 @@ def _calibrate(
     if not 0 < significance < 1:
         raise ValueError(f"significance must lie between 0 and 1, got {significance}")
     reference.check(calibrate=True)
-    folds = _fold_scores(reference, options, method, blocks, longest)
+    folds = _fold_scores(reference, measurement, method, blocks, longest)
     keep = folds.measured
     conformity = Conformity.of(
         folds.scores[keep], reference.codes[keep], reference.origins, significance
@@ -1162,7 +1073,6 @@ def classify(
     blocks: int = DEFAULT_BLOCKS,
     conditional: str = "auto",
     engine: Engine | None = None,
-    jobs: int | None = None,
     cache: SizeCache | None = None,
     progress: Progress | None = None,
 ) -> Classification:
@@ -1182,11 +1092,11 @@ def classify(
     ref.check(calibrate=False)
     if method == "knn":
         _check_k(k, ref)
-    options = _options(comp, method, conditional, engine, jobs, cache, progress)
+    measurement = _measurement(comp, method, conditional, engine, cache, progress)
     longest = max(len(i.data) for i in [*unknowns, *ref.items])
-    fitted = _calibrate(ref, options, method, significance, threshold, blocks, longest)
+    fitted = _calibrate(ref, measurement, method, significance, threshold, blocks, longest)
     scores = _with_nearest(
-        _score(unknowns, ref, options, method, k, longest), unknowns, ref, options,
+        _score(unknowns, ref, measurement, method, k, longest), unknowns, ref, measurement,
         exclude_self=False,
     )  # fmt: skip
     decided = fitted.decide(scores.scores)
@@ -1198,8 +1108,8 @@ def classify(
         abstention=fitted.abstention,
         method=method,
         k=k,
-        compressor=options.comp.spec,
-        conditional=options.conditional,
+        compressor=measurement.compressor.spec,
+        conditional=measurement.conditional,
     )
 
 
@@ -1213,7 +1123,6 @@ def evaluate(
     blocks: int = DEFAULT_BLOCKS,
     conditional: str = "auto",
     engine: Engine | None = None,
-    jobs: int | None = None,
     cache: SizeCache | None = None,
     progress: Progress | None = None,
 ) -> Evaluation:
@@ -1226,9 +1135,9 @@ def evaluate(
         raise ValueError("give a significance or a threshold, not both")
     ref = _Reference.of(reference)
     ref.check(calibrate=True)
-    options = _options(comp, method, conditional, engine, jobs, cache, progress)
+    measurement = _measurement(comp, method, conditional, engine, cache, progress)
     longest = max(len(i.data) for i in ref.items)
-    folds = _fold_scores(ref, options, method, blocks, longest)
+    folds = _fold_scores(ref, measurement, method, blocks, longest)
     rate = DEFAULT_SIGNIFICANCE if significance is None else significance
     report = fold_report(folds, rate, threshold)
     keep = folds.measured
@@ -1263,8 +1172,9 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
     `significance` (unless a `threshold` is given). `predict` returns the class, or
     `unknown_label` for an item no class accepts or several do; `p_values(X)` gives each item's
     conformal p-value for every class (columns in `classes_` order), the estimator's counterpart
-    of `predict_proba`. `cache` is a path to a size cache file, opened for each fit and predict,
-    so that the estimator can be cloned and pickled.
+    of `predict_proba`. `engine` runs the compressions (default: a `LocalEngine` on every core of
+    this machine; a `DaskEngine` spreads them over a cluster). `cache` is a path to a size cache
+    file, opened for each fit and predict, so that the estimator can be cloned and pickled.
     """
 
     def __init__(
@@ -1277,7 +1187,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         threshold: float | None = None,
         unknown_label: Any = None,
         budget: float = 600.0,
-        jobs: int | None = None,
+        engine: Engine | None = None,
         cache: str | None = None,
     ) -> None:
         self.compressor = compressor
@@ -1288,12 +1198,12 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         self.threshold = threshold
         self.unknown_label = unknown_label
         self.budget = budget
-        self.jobs = jobs
+        self.engine = engine
         self.cache = cache
 
-    def _run_options(self, cache: SizeCache | None) -> _Options:
-        return _options(
-            self.compressor_, self.method, self.conditional, None, self.jobs, cache, None
+    def _measurement(self, cache: SizeCache | None) -> Measurement:
+        return _measurement(
+            self.compressor_, self.method, self.conditional, self.engine, cache, None
         )
 
     def _open_cache(self) -> SizeCache | None:
@@ -1317,11 +1227,15 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
                 from .calibration import choose_for_job
 
                 self.compressor_ = choose_for_job(
-                    labelled, "classify", budget_seconds=self.budget, jobs=self.jobs, cache=cache
+                    labelled,
+                    "classify",
+                    budget_seconds=self.budget,
+                    engine=self.engine,
+                    cache=cache,
                 ).spec
             self.longest_ = max(len(i.data) for i in labelled)
             self.calibrated_ = _calibrate(
-                self.reference_, self._run_options(cache), self.method, self.significance,
+                self.reference_, self._measurement(cache), self.method, self.significance,
                 self.threshold, DEFAULT_BLOCKS, self.longest_,
             )  # fmt: skip
         finally:
@@ -1335,7 +1249,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         cache = self._open_cache()
         try:
             longest = max([self.longest_, *(len(t.data) for t in targets)])
-            scores = _score(targets, self.reference_, self._run_options(cache), self.method,
+            scores = _score(targets, self.reference_, self._measurement(cache), self.method,
                             self.k, longest)  # fmt: skip
         finally:
             if cache is not None:

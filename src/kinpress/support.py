@@ -15,9 +15,10 @@ from dataclasses import replace
 import numpy as np
 
 from .compressors import Compressor
-from .distance import Progress, distance_matrix
+from .distance import measure_matrix
 from .engine import Engine
 from .items import Item
+from .measure import Measurement, Progress
 from .trees import Method, Node, add_support, build_tree
 
 
@@ -66,17 +67,16 @@ def bootstrap_support(
     """`tree` with support percentages from `replicates` block-bootstrap replicates.
 
     Replicates are not cached: their contents are throwaway, and nothing from the original
-    run's sizes may leak into them.
+    run's sizes may leak into them. `progress` counts replicates, not sizes.
     """
     if replicates < 1:
         raise ValueError("the number of replicates must be at least 1")
+    measurement = Measurement.of(comp, conditional=conditional, strand=strand, engine=engine)
     rng = np.random.default_rng(seed)
     trees = []
     for k in range(replicates):
         resampled = replicate_items(items, block_fraction, rng)
-        dm = distance_matrix(
-            resampled, comp, conditional=conditional, strand=strand, engine=engine, cache=None
-        )
+        dm = measure_matrix(resampled, measurement)
         trees.append(build_tree(dm.labels, dm.distances, method=method))
         if progress is not None:
             progress("replicates", k + 1, replicates)

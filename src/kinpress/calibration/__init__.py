@@ -4,9 +4,10 @@ Every distance here is the project's NCD by concatenation,
 
     NCD(x, y) = (C(ab) - C(a)) / C(b),   a, b = x, y ordered so that C(a) <= C(b)
 
-(Li et al. 2004; Cilibrasi & Vitányi 2005, "Clustering by compression", IEEE TIT 51(4)). A normal
-compressor gives NCD(x, x) ≈ 0 and NCD ≈ 1 for unrelated inputs; real ones fail in known ways:
-once x and its partner no longer fit the window or block, identity distances jump towards 1
+(ties by content hash: the one conditioning rule of `kinpress.measure`; Li et al. 2004; Cilibrasi
+& Vitányi 2005, "Clustering by compression", IEEE TIT 51(4)). A normal compressor gives
+NCD(x, x) ≈ 0 and NCD ≈ 1 for unrelated inputs; real ones fail in known ways: once x and its
+partner no longer fit the window or block, identity distances jump towards 1
 (Cebrián, Alfonseca & Ortega 2005, "Common pitfalls using the normalized compression distance",
 Commun. Inf. Syst. 5(4)), and a coder that only counts symbols cannot tell x from a shuffle of x.
 

@@ -25,7 +25,7 @@ import numpy as np
 
 from ..cache import SizeCache
 from ..compressors import AUTO_CANDIDATES, Compressor, compressor
-from ..engine import Engine
+from ..engine import Engine, LocalEngine
 from ..items import Item
 from ..units import duration_text, size_text
 from .controls import (
@@ -540,7 +540,6 @@ def choose_for_job(
     budget_seconds: float = DEFAULT_BUDGET_SECONDS,
     candidates: Sequence[str | Compressor] | None = None,
     seed: int = DEFAULT_SEED,
-    jobs: int | None = None,
     strand: str = "one",
     engine: Engine | None = None,
     cache: SizeCache | None = None,
@@ -558,11 +557,14 @@ def choose_for_job(
     job (matrix, tree, groups, derived) takes :func:`choose_compressor`'s choice unless a sample
     of real pairs shows that it finds nothing shared (see ``_check_real_pairs``). The budget is
     checked against a full matrix's time even for nearest, which measures far fewer pairs: on a
-    large set that favours the quicker compressors, as a large set needs.
+    large set that favours the quicker compressors, as a large set needs. The job's time is
+    estimated on the ``engine``'s workers (default: a `LocalEngine` on every core), where the
+    measuring runs too.
     """
     if job not in JOBS:
         raise ValueError(f"unknown job {job!r}; use one of {', '.join(JOBS)}")
-    cores = jobs or _cores()
+    engine = engine or LocalEngine()
+    cores = engine.jobs
     if job in LABELLED_JOBS:
         report = calibrate(
             items,
@@ -616,7 +618,7 @@ def resolve_auto(
     import hashlib
     import json
 
-    from ..distance import MeasurementWarning, content_digest
+    from ..measure import MeasurementWarning, content_digest
 
     labelled = job in LABELLED_JOBS
     cores = engine.jobs
@@ -637,7 +639,7 @@ def resolve_auto(
     if stored is None:
         say(f"auto: calibrating the compressors on these inputs for {job} ...")
         choice = choose_for_job(items, job, targets=targets, budget_seconds=budget_seconds,
-                                jobs=cores, strand=strand, engine=engine, cache=cache)  # fmt: skip
+                                strand=strand, engine=engine, cache=cache)  # fmt: skip
         pair = int(sum(sorted((len(item.data) for item in items), reverse=True)[:2]))
         result = choice.report.result(choice.spec)
         # A labelled choice leads with its task figures; an unlabelled one with the controls'
@@ -690,7 +692,7 @@ def calibration_report(
     import hashlib
     import json
 
-    from ..distance import content_digest
+    from ..measure import content_digest
 
     if budget_seconds is not None and not items:
         raise ValueError("a budget weighs the run time of the inputs' matrix: give inputs")

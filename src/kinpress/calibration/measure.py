@@ -30,6 +30,7 @@ import numpy as np
 from scipy import stats
 
 from ..compressors import Compressor, compressor
+from ..measure import conditional_of, conditions, content_digest, ncd
 from .controls import (
     _STREAM_SWEEP,
     BLOCK_COUNTS,
@@ -73,18 +74,26 @@ class _Meter:
         return self.bytes / 1e6 / max(self.seconds, 1e-9)
 
 
+def _concat_ncd(meter: _Meter, a: bytes, ca: int, b: bytes, cb: int) -> float:
+    """NCD(a, b) with a conditioning b by concatenation: (C(ab) - C(a)) / C(b)."""
+    joined = np.asarray(meter.size(a + b))
+    return float(ncd(conditional_of(joined, np.asarray(ca), "concat"), np.asarray(cb)))
+
+
 def _ncd(meter: _Meter, x: bytes, y: bytes, cx: int | None = None) -> float:
-    """NCD(x, y) = (C(ab) - C(a)) / C(b), the smaller-C input first, as the matrix computes it."""
+    """NCD(x, y) as the matrix computes it: the input that conditions the other
+    (`measure.conditions`: smaller C, ties by content hash) first."""
     cx = meter.size(x) if cx is None else cx
     cy = meter.size(y)
-    (a, ca), (b, cb) = sorted(((x, cx), (y, cy)), key=lambda pair: pair[1])
-    return (meter.size(a + b) - ca) / max(cb, 1)
+    if conditions(cx, content_digest(x), cy, content_digest(y)):
+        return _concat_ncd(meter, x, cx, y, cy)
+    return _concat_ncd(meter, y, cy, x, cx)
 
 
 def _identity(meter: _Meter, x: bytes) -> float:
     """NCD(x, x) = (C(xx) - C(x)) / C(x)."""
     cx = meter.size(x)
-    return (meter.size(x + x) - cx) / max(cx, 1)
+    return _concat_ncd(meter, x, cx, x, cx)
 
 
 # The size sweep

@@ -8,7 +8,7 @@ from collections.abc import Iterator
 from contextlib import contextmanager
 from typing import Any, TextIO
 
-from ..distance import Progress
+from ..measure import Progress
 
 
 def duration(seconds: float) -> str:

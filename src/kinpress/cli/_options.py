@@ -10,8 +10,8 @@ import argparse
 from collections.abc import Callable, Sequence
 
 from ..cache import default_cache_path
-from ..distance import CONDITIONALS, STRANDS
 from ..items import DEFAULT_MAX_FILE_BYTES
+from ..measure import CONDITIONALS, STRANDS
 
 DEFAULT_COMPRESSOR = "auto"
 DEFAULT_BUDGET_SECONDS = 600.0
