@@ -520,3 +520,67 @@ def test_classify_text_has_a_legend_for_every_column_under_its_table(
     rows = [line for line in text[1:] if line.startswith("later.log#")]
     legend = text[1 + len(rows)]
     assert all(f"{column}:" in legend or f"{column}," in legend for column in header[1:])
+
+
+# --- --labels FILE[:COLUMN]: a column by name, unlabelled items named, legends titled ----------
+
+
+@pytest.fixture
+def family_table(tmp_path: Path) -> Path:
+    """Three columns with a header: two label columns, d.txt and c.txt left without a family."""
+    path = tmp_path / "labels.tsv"
+    path.write_text("item\tsystem\tfamily\na.txt\tweb\tfrog\nb.txt\tdb\tfrog\nc.txt\tdb\t\n")
+    return path
+
+
+def test_labels_column_picks_that_column_of_a_table_with_a_header(
+    capsys: pytest.CaptureFixture[str], saved_matrix: Path, family_table: Path
+) -> None:
+    spec = f"{family_table}:family"
+    code, out, err = run(capsys, "groups", "--matrix", str(saved_matrix), "--k", "2",
+                         "--labels", spec, "--json")  # fmt: skip
+    assert code == 0, err
+    assert json.loads(out)["agreement"]["confusion"]["labels"] == ["frog"]
+    code, out, err = run(capsys, "groups", "--matrix", str(saved_matrix), "--k", "2",
+                         "--labels", f"{family_table}:system", "--json")  # fmt: skip
+    assert code == 0, err
+    assert json.loads(out)["agreement"]["confusion"]["labels"] == ["web", "db"]
+
+
+def test_items_without_a_label_are_named_in_one_warning(
+    capsys: pytest.CaptureFixture[str], text_folder: Path, family_table: Path
+) -> None:
+    code, out, err = run(capsys, "matrix", str(text_folder), *FAST, "--json",
+                         "--labels", f"{family_table}:family")  # fmt: skip
+    assert code == 0, err
+    assert json.loads(out)["classes"] == {"a.txt": "frog", "b.txt": "frog", "c.txt": None,
+                                          "d.txt": None}  # fmt: skip
+    warned = [line for line in err.splitlines() if "no family" in line]
+    assert len(warned) == 1
+    assert "warning" in warned[0] and "2 of 4 items" in warned[0]
+    assert "c.txt" in warned[0] and "d.txt" in warned[0]
+
+
+def test_plot_legends_are_titled_by_the_label_column(
+    capsys: pytest.CaptureFixture[str],
+    monkeypatch: pytest.MonkeyPatch,
+    text_folder: Path,
+    saved_matrix: Path,
+    family_table: Path,
+    tmp_path: Path,
+) -> None:
+    from kinpress import plots
+
+    drawn: dict[str, object] = {}
+    monkeypatch.setattr(plots, "plot_tree", lambda tree, path, **kw: drawn.update(kw))
+    code, _, err = run(capsys, "tree", "--matrix", str(saved_matrix), "--plot",
+                       str(tmp_path / "t.png"), "--labels", f"{family_table}:family")  # fmt: skip
+    assert code == 0, err
+    assert drawn["legend_title"] == "family"
+    assert drawn["classes"] == {"a.txt": "frog", "b.txt": "frog"}
+    monkeypatch.setattr(plots, "plot_heatmap", lambda dm, path, **kw: drawn.update(kw))
+    code, _, err = run(capsys, "matrix", str(text_folder), *FAST,
+                       "--plot", str(tmp_path / "h.png"), "-o", str(tmp_path / "m2.tsv"),
+                       "--labels", f"{family_table}:system")  # fmt: skip
+    assert code == 0, err
+    assert drawn["legend_title"] == "system"

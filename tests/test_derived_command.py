@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import csv
+import io
 import json
 import random
 from pathlib import Path
@@ -9,6 +11,8 @@ from pathlib import Path
 import pytest
 
 from kinpress import cli
+from kinpress.formats import FINDING_COLUMNS
+from kinpress.items import unescape_name
 
 WORDS = [f"w{k}" for k in range(400)]
 FAST = ["-c", "zstd:level=3", "--no-cache", "--quiet"]
@@ -64,6 +68,47 @@ def test_text_output_groups_families_and_carries_the_caution(
     assert out.startswith("family 1: ")
     assert "report-copy.txt" in out.splitlines()[0]
     assert "evidence for a person to review, not proof of copying" in out
+
+
+def test_text_output_says_what_each_number_means(
+    share: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    assert cli.main(["derived", str(share), "--exhaustive", *FAST]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    legend = next(line for line in lines if line.startswith("explained: "))
+    assert all(f"{word}:" in legend for word in ("score", "fpr", "shared in order"))
+    assert lines.index(legend) > max(k for k, line in enumerate(lines) if "fpr " in line)
+
+
+@pytest.mark.parametrize("fmt", ["tsv", "csv"])
+def test_findings_table_reads_back_with_the_csv_module_and_names_escaped(
+    share: Path, capsys: pytest.CaptureFixture[str], tmp_path: Path, fmt: str
+) -> None:
+    odd = 'report\tcopy, "quoted".txt'
+    (share / odd).write_bytes((share / "report.txt").read_bytes())
+    out = tmp_path / f"findings.{fmt}"
+    code = cli.main(["derived", str(share), "--exhaustive", *FAST, "--format", fmt,
+                     "-o", str(out)])  # fmt: skip
+    assert code == 0
+    text = out.read_text()
+    if fmt == "tsv":
+        rows = list(csv.reader(io.StringIO(text), delimiter="\t", quoting=csv.QUOTE_NONE))
+    else:
+        rows = list(csv.reader(io.StringIO(text)))
+    assert tuple(rows[0]) == FINDING_COLUMNS
+    assert all(len(row) == len(FINDING_COLUMNS) for row in rows[1:])
+    named = {unescape_name(cell) for row in rows[1:] for cell in row[:2]}
+    assert {odd, "report.txt", "report-copy.txt", "report-part.txt"} <= named
+    assert all(len(row[FINDING_COLUMNS.index("a_hash")]) == 32 for row in rows[1:])
+
+
+def test_json_with_a_table_format_is_a_usage_error(
+    share: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    assert cli.main(["derived", str(share), *FAST, "--json", "--format", "csv"]) == 2
+    assert "--format csv" in capsys.readouterr().err
+    assert cli.main(["derived", str(share), *FAST, "--format", "json"]) == 0
+    assert json.loads(capsys.readouterr().out)
 
 
 def test_help_carries_the_caution(capsys: pytest.CaptureFixture[str]) -> None:

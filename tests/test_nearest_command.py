@@ -72,6 +72,17 @@ def test_nearest_tsv_reads_back_with_escaped_names(
     assert "pairs measured of 28,680" in err
 
 
+def test_nearest_says_what_its_columns_mean_beside_the_tsv(
+    capsys: pytest.CaptureFixture[str], text_folder: Path
+) -> None:
+    code, out, err = run(capsys, "nearest", str(text_folder), *SPEC, "--k", "2")
+    assert code == 0, err
+    assert out.splitlines()[0] == "item\trank\tneighbour\tncd"  # the TSV stays a table
+    legend = [line for line in err.splitlines() if "ncd: " in line]
+    assert len(legend) == 1 and "rank: " in legend[0]
+    assert "normalized compression distance" in legend[0]
+
+
 def test_nearest_json_and_labels(
     capsys: pytest.CaptureFixture[str], chunk_folder: tuple[Path, Path], tmp_path: Path
 ) -> None:

@@ -246,6 +246,19 @@ def test_leaves_are_coloured_by_class_with_a_legend() -> None:
     assert legend == ["frog", "toad", "no class"]
 
 
+def test_the_class_legend_is_titled_as_asked_and_fits_its_title() -> None:
+    tree = random_tree(6)
+    classes = {name: "frog" for name in leaf_order(tree)}
+    title = "a family name wider than any class"
+    fig = drawn(tree_figure(tree, classes=classes, legend_title=title))
+    assert fig.legends[0].get_title().get_text() == title
+    assert inside(fig.legends[0].get_window_extent(), fig.bbox)
+    assert tree_figure(tree, classes=classes).legends[0].get_title().get_text() == "class"
+    heat = drawn(heatmap_figure(matrix(6, classes=True), legend_title=title))
+    assert heat.legends[0].get_title().get_text() == title
+    assert inside(heat.legends[0].get_window_extent(), heat.bbox)
+
+
 def test_labels_with_dollar_signs_are_shown_as_written(tmp_path: Path) -> None:
     labels = ["cost $5", r"$\notacommand$", "a$b$c"]
     tree = build_tree(labels, random_distances(3))

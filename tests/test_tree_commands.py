@@ -155,6 +155,21 @@ def test_groups_tsv_has_item_group_medoid_columns(
     assert all(sum(r[2] == "yes" for r in rows[1:] if r[1] == g) == 1 for g in groups)
 
 
+def test_groups_say_what_the_silhouette_and_agreement_scores_mean(
+    capsys: pytest.CaptureFixture[str],
+) -> None:
+    args = ["groups", str(LOGS / "logs"), "--split", "lines:400", "--k", "4",
+            "-c", "zstd:level=9", "--no-cache"]  # fmt: skip
+    code, _, err = run(args, capsys)
+    assert code == 0, err
+    assert "mean silhouette" in err
+    assert any(line.startswith("kinpress: silhouette: from -1 to 1") for line in err.splitlines())
+    assert "adjusted Rand index:" not in err  # no known labels, no agreement to explain
+    code, _, err = run([*args, "--labels", str(LOGS / "labels.tsv")], capsys)
+    assert code == 0, err
+    assert "adjusted Rand index: how the groups agree" in err and "purity: the share" in err
+
+
 def test_groups_refuse_k_and_cut_together(capsys: pytest.CaptureFixture[str]) -> None:
     code, _, err = run(["groups", str(LOGS / "logs"), "--k", "2", "--cut", "0.5", *FAST], capsys)
     assert code == 2 and "not both" in err

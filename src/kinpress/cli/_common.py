@@ -6,6 +6,7 @@ from __future__ import annotations
 import argparse
 import dataclasses
 import os
+import warnings
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
 from typing import Any
@@ -15,24 +16,18 @@ from ..compressors import SpecError, compressor
 from ..distance import DistanceMatrix, check_matrix_memory, distance_matrix
 from ..engine import DaskEngine, Engine, LocalEngine
 from ..formats import emit, json_text, read_matrix
-from ..items import InputError, Item, load_items, read_labels
+from ..items import (
+    InputError,
+    InputWarning,
+    Item,
+    Labels,
+    escape_name,
+    label_spec,
+    load_items,
+    read_label_table,
+)
 from ._console import Console
 from ._options import UsageError, budget_seconds
-
-
-def human(n: int | None) -> str:
-    """A byte count in the unit it is round in: 32 KiB, 64 KiB - 16 B, 1.5 MB."""
-    if n is None:
-        return "none"
-    if n > 16 and (n + 16) & (n + 15) == 0:
-        return f"{human(n + 16)} - 16 B"
-    for unit, size in (("GiB", 1 << 30), ("MiB", 1 << 20), ("KiB", 1 << 10)):
-        if n >= size and n % size == 0:
-            return f"{n // size} {unit}"
-    for unit, size in (("MB", 10**6), ("kB", 10**3)):
-        if n >= size:
-            return f"{n / size:g} {unit}"
-    return f"{n} B"
 
 
 def table(rows: Sequence[Sequence[str]]) -> str:
@@ -57,8 +52,33 @@ def input_options(args: argparse.Namespace) -> dict[str, Any]:
     return {"follow_links": args.follow_links, "max_file_bytes": args.max_file_size}
 
 
-def load(args: argparse.Namespace) -> list[Item]:
-    return load_items(args.inputs, args.split, getattr(args, "labels", None), **input_options(args))
+def known_labels(args: argparse.Namespace) -> Labels | None:
+    """The label table --labels FILE[:COLUMN] names (None without it): the column given, else
+    the second."""
+    spec = getattr(args, "labels", None)
+    return None if not spec else read_label_table(*label_spec(spec))
+
+
+def warn_unlabelled(labels: Labels, names: Sequence[str], total: int) -> None:
+    """One warning naming how many of `total` items `labels` leaves without a label, and the
+    first few: they are left out of any scoring against the labels."""
+    if not names:
+        return
+    shown = ", ".join(escape_name(name) for name in names[:3])
+    more = f" and {len(names) - 3} more" if len(names) > 3 else ""
+    warnings.warn(
+        f"{labels.source}: no {labels.column} for {len(names)} of {total} items: {shown}{more}",
+        InputWarning,
+        stacklevel=2,
+    )
+
+
+def load(args: argparse.Namespace, labels: Labels | None) -> list[Item]:
+    """The inputs as items, labelled by `labels` (see `known_labels`), unlabelled ones warned of."""
+    items = load_items(args.inputs, args.split, labels, **input_options(args))
+    if labels is not None:
+        warn_unlabelled(labels, labels.missing(items), len(items))
+    return items
 
 
 @contextmanager
@@ -138,13 +158,15 @@ Check = Callable[[Sequence[str]], None]
 def compute_matrix(
     args: argparse.Namespace,
     console: Console,
+    labels: Labels | None,
     check: Check | None = None,
     items: list[Item] | None = None,
 ) -> tuple[DistanceMatrix, list[Item]]:
-    """Load the inputs (unless `items` are given) and compute their matrix as the command line
-    asks, reporting on stderr; `check` sees the item names before anything is computed."""
+    """Load the inputs labelled by `labels` (unless `items` are given) and compute their matrix
+    as the command line asks, reporting on stderr; `check` sees the item names before anything
+    is computed."""
     if items is None:
-        items = load(args)
+        items = load(args, labels)
         if check is not None:
             check([item.name for item in items])
     check_matrix_memory(items)
@@ -164,23 +186,25 @@ def compute_matrix(
 
 
 def matrix_for(
-    args: argparse.Namespace, console: Console, check: Check | None = None
+    args: argparse.Namespace, console: Console, labels: Labels | None, check: Check | None = None
 ) -> tuple[DistanceMatrix, list[Item]]:
     """The matrix a command works on: read with --matrix FILE, else computed from the inputs;
-    `check` sees the item names first."""
+    its classes from `labels` when given; `check` sees the item names first."""
     if args.matrix:
         if args.inputs:
             raise UsageError("give inputs or --matrix FILE, not both")
         dm = read_matrix(args.matrix)
         if check is not None:
             check(dm.labels)
-        if args.labels:
-            known = read_labels(args.labels)
-            dm = dataclasses.replace(dm, classes=tuple(known.get(n) for n in dm.labels))
+        if labels is not None:
+            classes = tuple(labels.label_of(name) for name in dm.labels)
+            dm = dataclasses.replace(dm, classes=classes)
+            unlabelled = [n for n, c in zip(dm.labels, classes, strict=True) if c is None]
+            warn_unlabelled(labels, unlabelled, len(dm))
         return dm, []
     if not args.inputs:
         raise UsageError("give inputs to compare, or --matrix FILE")
-    return compute_matrix(args, console, check)
+    return compute_matrix(args, console, labels, check)
 
 
 def summary(dm: DistanceMatrix, engine: Engine | None = None) -> str:
@@ -206,7 +230,9 @@ def summary(dm: DistanceMatrix, engine: Engine | None = None) -> str:
 def _read_paths(args: argparse.Namespace) -> list[str]:
     """The files and folders this command reads (inputs, reference, labels, a saved matrix)."""
     paths = list(getattr(args, "inputs", None) or [])
-    paths += [getattr(args, key, None) for key in ("reference", "labels", "matrix")]
+    paths += [getattr(args, key, None) for key in ("reference", "matrix")]
+    if getattr(args, "labels", None):
+        paths.append(label_spec(args.labels)[0])
     return [p for p in paths if p and p != "-"]
 
 

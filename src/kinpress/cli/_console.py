@@ -9,15 +9,7 @@ from contextlib import contextmanager
 from typing import Any, TextIO
 
 from ..measure import Progress
-
-
-def duration(seconds: float) -> str:
-    """Seconds as a person reads them: 40 s, 12 min, 3.5 h."""
-    if seconds < 90:
-        return f"{seconds:.0f} s"
-    if seconds < 5400:
-        return f"{seconds / 60:.0f} min"
-    return f"{seconds / 3600:.1f} h"
+from ..units import duration_text
 
 
 class Console:
@@ -59,7 +51,7 @@ class Console:
             left = (now - begun) * (total - done) / done
             self.say(
                 f"{phase}: {done:,} of {total:,} done ({done / total:.0%}), about"
-                f" {duration(left)} left"
+                f" {duration_text(left)} left"
             )
 
         return update

@@ -105,7 +105,12 @@ def measuring(
     )
     reading(group)
     if labels:
-        group.add_argument("--labels", metavar="FILE", help="TSV of item<TAB>label: known labels")
+        group.add_argument(
+            "--labels",
+            metavar="FILE[:COLUMN]",
+            help="known labels: a TSV or CSV of item<TAB>label, or with :COLUMN the column of "
+            "that name in a table with a header (items without one are named on stderr)",
+        )
     running(parser)
 
 

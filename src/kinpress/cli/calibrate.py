@@ -8,8 +8,9 @@ from typing import Any
 from ..compressors import compressor
 from ..formats import emit
 from ..items import load_items
+from ..units import size_text
 from . import _options
-from ._common import check_plot, human, input_options, opened_cache, write_json
+from ._common import check_plot, input_options, opened_cache, write_json
 from ._console import Console
 from ._options import budget_seconds
 
@@ -90,7 +91,7 @@ def _calibration_text(report: Any) -> str:
                 f"{r.mutation_monotonicity:.2f}",
                 "-" if r.mutation_resolution is None else f"{r.mutation_resolution:.0%}",
                 f"{r.mutation_distance:.3f}",
-                ("≥" if r.reliable_capped else "") + human(r.reliable_up_to_bytes),
+                ("≥" if r.reliable_capped else "") + size_text(r.reliable_up_to_bytes),
                 f"{r.throughput_mb_s:.3g}",
             )
         )

@@ -8,7 +8,15 @@ from typing import Any
 from ..formats import emit
 from ..items import escape_name, load_items
 from . import _options
-from ._common import as_usage_errors, input_options, opened_cache, resolve_spec, table, write_json
+from ._common import (
+    as_usage_errors,
+    input_options,
+    known_labels,
+    opened_cache,
+    resolve_spec,
+    table,
+    write_json,
+)
 from ._console import Console
 from ._options import UsageError
 
@@ -82,11 +90,15 @@ def run(args: argparse.Namespace, console: Console) -> int:
                               " it does nothing " + ("with --evaluate" if args.evaluate else
                               "with the conditional method"))  # fmt: skip
     _options.refuse_budget_without_auto(args)
-    if args.labels:
-        reference = load_items([args.reference], args.split, args.labels, **input_options(args))
-        missing = [i.name for i in reference if i.label is None]
+    labels = known_labels(args)
+    if labels is not None:
+        reference = load_items([args.reference], args.split, labels, **input_options(args))
+        missing = labels.missing(reference)
         if missing:
-            raise UsageError(f"{args.labels}: no label for reference item {missing[0]}")
+            raise UsageError(
+                f"{args.labels}: no label for reference item {missing[0]}"
+                + (f" (nor for {len(missing) - 1} more)" if len(missing) > 1 else "")
+            )
     else:
         reference = reference_items(args.reference, args.split, **input_options(args))
     if not args.evaluate and not args.inputs:

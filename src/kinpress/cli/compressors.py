@@ -6,8 +6,9 @@ import argparse
 
 from ..compressors import ADAPTERS, describe
 from ..formats import emit
+from ..units import size_text
 from . import _options
-from ._common import human, table, write_json
+from ._common import table, write_json
 from ._console import Console
 
 
@@ -34,7 +35,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
             r.name,
             r.spec,
             f"{r.levels[0]}-{r.levels[1]}",
-            human(r.window_bytes),
+            "none" if r.window_bytes is None else size_text(r.window_bytes),
             "yes" if r.primed else "no",
             f"{r.overhead_bytes} B",
         )

@@ -5,11 +5,12 @@ from __future__ import annotations
 import argparse
 from typing import TYPE_CHECKING
 
-from ..formats import emit
+from ..formats import FINDING_FORMATS, emit, write_findings
 from ..items import escape_name
 from . import _options
-from ._common import as_usage_errors, load, opened_cache, resolve_spec, write_json
+from ._common import as_usage_errors, load, opened_cache, resolve_spec
 from ._console import Console
+from ._options import UsageError
 
 if TYPE_CHECKING:
     from ..derived import DerivedFinding
@@ -18,6 +19,14 @@ DERIVED_CAUTION = (
     "A finding is evidence for a person to review, not proof of copying: files can share content"
     " through common templates, licences, generated code or a common source."
 )
+
+LEGEND = (
+    "explained: 1 - C(a|b)/C(a), how much of a the other file tells the compressor (0: nothing,"
+    " 1: all of it), and of b; score: the larger of the two; fpr: the estimated share of"
+    " unrelated pairs of the same kind (the set's files against block-shuffled ones) scoring as"
+    " high; shared in order: the share of each file lying in stretches both hold in the same order"
+)
+"""What each number of the text listing means, printed under it."""
 
 
 def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
@@ -35,6 +44,7 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
         "unless --exhaustive. " + DERIVED_CAUTION,
         example=[
             "kinpress derived exports/ --json -o findings.json",
+            "kinpress derived exports/ --format tsv -o findings.tsv",
             "kinpress derived big-share/ --exhaustive",
         ],
     )
@@ -52,7 +62,13 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
         " whatever the rate",
     )
     judge.add_argument("--seed", type=int, default=0, help="seed of the null and the sketches")
-    out = _options.output(parser, "the findings", "a JSON list of findings")
+    out = _options.output(parser, "the findings", "a JSON list of findings (--format json)")
+    out.add_argument(
+        "--format",
+        choices=FINDING_FORMATS,
+        help="a table of findings, one row each (tsv, csv), or json; default: a text listing"
+        " by family",
+    )
     out.add_argument(
         "--same-source",
         action="store_true",
@@ -63,8 +79,10 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
 def run(args: argparse.Namespace, console: Console) -> int:
     from ..derived import families, find_derived
 
+    if args.json and args.format not in (None, "json"):
+        raise UsageError(f"--json and --format {args.format}: give one")
     _options.refuse_budget_without_auto(args)
-    items = load(args)
+    items = load(args, None)
     spec = resolve_spec(args, items, console)
     with as_usage_errors(), opened_cache(args) as cache, console.progress() as progress:
         report = find_derived(
@@ -92,8 +110,9 @@ def run(args: argparse.Namespace, console: Console) -> int:
             " source, nothing copied" + ("" if args.same_source else " (--same-source lists them)")
         )
     shown = report.findings + (report.same_source if args.same_source else ())
-    if args.json:
-        write_json(args, [f.as_json() for f in shown])
+    fmt = "json" if args.json else args.format
+    if fmt is not None:
+        write_findings(shown, args.output, fmt)
         return 0
     lines = []
     for number, family in enumerate(families(report.findings), start=1):
@@ -102,8 +121,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
     if args.same_source and report.same_source:
         lines += ["", "same source, nothing copied:"]
         lines += [f"  {line}" for f in report.same_source for line in _finding_lines(f)]
-    if not lines:
-        lines.append("no derived pairs found")
+    lines += [LEGEND] if lines else ["no derived pairs found"]
     lines += ["", DERIVED_CAUTION]
     emit("\n".join(lines) + "\n", args.output)
     return 0

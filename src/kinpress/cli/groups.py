@@ -3,28 +3,42 @@
 from __future__ import annotations
 
 import argparse
-import dataclasses
 import sys
 from collections.abc import Sequence
-from typing import Any
+from typing import TYPE_CHECKING
 
 from ..distance import TooLarge, check_matrix_memory
-from ..formats import emit
-from ..items import escape_name
+from ..formats import emit, group_lines
+from ..items import Labels
+from ..units import duration_text
 from . import _options
 from ._common import (
     Check,
     as_usage_errors,
     compute_matrix,
+    known_labels,
     load,
     matrix_for,
     opened_cache,
     resolve_spec,
     write_json,
 )
-from ._console import Console, duration
+from ._console import Console
 from ._options import UsageError, budget_seconds
 from .tree import inputs_or_matrix, refuse_measuring
+
+if TYPE_CHECKING:
+    from ..groups import Agreement, GroupingResult
+
+SILHOUETTE_LEGEND = (
+    "silhouette: from -1 to 1, how much nearer an item lies to its own group than to the next"
+    " group (1: far apart, 0: between two, below 0: nearer another), averaged over the items"
+)
+AGREEMENT_LEGEND = (
+    "adjusted Rand index: how the groups agree with the known labels, 1 exactly, 0 no better"
+    " than chance; purity: the share of labelled items whose group's most common label is theirs"
+)
+"""What the scores on stderr mean, said under them."""
 
 
 def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
@@ -51,28 +65,19 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
     _options.output(parser, "the TSV of groups", "a JSON report instead of the TSV")
 
 
-@dataclasses.dataclass(frozen=True)
-class _Grouped:
-    """What the groups report says of the items grouped, whichever route grouped them."""
-
-    labels: tuple[str, ...]
-    classes: tuple[str | None, ...] | None
-    compressor: str
-    conditional: str
-
-
 def _sparse_grouping(
-    args: argparse.Namespace, console: Console, check: Check
-) -> tuple[_Grouped, Any] | None:
+    args: argparse.Namespace, console: Console, labels: Labels | None, check: Check
+) -> GroupingResult | None:
     """Groups from nearest neighbours when the full matrix of the inputs would not fit in memory
     or in --budget seconds (said on stderr), else None: the matrix route (the loaded items are
     left in args.loaded_items)."""
     from ..distance import estimate_matrix_seconds
+    from ..groups import GroupingResult
     from ..neighbours import SAMPLE_ITEMS, sparse_groups
 
     if args.matrix or not args.inputs:
         return None
-    items = load(args)
+    items = load(args, labels)
     check([item.name for item in items])
     try:
         check_matrix_memory(items)
@@ -87,8 +92,8 @@ def _sparse_grouping(
             args.loaded_items = items
             return None
         reason = (
-            f"a full matrix of {len(items):,} items would take about {duration(seconds)},"
-            f" over the --budget of {duration(budget)}"
+            f"a full matrix of {len(items):,} items would take about {duration_text(seconds)},"
+            f" over the --budget of {duration_text(budget)}"
         )
     console.say(
         f"groups: {reason}; grouping from each item's 10 nearest neighbours instead"
@@ -106,15 +111,11 @@ def _sparse_grouping(
         f"nearest: {nb.pairs:,} pairs measured of {nb.possible:,} ({nb.fraction:.2%}),"
         f" {found.sample_pairs_computed:,} more for the sample, in {nb.stats.seconds:.1f} s"
     )
-    classes = tuple(item.label for item in items) if any(i.label for i in items) else None
-    return _Grouped(nb.labels, classes, nb.compressor, nb.conditional), found.grouping
+    classes = [item.label for item in items]
+    return GroupingResult.of(nb.labels, found.grouping, classes, nb.compressor, nb.conditional)
 
 
-def _rounded(value: float) -> float | None:
-    return None if value != value else round(float(value), 6)  # NaN: undefined silhouette
-
-
-def _confusion_text(scores: Any) -> str:
+def _confusion_text(scores: Agreement) -> str:
     head = ["known \\ group", *(str(g) for g in scores.group_ids)]
     body = [
         [label, *(str(int(c)) for c in row)]
@@ -130,49 +131,8 @@ def _confusion_text(scores: Any) -> str:
     )
 
 
-def _report(dm: _Grouped, grouping: Any, scores: Any) -> dict[str, Any]:
-    report: dict[str, Any] = {
-        "items": [
-            {"item": n, "group": int(g), "medoid": bool(m), "outlier": bool(o)}
-            for n, g, m, o in zip(
-                dm.labels,
-                grouping.assignment,
-                grouping.is_medoid,
-                grouping.is_outlier,
-                strict=True,
-            )
-        ],
-        "groups": [
-            {
-                "group": g.index,
-                "size": g.size,
-                "medoid": dm.labels[g.medoid],
-                "silhouette": _rounded(g.silhouette),
-            }
-            for g in grouping.groups
-        ],
-        "k": grouping.k,
-        "method": grouping.method,
-        "silhouette": _rounded(grouping.silhouette),
-        "compressor": dm.compressor,
-        "conditional": dm.conditional,
-    }
-    if scores is not None:
-        report["agreement"] = {
-            "adjusted_rand": round(scores.adjusted_rand, 6),
-            "purity": round(scores.purity, 6),
-            "scored": scores.scored,
-            "confusion": {
-                "labels": list(scores.known_labels),
-                "groups": [int(g) for g in scores.group_ids],
-                "counts": [[int(c) for c in row] for row in scores.confusion],
-            },
-        }
-    return report
-
-
 def run(args: argparse.Namespace, console: Console) -> int:
-    from ..groups import agreement, find_groups
+    from ..groups import GroupingResult, find_groups
 
     if args.k is not None and args.cut is not None:
         raise UsageError("give --k or --cut, not both")
@@ -182,45 +142,40 @@ def run(args: argparse.Namespace, console: Console) -> int:
         if args.k is not None and args.k > len(labels):
             raise UsageError(f"--k {args.k}: more groups than the {len(labels)} items")
 
-    found = _sparse_grouping(args, console, check)
-    if found is None:
+    labels = known_labels(args)
+    result = _sparse_grouping(args, console, labels, check)
+    if result is None:
         loaded = getattr(args, "loaded_items", None)
         if loaded is None:
-            matrix, _ = matrix_for(args, console, check=check)
+            matrix, _ = matrix_for(args, console, labels, check=check)
         else:
-            matrix, _ = compute_matrix(args, console, items=loaded)
+            matrix, _ = compute_matrix(args, console, labels, items=loaded)
         with as_usage_errors():
             grouping = find_groups(
                 matrix.distances, k=args.k, cut=args.cut, report_outliers=args.outliers
             )
-        dm = _Grouped(matrix.labels, matrix.classes, matrix.compressor, matrix.conditional)
-    else:
-        dm, grouping = found
-    rows = ["item\tgroup\tmedoid\toutlier"]
-    for name, group, is_medoid, outlier in zip(
-        dm.labels, grouping.assignment, grouping.is_medoid, grouping.is_outlier, strict=True
-    ):
-        rows.append(
-            f"{escape_name(name)}\t{group}\t{'yes' if is_medoid else 'no'}"
-            f"\t{'yes' if outlier else 'no'}"
+        result = GroupingResult.of(
+            matrix.labels, grouping, matrix.classes, matrix.compressor, matrix.conditional
         )
-    tsv = "\n".join(rows) + "\n"
+    grouping = result.grouping
     outliers = int(sum(grouping.is_outlier))
     console.say(
         f"groups: {grouping.k} by {grouping.method}; mean silhouette {grouping.silhouette:.3f};"
         f" {outliers} outliers {'reported' if args.outliers else 'joined their nearest group'}"
     )
-    scores = None
-    if dm.classes is not None and any(c is not None for c in dm.classes):
-        scores = agreement(list(grouping.assignment), list(dm.classes))
+    scores = result.agreement
+    if scores is not None:
         console.say(
             f"against known labels ({scores.scored} items): adjusted Rand index"
             f" {scores.adjusted_rand:.3f}, purity {scores.purity:.3f}"
         )
         if not args.json and not args.quiet:
             print(_confusion_text(scores), file=sys.stderr)
+    console.say(SILHOUETTE_LEGEND)
+    if scores is not None:
+        console.say(AGREEMENT_LEGEND)
     if args.json:
-        write_json(args, _report(dm, grouping, scores))
+        write_json(args, result.as_json())
     else:
-        emit(tsv, args.output)
+        emit(group_lines(result), args.output)
     return 0

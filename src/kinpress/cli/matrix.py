@@ -6,7 +6,7 @@ import argparse
 
 from ..formats import MATRIX_FORMATS, format_for, write_matrix
 from . import _options
-from ._common import check_plot, compute_matrix, load
+from ._common import check_plot, compute_matrix, known_labels, load
 from ._console import Console
 from ._options import UsageError
 
@@ -43,11 +43,12 @@ def run(args: argparse.Namespace, console: Console) -> int:
     fmt = format_for(args.output, "json" if args.json else args.format)
     check_plot(args.plot)
     _options.refuse_budget_without_auto(args)
-    items = load(args)  # a missing labels file is reported before the check below
-    if fmt != "json":
-        _options.refuse_given(args, ("labels",), f"only the JSON matrix carries labels, not"
-                              f" {fmt}; add --json")  # fmt: skip
-    dm, _ = compute_matrix(args, console, items=items)
+    labels = known_labels(args)  # a missing labels file is reported before the check below
+    if fmt != "json" and not args.plot:
+        _options.refuse_given(args, ("labels",), f"only the JSON matrix and the --plot carry"
+                              f" labels, not {fmt}; add --json or --plot")  # fmt: skip
+    items = load(args, labels)
+    dm, _ = compute_matrix(args, console, labels, items=items)
     write_matrix(dm, args.output, fmt)
     if args.plot:
         from ..plots import plot_heatmap
@@ -55,5 +56,6 @@ def run(args: argparse.Namespace, console: Console) -> int:
 
         # Average-linkage leaf order puts near items side by side, so groups show as blocks.
         order = leaf_order(build_tree(dm.labels, dm.distances, method="average"))
-        plot_heatmap(dm, args.plot, order=order)
+        title = "class" if labels is None else labels.column
+        plot_heatmap(dm, args.plot, order=order, legend_title=title)
     return 0

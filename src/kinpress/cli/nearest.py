@@ -8,8 +8,15 @@ import itertools
 from ..formats import emit
 from ..items import escape_name
 from . import _options
-from ._common import as_usage_errors, load, opened_cache, resolve_spec, write_json
+from ._common import as_usage_errors, known_labels, load, opened_cache, resolve_spec, write_json
 from ._console import Console
+
+LEGEND = (
+    "rank: 1 for an item's nearest neighbour; ncd: the normalized compression distance"
+    " max(C(x|y), C(y|x)) / max(C(x), C(y)), near 0 for the same content, near 1 for unrelated"
+    " (a little above 1 happens: compressors are not ideal)"
+)
+"""What the columns of the TSV mean, said on stderr beside it."""
 
 
 def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
@@ -37,7 +44,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
     from ..neighbours import nearest_neighbours
 
     _options.refuse_budget_without_auto(args)
-    items = load(args)
+    items = load(args, known_labels(args))
     spec = resolve_spec(args, items, console)
     with as_usage_errors(), opened_cache(args) as cache, console.progress() as progress:
         found = nearest_neighbours(
@@ -68,6 +75,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
     if args.json:
         write_json(args, found.as_json())
         return 0
+    console.say(LEGEND)
     header = ["item\trank\tneighbour\tncd\n"]
     rows = (f"{escape_name(a)}\t{r}\t{escape_name(b)}\t{d:.6f}\n" for a, r, b, d in found.rows())
     emit(itertools.chain(header, rows), args.output)

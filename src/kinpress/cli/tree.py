@@ -10,7 +10,7 @@ from ..compressors import compressor
 from ..distance import DistanceMatrix
 from ..formats import emit
 from . import _options
-from ._common import as_usage_errors, check_plot, matrix_for, write_json
+from ._common import as_usage_errors, check_plot, known_labels, matrix_for, write_json
 from ._console import Console
 from ._options import UsageError
 
@@ -96,7 +96,7 @@ def classes(dm: DistanceMatrix) -> dict[str, str] | None:
 
 def run(args: argparse.Namespace, console: Console) -> int:
     from ..support import bootstrap_support
-    from ..trees import build_tree, fit_correlation, outgroup_root, to_newick
+    from ..trees import Resampling, TreeResult, build_tree, outgroup_root
 
     if args.bootstrap and args.matrix:
         raise UsageError("--bootstrap resamples the items, so it needs inputs, not --matrix")
@@ -110,19 +110,22 @@ def run(args: argparse.Namespace, console: Console) -> int:
     def check(labels: Sequence[str]) -> None:
         _outgroup(args.outgroup, labels)
 
-    dm, items = matrix_for(args, console, check=check)
+    labels = known_labels(args)
+    dm, items = matrix_for(args, console, labels, check=check)
     outgroup = _outgroup(args.outgroup, dm.labels)
+    support = None
     with as_usage_errors():
         tree = build_tree(dm.labels, dm.distances, method=args.method, outgroup=outgroup)
         if args.bootstrap:
+            support = Resampling(args.bootstrap, args.block_fraction, args.seed)
             with console.progress() as progress:
                 tree = bootstrap_support(
                     tree,
                     items,
                     compressor(dm.compressor),
-                    replicates=args.bootstrap,
-                    block_fraction=args.block_fraction,
-                    seed=args.seed,
+                    replicates=support.replicates,
+                    block_fraction=support.block_fraction,
+                    seed=support.seed,
                     method=args.method,
                     conditional=args.conditional,
                     strand=args.strand,
@@ -131,43 +134,23 @@ def run(args: argparse.Namespace, console: Console) -> int:
                 )
     if outgroup is not None and args.bootstrap:
         tree = outgroup_root(tree, outgroup)
-    fit = fit_correlation(tree, dm.labels, dm.distances)
-    rooting = (
-        f"on {', '.join(outgroup)}"
-        if outgroup
-        else "at the midpoint"
-        if args.method == "nj"
-        else "by construction"
-    )
+    result = TreeResult.of_matrix(tree, args.method, dm, outgroup, support)
     console.say(
-        f"tree: {args.method}, {len(dm)} leaves, rooted {rooting}; fit: path lengths correlate"
-        f" with distances at r = {fit:.3f}"
+        f"tree: {args.method}, {result.leaves} leaves, rooted {result.rooting}; fit: path"
+        f" lengths correlate with distances at r = {result.fit:.3f}"
     )
-    newick = to_newick(tree) + "\n"
     if args.plot:
         from ..plots import plot_tree
 
-        plot_tree(tree, args.plot, classes=classes(dm), scale_label="NCD")
+        plot_tree(
+            tree,
+            args.plot,
+            classes=classes(dm),
+            scale_label="NCD",
+            legend_title="class" if labels is None else labels.column,
+        )
     if args.json:
-        report = {
-            "newick": newick.strip(),
-            "method": args.method,
-            "rooting": rooting,
-            "outgroup": outgroup,
-            "leaves": len(dm),
-            "fit": round(fit, 6),
-            "bootstrap": None
-            if not args.bootstrap
-            else {
-                "replicates": args.bootstrap,
-                "block_fraction": args.block_fraction,
-                "seed": args.seed,
-            },
-            "compressor": dm.compressor,
-            "conditional": dm.conditional,
-            "strand": dm.strand,
-        }
-        write_json(args, report)
+        write_json(args, result.as_json())
     else:
-        emit(newick, args.output)
+        emit(result.newick + "\n", args.output)
     return 0

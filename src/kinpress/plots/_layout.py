@@ -164,15 +164,18 @@ class _Page:
 _LEGEND_FONT = 9.0
 
 
-def _legend_size(names: Sequence[str]) -> tuple[float, float]:
+def _legend_size(names: Sequence[str], title: str = "class") -> tuple[float, float]:
     """Width and height in inches of the class legend drawn by :func:`_legend`."""
     em = _LEGEND_FONT / 72
-    width = max(_text_width(names, _LEGEND_FONT) + 2.0 * em, _text_width(["class"], _LEGEND_FONT))
+    width = max(_text_width(names, _LEGEND_FONT) + 2.0 * em, _text_width([title], _LEGEND_FONT))
     return width, (len(names) + 1) * 1.75 * em
 
 
-def _legend(fig: Figure, colours: Mapping[str, Colour], corner: tuple[float, float]) -> None:
-    """Class legend, a square of colour per class, with its upper left ``corner`` there."""
+def _legend(
+    fig: Figure, colours: Mapping[str, Colour], corner: tuple[float, float], title: str = "class"
+) -> None:
+    """Class legend, a square of colour per class under ``title``, with its upper left
+    ``corner`` there."""
     handles = [
         Line2D([], [], linestyle="", marker="s", markersize=8, color=colour)
         for colour in colours.values()
@@ -180,7 +183,7 @@ def _legend(fig: Figure, colours: Mapping[str, Colour], corner: tuple[float, flo
     fig.legend(
         handles,
         [_literal(name) for name in colours],
-        title="class",
+        title=_literal(title),
         loc="upper left",
         bbox_to_anchor=corner,
         borderaxespad=0,

@@ -97,7 +97,11 @@ class _HeatmapSizes:
 
 
 def _heatmap_sizes(
-    labels: Sequence[str], legend: Sequence[str], header: tuple[float, float], strips: bool
+    labels: Sequence[str],
+    legend: Sequence[str],
+    header: tuple[float, float],
+    strips: bool,
+    legend_title: str,
 ) -> _HeatmapSizes:
     """Cells sized for the names up to :data:`LABEL_LIMIT` items, a fixed square beyond."""
     count = len(labels)
@@ -106,7 +110,7 @@ def _heatmap_sizes(
     side = max(4.5, count * 1.4 * font / 72) if named else 9.0
     names = (_text_width(labels, font) + 4 / 72) if named else 0.35
     strip = _STRIP + _STRIP_GAP if strips else 0.0
-    legend_width, legend_height = _legend_size(legend) if legend else (-0.2, 0.0)
+    legend_width, legend_height = _legend_size(legend, legend_title) if legend else (-0.2, 0.0)
     left, bottom = _MARGIN + names + strip, _MARGIN + names
     page = _Page(
         width=max(left + side + _BAR_ROOM + 0.2 + legend_width, _MARGIN + header[0]) + _MARGIN,
@@ -159,7 +163,11 @@ def _class_strips(fig: Figure, ax: Axes, sizes: _HeatmapSizes, colours: Sequence
 
 
 def heatmap_figure(
-    dm: DistanceMatrix, *, order: Sequence[str] | None = None, title: str | None = None
+    dm: DistanceMatrix,
+    *,
+    order: Sequence[str] | None = None,
+    title: str | None = None,
+    legend_title: str = "class",
 ) -> Figure:
     """The distances as a heatmap, rows and columns in ``order`` (default: as in ``dm``), e.g. a
     tree's leaf order.
@@ -168,8 +176,9 @@ def heatmap_figure(
     states; the diagonal, and any distance not measured, is grey.
 
     Rows and columns are named up to :data:`LABEL_LIMIT` items; known classes colour a strip
-    along the left and top edges. Axes carry the labels ``matrix``, ``colorbar`` and, with
-    classes, ``row-classes`` and ``column-classes``.
+    along the left and top edges, and a legend titled ``legend_title`` names them. Axes carry
+    the labels ``matrix``, ``colorbar`` and, with classes, ``row-classes`` and
+    ``column-classes``.
     """
     index = _permutation(dm, order)
     labels = [dm.labels[i] for i in index]
@@ -178,7 +187,8 @@ def heatmap_figure(
     colours = _class_colours(classes)
     low, high = _colour_range(values)
     caption = _caption(dm, low, high)
-    sizes = _heatmap_sizes(labels, list(colours), _heading_size(title, caption), bool(classes))
+    header = _heading_size(title, caption)
+    sizes = _heatmap_sizes(labels, list(colours), header, bool(classes), legend_title)
     page = sizes.page
     fig = Figure(figsize=(page.width, page.height))
     ax = fig.add_axes(page.rect(sizes.left, sizes.bottom, sizes.side, sizes.side), label="matrix")
@@ -193,7 +203,7 @@ def heatmap_figure(
     fig.colorbar(image, cax=fig.add_axes(bar_rect, label="colorbar")).set_label("NCD")
     if colours:
         corner = page.point(sizes.left + sizes.side + _BAR_ROOM + 0.2, sizes.top)
-        _legend(fig, colours, corner)
+        _legend(fig, colours, corner, legend_title)
     _heading(fig, page, page.height - _MARGIN, title, caption)
     return fig
 
@@ -204,7 +214,8 @@ def plot_heatmap(
     *,
     order: Sequence[str] | None = None,
     title: str | None = None,
+    legend_title: str = "class",
 ) -> None:
     """Write :func:`heatmap_figure` to ``path`` (.png, .svg or .pdf)."""
     figure_format(path)
-    write_figure(heatmap_figure(dm, order=order, title=title), path)
+    write_figure(heatmap_figure(dm, order=order, title=title, legend_title=legend_title), path)

@@ -100,14 +100,16 @@ class _TreeSizes:
         return self.page.height - _MARGIN - self.heading
 
 
-def _tree_sizes(names: Sequence[str], legend: Sequence[str], title: str | None) -> _TreeSizes:
+def _tree_sizes(
+    names: Sequence[str], legend: Sequence[str], title: str | None, legend_title: str
+) -> _TreeSizes:
     """Row pitch and font from the leaf count; label and legend room from measured text."""
     font = _font_size(len(names))
     marker = 0.55 * font if legend else 0.0
     offset = marker / 2 + 3
     labels = offset / 72 + _text_width(names, font)
     rows = len(names) * 1.55 * font / 72
-    legend_width, legend_height = _legend_size(legend) if legend else (-0.3, 0.0)
+    legend_width, legend_height = _legend_size(legend, legend_title) if legend else (-0.3, 0.0)
     heading_width, heading = _heading_size(title)
     page = _Page(
         width=2 * _MARGIN + max(_TREE_WIDTH + labels + 0.3 + legend_width, heading_width),
@@ -231,20 +233,22 @@ def tree_figure(
     classes: Mapping[str, str] | None = None,
     title: str | None = None,
     scale_label: str = "distance",
+    legend_title: str = "class",
 ) -> Figure:
     """A rectangular phylogram of ``tree``: root at the left, one leaf per row, top to bottom in
     :func:`~kinpress.trees.leaf_order`.
 
     x is the summed branch length from the root (each branch counts one when the tree has no
     lengths, and then there is no scale bar). Supports are printed, as whole percentages, just
-    left of their nodes; ``classes`` (leaf name → class) colours leaves and adds a legend.
+    left of their nodes; ``classes`` (leaf name → class) colours leaves and adds a legend titled
+    ``legend_title`` (what the classes are, e.g. the label table's column).
     Leaf labels carry the gid ``leaf-<row>``, support labels ``support-<k>``.
     """
     names = leaf_order(tree)
     at = _positions(tree)
     leaf_classes = [classes.get(name, _NO_CLASS) for name in names] if classes is not None else []
     colours = _class_colours(leaf_classes)
-    sizes = _tree_sizes(names, list(colours), title)
+    sizes = _tree_sizes(names, list(colours), title, legend_title)
     fig = Figure(figsize=(sizes.page.width, sizes.page.height))
     ax = _tree_axes(fig, sizes, at)
     line_width = float(np.clip(sizes.font / 9, 0.5, 1.1))
@@ -256,7 +260,7 @@ def tree_figure(
     _heading(fig, sizes.page, sizes.page.height - _MARGIN, title)
     if colours:
         left = _MARGIN + _TREE_WIDTH + sizes.labels + 0.3
-        _legend(fig, colours, sizes.page.point(left, sizes.tree_top))
+        _legend(fig, colours, sizes.page.point(left, sizes.tree_top), legend_title)
     return fig
 
 
@@ -267,7 +271,11 @@ def plot_tree(
     classes: Mapping[str, str] | None = None,
     title: str | None = None,
     scale_label: str = "distance",
+    legend_title: str = "class",
 ) -> None:
     """Write :func:`tree_figure` to ``path`` (.png, .svg or .pdf)."""
     figure_format(path)
-    write_figure(tree_figure(tree, classes=classes, title=title, scale_label=scale_label), path)
+    fig = tree_figure(
+        tree, classes=classes, title=title, scale_label=scale_label, legend_title=legend_title
+    )
+    write_figure(fig, path)
