@@ -37,7 +37,7 @@ cut on the score can be given instead.
 from __future__ import annotations
 
 import warnings
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, replace
 from typing import Any, Self
 
@@ -473,21 +473,40 @@ def _auc(positive: np.ndarray, values: np.ndarray) -> float:
     return float((ranks[positive].sum() - hits * (hits + 1) / 2) / (hits * misses))
 
 
-def novelty_aucs(scores: np.ndarray, codes: np.ndarray) -> tuple[float, float]:
-    """How well fit and separation tell the held-out items of an origin missing from the
-    reference from those of the others (ROC AUC, 1 = perfectly), each origin left out in turn."""
+@dataclass(frozen=True)
+class _LeftOut:
+    """The held-out scores with one origin left out of the reference: `known` rows are the
+    other origins' items, `reduced` the scores on the kept origins, `relabel` the known rows'
+    origins among those, `centre` and `scale` the kept origins' profile (see _profile)."""
+
+    known: np.ndarray
+    reduced: np.ndarray
+    relabel: np.ndarray
+    centre: np.ndarray
+    scale: np.ndarray
+
+
+def _leave_each_origin_out(scores: np.ndarray, codes: np.ndarray) -> Iterator[_LeftOut]:
+    """Each origin left out in turn, where both it and the rest have held-out items."""
     m = scores.shape[1]
-    fit_aucs, separation_aucs = [], []
-    for missing in range(m):
+    for missing in range(m if m >= 2 else 0):
         keep = np.array([o for o in range(m) if o != missing])
         known = codes != missing
-        if known.all() or not known.any() or keep.size == 0:
+        if known.all() or not known.any():
             continue
         reduced = scores[:, keep]
         relabel = np.searchsorted(keep, codes[known])
         centre, scale = _profile(reduced[known], relabel)
-        found = _statistics(reduced, centre, scale, reduced.argmin(axis=1))
-        stranger = ~known
+        yield _LeftOut(known, reduced, relabel, centre, scale)
+
+
+def novelty_aucs(scores: np.ndarray, codes: np.ndarray) -> tuple[float, float]:
+    """How well fit and separation tell the held-out items of an origin missing from the
+    reference from those of the others (ROC AUC, 1 = perfectly), each origin left out in turn."""
+    fit_aucs, separation_aucs = [], []
+    for out in _leave_each_origin_out(scores, codes):
+        found = _statistics(out.reduced, out.centre, out.scale, out.reduced.argmin(axis=1))
+        stranger = ~out.known
         fit_aucs.append(_auc(stranger, found["fit"]))
         separation_aucs.append(_auc(stranger, found["separation"]))
     if not fit_aucs:
@@ -502,20 +521,13 @@ def novelty_detection(
     test refuses at `significance`, each origin left out in turn: the others' held-out items
     calibrate, as they would for new data (pooled conformal p-values), and the left-out
     origin's items are scored on the rest. NaN with fewer than three origins."""
-    m = scores.shape[1]
     refused: dict[str, list[float]] = {test: [] for test in TESTS}
-    for missing in range(m if m >= 3 else 0):
-        keep = np.array([o for o in range(m) if o != missing])
-        known = codes != missing
-        if known.all() or not known.any():
-            continue
-        reduced = scores[:, keep]
-        relabel = np.searchsorted(keep, codes[known])
-        centre, scale = _profile(reduced[known], relabel)
-        calibration = _statistics(reduced[known], centre, scale, relabel)
-        strangers = _statistics(reduced[~known], centre, scale, reduced[~known].argmin(axis=1))
+    for out in _leave_each_origin_out(scores, codes) if scores.shape[1] >= 3 else ():
+        known, strangers = out.reduced[out.known], out.reduced[~out.known]
+        calibration = _statistics(known, out.centre, out.scale, out.relabel)
+        strange = _statistics(strangers, out.centre, out.scale, strangers.argmin(axis=1))
         for test in TESTS:
-            p = conformal_p_values(calibration[test], strangers[test])
+            p = conformal_p_values(calibration[test], strange[test])
             refused[test].append(float(np.mean(p <= significance)))
     return {test: float(np.mean(v)) if v else float("nan") for test, v in refused.items()}
 
