@@ -11,7 +11,7 @@ partner no longer fit the window or block, identity distances jump towards 1
 (Cebrián, Alfonseca & Ortega 2005, "Common pitfalls using the normalized compression distance",
 Commun. Inf. Syst. 5(4)), and a coder that only counts symbols cannot tell x from a shuffle of x.
 
-The package in three steps, each a module:
+The package in three steps, each a module, and the cached entry points:
 
 * :mod:`.controls`: the inputs with known answers (identity, independence, composition, a
   mutation ladder, block moves), made from the user's items or synthetic text by a seed;
@@ -20,8 +20,11 @@ The package in three steps, each a module:
   figures into a reliable size and a resolution;
 * :mod:`.choose`: the recommendation and its reasons in words, job-time estimates, and
   :func:`choose_for_job`, the one function ``-c auto`` calls for every job kind.
+* :mod:`.auto`: :func:`resolve_auto` (``-c auto``: that choice, kept in the size cache) and
+  :func:`calibration_report` (what ``kinpress calibrate`` reports, kept there too).
 """
 
+from .auto import calibration_report, resolve_auto
 from .choose import (
     DEFAULT_BUDGET_SECONDS,
     DEFAULT_CANDIDATES,
@@ -31,13 +34,11 @@ from .choose import (
     Choice,
     TaskFigures,
     calibrate,
-    calibration_report,
     choose_compressor,
     choose_for_job,
     estimate_classify_seconds,
     estimate_job_seconds,
     holds,
-    resolve_auto,
 )
 from .controls import BLOCK_COUNTS, DEFAULT_SEED, MUTATION_RATES, Controls, make_controls
 from .measure import (
