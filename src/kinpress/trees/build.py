@@ -11,7 +11,7 @@ from scipy.cluster.hierarchy import linkage
 from scipy.spatial.distance import squareform
 
 from ..distance import check_distances
-from .node import _LINKAGE_METHODS, LinkageMethod, Method, Node
+from .node import _LINKAGE_METHODS, FloatMatrix, LinkageMethod, Method, Node
 from .rooting import midpoint_root, outgroup_root
 
 
@@ -52,48 +52,70 @@ def neighbour_joining(labels: Sequence[str], distances: npt.ArrayLike) -> Node:
     joined = 0
     while m > 2:
         dm = d[:m, :m]
-        # Q_ij / (m − 2) = d_ij − s_i − s_j with s = r / (m − 2); taking s_i off only the row
-        # minima leaves two passes over the matrix per step, one to build and one to search.
-        s = r[:m] / (m - 2)
-        # A contiguous m×m view keeps those passes at memory speed.
-        q = q_buffer[: m * m].reshape(m, m)
-        np.subtract(dm, s, out=q)
-        np.fill_diagonal(q, np.inf)
-        best = q.argmin(axis=1)
-        i = int((q[np.arange(m), best] - s).argmin())
-        a, b = sorted((i, int(best[i])))
-        dab = float(dm[a, b])
-        length_a = dab / 2 + float(r[a] - r[b]) / (2 * (m - 2))
-        length_b = dab - length_a
-        if length_a < 0:
-            length_a, length_b = 0.0, dab
-        elif length_b < 0:
-            length_a, length_b = dab, 0.0
+        a, b = _closest_pair(dm, r[:m], q_buffer)
+        length_a, length_b = _branch_lengths(float(dm[a, b]), float(r[a] - r[b]), m)
         new_node = Node(
             children=(replace(nodes[a], length=length_a), replace(nodes[b], length=length_b))
         )
-
-        new_row = (dm[a] + dm[b] - dab) / 2
-        r[:m] += new_row - dm[a] - dm[b]
-        new_row[a] = new_row[b] = 0.0
-        dm[a, :] = new_row
-        dm[:, a] = new_row
-        r[a] = new_row.sum()
-        nodes[a] = new_node
-
-        last = m - 1
-        if b != last:
-            dm[b, :] = dm[last, :]
-            dm[:, b] = dm[:, last]
-            dm[b, b] = 0.0
-            r[b] = r[last]
-            nodes[b] = nodes[last]
-        nodes.pop()
+        _join(dm, r, nodes, a, b, new_node)
         joined = a
         m -= 1
 
     centre, other = nodes[joined], nodes[1 - joined]
     return Node(children=(*centre.children, replace(other, length=max(float(d[0, 1]), 0.0))))
+
+
+def _closest_pair(dm: FloatMatrix, r: FloatMatrix, q_buffer: FloatMatrix) -> tuple[int, int]:
+    """The pair (a < b) of the m active nodes that minimises Q (see `neighbour_joining`)."""
+    m = len(dm)
+    # Q_ij / (m − 2) = d_ij − s_i − s_j with s = r / (m − 2); taking s_i off only the row
+    # minima leaves two passes over the matrix per step, one to build and one to search.
+    s = r / (m - 2)
+    # A contiguous m×m view keeps those passes at memory speed.
+    q = q_buffer[: m * m].reshape(m, m)
+    np.subtract(dm, s, out=q)
+    np.fill_diagonal(q, np.inf)
+    best = q.argmin(axis=1)
+    i = int((q[np.arange(m), best] - s).argmin())
+    a, b = sorted((i, int(best[i])))
+    return a, b
+
+
+def _branch_lengths(dab: float, r_difference: float, m: int) -> tuple[float, float]:
+    """δ_au and δ_bu of the joined pair, a negative one set to zero and the difference moved to
+    its sibling (see `neighbour_joining`)."""
+    length_a = dab / 2 + r_difference / (2 * (m - 2))
+    length_b = dab - length_a
+    if length_a < 0:
+        length_a, length_b = 0.0, dab
+    elif length_b < 0:
+        length_a, length_b = dab, 0.0
+    return length_a, length_b
+
+
+def _join(
+    dm: FloatMatrix, r: FloatMatrix, nodes: list[Node], a: int, b: int, new_node: Node
+) -> None:
+    """Put the joined node in slot a of the working matrix `dm` (m×m), its row sums `r` and
+    `nodes`, and move the last active node into slot b."""
+    m = len(dm)
+    dab = float(dm[a, b])
+    new_row = (dm[a] + dm[b] - dab) / 2
+    r[:m] += new_row - dm[a] - dm[b]
+    new_row[a] = new_row[b] = 0.0
+    dm[a, :] = new_row
+    dm[:, a] = new_row
+    r[a] = new_row.sum()
+    nodes[a] = new_node
+
+    last = m - 1
+    if b != last:
+        dm[b, :] = dm[last, :]
+        dm[:, b] = dm[:, last]
+        dm[b, b] = 0.0
+        r[b] = r[last]
+        nodes[b] = nodes[last]
+    nodes.pop()
 
 
 def linkage_tree(

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 import re
+from dataclasses import dataclass
 
 from ..items import escape_name, unescape_name
 from .node import Node
@@ -81,65 +82,87 @@ def parse_newick(text: str) -> Node:
     unquoted underscores are kept.
     """
     open_groups: list[list[Node]] = []
-    children: tuple[Node, ...] = ()
-    label: str | None = None
-    quoted = False
-    length: float | None = None
-    want_length = False
+    pending = _Pending()
     root: Node | None = None
-
-    def fail(message: str, position: int) -> ValueError:
-        return ValueError(f"bad Newick at character {position + 1}: {message}")
-
-    def finish(position: int) -> Node:
-        if want_length:
-            raise fail("':' without a branch length", position)
-        if not children:
-            return Node(name=label, length=length)
-        if label is not None and not quoted and _NUMBER.fullmatch(label):
-            return Node(length=length, children=children, support=float(label))
-        return Node(name=label, length=length, children=children)
-
     position = 0
     while position < len(text):
         match = _TOKEN.match(text, position)
         if match is None:
-            raise fail(f"unexpected {text[position]!r}", position)
+            raise _fail(f"unexpected {text[position]!r}", position)
         token = match.group()
-        if root is not None and not (token.isspace() or token.startswith("[")):
-            raise fail("text after the closing ';'", position)
-        if token.isspace() or token.startswith("["):
-            pass
-        elif token == "(":
-            if children or label is not None or length is not None or want_length:
-                raise fail("'(' after a label or length", position)
-            open_groups.append([])
-        elif token in ",)":
-            if not open_groups:
-                raise fail(f"{token!r} outside parentheses", position)
-            open_groups[-1].append(finish(position))
-            children = tuple(open_groups.pop()) if token == ")" else ()
-            label, quoted, length = None, False, None
-        elif token == ":":
-            if length is not None or want_length:
-                raise fail("second branch length", position)
-            want_length = True
-        elif token == ";":
-            if open_groups:
-                raise fail(f"{len(open_groups)} unclosed '('", position)
-            root = finish(position)
-        elif want_length:
-            if not _NUMBER.fullmatch(token):
-                raise fail(f"branch length {token!r} is not a number", position)
-            length = float(token)
-            want_length = False
-        elif label is not None or length is not None:
-            raise fail(f"unexpected label {token!r}", position)
-        elif token.startswith("'"):
-            label, quoted = unescape_name(token[1:-1].replace("''", "'")), True
-        else:
-            label, quoted = unescape_name(token), False
+        skipped = token.isspace() or token.startswith("[")
+        if root is not None and not skipped:
+            raise _fail("text after the closing ';'", position)
+        if not skipped:
+            root = _read(token, position, pending, open_groups)
         position = match.end()
     if root is None:
         raise ValueError("bad Newick: no closing ';'")
     return root
+
+
+def _fail(message: str, position: int) -> ValueError:
+    return ValueError(f"bad Newick at character {position + 1}: {message}")
+
+
+@dataclass
+class _Pending:
+    """The node being read: its children (once its ')' is read), label and branch length, and
+    whether a ':' awaits its length."""
+
+    children: tuple[Node, ...] = ()
+    label: str | None = None
+    quoted: bool = False
+    length: float | None = None
+    want_length: bool = False
+
+    def node(self, position: int) -> Node:
+        if self.want_length:
+            raise _fail("':' without a branch length", position)
+        if not self.children:
+            return Node(name=self.label, length=self.length)
+        if self.label is not None and not self.quoted and _NUMBER.fullmatch(self.label):
+            return Node(length=self.length, children=self.children, support=float(self.label))
+        return Node(name=self.label, length=self.length, children=self.children)
+
+
+def _read(
+    token: str, position: int, pending: _Pending, open_groups: list[list[Node]]
+) -> Node | None:
+    """Take one token (not a blank or comment) into `pending` and `open_groups`; the root once
+    the closing ';' is read, else None."""
+    if token == "(":
+        if (
+            pending.children
+            or pending.label is not None
+            or pending.length is not None
+            or pending.want_length
+        ):
+            raise _fail("'(' after a label or length", position)
+        open_groups.append([])
+    elif token in ",)":
+        if not open_groups:
+            raise _fail(f"{token!r} outside parentheses", position)
+        open_groups[-1].append(pending.node(position))
+        pending.children = tuple(open_groups.pop()) if token == ")" else ()
+        pending.label, pending.quoted, pending.length = None, False, None
+    elif token == ":":
+        if pending.length is not None or pending.want_length:
+            raise _fail("second branch length", position)
+        pending.want_length = True
+    elif token == ";":
+        if open_groups:
+            raise _fail(f"{len(open_groups)} unclosed '('", position)
+        return pending.node(position)
+    elif pending.want_length:
+        if not _NUMBER.fullmatch(token):
+            raise _fail(f"branch length {token!r} is not a number", position)
+        pending.length = float(token)
+        pending.want_length = False
+    elif pending.label is not None or pending.length is not None:
+        raise _fail(f"unexpected label {token!r}", position)
+    elif token.startswith("'"):
+        pending.label, pending.quoted = unescape_name(token[1:-1].replace("''", "'")), True
+    else:
+        pending.label, pending.quoted = unescape_name(token), False
+    return None
