@@ -40,6 +40,7 @@ from .controls import (
 from .measure import (
     DEFAULT_MAX_BYTES,
     DEFAULT_SWEEP_SECONDS,
+    BlindSpot,
     CalibrationReport,
     CompressorCalibration,
     Normality,
@@ -700,6 +701,7 @@ def calibration_report(
         *sorted(content_digest(item.data).hex() for item in items or ()),
         *(compressor(spec).cache_key for spec in candidates),
         f"seed={seed} max_bytes={max_bytes} budget={budget_seconds} cores={jobs}",
+        "known-answers",  # reports kept before the known answers are measured again
     ]
     key = "calibrate:" + hashlib.blake2b("\n".join(lines).encode(), digest_size=16).hexdigest()
     stored = cache.get_choice(key) if cache is not None else None
@@ -722,12 +724,17 @@ def _report_from_json(text: str) -> CalibrationReport:
 
     doc = json.loads(text)
     derived = {"mutation_distance", "quality"}
+    spot_derived = {"below", "sees_structure"}
     results = []
     for entry in doc["compressors"]:
         fields = {k: v for k, v in entry.items() if k not in derived}
         fields["normality"] = Normality(**fields["normality"])
         for curve in ("size_sweep", "mutation_ladder", "block_moves"):
             fields[curve] = tuple(tuple(point) for point in fields[curve])
+        fields["blind_spots"] = tuple(
+            BlindSpot(**{k: v for k, v in spot.items() if k not in spot_derived})
+            for spot in fields.get("blind_spots", ())
+        )
         results.append(CompressorCalibration(**fields))
     return CalibrationReport(doc["seed"], doc["inputs"], tuple(results), doc["recommended"],
                              tuple(doc["reasons"]))  # fmt: skip
