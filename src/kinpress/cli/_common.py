@@ -151,6 +151,15 @@ def resolve_spec(
     return str(args.compressor)
 
 
+def check_strands(args: argparse.Namespace, items: Sequence[Item]) -> None:
+    """Under --strand one, warn of DNA records that look deposited on the other strand (a
+    k-mer check of record pairs, no compression; see kinpress.strands)."""
+    if args.strand == "one" and any(item.nucleotide for item in items):
+        from ..strands import warn_flipped_strands
+
+        warn_flipped_strands(items)
+
+
 Check = Callable[[Sequence[str]], None]
 """Checks a command makes on the item names before any work (an outgroup, a group count)."""
 
@@ -170,6 +179,7 @@ def compute_matrix(
         if check is not None:
             check([item.name for item in items])
     check_matrix_memory(items)
+    check_strands(args, items)
     comp = compressor(resolve_spec(args, items, console))
     with opened_cache(args) as cache, console.progress() as progress:
         dm = distance_matrix(
