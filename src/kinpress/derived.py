@@ -674,6 +674,12 @@ def _findings(
     return order(derived), order(kin)
 
 
+def default_null_pairs(max_fpr: float) -> int:
+    """ceil(3 / max_fpr): null pairs enough to tell an fpr at max_fpr from zero (the default
+    of :func:`find_derived`, and what ``-c auto`` counts in the job's time)."""
+    return math.ceil(3 / max_fpr)
+
+
 def find_derived(
     items: Sequence[Item],
     compressor: Compressor | str = "zstd",
@@ -726,7 +732,7 @@ def find_derived(
     n = len(items)
     proposed = candidate_pairs(sketched, digests, prefilter)
     pairs = sorted(_all_pairs(n) if exhaustive else proposed)
-    count = (null_pairs if null_pairs is not None else math.ceil(3 / max_fpr)) if pairs else 0
+    count = (null_pairs if null_pairs is not None else default_null_pairs(max_fpr)) if pairs else 0
     plan = _plan_null(items, pairs, sketched, count, random.Random(seed))
     possible = n * (n - 1) // 2
     counts = PairCounts(possible, len(pairs), possible - len(pairs), len(pairs))

@@ -209,16 +209,30 @@ def estimate_job_seconds(
     lengths: Sequence[int],
     jobs: int | None = None,
     strand: str = "one",
+    *,
+    replicates: int = 0,
+    null_pairs: int = 0,
 ) -> float:
-    """Wall time of a whole matrix by concatenation at the calibrated throughput.
+    """Wall time of a whole job by concatenation at the calibrated throughput.
 
     n items of T bytes in all: every item once, its x+x once, and the n(n-1)/2 pairs, each of two
     items: T + (n + 1)·T bytes, the pairs twice with ``strand="both"`` (each y is also tried
-    reverse-complemented), spread over ``jobs`` cores (default: all).
+    reverse-complemented). Each of ``replicates`` bootstrap replicates is a whole matrix again
+    (items resampled to their own lengths, so the same bytes); each of ``null_pairs`` (derived's
+    null) is measured both ways against material of a partner's size: two concatenations of two
+    mean items and the material once, 5·T/n bytes. All spread over ``jobs`` cores (default: all).
     """
     n, total = len(lengths), sum(lengths)
-    work = total + (n + 1) * total * (2 if strand == "both" else 1)
+    matrix = total + (n + 1) * total * (2 if strand == "both" else 1)
+    work = matrix * (1 + replicates) + null_pairs * 5 * total / max(n, 1)
     return work / (result.throughput_mb_s * 1e6) / (jobs or _cores())
+
+
+def _job_words(replicates: int, null_pairs: int) -> str:
+    """What the estimate counts beyond the matrix, in words ("" when nothing)."""
+    extra = [f"{replicates:,} bootstrap replicates"] if replicates else []
+    extra += [f"{null_pairs:,} null pairs"] if null_pairs else []
+    return f" (the matrix and {' and '.join(extra)})" if extra else ""
 
 
 def _estimate(seconds: float) -> str:
@@ -234,9 +248,12 @@ def choose_compressor(
     jobs: int | None = None,
     strand: str = "one",
     max_bytes: int = DEFAULT_MAX_BYTES,
+    replicates: int = 0,
+    null_pairs: int = 0,
 ) -> tuple[str, CalibrationReport]:
     """The compressor for ``-c auto``: the best one (as :func:`calibrate` ranks them) among those
-    whose estimated whole-job time (:func:`estimate_job_seconds`) is within ``budget_seconds``;
+    whose estimated whole-job time (:func:`estimate_job_seconds`, with ``replicates`` bootstrap
+    matrices and ``null_pairs`` of derived's null) is within ``budget_seconds``;
     quality is worth paying for only inside the budget. If none fits the budget, the fastest
     reliable one; the reasons say which and why.
     """
@@ -244,12 +261,15 @@ def choose_compressor(
     lengths = [len(item.data) for item in items]
     cores = jobs or _cores()
 
+    extra = {"replicates": replicates, "null_pairs": null_pairs}
+    words = _job_words(replicates, null_pairs)
+
     def slow(result: CompressorCalibration) -> str | None:
-        seconds = estimate_job_seconds(result, lengths, cores, strand)
+        seconds = estimate_job_seconds(result, lengths, cores, strand, **extra)
         if seconds <= budget_seconds:
             return None
         return (
-            f"the whole job would take {_estimate(seconds)} on {cores} cores, over the "
+            f"the whole job{words} would take {_estimate(seconds)} on {cores} cores, over the "
             f"{duration_text(budget_seconds)} budget"
         )
 
@@ -258,8 +278,9 @@ def choose_compressor(
         raise ValueError("no candidate compressors to choose from")
     chosen = report.result(recommended)
     estimate = (
-        f"estimated job time with {recommended}: "
-        f"{_estimate(estimate_job_seconds(chosen, lengths, cores, strand))} on {cores} cores "
+        f"estimated job time with {recommended}{words}: "
+        f"{_estimate(estimate_job_seconds(chosen, lengths, cores, strand, **extra))} on"
+        f" {cores} cores "
         f"(budget {duration_text(budget_seconds)})"
     )
     report = replace(report, recommended=recommended, reasons=(*reasons, estimate))
@@ -544,6 +565,8 @@ def choose_for_job(
     strand: str = "one",
     engine: Engine | None = None,
     cache: SizeCache | None = None,
+    replicates: int = 0,
+    null_pairs: int = 0,
 ) -> Choice:
     """The compressor ``-c auto`` uses for a job of kind ``job`` (one of JOBS) on ``items``.
 
@@ -560,7 +583,8 @@ def choose_for_job(
     checked against a full matrix's time even for nearest, which measures far fewer pairs: on a
     large set that favours the quicker compressors, as a large set needs. The job's time is
     estimated on the ``engine``'s workers (default: a `LocalEngine` on every core), where the
-    measuring runs too.
+    measuring runs too, and counts ``replicates`` bootstrap matrices (tree --bootstrap) and
+    ``null_pairs`` of derived's null beside the matrix.
     """
     if job not in JOBS:
         raise ValueError(f"unknown job {job!r}; use one of {', '.join(JOBS)}")
@@ -581,12 +605,14 @@ def choose_for_job(
                       figures, tuple(reasons))  # fmt: skip
     spec, report = choose_compressor(
         items, budget_seconds=budget_seconds, candidates=candidates, seed=seed, jobs=cores,
-        strand=strand,
+        strand=strand, replicates=replicates, null_pairs=null_pairs,
     )  # fmt: skip
     lengths = [len(item.data) for item in items]
 
     def quick(result: CompressorCalibration) -> bool:
-        return estimate_job_seconds(result, lengths, cores, strand) <= budget_seconds
+        seconds = estimate_job_seconds(result, lengths, cores, strand, replicates=replicates,
+                                       null_pairs=null_pairs)  # fmt: skip
+        return seconds <= budget_seconds
 
     chosen, figures, extra = _check_real_pairs(items, spec, report, seed, engine, cache, quick)
     kept = (*extra, *report.reasons) if chosen == spec else (*extra, *report.reasons[1:])
@@ -607,14 +633,18 @@ def resolve_auto(
     engine: Engine,
     cache: SizeCache | None = None,
     say: Callable[[str], None] = lambda message: None,
+    replicates: int = 0,
+    null_pairs: int = 0,
 ) -> str:
     """The spec ``-c auto`` uses for ``job`` on ``items``: :func:`choose_for_job`'s choice
-    (classify: ``items`` is the labelled reference, ``targets`` the unknowns), said through
-    ``say``, with a MeasurementWarning when even it cannot hold the largest pair of items.
+    (classify: ``items`` is the labelled reference, ``targets`` the unknowns; ``replicates``
+    and ``null_pairs`` the job's work beyond its matrix), said through ``say``, with a
+    MeasurementWarning when even it cannot hold the largest pair of items.
 
     The choice is kept in ``cache``, keyed by the items' contents (and labels for a labelled
     job), the job, the candidates (with their library versions), the seed, the budget, the
-    cores of ``engine`` and the strand, so a rerun does not calibrate again.
+    cores of ``engine``, the strand and the work beyond the matrix, so a rerun does not
+    calibrate again.
     """
     import hashlib
     import json
@@ -630,7 +660,8 @@ def resolve_auto(
             for item in items
         ),
         *(compressor(spec).cache_key for spec in candidates),
-        f"seed={DEFAULT_SEED} budget={budget_seconds} cores={cores} strand={strand}",
+        f"seed={DEFAULT_SEED} budget={budget_seconds} cores={cores} strand={strand}"
+        + (f" replicates={replicates} null_pairs={null_pairs}" if replicates or null_pairs else ""),
         f"job={job} targets={len(targets)}:{sum(len(t.data) for t in targets)} ranked=merit"
         if labelled
         else "job=unlabelled",
@@ -640,7 +671,8 @@ def resolve_auto(
     if stored is None:
         say(f"auto: calibrating the compressors on these inputs for {job} ...")
         choice = choose_for_job(items, job, targets=targets, budget_seconds=budget_seconds,
-                                strand=strand, engine=engine, cache=cache)  # fmt: skip
+                                strand=strand, engine=engine, cache=cache,
+                                replicates=replicates, null_pairs=null_pairs)  # fmt: skip
         pair = int(sum(sorted((len(item.data) for item in items), reverse=True)[:2]))
         result = choice.report.result(choice.spec)
         # A labelled choice leads with its task figures; an unlabelled one with the controls'

@@ -138,15 +138,22 @@ def resolve_spec(
     targets: Sequence[Item] = (),
 ) -> str:
     """The compressor spec to use: as given, or with auto the one calibration chose for this
-    command's job (see calibration.resolve_auto)."""
+    command's job (see calibration.resolve_auto), its time counting tree's --bootstrap
+    replicates and derived's null."""
     if args.compressor != "auto":
         return str(args.compressor)
     from ..calibration import resolve_auto
 
+    null_pairs = 0
+    if args.command == "derived":
+        from ..derived import default_null_pairs
+
+        null_pairs = default_null_pairs(args.max_fpr)
     with opened_cache(args) as cache:
         args.compressor = resolve_auto(
             items, args.command, targets=targets, budget_seconds=budget_seconds(args),
             strand=args.strand, engine=args.engine, cache=cache, say=console.say,
+            replicates=getattr(args, "bootstrap", 0) or 0, null_pairs=null_pairs,
         )  # fmt: skip
     return str(args.compressor)
 
