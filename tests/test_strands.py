@@ -88,3 +88,22 @@ def test_matrix_under_strand_one_warns_and_under_both_does_not(
     assert "KVM32815, KVM35261" in err and "--strand both" in err
     assert cli.main([*common, "--strand", "both", "-o", str(tmp_path / "both.tsv")]) == 0
     assert "--strand both" not in capsys.readouterr().err
+
+
+def test_sparse_sampling_names_only_the_reversed_records() -> None:
+    # 60 relatives of one random genome (5 % of bases substituted each), two of them reversed:
+    # 100 sampled pairs of 1,770 give most records one or two comparisons, so the forward record
+    # of a flipped pair must be told from its reversed partner by the extra probes.
+    rng = np.random.default_rng(11)
+    root = np.frombuffer(_random_dna(rng, 6000), dtype=np.uint8)
+    items = []
+    for k in range(60):
+        copy = root.copy()
+        where = rng.random(len(copy)) < 0.05
+        copy[where] = np.frombuffer(b"ACGT", dtype=np.uint8)[rng.integers(0, 4, where.sum())]
+        data = copy.tobytes()
+        items.append(Item(f"r{k}", reverse_complement(data) if k in (7, 41) else data, "",
+                          nucleotide=True))  # fmt: skip
+    check = check_strands(items, pairs=100)
+    assert check.flipped == ("r7", "r41")
+    assert check.pairs_checked < 300

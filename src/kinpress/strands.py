@@ -6,7 +6,9 @@ The check compares shared k-mers (k = 12 by default) of record pairs both ways: 
 x against the reverse complement of y. A pair is *flipped* when x shares at least ``min_share``
 of its k-mers with revcomp(y) and at least ``ratio`` times as many as with y. A record flipped
 against more of the records it was compared with than not is named (with two such records in a
-set, each is flipped against every other record but the two of them). No compression: k-mer
+set, each is flipped against every other record but the two of them; a record in a flipped pair
+is compared with a few more partners, so sparse sampling does not name its forward partner too).
+No compression: k-mer
 sets, sampled by a hash so every record keeps the same ones (Broder 1997's modulo sampling).
 """
 
@@ -25,6 +27,7 @@ from .measure import MeasurementWarning
 
 DEFAULT_K = 12
 DEFAULT_PAIRS = 400
+DEFAULT_PROBES = 8
 DEFAULT_SAMPLE_BYTES = 256 << 10
 MIN_SHARE = 0.05
 RATIO = 4.0
@@ -102,45 +105,66 @@ def check_strands(
     *,
     k: int = DEFAULT_K,
     pairs: int = DEFAULT_PAIRS,
+    probes: int = DEFAULT_PROBES,
     sample_bytes: int = DEFAULT_SAMPLE_BYTES,
     seed: int = 0,
 ) -> StrandCheck:
     """Compare up to ``pairs`` record pairs (all of them when few, else drawn by ``seed``) of the
     nucleotide items, each cut to ``sample_bytes``, as given and reverse-complemented (module
-    rules); other items are left out."""
+    rules); other items are left out. A record in a flipped pair is then compared with up to
+    ``probes`` more partners drawn by the seed, so that when pairs are sampled sparsely the
+    forward record of a flipped pair is not named with its reversed partner."""
     dna = [item for item in items if item.data and (item.nucleotide or is_nucleotide(item.data))]
     n = len(dna)
     if n < 2:
         return StrandCheck((), (), 0, k)
+    rng = np.random.default_rng(seed)
     if n * (n - 1) // 2 <= pairs:
         chosen = list(combinations(range(n), 2))
     else:
-        rng = np.random.default_rng(seed)
         first = rng.integers(0, n, pairs)
         second = (first + rng.integers(1, n, pairs)) % n
         chosen = sorted({(min(a, b), max(a, b)) for a, b in zip(first, second, strict=True)})
-    forward: dict[int, np.ndarray] = {}
-    reverse: dict[int, np.ndarray] = {}
-    for index in {i for pair in chosen for i in pair}:
-        letters = dna[index].data[:sample_bytes]
-        forward[index] = kmer_sample(letters, k)
-        reverse[index] = kmer_sample(reverse_complement(letters), k)
+    sketches: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+
+    def sketch(index: int) -> tuple[np.ndarray, np.ndarray]:
+        if index not in sketches:
+            letters = dna[index].data[:sample_bytes]
+            sketches[index] = (kmer_sample(letters, k), kmer_sample(reverse_complement(letters), k))
+        return sketches[index]
+
     flips = np.zeros(n, dtype=int)
     sames = np.zeros(n, dtype=int)
-    found = []
-    for a, b in chosen:
-        smaller = max(min(len(forward[a]), len(forward[b])), 1)
-        given = len(np.intersect1d(forward[a], forward[b], assume_unique=True)) / smaller
-        reversed_ = len(np.intersect1d(forward[a], reverse[b], assume_unique=True)) / smaller
-        if reversed_ >= MIN_SHARE and reversed_ >= RATIO * given:
+    found: list[tuple[int, int, FlippedPair]] = []
+    compared: set[tuple[int, int]] = set()
+
+    def compare(a: int, b: int) -> None:
+        compared.add((min(a, b), max(a, b)))
+        (forward_a, _), (forward_b, reverse_b) = sketch(a), sketch(b)
+        smaller = max(min(len(forward_a), len(forward_b)), 1)
+        given = len(np.intersect1d(forward_a, forward_b, assume_unique=True)) / smaller
+        flipped = len(np.intersect1d(forward_a, reverse_b, assume_unique=True)) / smaller
+        if flipped >= MIN_SHARE and flipped >= RATIO * given:
             flips[[a, b]] += 1
-            found.append(FlippedPair(dna[a].name, dna[b].name, given, reversed_))
-        elif given >= MIN_SHARE and given >= RATIO * reversed_:
+            found.append((a, b, FlippedPair(dna[a].name, dna[b].name, given, flipped)))
+        elif given >= MIN_SHARE and given >= RATIO * flipped:
             sames[[a, b]] += 1
-    flipped = tuple(dna[i].name for i in range(n) if flips[i] > sames[i])
-    named = set(flipped)
-    kept = tuple(p for p in found if p.first in named or p.second in named)
-    return StrandCheck(flipped, kept, len(chosen), k)
+
+    for a, b in chosen:
+        compare(a, b)
+    probed: set[int] = set()
+    # Probes find flipped pairs too, whose records need probing in turn.
+    while waiting := sorted({i for first, second, _ in found for i in (first, second)} - probed):
+        for suspect in waiting:
+            probed.add(suspect)
+            partners = [b for b in rng.permutation(n).tolist() if b != suspect]
+            for b in partners[:probes]:
+                if (min(suspect, b), max(suspect, b)) not in compared:
+                    compare(suspect, b)
+    named = {i for i in range(n) if flips[i] > sames[i]}
+    flagged = tuple(dna[i].name for i in sorted(named))
+    kept = tuple(pair for a, b, pair in found if a in named or b in named)
+    return StrandCheck(flagged, kept, len(compared), k)
 
 
 def warn_flipped_strands(items: Sequence[Item], **options: int) -> StrandCheck:
