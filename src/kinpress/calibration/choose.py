@@ -733,7 +733,7 @@ def calibration_report(
         *sorted(content_digest(item.data).hex() for item in items or ()),
         *(compressor(spec).cache_key for spec in candidates),
         f"seed={seed} max_bytes={max_bytes} budget={budget_seconds} cores={jobs}",
-        "known-answers",  # reports kept before the known answers are measured again
+        "known-answers",  # a report kept before they were added is measured again
     ]
     key = "calibrate:" + hashlib.blake2b("\n".join(lines).encode(), digest_size=16).hexdigest()
     stored = cache.get_choice(key) if cache is not None else None
