@@ -3,13 +3,14 @@
 A record submitted as the reverse complement of its relatives shares almost nothing with them
 as given, so with ``strand="one"`` every distance to it is near 1, as for an unrelated record.
 The check compares shared k-mers (k = 12 by default) of record pairs both ways: x against y, and
-x against the reverse complement of y. A pair is *flipped* when x shares at least ``min_share``
-of its k-mers with revcomp(y) and at least ``ratio`` times as many as with y. A record flipped
-against more of the records it was compared with than not is named (with two such records in a
-set, each is flipped against every other record but the two of them; a record in a flipped pair
-is compared with a few more partners, so sparse sampling does not name its forward partner too).
-No compression: k-mer
-sets, sampled by a hash so every record keeps the same ones (Broder 1997's modulo sampling).
+x against the reverse complement of y. A pair is *flipped* when the sampled k-mers x shares
+with revcomp(y) are at least ``MIN_SHARE`` (5 %) of the smaller sample and ``RATIO`` (4) times
+those it shares with y as given (*same strand* the other way round). A record flipped against
+more of the records it was compared with than on the same strand is named (with two such
+records in a set, each is flipped against every other record but the two of them; a record in
+a flipped pair is compared with a few more partners, so sparse sampling does not name its
+forward partner too). No compression: k-mer sets, sampled by a hash so every record keeps the
+same ones (Broder 1997's modulo sampling).
 """
 
 from __future__ import annotations
@@ -41,6 +42,8 @@ def kmer_sample(letters: bytes, k: int = DEFAULT_K) -> np.ndarray:
     """The distinct k-mers of ``letters`` (2 bits a base; windows with other letters skipped)
     whose mixed value is 0 modulo ``_KEEP_ONE_IN``, sorted: the same k-mers are kept in every
     record, so counts of shared ones compare (Broder 1997)."""
+    if not 0 < k <= 32:
+        raise ValueError(f"k must be 1 to 32 (two bits a base in 64), got {k}")
     codes = _CODES[np.frombuffer(letters, dtype=np.uint8)]
     if len(codes) < k:
         return np.empty(0, dtype=np.uint64)
