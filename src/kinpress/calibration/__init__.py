@@ -14,7 +14,8 @@ Commun. Inf. Syst. 5(4)), and a coder that only counts symbols cannot tell x fro
 The package in three steps, each a module, and the cached entry points:
 
 * :mod:`.controls`: the inputs with known answers (identity, independence, composition, a
-  mutation ladder, block moves), made from the user's items or synthetic text by a seed;
+  mutation ladder, block moves), made from the user's items or synthetic text by a seed, and
+  strings a short rule makes (Champernowne's and Copeland & Erdős's digits, pi, rule 30);
 * :mod:`.measure`: each compressor's figures on them (bias, a size sweep of NCD(x, x) over sizes
   doubling from 1 KiB, the four properties of a normal compressor), with the rules that turn
   figures into a reliable size and a resolution;
@@ -40,15 +41,31 @@ from .choose import (
     estimate_job_seconds,
     holds,
 )
-from .controls import BLOCK_COUNTS, DEFAULT_SEED, MUTATION_RATES, Controls, make_controls
+from .controls import (
+    BLOCK_COUNTS,
+    DEFAULT_SEED,
+    MUTATION_RATES,
+    Controls,
+    KnownAnswer,
+    champernowne_digits,
+    copeland_erdos_digits,
+    known_answers,
+    make_controls,
+    pi_digits,
+    rule30_centre_bits,
+    seeded_digits,
+)
 from .measure import (
     DEFAULT_MAX_BYTES,
     RELIABLE_NCD,
     REPORT_KEYS,
+    STRUCTURE_MARGIN,
+    BlindSpot,
     CalibrationReport,
     CompressorCalibration,
     Normality,
     SizeSweep,
+    blind_spot,
     calibrate_compressor,
     normality_violations,
     size_sweep,
@@ -66,23 +83,33 @@ __all__ = [
     "MUTATION_RATES",
     "RELIABLE_NCD",
     "REPORT_KEYS",
+    "STRUCTURE_MARGIN",
+    "BlindSpot",
     "CalibrationReport",
     "Choice",
     "CompressorCalibration",
     "Controls",
+    "KnownAnswer",
     "Normality",
     "SizeSweep",
     "TaskFigures",
+    "blind_spot",
     "calibrate",
     "calibrate_compressor",
     "calibration_report",
+    "champernowne_digits",
     "choose_compressor",
     "choose_for_job",
+    "copeland_erdos_digits",
     "estimate_classify_seconds",
     "estimate_job_seconds",
     "holds",
+    "known_answers",
     "make_controls",
     "normality_violations",
+    "pi_digits",
     "resolve_auto",
+    "rule30_centre_bits",
+    "seeded_digits",
     "size_sweep",
 ]

@@ -20,7 +20,13 @@ from .choose import (
     holds,
 )
 from .controls import DEFAULT_SEED
-from .measure import DEFAULT_MAX_BYTES, CalibrationReport, CompressorCalibration, Normality
+from .measure import (
+    DEFAULT_MAX_BYTES,
+    BlindSpot,
+    CalibrationReport,
+    CompressorCalibration,
+    Normality,
+)
 
 
 def resolve_auto(
@@ -33,14 +39,18 @@ def resolve_auto(
     engine: Engine,
     cache: SizeCache | None = None,
     say: Callable[[str], None] = lambda message: None,
+    replicates: int = 0,
+    null_pairs: int = 0,
 ) -> str:
     """The spec ``-c auto`` uses for ``job`` on ``items``: :func:`choose_for_job`'s choice
-    (classify: ``items`` is the labelled reference, ``targets`` the unknowns), said through
-    ``say``, with a MeasurementWarning when even it cannot hold the largest pair of items.
+    (classify: ``items`` is the labelled reference, ``targets`` the unknowns; ``replicates``
+    and ``null_pairs`` the job's work beyond its matrix), said through ``say``, with a
+    MeasurementWarning when even it cannot hold the largest pair of items.
 
     The choice is kept in ``cache``, keyed by the items' contents (and labels for a labelled
     job), the job, the candidates (with their library versions), the seed, the budget, the
-    cores of ``engine`` and the strand, so a rerun does not calibrate again.
+    cores of ``engine``, the strand and the work beyond the matrix, so a rerun does not
+    calibrate again.
     """
     import hashlib
     import json
@@ -56,7 +66,8 @@ def resolve_auto(
             for item in items
         ),
         *(compressor(spec).cache_key for spec in candidates),
-        f"seed={DEFAULT_SEED} budget={budget_seconds} cores={cores} strand={strand}",
+        f"seed={DEFAULT_SEED} budget={budget_seconds} cores={cores} strand={strand}"
+        + (f" replicates={replicates} null_pairs={null_pairs}" if replicates or null_pairs else ""),
         f"job={job} targets={len(targets)}:{sum(len(t.data) for t in targets)} ranked=merit"
         if labelled
         else "job=unlabelled",
@@ -66,7 +77,8 @@ def resolve_auto(
     if stored is None:
         say(f"auto: calibrating the compressors on these inputs for {job} ...")
         choice = choose_for_job(items, job, targets=targets, budget_seconds=budget_seconds,
-                                strand=strand, engine=engine, cache=cache)  # fmt: skip
+                                strand=strand, engine=engine, cache=cache,
+                                replicates=replicates, null_pairs=null_pairs)  # fmt: skip
         pair = int(sum(sorted((len(item.data) for item in items), reverse=True)[:2]))
         result = choice.report.result(choice.spec)
         # A labelled choice leads with its task figures; an unlabelled one with the controls'
@@ -127,6 +139,7 @@ def calibration_report(
         *sorted(content_digest(item.data).hex() for item in items or ()),
         *(compressor(spec).cache_key for spec in candidates),
         f"seed={seed} max_bytes={max_bytes} budget={budget_seconds} cores={jobs}",
+        "known-answers",  # a report kept before they were added is measured again
     ]
     key = "calibrate:" + hashlib.blake2b("\n".join(lines).encode(), digest_size=16).hexdigest()
     stored = cache.get_choice(key) if cache is not None else None
@@ -149,12 +162,17 @@ def _report_from_json(text: str) -> CalibrationReport:
 
     doc = json.loads(text)
     derived = {"mutation_distance", "quality"}
+    spot_derived = {"below", "sees_structure"}
     results = []
     for entry in doc["compressors"]:
         fields = {k: v for k, v in entry.items() if k not in derived}
         fields["normality"] = Normality(**fields["normality"])
         for curve in ("size_sweep", "mutation_ladder", "block_moves"):
             fields[curve] = tuple(tuple(point) for point in fields[curve])
+        fields["blind_spots"] = tuple(
+            BlindSpot(**{k: v for k, v in spot.items() if k not in spot_derived})
+            for spot in fields.get("blind_spots", ())
+        )
         results.append(CompressorCalibration(**fields))
     return CalibrationReport(doc["seed"], doc["inputs"], tuple(results), doc["recommended"],
                              tuple(doc["reasons"]))  # fmt: skip

@@ -207,16 +207,30 @@ def estimate_job_seconds(
     lengths: Sequence[int],
     jobs: int | None = None,
     strand: str = "one",
+    *,
+    replicates: int = 0,
+    null_pairs: int = 0,
 ) -> float:
-    """Wall time of a whole matrix by concatenation at the calibrated throughput.
+    """Wall time of a whole job by concatenation at the calibrated throughput.
 
     n items of T bytes in all: every item once, its x+x once, and the n(n-1)/2 pairs, each of two
     items: T + (n + 1)·T bytes, the pairs twice with ``strand="both"`` (each y is also tried
-    reverse-complemented), spread over ``jobs`` cores (default: all).
+    reverse-complemented). Each of ``replicates`` bootstrap replicates is a whole matrix again
+    (items resampled to their own lengths, so the same bytes); each of ``null_pairs`` (derived's
+    null) is measured both ways against material of a partner's size: two concatenations of two
+    mean items and the material once, 5·T/n bytes. All spread over ``jobs`` cores (default: all).
     """
     n, total = len(lengths), sum(lengths)
-    work = total + (n + 1) * total * (2 if strand == "both" else 1)
+    matrix = total + (n + 1) * total * (2 if strand == "both" else 1)
+    work = matrix * (1 + replicates) + null_pairs * 5 * total / max(n, 1)
     return work / (result.throughput_mb_s * 1e6) / (jobs or _cores())
+
+
+def _job_words(replicates: int, null_pairs: int) -> str:
+    """What the estimate counts beyond the matrix, in words ("" when nothing)."""
+    extra = [f"{replicates:,} bootstrap replicates"] if replicates else []
+    extra += [f"{null_pairs:,} null pairs"] if null_pairs else []
+    return f" (the matrix and {' and '.join(extra)})" if extra else ""
 
 
 def _estimate(seconds: float) -> str:
@@ -232,9 +246,12 @@ def choose_compressor(
     jobs: int | None = None,
     strand: str = "one",
     max_bytes: int = DEFAULT_MAX_BYTES,
+    replicates: int = 0,
+    null_pairs: int = 0,
 ) -> tuple[str, CalibrationReport]:
     """The compressor for ``-c auto``: the best one (as :func:`calibrate` ranks them) among those
-    whose estimated whole-job time (:func:`estimate_job_seconds`) is within ``budget_seconds``;
+    whose estimated whole-job time (:func:`estimate_job_seconds`, with ``replicates`` bootstrap
+    matrices and ``null_pairs`` of derived's null) is within ``budget_seconds``;
     quality is worth paying for only inside the budget. If none fits the budget, the fastest
     reliable one; the reasons say which and why.
     """
@@ -242,12 +259,15 @@ def choose_compressor(
     lengths = [len(item.data) for item in items]
     cores = jobs or _cores()
 
+    extra = {"replicates": replicates, "null_pairs": null_pairs}
+    words = _job_words(replicates, null_pairs)
+
     def slow(result: CompressorCalibration) -> str | None:
-        seconds = estimate_job_seconds(result, lengths, cores, strand)
+        seconds = estimate_job_seconds(result, lengths, cores, strand, **extra)
         if seconds <= budget_seconds:
             return None
         return (
-            f"the whole job would take {_estimate(seconds)} on {cores} cores, over the "
+            f"the whole job{words} would take {_estimate(seconds)} on {cores} cores, over the "
             f"{duration_text(budget_seconds)} budget"
         )
 
@@ -256,8 +276,9 @@ def choose_compressor(
         raise ValueError("no candidate compressors to choose from")
     chosen = report.result(recommended)
     estimate = (
-        f"estimated job time with {recommended}: "
-        f"{_estimate(estimate_job_seconds(chosen, lengths, cores, strand))} on {cores} cores "
+        f"estimated job time with {recommended}{words}: "
+        f"{_estimate(estimate_job_seconds(chosen, lengths, cores, strand, **extra))} on"
+        f" {cores} cores "
         f"(budget {duration_text(budget_seconds)})"
     )
     report = replace(report, recommended=recommended, reasons=(*reasons, estimate))
@@ -542,6 +563,8 @@ def choose_for_job(
     strand: str = "one",
     engine: Engine | None = None,
     cache: SizeCache | None = None,
+    replicates: int = 0,
+    null_pairs: int = 0,
 ) -> Choice:
     """The compressor ``-c auto`` uses for a job of kind ``job`` (one of JOBS) on ``items``.
 
@@ -558,7 +581,8 @@ def choose_for_job(
     checked against a full matrix's time even for nearest, which measures far fewer pairs: on a
     large set that favours the quicker compressors, as a large set needs. The job's time is
     estimated on the ``engine``'s workers (default: a `LocalEngine` on every core), where the
-    measuring runs too.
+    measuring runs too, and counts ``replicates`` bootstrap matrices (tree --bootstrap) and
+    ``null_pairs`` of derived's null beside the matrix.
     """
     if job not in JOBS:
         raise ValueError(f"unknown job {job!r}; use one of {', '.join(JOBS)}")
@@ -579,12 +603,14 @@ def choose_for_job(
                       figures, tuple(reasons))  # fmt: skip
     spec, report = choose_compressor(
         items, budget_seconds=budget_seconds, candidates=candidates, seed=seed, jobs=cores,
-        strand=strand,
+        strand=strand, replicates=replicates, null_pairs=null_pairs,
     )  # fmt: skip
     lengths = [len(item.data) for item in items]
 
     def quick(result: CompressorCalibration) -> bool:
-        return estimate_job_seconds(result, lengths, cores, strand) <= budget_seconds
+        seconds = estimate_job_seconds(result, lengths, cores, strand, replicates=replicates,
+                                       null_pairs=null_pairs)  # fmt: skip
+        return seconds <= budget_seconds
 
     chosen, figures, extra = _check_real_pairs(items, spec, report, seed, engine, cache, quick)
     kept = (*extra, *report.reasons) if chosen == spec else (*extra, *report.reasons[1:])

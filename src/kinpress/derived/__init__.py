@@ -36,6 +36,7 @@ from .null import (
     MIN_KIND_DONORS,
     _donor_pools,
     _null_material,
+    default_null_pairs,
     kind_of,
     line_blocks,
 )
@@ -82,6 +83,7 @@ __all__ = [
     "_donor_pools",
     "_null_material",
     "candidate_pairs",
+    "default_null_pairs",
     "families",
     "find_derived",
     "kind_of",

@@ -32,7 +32,7 @@ from ..measure import (
     ncd,
 )
 from ..passages import Fingerprint, common_among
-from .null import _fpr, _NullPlan, _plan_null, _summary
+from .null import _fpr, _NullPlan, _plan_null, _summary, default_null_pairs
 from .prefilter import Prefilter, _all_pairs, candidate_pairs, sketches
 from .result import (
     COMMON_FILES,
@@ -272,7 +272,7 @@ def find_derived(
     n = len(items)
     proposed = candidate_pairs(sketched, digests, prefilter)
     pairs = sorted(_all_pairs(n) if exhaustive else proposed)
-    count = (null_pairs if null_pairs is not None else math.ceil(3 / max_fpr)) if pairs else 0
+    count = (null_pairs if null_pairs is not None else default_null_pairs(max_fpr)) if pairs else 0
     plan = _plan_null(items, pairs, sketched, count, random.Random(seed))
     possible = n * (n - 1) // 2
     counts = PairCounts(possible, len(pairs), possible - len(pairs), len(pairs))

@@ -88,6 +88,12 @@ def _null_material(
     return bytes(out[:length])
 
 
+def default_null_pairs(max_fpr: float) -> int:
+    """ceil(3 / max_fpr): null pairs enough to tell an fpr at max_fpr from zero (the default
+    of :func:`find_derived`, and what ``-c auto`` counts in the job's time)."""
+    return math.ceil(3 / max_fpr)
+
+
 @dataclass(frozen=True)
 class _NullPlan:
     """Null items (appended after the real ones) and, for each, the real item it is set against."""
