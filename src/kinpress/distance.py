@@ -292,11 +292,12 @@ def check_matrix_memory(
 
 
 def estimate_matrix_seconds(
-    items: Sequence[Item], comp: Compressor | str, jobs: int, *, sample: int = 24, seed: int = 0
+    items: Sequence[Item], comp: Compressor | str, cores: int, *, sample: int = 24, seed: int = 0
 ) -> float:
-    """Wall time a full matrix of `items` would take on `jobs` workers: n(n-1)/2 pairs at the
-    mean time of compressing `sample` concatenated pairs drawn at random (one thread, timed
-    here), plus every item once. A rough figure for choosing a route, not a promise."""
+    """Wall time a full matrix of `items` would take spread over `cores` cores (what the
+    estimate assumes, not where anything runs): n(n-1)/2 pairs at the mean time of compressing
+    `sample` concatenated pairs drawn at random (one thread, timed here), plus every item once.
+    A rough figure for choosing a route, not a promise."""
     n = len(items)
     if n < 2:
         return 0.0
@@ -309,7 +310,7 @@ def estimate_matrix_seconds(
     started = time.perf_counter()
     comp.sizes(joined)
     per_pair = (time.perf_counter() - started) / sample
-    return per_pair * (n * (n - 1) / 2 + n) / max(jobs, 1)
+    return per_pair * (n * (n - 1) / 2 + n) / max(cores, 1)
 
 
 PAIR_CHUNK = 1 << 18

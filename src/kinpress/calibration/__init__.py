@@ -19,8 +19,9 @@ The package in three steps, each a module, and the cached entry points:
 * :mod:`.measure`: each compressor's figures on them (bias, a size sweep of NCD(x, x) over sizes
   doubling from 1 KiB, the four properties of a normal compressor), with the rules that turn
   figures into a reliable size and a resolution;
-* :mod:`.choose`: the recommendation and its reasons in words, job-time estimates, and
-  :func:`choose_for_job`, the one function ``-c auto`` calls for every job kind.
+* :mod:`.choose`: the recommendation and its reasons in words, and :func:`choose_for_job`, the
+  one function ``-c auto`` calls for every job kind; :mod:`.estimate`: the job-time estimates
+  it weighs against the budget (at the calibrated throughput, on the cores assumed).
 * :mod:`.auto`: :func:`resolve_auto` (``-c auto``: that choice, kept in the size cache) and
   :func:`calibration_report` (what ``kinpress calibrate`` reports, kept there too).
 """
@@ -37,8 +38,6 @@ from .choose import (
     calibrate,
     choose_compressor,
     choose_for_job,
-    estimate_classify_seconds,
-    estimate_job_seconds,
     holds,
 )
 from .controls import (
@@ -55,6 +54,7 @@ from .controls import (
     rule30_centre_bits,
     seeded_digits,
 )
+from .estimate import estimate_classify_seconds, estimate_job_seconds
 from .measure import (
     DEFAULT_MAX_BYTES,
     RELIABLE_NCD,

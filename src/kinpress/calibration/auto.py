@@ -116,13 +116,14 @@ def calibration_report(
     seed: int = DEFAULT_SEED,
     max_bytes: int = DEFAULT_MAX_BYTES,
     budget_seconds: float | None = None,
-    jobs: int | None = None,
+    cores: int | None = None,
     cache: SizeCache | None = None,
     say: Callable[[str], None] = lambda message: None,
 ) -> CalibrationReport:
     """What ``kinpress calibrate`` reports: :func:`calibrate`, or with ``budget_seconds`` (which
     needs ``items``) :func:`choose_compressor`, whose recommendation is the best compressor
-    whose whole matrix of the items is estimated to fit the budget on ``jobs`` cores.
+    whose whole matrix of the items is estimated to fit the budget on ``cores`` cores (the cores
+    the estimate assumes; default: every core this process may use).
 
     The report is kept in ``cache``, keyed by the items' contents, the candidates (with their
     library versions), the seed, the size cap, the budget and the cores, so a rerun does not
@@ -138,7 +139,7 @@ def calibration_report(
     lines = [
         *sorted(content_digest(item.data).hex() for item in items or ()),
         *(compressor(spec).cache_key for spec in candidates),
-        f"seed={seed} max_bytes={max_bytes} budget={budget_seconds} cores={jobs}",
+        f"seed={seed} max_bytes={max_bytes} budget={budget_seconds} cores={cores}",
         "known-answers",  # a report kept before they were added is measured again
     ]
     key = "calibrate:" + hashlib.blake2b("\n".join(lines).encode(), digest_size=16).hexdigest()
@@ -150,7 +151,7 @@ def calibration_report(
         report = calibrate(items, candidates, seed=seed, max_bytes=max_bytes)
     else:
         _, report = choose_compressor(items, budget_seconds=budget_seconds, candidates=candidates,
-                                      seed=seed, jobs=jobs, max_bytes=max_bytes)  # fmt: skip
+                                      seed=seed, cores=cores, max_bytes=max_bytes)  # fmt: skip
     if cache is not None:
         cache.put_choice(key, json.dumps(report.as_json()))
     return report

@@ -15,7 +15,6 @@
 
 from __future__ import annotations
 
-import os
 import time
 import warnings
 from collections.abc import Callable, Sequence
@@ -37,6 +36,9 @@ from .controls import (
     _rng,
     make_controls,
 )
+from .estimate import _cores, _estimate, _job_words
+from .estimate import estimate_classify_seconds as estimate_classify_seconds  # re-exported
+from .estimate import estimate_job_seconds as estimate_job_seconds  # re-exported
 from .measure import (
     DEFAULT_MAX_BYTES,
     DEFAULT_SWEEP_SECONDS,
@@ -198,52 +200,13 @@ def calibrate(
     return CalibrationReport(seed, inputs, results, recommended, reasons)
 
 
-def _cores() -> int:
-    return len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count() or 1
-
-
-def estimate_job_seconds(
-    result: CompressorCalibration,
-    lengths: Sequence[int],
-    jobs: int | None = None,
-    strand: str = "one",
-    *,
-    replicates: int = 0,
-    null_pairs: int = 0,
-) -> float:
-    """Wall time of a whole job by concatenation at the calibrated throughput.
-
-    n items of T bytes in all: every item once, its x+x once, and the n(n-1)/2 pairs, each of two
-    items: T + (n + 1)·T bytes, the pairs twice with ``strand="both"`` (each y is also tried
-    reverse-complemented). Each of ``replicates`` bootstrap replicates is a whole matrix again
-    (items resampled to their own lengths, so the same bytes); each of ``null_pairs`` (derived's
-    null) is measured both ways against material of a partner's size: two concatenations of two
-    mean items and the material once, 5·T/n bytes. All spread over ``jobs`` cores (default: all).
-    """
-    n, total = len(lengths), sum(lengths)
-    matrix = total + (n + 1) * total * (2 if strand == "both" else 1)
-    work = matrix * (1 + replicates) + null_pairs * 5 * total / max(n, 1)
-    return work / (result.throughput_mb_s * 1e6) / (jobs or _cores())
-
-
-def _job_words(replicates: int, null_pairs: int) -> str:
-    """What the estimate counts beyond the matrix, in words ("" when nothing)."""
-    extra = [f"{replicates:,} bootstrap replicates"] if replicates else []
-    extra += [f"{null_pairs:,} null pairs"] if null_pairs else []
-    return f" (the matrix and {' and '.join(extra)})" if extra else ""
-
-
-def _estimate(seconds: float) -> str:
-    return "under 1 s" if seconds < 1 else f"about {duration_text(seconds)}"
-
-
 def choose_compressor(
     items: Sequence[Item],
     *,
     budget_seconds: float = DEFAULT_BUDGET_SECONDS,
     candidates: Sequence[str | Compressor] | None = None,
     seed: int = DEFAULT_SEED,
-    jobs: int | None = None,
+    cores: int | None = None,
     strand: str = "one",
     max_bytes: int = DEFAULT_MAX_BYTES,
     replicates: int = 0,
@@ -253,11 +216,12 @@ def choose_compressor(
     whose estimated whole-job time (:func:`estimate_job_seconds`, with ``replicates`` bootstrap
     matrices and ``null_pairs`` of derived's null) is within ``budget_seconds``;
     quality is worth paying for only inside the budget. If none fits the budget, the fastest
-    reliable one; the reasons say which and why.
+    reliable one; the reasons say which and why. ``cores`` is the cores the estimate assumes
+    (default: every core this process may use).
     """
     report = calibrate(items, candidates, seed=seed, max_bytes=max_bytes)
     lengths = [len(item.data) for item in items]
-    cores = jobs or _cores()
+    cores = cores or _cores()
 
     extra = {"replicates": replicates, "null_pairs": null_pairs}
     words = _job_words(replicates, null_pairs)
@@ -357,30 +321,6 @@ class Choice:
         }
 
 
-def estimate_classify_seconds(
-    result: CompressorCalibration,
-    reference: Sequence[int],
-    origins: int,
-    targets: Sequence[int] = (),
-    *,
-    primed: bool = False,
-    blocks: int = 5,
-    jobs: int | None = None,
-) -> float:
-    """Wall time of classifying `targets` against a reference of `origins` origins, with the
-    held-out calibration, at the calibrated throughput: every item (held-out reference items and
-    targets) against every origin's corpus. Concatenation compresses corpus + item for each;
-    priming compresses each corpus once per fold and the items alone (a lower bound)."""
-    corpus = sum(reference) / max(origins, 1)
-    if result.window_bytes is not None:
-        corpus = min(corpus, result.window_bytes)
-    items = [*reference, *targets]
-    pairs = len(items) * origins
-    mean = sum(items) / max(len(items), 1)
-    work = pairs * mean + origins * (blocks + 1) * corpus if primed else pairs * (corpus + mean)
-    return work / (result.throughput_mb_s * 1e6) / (jobs or _cores())
-
-
 def _labelled_figures(
     items: Sequence[Item],
     spec: str,
@@ -433,7 +373,7 @@ def _choose_labelled(
             continue
         seconds = estimate_classify_seconds(
             result, lengths, len(labels), [len(t.data) for t in targets],
-            primed=compressor(result.spec).primable, jobs=cores,
+            primed=compressor(result.spec).primable, cores=cores,
         )  # fmt: skip
         if seconds > budget_seconds:
             reasons.append(
@@ -602,7 +542,7 @@ def choose_for_job(
         return Choice(spec, job, replace(report, recommended=spec, reasons=tuple(reasons)),
                       figures, tuple(reasons))  # fmt: skip
     spec, report = choose_compressor(
-        items, budget_seconds=budget_seconds, candidates=candidates, seed=seed, jobs=cores,
+        items, budget_seconds=budget_seconds, candidates=candidates, seed=seed, cores=cores,
         strand=strand, replicates=replicates, null_pairs=null_pairs,
     )  # fmt: skip
     lengths = [len(item.data) for item in items]

@@ -64,7 +64,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
         report = calibration_report(
             items, candidates, seed=args.seed, max_bytes=args.max_bytes,
             budget_seconds=budget_seconds(args) if timed else None,
-            jobs=args.engine.jobs if timed else None, cache=cache, say=console.say,
+            cores=args.engine.jobs if timed else None, cache=cache, say=console.say,
         )  # fmt: skip
     if args.json:
         write_json(args, report.as_json())
