@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import time
 from collections import Counter
-from collections.abc import Iterable, Iterator, Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -91,19 +91,42 @@ def check_distances(
         raise ValueError(f"distances must be a non-empty square matrix, got shape {d.shape}")
     n = d.shape[0]
     if labels is not None:
-        if len(labels) != n:
-            raise ValueError(f"{len(labels)} labels for a {n}×{n} distance matrix")
-        if not all(isinstance(label, str) for label in labels):
-            raise ValueError("labels must be strings")
-        if len(set(labels)) != n:
-            repeated = sorted(k for k, count in Counter(labels).items() if count > 1)
-            raise ValueError(f"labels must be unique; repeated: {repeated}")
+        _check_labels(labels, n)
 
     def name(i: int) -> str:
         return repr(labels[i]) if labels is not None else f"item {i}"
 
+    largest, asymmetric = _scan_values(d, name)
+    if asymmetric:
+        d = _symmetrised(d, largest, name)
+    diagonal = np.diagonal(d)
+    if diagonal.any():
+        if strict_diagonal:
+            i = int(np.flatnonzero(diagonal)[0])
+            raise ValueError(
+                f"distances must have a zero diagonal: {name(i)} is {diagonal[i]} from itself"
+            )
+        d = d.copy() if not asymmetric else d
+        np.fill_diagonal(d, 0.0)
+    return d
+
+
+def _check_labels(labels: Sequence[str], n: int) -> None:
+    """One distinct string label per row of an n×n matrix, else ValueError."""
+    if len(labels) != n:
+        raise ValueError(f"{len(labels)} labels for a {n}×{n} distance matrix")
+    if not all(isinstance(label, str) for label in labels):
+        raise ValueError("labels must be strings")
+    if len(set(labels)) != n:
+        repeated = sorted(k for k, count in Counter(labels).items() if count > 1)
+        raise ValueError(f"labels must be unique; repeated: {repeated}")
+
+
+def _scan_values(d: npt.NDArray[np.float64], name: Callable[[int], str]) -> tuple[float, bool]:
+    """The largest value of ``d`` and whether it is not exactly symmetric, read in blocks of
+    rows; ValueError at the first value not finite or negative."""
     largest, asymmetric = 0.0, False
-    for rows in _blocks(n):
+    for rows in _blocks(d.shape[0]):
         block = d[rows]
         for problem, where in (("not finite", ~np.isfinite(block)), ("negative", block < 0)):
             if where.any():
@@ -115,28 +138,27 @@ def check_distances(
                 )
         largest = max(largest, float(block.max()))
         asymmetric = asymmetric or not np.array_equal(block, d[:, rows].T)
-    if asymmetric:
-        tolerance = 1e-5 * max(1.0, largest)
-        for rows in _blocks(n):
-            skew = np.abs(d[rows] - d[:, rows].T)
-            if skew.max() > tolerance:
-                i, j = divmod(int(skew.argmax()), n)
-                i += rows.start
-                raise ValueError(
-                    f"distance matrix is not symmetric: {name(i)}→{name(j)} is {d[i, j]} "
-                    f"but {name(j)}→{name(i)} is {d[j, i]}"
-                )
-        d = (d + d.T) / 2
-    diagonal = np.diagonal(d)
-    if diagonal.any():
-        if strict_diagonal:
-            i = int(np.flatnonzero(diagonal)[0])
+    return largest, asymmetric
+
+
+def _symmetrised(
+    d: npt.NDArray[np.float64], largest: float, name: Callable[[int], str]
+) -> npt.NDArray[np.float64]:
+    """(D + Dᵀ) / 2 of a matrix symmetric within ``1e-5 · max(1, largest)``, else ValueError
+    naming the first pair past it."""
+    n = d.shape[0]
+    tolerance = 1e-5 * max(1.0, largest)
+    for rows in _blocks(n):
+        skew = np.abs(d[rows] - d[:, rows].T)
+        if skew.max() > tolerance:
+            i, j = divmod(int(skew.argmax()), n)
+            i += rows.start
             raise ValueError(
-                f"distances must have a zero diagonal: {name(i)} is {diagonal[i]} from itself"
+                f"distance matrix is not symmetric: {name(i)}→{name(j)} is {d[i, j]} "
+                f"but {name(j)}→{name(i)} is {d[j, i]}"
             )
-        d = d.copy() if not asymmetric else d
-        np.fill_diagonal(d, 0.0)
-    return d
+    result: npt.NDArray[np.float64] = (d + d.T) / 2
+    return result
 
 
 @dataclass(frozen=True)

@@ -14,6 +14,7 @@ from ..items import Item
 from .choose import (
     DEFAULT_BUDGET_SECONDS,
     LABELLED_JOBS,
+    Choice,
     calibrate,
     choose_compressor,
     choose_for_job,
@@ -52,47 +53,19 @@ def resolve_auto(
     cores of ``engine``, the strand and the work beyond the matrix, so a rerun does not
     calibrate again.
     """
-    import hashlib
     import json
 
-    from ..measure import MeasurementWarning, content_digest
+    from ..measure import MeasurementWarning
 
-    labelled = job in LABELLED_JOBS
     cores = engine.jobs
-    candidates = AUTO_CANDIDATES["labelled" if labelled else "unlabelled"]
-    lines = [
-        *sorted(
-            content_digest(item.data).hex() + (f"\t{item.label}" if labelled else "")
-            for item in items
-        ),
-        *(compressor(spec).cache_key for spec in candidates),
-        f"seed={DEFAULT_SEED} budget={budget_seconds} cores={cores} strand={strand}"
-        + (f" replicates={replicates} null_pairs={null_pairs}" if replicates or null_pairs else ""),
-        f"job={job} targets={len(targets)}:{sum(len(t.data) for t in targets)} ranked=merit"
-        if labelled
-        else "job=unlabelled",
-    ]
-    key = "auto:" + hashlib.blake2b("\n".join(lines).encode(), digest_size=16).hexdigest()
+    key = _auto_key(items, job, targets, budget_seconds, cores, strand, replicates, null_pairs)
     stored = cache.get_choice(key) if cache is not None else None
     if stored is None:
         say(f"auto: calibrating the compressors on these inputs for {job} ...")
         choice = choose_for_job(items, job, targets=targets, budget_seconds=budget_seconds,
                                 strand=strand, engine=engine, cache=cache,
                                 replicates=replicates, null_pairs=null_pairs)  # fmt: skip
-        pair = int(sum(sorted((len(item.data) for item in items), reverse=True)[:2]))
-        result = choice.report.result(choice.spec)
-        # A labelled choice leads with its task figures; an unlabelled one with the controls'
-        # comparison when there was one, else with the time estimate that settled it.
-        lead = labelled or " chosen over " in choice.reasons[0]
-        stored = json.dumps(
-            {
-                "spec": choice.spec,
-                "why": choice.reasons[0] if lead else choice.reasons[-1],
-                "holds": labelled or holds(result, pair),
-                "reliable": result.reliable_up_to_bytes,
-                "pair": pair,
-            }
-        )
+        stored = _choice_json(choice, items, job in LABELLED_JOBS)
         if cache is not None:
             cache.put_choice(key, stored)
     else:
@@ -107,6 +80,59 @@ def resolve_auto(
             stacklevel=2,
         )
     return str(chosen["spec"])
+
+
+def _auto_key(
+    items: Sequence[Item],
+    job: str,
+    targets: Sequence[Item],
+    budget_seconds: float,
+    cores: int,
+    strand: str,
+    replicates: int,
+    null_pairs: int,
+) -> str:
+    """The size-cache key of :func:`resolve_auto`'s choice (what its docstring lists)."""
+    import hashlib
+
+    from ..measure import content_digest
+
+    labelled = job in LABELLED_JOBS
+    candidates = AUTO_CANDIDATES["labelled" if labelled else "unlabelled"]
+    lines = [
+        *sorted(
+            content_digest(item.data).hex() + (f"\t{item.label}" if labelled else "")
+            for item in items
+        ),
+        *(compressor(spec).cache_key for spec in candidates),
+        f"seed={DEFAULT_SEED} budget={budget_seconds} cores={cores} strand={strand}"
+        + (f" replicates={replicates} null_pairs={null_pairs}" if replicates or null_pairs else ""),
+        f"job={job} targets={len(targets)}:{sum(len(t.data) for t in targets)} ranked=merit"
+        if labelled
+        else "job=unlabelled",
+    ]
+    return "auto:" + hashlib.blake2b("\n".join(lines).encode(), digest_size=16).hexdigest()
+
+
+def _choice_json(choice: Choice, items: Sequence[Item], labelled: bool) -> str:
+    """What :func:`resolve_auto` keeps of a choice: the spec, the reason that settled it, and
+    whether it holds the largest pair of ``items`` (with the sizes a warning names)."""
+    import json
+
+    pair = int(sum(sorted((len(item.data) for item in items), reverse=True)[:2]))
+    result = choice.report.result(choice.spec)
+    # A labelled choice leads with its task figures; an unlabelled one with the controls'
+    # comparison when there was one, else with the time estimate that settled it.
+    lead = labelled or " chosen over " in choice.reasons[0]
+    return json.dumps(
+        {
+            "spec": choice.spec,
+            "why": choice.reasons[0] if lead else choice.reasons[-1],
+            "holds": labelled or holds(result, pair),
+            "reliable": result.reliable_up_to_bytes,
+            "pair": pair,
+        }
+    )
 
 
 def calibration_report(

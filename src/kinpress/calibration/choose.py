@@ -360,10 +360,37 @@ def _choose_labelled(
     engine: Engine | None,
     cache: SizeCache | None,
 ) -> tuple[str, tuple[TaskFigures, ...], list[str]]:
-    labels = {item.label for item in items}
+    """The labelled choice in three steps: the candidates that hold the largest item and whose
+    job fits the budget (:func:`_within_budget`), their held-out figures within the measuring
+    allowance (:func:`_measure_labelled`), and the best of those (:func:`_pick_labelled`)."""
     lengths = [len(item.data) for item in items]
     longest = max([*lengths, *(len(t.data) for t in targets)])
     reasons: list[str] = []
+    timed = _within_budget(items, targets, report, budget_seconds, cores, longest, reasons)
+    if not timed:
+        fastest = max(report.compressors, key=lambda r: r.throughput_mb_s)
+        reasons.insert(0, f"{fastest.spec}: chosen although over the budget: the fastest")
+        return fastest.spec, (), reasons
+    figures = _measure_labelled(
+        items, len(targets), timed, budget_seconds, longest, engine, cache, reasons
+    )
+    best = _pick_labelled(figures, len({item.label for item in items}), reasons)
+    return best.spec, tuple(figures), reasons
+
+
+def _within_budget(
+    items: Sequence[Item],
+    targets: Sequence[Item],
+    report: CalibrationReport,
+    budget_seconds: float,
+    cores: int,
+    longest: int,
+    reasons: list[str],
+) -> list[tuple[float, str]]:
+    """(estimated seconds, spec) of the candidates that hold the largest item and whose whole
+    classification fits the budget; why each other one is passed over goes to ``reasons``."""
+    labels = {item.label for item in items}
+    lengths = [len(item.data) for item in items]
     timed = []
     for result in report.compressors:
         if not holds(result, longest):
@@ -382,16 +409,28 @@ def _choose_labelled(
             )
             continue
         timed.append((seconds, result.spec))
-    if not timed:
-        fastest = max(report.compressors, key=lambda r: r.throughput_mb_s)
-        reasons.insert(0, f"{fastest.spec}: chosen although over the budget: the fastest")
-        return fastest.spec, (), reasons
+    return timed
+
+
+def _measure_labelled(
+    items: Sequence[Item],
+    targets: int,
+    timed: Sequence[tuple[float, str]],
+    budget_seconds: float,
+    longest: int,
+    engine: Engine | None,
+    cache: SizeCache | None,
+    reasons: list[str],
+) -> list[TaskFigures]:
+    """Held-out figures of the ``timed`` candidates, quickest first, while their measuring fits
+    MEASURING_SHARE of the budget (the first is always measured); those left out go to
+    ``reasons``."""
     figures: list[TaskFigures] = []
     spent, allowance = 0.0, budget_seconds * MEASURING_SHARE
-    n, m = len(lengths), len(labels)
+    n = len(items)
     for seconds, spec in sorted(timed):
         # Measuring runs the reference part of the job on MEASURED_FOLDS of its folds.
-        share = seconds * n / (n + len(targets)) * len(MEASURED_FOLDS) / 5
+        share = seconds * n / (n + targets) * len(MEASURED_FOLDS) / 5
         if figures and spent + share > allowance:
             reasons.append(
                 f"{spec}: passed over: measuring it too would take more than"
@@ -400,6 +439,12 @@ def _choose_labelled(
             continue
         spent += share
         figures.append(_labelled_figures(items, spec, longest, engine, cache))
+    return figures
+
+
+def _pick_labelled(figures: Sequence[TaskFigures], m: int, reasons: list[str]) -> TaskFigures:
+    """The best of the measured ``figures`` (of a reference of ``m`` origins): its reason first
+    in ``reasons``, then why each other one was passed over."""
     top = max(f.merit or 0.0 for f in figures)
     tie = 1.0 / max(figures[0].items, 1)
     tied = [f for f in figures if (f.merit or 0.0) >= top - tie]
@@ -423,7 +468,7 @@ def _choose_labelled(
             continue
         why = "separates as well but is slower" if f in tied else "separates the origins less"
         reasons.append(f"{f.spec}: passed over: {why}; {f.summary()}")
-    return best.spec, tuple(figures), reasons
+    return best
 
 
 def _real_pair_figures(
