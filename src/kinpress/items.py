@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import bz2
 import gzip
-import io
 import lzma
 import os
 import re
@@ -24,6 +23,12 @@ from typing import Any, BinaryIO
 
 import zstandard
 
+from .sequences import SEQUENCE_FORMATS as SEQUENCE_FORMATS  # re-exported
+from .sequences import _sniff_format
+from .sequences import is_nucleotide as is_nucleotide  # re-exported
+from .sequences import parse_fasta as parse_fasta  # re-exported
+from .sequences import reverse_complement as reverse_complement  # re-exported
+from .sequences import sequence_records as sequence_records  # re-exported
 from .units import size_text
 
 
@@ -44,19 +49,6 @@ class Item:
     source: str
     label: str | None = None
     nucleotide: bool = False
-
-
-SEQUENCE_FORMATS = {
-    ".fa": "fasta", ".fasta": "fasta", ".fna": "fasta", ".ffn": "fasta", ".faa": "fasta",
-    ".frn": "fasta", ".fas": "fasta", ".fsa": "fasta", ".mfa": "fasta",
-    ".fq": "fastq", ".fastq": "fastq",
-    ".gb": "genbank", ".gbk": "genbank", ".gbff": "genbank", ".genbank": "genbank",
-    ".embl": "embl", ".emb": "embl",
-}  # fmt: skip
-
-_SEQUENCE_CHARS = re.compile(rb"[^A-Za-z*.\-]")
-_NUCLEOTIDE_LETTERS = frozenset(b"ACGTUN")
-_COMPLEMENT = bytes.maketrans(b"ACGTURYKMSWBDHVN", b"TGCAAYRMKSWVHDBN")
 
 
 @dataclass(frozen=True)
@@ -81,99 +73,11 @@ class Split:
         return f"{self.mode}:{self.size}" if self.size else self.mode
 
 
-def reverse_complement(letters: bytes) -> bytes:
-    """Reverse complement of nucleotide letters, IUPAC ambiguity codes included."""
-    return letters.translate(_COMPLEMENT)[::-1]
-
-
-def is_nucleotide(letters: bytes) -> bool:
-    """True when at least 90 % of the letters are A, C, G, T, U or N (common practice)."""
-    if not letters:
-        return False
-    sample = letters[:100_000]
-    counts = sum(sample.count(bytes([b])) for b in _NUCLEOTIDE_LETTERS)
-    return counts >= 0.9 * len(sample)
-
-
 def sequence_format(path: str) -> str | None:
     """The sequence format a file name implies (a compression suffix is looked through), or
     None."""
     name = uncompressed_name(path.lower())
     return SEQUENCE_FORMATS.get(os.path.splitext(name)[1])
-
-
-def _sniff_format(data: bytes) -> str | None:
-    head = data.lstrip()[:6]
-    if head.startswith(b">"):
-        return "fasta"
-    if head.startswith(b"LOCUS"):
-        return "genbank"
-    if head.startswith(b"ID   "):
-        return "embl"
-    return None
-
-
-def parse_fasta(data: bytes, source: str) -> Iterator[tuple[str, bytes]]:
-    """(id, letters) per FASTA record; malformed input raises InputError naming file and line."""
-    name: str | None = None
-    chunks: list[bytes] = []
-    for number, raw in enumerate(data.split(b"\n"), start=1):
-        line = raw.strip()
-        if not line:
-            continue
-        if line.startswith(b">"):
-            if name is not None:
-                yield name, b"".join(chunks).upper()
-            fields = line[1:].split(None, 1)
-            if not fields:
-                raise InputError(f"{source}:{number}: FASTA header has no identifier")
-            name, chunks = fields[0].decode("utf-8", "replace"), []
-        elif name is None:
-            if line.startswith(b";"):
-                continue
-            raise InputError(f"{source}:{number}: expected a FASTA header line starting with '>'")
-        else:
-            bad = _SEQUENCE_CHARS.search(line)
-            if bad:
-                char = bad.group().decode("latin-1")
-                raise InputError(
-                    f"{source}:{number}: unexpected character {char!r} in FASTA sequence"
-                )
-            chunks.append(line.translate(None, b"*.-"))
-    if name is not None:
-        yield name, b"".join(chunks).upper()
-    elif data.strip():
-        raise InputError(f"{source}:1: no FASTA record found")
-
-
-def _parse_with_biopython(data: bytes, fmt: str, source: str) -> Iterator[tuple[str, bytes]]:
-    from Bio import SeqIO
-    from Bio.Seq import UndefinedSequenceError
-
-    handle = io.StringIO(data.decode("utf-8", "replace"))
-    number = 0
-    try:
-        for record in SeqIO.parse(handle, fmt):  # type: ignore[no-untyped-call]
-            number += 1
-            try:
-                letters = str(record.seq).encode("ascii", "replace")
-            except UndefinedSequenceError:
-                warnings.warn(
-                    f"{source}: record {record.id} has no sequence letters; left out",
-                    InputWarning,
-                    stacklevel=2,
-                )
-                continue
-            yield record.id, _SEQUENCE_CHARS.sub(b"", letters).translate(None, b"*.-").upper()
-    except (ValueError, AssertionError, IndexError) as error:
-        raise InputError(f"{source}: {fmt} parse error after record {number}: {error}") from None
-
-
-def sequence_records(data: bytes, fmt: str, source: str) -> Iterator[tuple[str, bytes]]:
-    """(id, letters) for each record of a sequence file in the given format."""
-    if fmt == "fasta":
-        return parse_fasta(data, source)
-    return _parse_with_biopython(data, fmt, source)
 
 
 def _chunks(data: bytes, split: Split) -> list[bytes]:
