@@ -37,6 +37,7 @@ import random
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field
 from functools import cached_property
+from typing import Any
 
 import numpy as np
 from datasketch import MinHash, MinHashLSHEnsemble
@@ -54,7 +55,7 @@ from .evidence import (
     seed_print,
 )
 from .formats import json_ready
-from .items import InputError, Item, uncompressed_name
+from .items import InputError, Item, ItemLike, as_items, uncompressed_name
 from .measure import (
     MatrixStats,
     Measurement,
@@ -261,6 +262,12 @@ class DerivedReport:
     def as_json(self) -> list[dict[str, object]]:
         """Per finding: see `DerivedFinding.as_json`."""
         return list(json_ready(self.findings))
+
+    def to_frame(self, same_source: bool = False) -> Any:
+        """One pandas row per finding (`convert.findings_frame`)."""
+        from .convert import findings_frame
+
+        return findings_frame(self, same_source)
 
 
 @dataclass(frozen=True)
@@ -675,7 +682,7 @@ def _findings(
 
 
 def find_derived(
-    items: Sequence[Item],
+    items: Sequence[ItemLike],
     compressor: Compressor | str = "zstd",
     *,
     exhaustive: bool = False,
@@ -717,6 +724,7 @@ def find_derived(
     """
     if not 0 < max_fpr <= 1:
         raise ValueError(f"max_fpr must be in (0, 1], got {max_fpr}")
+    items = as_items(items)
     if len(items) < 2:
         raise InputError(f"need at least two items to compare, got {len(items)}")
     measurement = Measurement.of(compressor, engine=engine, cache=cache, progress=progress)

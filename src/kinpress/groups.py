@@ -178,6 +178,12 @@ class GroupingResult:
         g = self.grouping
         yield from zip(self.labels, g.assignment, g.is_medoid, g.is_outlier, strict=True)
 
+    def to_frame(self) -> Any:
+        """One pandas row per item: group, medoid, outlier (`convert.grouping_frame`)."""
+        from .convert import grouping_frame
+
+        return grouping_frame(self)
+
     def as_json(self) -> dict[str, object]:
         """Per item its group, medoid and outlier flags; per group its size, medoid item and
         mean silhouette (6 decimals; null when undefined); the count, method, mean silhouette,

@@ -51,7 +51,7 @@ from .compressors import compressor as build_compressor
 from .distance import cross_distances, measure_matrix, pair_distances
 from .engine import Engine
 from .formats import json_ready
-from .items import InputError, Item, as_items
+from .items import InputError, Item, ItemLike, as_items
 
 # Moved to items, where inputs become items; importable from here while callers move over.
 from .items import reference_items as reference_items
@@ -81,7 +81,8 @@ class _Reference:
     codes: np.ndarray
 
     @classmethod
-    def of(cls, items: Sequence[Item]) -> _Reference:
+    def of(cls, given: Sequence[ItemLike]) -> _Reference:
+        items = as_items(given, "ref")
         missing = next((item.name for item in items if item.label is None), None)
         if missing is not None:
             raise InputError(f"reference item {missing} has no origin label")
@@ -876,6 +877,12 @@ class Classification:
         """How many items were named, ambiguous and unknown."""
         return {d: sum(p.decision == d for p in self.predictions) for d in DECISIONS}
 
+    def to_frame(self) -> Any:
+        """One pandas row per item: prediction, scores, p-values (`convert`)."""
+        from .convert import classification_frame
+
+        return classification_frame(self)
+
 
 @dataclass(frozen=True)
 class FoldReport:
@@ -1074,8 +1081,8 @@ def _calibrate(
 
 
 def classify(
-    unknowns: Sequence[Item],
-    reference: Sequence[Item],
+    unknowns: Sequence[ItemLike],
+    reference: Sequence[ItemLike],
     comp: str | Compressor = "zstd:level=19",
     *,
     method: str = "conditional",
@@ -1098,6 +1105,7 @@ def classify(
     `conditional` "auto" primes where the compressor can for the conditional method and
     concatenates otherwise. The nearest reference item is searched among the best origin's.
     """
+    unknowns = as_items(unknowns)
     if not unknowns:
         raise InputError("no items to classify")
     ref = _Reference.of(reference)
@@ -1126,7 +1134,7 @@ def classify(
 
 
 def evaluate(
-    reference: Sequence[Item],
+    reference: Sequence[ItemLike],
     comp: str | Compressor = "zstd:level=19",
     *,
     method: str = "conditional",
@@ -1221,7 +1229,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
     def _open_cache(self) -> SizeCache | None:
         return SizeCache(self.cache) if self.cache is not None else None
 
-    def fit(self, X: Sequence[bytes | str], y: Sequence[Any]) -> Self:
+    def fit(self, X: Sequence[ItemLike], y: Sequence[Any]) -> Self:
         """Keep X as the reference labelled by y, choose the compressor, calibrate abstention."""
         items = as_items(X, "ref")
         if len(items) != len(y):
@@ -1255,7 +1263,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
                 cache.close()
         return self
 
-    def _scores(self, X: Sequence[bytes | str]) -> np.ndarray:
+    def _scores(self, X: Sequence[ItemLike]) -> np.ndarray:
         check_is_fitted(self, "calibrated_")
         targets = as_items(X, "x")
         cache = self._open_cache()
@@ -1268,7 +1276,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
                 cache.close()
         return scores.scores
 
-    def p_values(self, X: Sequence[bytes | str]) -> np.ndarray:
+    def p_values(self, X: Sequence[ItemLike]) -> np.ndarray:
         """Conformal p-values of the deciding test, shaped (len(X), len(classes_)): how typical
         each input is of each class (see Conformity). Raises ValueError when fitted with a
         threshold."""
@@ -1277,7 +1285,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
             raise ValueError("fitted with a threshold: no p-values")
         return p
 
-    def predict(self, X: Sequence[bytes | str]) -> np.ndarray:
+    def predict(self, X: Sequence[ItemLike]) -> np.ndarray:
         """The class of each input, or `unknown_label` where it is unknown or ambiguous."""
         decided = self.calibrated_.decide(self._scores(X))
         named = np.array([d == "named" for d in decided.decisions], dtype=bool)
@@ -1292,7 +1300,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         ]
         return out
 
-    def score(self, X: Sequence[bytes | str], y: Sequence[Any], sample_weight: Any = None) -> float:
+    def score(self, X: Sequence[ItemLike], y: Sequence[Any], sample_weight: Any = None) -> float:
         """Mean accuracy on (X, y); a refused item counts as wrong."""
         hits = np.array([p == t for p, t in zip(self.predict(X), y, strict=True)], dtype=float)
         return float(np.average(hits, weights=sample_weight))
