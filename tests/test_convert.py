@@ -20,7 +20,6 @@ from kinpress.convert import PANDAS_HINT, matrix_frame
 from kinpress.derived import find_derived
 from kinpress.groups import GroupingResult, find_groups
 from kinpress.items import as_items
-from kinpress.measure import Measurement
 from kinpress.neighbours import nearest_neighbours
 from kinpress.origins import CompressionClassifier, classify
 from kinpress.trees import (
