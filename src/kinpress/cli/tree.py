@@ -106,6 +106,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
     if not args.plot:
         _options.refuse_given(args, ("labels",), "colours the leaves of --plot; give --plot")
     check_plot(args.plot)
+    title = _options.plot_title(args)
 
     def check(labels: Sequence[str]) -> None:
         _outgroup(args.outgroup, labels)
@@ -146,6 +147,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
             tree,
             args.plot,
             classes=classes(dm),
+            title=title,
             scale_label="NCD",
             legend_title="class" if labels is None else labels.column,
         )
