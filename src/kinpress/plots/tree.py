@@ -261,7 +261,7 @@ def _draw_supports(fig: Figure, ax: Axes, tree: Node, at: _Drawing, sizes: _Tree
         va="top",
         fontsize=8,
         color="#555555",
-        gid="support-note",
+        gid="supports-note",
     )
 
 
