@@ -155,7 +155,7 @@ def calibration_figure(report: CalibrationReport, *, title: str | None = None) -
     caption = f"seed {report.seed}"
     if report.recommended:
         caption += f"; recommended {report.recommended}"
-    fig.suptitle(f"{title}\n{caption}" if title else caption, fontsize=10)
+    fig.suptitle(f"{title}\n{caption}" if title else caption, fontsize=10, gid="title")
     return fig
 
 
