@@ -69,7 +69,7 @@ def test_auto_is_the_default_and_its_choice_is_cached(
 def test_auto_warns_when_even_its_choice_cannot_hold_the_largest_pair(
     monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
 ) -> None:
-    import kinpress.calibration.choose as calibration  # where resolve_auto looks it up
+    import kinpress.calibration.auto as calibration  # where resolve_auto looks it up
 
     class Result:
         reliable_up_to_bytes = 1000

@@ -378,6 +378,55 @@ def distance_matrix(
     return measure_matrix(as_items(items), measurement, memory_limit=memory_limit)
 
 
+@dataclass
+class _PairPass:
+    """What one pass over the distinct contents' pairs found besides their distances: C(xx) of
+    each content, the values clipped below 0 (small, large, value), and counts of the pairs
+    (self pairs apart) read from the cache and of the item pairs above 1."""
+
+    self_sizes: np.ndarray
+    negatives: list[tuple[np.ndarray, np.ndarray, np.ndarray]] = field(default_factory=list)
+    pairs_cached: int = 0
+    self_cached: int = 0
+    above_one: int = 0
+
+
+def _measure_pairs(
+    square: np.ndarray,
+    sizes: Sizes,
+    position: np.ndarray,
+    single: np.ndarray,
+    counts: np.ndarray,
+    conditional: str,
+) -> _PairPass:
+    """Fill `square` (m x m) with the NCD of every pair of the m distinct contents, in chunks of
+    rows; `position` is the conditioning order (each pair's earlier content conditions the
+    later one), `counts` the items of each content. Self pairs C(xx) come in the same pass,
+    first in their row, so that no second wait for the slowest tile is needed."""
+    m = len(counts)
+    passed = _PairPass(np.empty(m, dtype=np.int64))
+    total = m * (m + 1) // 2
+    done = 0
+    for first, second in _row_chunks(m, _chunk_for(m)):
+        small, large = position[first], position[second]
+        found, cached = sizes.fetch("pairs", small, large, done=done, total=total)
+        done += len(found)
+        own = first == second
+        passed.self_sizes[small[own]] = found[own]
+        passed.self_cached += int(cached[own].sum())
+        passed.pairs_cached += int(cached[~own].sum())
+        small, large, found = small[~own], large[~own], found[~own]
+        value = ncd(conditional_of(found, single[small], conditional), single[large])
+        below = value < 0
+        if below.any():
+            passed.negatives.append((small[below], large[below], value[below]))
+            value[below] = 0.0
+        passed.above_one += int((counts[small] * counts[large])[value > 1].sum())
+        square[small, large] = value
+        square[large, small] = value
+    return passed
+
+
 def measure_matrix(
     items: Sequence[Item], measurement: Measurement, *, memory_limit: int | None = None
 ) -> DistanceMatrix:
@@ -394,33 +443,13 @@ def measure_matrix(
     m = len(sizes.data)
 
     # Distinct contents in conditioning order; each pair's earlier content conditions the later
-    # one. Self pairs C(xx) come in the same pass, first in their row, so that no second wait
-    # for the slowest tile is needed.
+    # one.
     position = conditioning_order(digests, single)
     counts = np.bincount(index, minlength=m)
     square = np.zeros((m, m))  # the one n x n array of the run (m x m, then n x n, with repeats)
-    self_sizes = np.empty(m, dtype=np.int64)
-    negatives: list[tuple[np.ndarray, np.ndarray, np.ndarray]] = []
-    total = m * (m + 1) // 2
-    done = pairs_cached = self_cached = above_one = 0
-    for first, second in _row_chunks(m, _chunk_for(m)):
-        small, large = position[first], position[second]
-        found, cached = sizes.fetch("pairs", small, large, done=done, total=total)
-        done += len(found)
-        own = first == second
-        self_sizes[small[own]] = found[own]
-        self_cached += int(cached[own].sum())
-        pairs_cached += int(cached[~own].sum())
-        small, large, found = small[~own], large[~own], found[~own]
-        value = ncd(conditional_of(found, single[small], conditional), single[large])
-        below = value < 0
-        if below.any():
-            negatives.append((small[below], large[below], value[below]))
-            value[below] = 0.0
-        above_one += int((counts[small] * counts[large])[value > 1].sum())
-        square[small, large] = value
-        square[large, small] = value
-    self_unique = ncd(conditional_of(self_sizes, single, conditional), single)
+    passed = _measure_pairs(square, sizes, position, single, counts, conditional)
+    negatives = passed.negatives
+    self_unique = ncd(conditional_of(passed.self_sizes, single, conditional), single)
     # Expand distinct contents back to items; identical items are at distance 0.
     distances = square[np.ix_(index, index)] if m < len(items) else square
     del square
@@ -431,15 +460,15 @@ def measure_matrix(
     clipped = [np.concatenate(parts) for parts in zip(*negatives, strict=True)]
     pairs = m * (m - 1) // 2
     stats = MatrixStats(
-        pairs_computed=pairs - pairs_cached,
-        pairs_from_cache=pairs_cached,
+        pairs_computed=pairs - passed.pairs_cached,
+        pairs_from_cache=passed.pairs_cached,
         singles_computed=m - singles_cached,
         singles_from_cache=singles_cached,
-        self_pairs_computed=m - self_cached,
+        self_pairs_computed=m - passed.self_cached,
         bytes_compressed=sizes.bytes_compressed,
         seconds=time.perf_counter() - started,
         clipped_below_zero=int(sum((counts[s] * counts[b]).sum() for s, b, _ in negatives)),
-        above_one=above_one,
+        above_one=passed.above_one,
         identical_items=len(items) - m,
     )
     distances.setflags(write=False)

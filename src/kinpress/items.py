@@ -8,7 +8,6 @@ deposit conventions do not change distances.
 from __future__ import annotations
 
 import bz2
-import csv
 import gzip
 import io
 import lzma
@@ -20,7 +19,6 @@ import warnings
 import zlib
 from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, replace
-from functools import cached_property
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, BinaryIO, TypeAlias
 
@@ -416,186 +414,6 @@ def _sequence_files_if_mostly(folder: str, found: list[str]) -> list[str]:
     return [f for f in found if sequence_format(f) is not None]
 
 
-_HEAD_BYTES = 1 << 16
-"""How much of a file is read to tell a label table or an earlier output from an input."""
-
-_OUTPUT_HEADERS = {
-    ("item", "group", "medoid", "outlier"): "kinpress groups table",
-    ("item", "rank", "neighbour", "ncd"): "kinpress nearest-neighbour table",
-    ("a", "b", "relation", "a_explained_by_b", "b_explained_by_a", "score", "fpr",
-     "a_shared_in_order", "b_shared_in_order", "a_path", "b_path", "a_hash", "b_hash",
-     "a_start", "a_end", "b_start", "b_end"): "kinpress findings table",
-    ("item", "origin", "p-value", "confidence", "nearest", "distance"): "kinpress classification",
-}  # fmt: skip
-"""First rows (cells split by tabs, commas or blanks) of the tables kinpress writes."""
-
-_OUTPUT_KEYS: dict[tuple[str, ...], str] = {
-    ("labels", "compressor", "conditional"): "kinpress matrix (JSON)",
-    ("newick", "method", "rooting"): "kinpress tree (JSON)",
-    ("items", "item", "group"): "kinpress groups (JSON)",
-    ("k", "compressor", "conditional"): "kinpress nearest neighbours (JSON)",
-    ("item", "predicted", "decision"): "kinpress classification (JSON)",
-    ("accuracy", "refusal_rate", "ambiguous_rate"): "kinpress evaluation (JSON)",
-    ("a", "b", "relation"): "kinpress findings (JSON)",
-    ("seed", "inputs"): "kinpress calibration (JSON)",
-    ("name", "spec", "levels"): "kinpress compressor list (JSON)",
-}
-"""The first keys of the JSON kinpress writes, by what it is."""
-
-_NEWICK_TOKEN = re.compile(r"'(?:[^']|'')*'|[(),:;]|[^()\[\]':;,\s]+")
-_JSON_KEY = re.compile(r'"((?:[^"\\]|\\.)*)"\s*:')
-
-
-def _is_number(text: str) -> bool:
-    try:
-        float(text)
-    except ValueError:
-        return False
-    return True
-
-
-def _matrix_kind(lines: list[str]) -> str | None:
-    """'TSV', 'CSV' or 'PHYLIP' when the lines start a matrix as kinpress writes one."""
-    first, second = lines[0], lines[1] if len(lines) > 1 else None
-    if first.strip().isdigit() and second is not None:
-        n = int(first.strip())
-        cells = second.split()
-        if n >= 2 and len(cells) > n and all(map(_is_number, cells[-n:])):
-            return "PHYLIP"
-    for sep, kind in (("\t", "TSV"), (",", "CSV")):
-        if not first.startswith(sep) or first.count(sep) < 2:
-            continue
-        if second is None:  # one header row longer than the head read
-            return kind
-        labels, row = next(csv.reader([first], delimiter=sep)), second.split(sep)
-        if len(row) > 1 and _is_number(row[-1]) and row[0].strip('"') == labels[1]:
-            return kind
-    return None
-
-
-def _is_newick(line: str, whole: bool) -> bool:
-    """A tree in Newick as kinpress writes it (on one line): parentheses, commas, labels
-    (quoted where they hold blanks or punctuation), ':' lengths and a final ';'. An opening
-    parenthesis follows only another one or a comma, which tells code such as
-    ``(function(){})();`` apart. Only the start need be seen of a file longer than the head."""
-    tokens = _NEWICK_TOKEN.findall(line)
-    if "".join(tokens) != line or not tokens or tokens[0] != "(":
-        return False
-    if whole and (tokens[-1] != ";" or tokens.count(";") != 1):
-        return False
-    depth = 0
-    for before, token in zip(["(", *tokens], tokens, strict=False):
-        if token == "(" and before not in "(,":
-            return False
-        if before == ":" and not _is_number(token):
-            return False
-        depth += {"(": 1, ")": -1}.get(token, 0)
-        if depth < 0:
-            return False
-    return depth == 0 or not whole
-
-
-def _earlier_output(text: str, whole: bool = True) -> str | None:
-    """What kinpress output `text` (the head of a file; `whole` when it is the whole file) is,
-    or None."""
-    lines = [line.rstrip("\r") for line in text.splitlines() if line.strip()]
-    if not lines:
-        return None
-    start = text.lstrip()
-    if start.startswith(("{", "[")):
-        keys = tuple(_JSON_KEY.findall(start[:4096])[:3])
-        return next((kind for k, kind in _OUTPUT_KEYS.items() if keys[: len(k)] == k), None)
-    if len(lines) == 1 and _is_newick(lines[0].strip(), whole):
-        return "Newick tree"
-    for sep in ("\t", ",", None):
-        kind = _OUTPUT_HEADERS.get(tuple(lines[0].split(sep)))
-        if kind is not None:
-            return kind
-    kind = _matrix_kind(lines)
-    return None if kind is None else f"kinpress matrix ({kind})"
-
-
-def _names_in(folder: str, files: Iterable[str]) -> set[str]:
-    """Every name by which a label table may name a file of `folder`: its path from the folder,
-    its file name, each without a compression suffix and without an extension."""
-    names: set[str] = set()
-    for path in files:
-        relative = os.path.relpath(path, folder).replace(os.sep, "/")
-        for name in (relative, os.path.basename(relative)):
-            plain = uncompressed_name(name)
-            names.update((name, plain, os.path.splitext(plain)[0]))
-    return names
-
-
-def _is_label_table(text: str, path: str, names: set[str]) -> bool:
-    """A table of at least two columns, its first row a header (names, not numbers or files),
-    whose first column names files of the folder in at least half of the rows below."""
-    try:
-        rows = [cells for _, cells in _table_rows(text, path)]
-    except csv.Error:
-        return False
-    if not rows or len(rows[0]) < 2:
-        return False
-
-    def names_file(cells: list[str]) -> bool:
-        cell = unescape_name(cells[0].strip()).partition("#")[0]
-        path = os.path.normpath(cell).replace(os.sep, "/") if cell else ""
-        return bool(cell) and (path in names or os.path.basename(path) in names)
-
-    header, body = rows[0], rows[1:]
-    if names_file(header) or any(_is_number(cell) or not cell.strip() for cell in header):
-        return False
-    hits = sum(map(names_file, body))
-    return hits > 0 and 2 * hits >= len(body)
-
-
-def _head(path: str) -> tuple[str, bool] | None:
-    """The first _HEAD_BYTES of a file as text, cut at its last whole line when the file goes
-    on, and whether that is the whole file; None for a file that cannot be read or holds NUL
-    bytes (not text)."""
-    try:
-        with open(path, "rb") as handle:
-            data = handle.read(_HEAD_BYTES + 1)
-    except OSError:
-        return None
-    if b"\0" in data:
-        return None
-    whole = len(data) <= _HEAD_BYTES
-    if not whole:
-        data = data[: data.rfind(b"\n", 0, _HEAD_BYTES) + 1] or data[:_HEAD_BYTES]
-    return data.decode("utf-8", "ignore"), whole
-
-
-def _without_tables_and_outputs(folder: str, found: list[str]) -> list[str]:
-    """A folder's files without label tables and kinpress's own earlier outputs, which are left
-    out with a warning naming them (a labels.tsv beside the texts is no text to compare)."""
-    plain = [f for f in found if sequence_format(f) is None and uncompressed_name(f) == f]
-    names = _names_in(folder, found)
-    left: dict[str, str] = {}
-    for path in plain:
-        head = _head(path)
-        if head is None:
-            continue
-        text, whole = head
-        kind = _earlier_output(text, whole)
-        if kind is None and _is_label_table(text, path, names - _names_in(folder, [path])):
-            kind = "label table"
-        if kind is not None:
-            left[path] = kind
-    if not left:
-        return found
-    shown = ", ".join(
-        f"{escape_name(os.path.relpath(p, folder))}: {kind}" for p, kind in list(left.items())[:3]
-    ) + (", ..." if len(left) > 3 else "")
-    warnings.warn(
-        f"{folder}: left out {len(left)} file(s) that look like label tables or kinpress's own"
-        f" outputs ({shown}); name a file to include it",
-        InputWarning,
-        stacklevel=3,
-    )
-    return [f for f in found if f not in left]
-
-
 _SIMPLE_ESCAPES = {"\\": "\\\\", "\t": "\\t", "\n": "\\n", "\r": "\\r"}
 _UNESCAPES = {"\\": "\\", "t": "\t", "n": "\n", "r": "\r"}
 _ESCAPED = re.compile(r"\\(?:([\\tnr])|x([0-9a-fA-F]{2})|u([0-9a-fA-F]{4})|U([0-9a-fA-F]{8}))")
@@ -667,149 +485,6 @@ def unique_names(items: Sequence[Item]) -> list[Item]:
             name = f"{item.name}~{n}"
         used.add(name)
         out.append(item if name == item.name else replace(item, name=name))
-    return out
-
-
-_NAME_HEADERS = ("item", "name", "id", "file")
-"""First header cells that mark a two-column label file's first row as a header."""
-
-
-@dataclass(frozen=True)
-class Labels:
-    """Known labels by item name, and what they are: `column` (the header of the column they
-    came from, a legend's title; "label" when the file has no header) and `source` (the file).
-
-    A key matches an item by its name, the name before a chunk number (`app.log` labels
-    `app.log#3`), or the file name of the item's source; a key written as a path
-    (`logs/app.log`) also matches by its file name.
-    """
-
-    mapping: Mapping[str, str]
-    column: str = "label"
-    source: str = ""
-
-    def key_for(self, name: str, source: str = "") -> str | None:
-        """The key of `mapping` that labels the item `name` read from `source`, or None."""
-        for candidate in (name, name.partition("#")[0], os.path.basename(source)):
-            if candidate in self.mapping:
-                return candidate
-            by_file = self._by_file_name.get(candidate)
-            if by_file is not None:
-                return by_file
-        return None
-
-    @cached_property
-    def _by_file_name(self) -> dict[str, str]:
-        out: dict[str, str] = {}
-        for key in self.mapping:
-            out.setdefault(os.path.basename(key), key)
-        return out
-
-    def label_of(self, name: str, source: str = "") -> str | None:
-        """The label of the item `name` read from `source` (see `key_for`), or None."""
-        key = self.key_for(name, source)
-        return None if key is None else self.mapping[key]
-
-    def missing(self, items: Iterable[Item]) -> list[str]:
-        """Names of the items no label matches (say so: they are left out of any scoring)."""
-        return [i.name for i in items if self.key_for(i.name, i.source) is None]
-
-
-def label_spec(text: str) -> tuple[str, str | None]:
-    """The file and column of a `FILE[:COLUMN]` argument; a name that exists as a file is taken
-    whole, so a file name holding a colon needs no column."""
-    path, colon, column = text.rpartition(":")
-    if not colon or os.path.exists(text) or not path or not column:
-        return text, None
-    return path, column
-
-
-def _table_rows(text: str, path: str) -> list[tuple[int, list[str]]]:
-    """(line number, cells) of each row that is not blank or a # comment; cells of a file named
-    .csv (or whose first line holds commas and no tab) are split by RFC 4180, else by tabs."""
-    first = next((line for line in text.splitlines() if line.strip()), "")
-    if path.lower().endswith(".csv") or ("\t" not in first and "," in first):
-        reader = csv.reader(io.StringIO(text, newline=""))
-        rows = [(reader.line_num, cells) for cells in reader]
-    else:
-        rows = [
-            (number, line.rstrip("\r").split("\t"))
-            for number, line in enumerate(text.splitlines(), start=1)
-        ]
-    return [
-        (number, cells)
-        for number, cells in rows
-        if any(c.strip() for c in cells) and not cells[0].startswith("#")
-    ]
-
-
-def read_label_table(path: str | os.PathLike[str], column: str | None = None) -> Labels:
-    """Known labels from a table of items and their labels (TSV, or CSV by name or content).
-
-    The first column names the items. With `column`, the first row is a header and that column
-    holds the labels (an empty cell: no label; `Labels.missing` names the items left without);
-    without it, the second column does, and the first row is a header only when its first cell
-    is item, name, id or file (the two-column format, `item<TAB>label`). Lines starting with #
-    are comments. Names and labels may use the escapes every output writes (`escape_name`).
-
-    >>> read_label_table("frogs.tsv", "clade").column  # doctest: +SKIP
-    'clade'
-    """
-    source = os.fspath(path)
-    try:
-        text = Path(path).read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputError(f"{source}: no such file") from None
-    except (OSError, UnicodeDecodeError) as error:
-        raise InputError(f"{source}: cannot read labels: {error}") from None
-    try:
-        rows = _table_rows(text, source)
-    except csv.Error as error:
-        raise InputError(f"{source}: cannot read labels: {error}") from None
-    header = rows[0][1] if rows else []
-    chosen = column is not None
-    if column is not None:
-        names = [cell.strip() for cell in header]
-        if column not in names[1:]:
-            raise InputError(
-                f"{source}: no column {column!r}; its columns: {', '.join(names[1:]) or 'none'}"
-            )
-        index, rows = names.index(column, 1), rows[1:]
-    else:
-        index = 1
-        is_header = bool(header) and header[0].strip().lower() in _NAME_HEADERS
-        column = header[1].strip() if is_header and len(header) > 1 else "label"
-        rows = rows[1:] if is_header else rows
-    labels: dict[str, str] = {}
-    for number, cells in rows:
-        if not cells[0].strip() or (len(cells) < 2 and index == 1):
-            raise InputError(f"{source}:{number}: expected item<TAB>label")
-        value = cells[index].strip() if index < len(cells) else ""
-        if value or not chosen:  # the two-column format keeps an empty label as given
-            labels[unescape_name(cells[0].strip())] = unescape_name(value)
-    return Labels(labels, column, source)
-
-
-def read_labels(path: str | os.PathLike[str]) -> dict[str, str]:
-    """Known labels from a TSV of `item<TAB>label` (see `read_label_table`)."""
-    return dict(read_label_table(path).mapping)
-
-
-def attach_labels(items: Sequence[Item], labels: Mapping[str, str] | Labels) -> list[Item]:
-    """Give items their known labels, matched by item name, then record or file name (see
-    `Labels`); labels that name no item are warned of."""
-    known = labels if isinstance(labels, Labels) else Labels(labels)
-    out = []
-    used: set[str] = set()
-    for item in items:
-        key = known.key_for(item.name, item.source)
-        if key is not None:
-            used.add(key)
-            item = replace(item, label=known.mapping[key])
-        out.append(item)
-    unused = len(set(known.mapping) - used)
-    if unused:
-        warnings.warn(f"{unused} labels name no item; ignored", InputWarning, stacklevel=2)
     return out
 
 
@@ -931,3 +606,13 @@ def reference_items(
     if not items:
         raise InputError(f"{root}: no origin subfolders with files")
     return items
+
+
+# Labels and the files that are not inputs have modules of their own, which build on the above;
+# imported last (they import this module), and importable from here as before.
+from .labels import Labels as Labels  # noqa: E402
+from .labels import attach_labels as attach_labels  # noqa: E402
+from .labels import label_spec as label_spec  # noqa: E402
+from .labels import read_label_table as read_label_table  # noqa: E402
+from .labels import read_labels as read_labels  # noqa: E402
+from .not_inputs import _without_tables_and_outputs  # noqa: E402

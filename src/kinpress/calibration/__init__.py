@@ -11,17 +11,21 @@ partner no longer fit the window or block, identity distances jump towards 1
 (Cebrián, Alfonseca & Ortega 2005, "Common pitfalls using the normalized compression distance",
 Commun. Inf. Syst. 5(4)), and a coder that only counts symbols cannot tell x from a shuffle of x.
 
-The package in three steps, each a module:
+The package in three steps, each a module, and the cached entry points:
 
 * :mod:`.controls`: the inputs with known answers (identity, independence, composition, a
-  mutation ladder, block moves), made from the user's items or synthetic text by a seed;
+  mutation ladder, block moves), made from the user's items or synthetic text by a seed, and
+  strings a short rule makes (Champernowne's and Copeland & Erdős's digits, pi, rule 30);
 * :mod:`.measure`: each compressor's figures on them (bias, a size sweep of NCD(x, x) over sizes
   doubling from 1 KiB, the four properties of a normal compressor), with the rules that turn
   figures into a reliable size and a resolution;
 * :mod:`.choose`: the recommendation and its reasons in words, job-time estimates, and
   :func:`choose_for_job`, the one function ``-c auto`` calls for every job kind.
+* :mod:`.auto`: :func:`resolve_auto` (``-c auto``: that choice, kept in the size cache) and
+  :func:`calibration_report` (what ``kinpress calibrate`` reports, kept there too).
 """
 
+from .auto import calibration_report, resolve_auto
 from .choose import (
     DEFAULT_BUDGET_SECONDS,
     DEFAULT_CANDIDATES,
@@ -31,23 +35,37 @@ from .choose import (
     Choice,
     TaskFigures,
     calibrate,
-    calibration_report,
     choose_compressor,
     choose_for_job,
     estimate_classify_seconds,
     estimate_job_seconds,
     holds,
-    resolve_auto,
 )
-from .controls import BLOCK_COUNTS, DEFAULT_SEED, MUTATION_RATES, Controls, make_controls
+from .controls import (
+    BLOCK_COUNTS,
+    DEFAULT_SEED,
+    MUTATION_RATES,
+    Controls,
+    KnownAnswer,
+    champernowne_digits,
+    copeland_erdos_digits,
+    known_answers,
+    make_controls,
+    pi_digits,
+    rule30_centre_bits,
+    seeded_digits,
+)
 from .measure import (
     DEFAULT_MAX_BYTES,
     RELIABLE_NCD,
     REPORT_KEYS,
+    STRUCTURE_MARGIN,
+    BlindSpot,
     CalibrationReport,
     CompressorCalibration,
     Normality,
     SizeSweep,
+    blind_spot,
     calibrate_compressor,
     normality_violations,
     size_sweep,
@@ -65,23 +83,33 @@ __all__ = [
     "MUTATION_RATES",
     "RELIABLE_NCD",
     "REPORT_KEYS",
+    "STRUCTURE_MARGIN",
+    "BlindSpot",
     "CalibrationReport",
     "Choice",
     "CompressorCalibration",
     "Controls",
+    "KnownAnswer",
     "Normality",
     "SizeSweep",
     "TaskFigures",
+    "blind_spot",
     "calibrate",
     "calibrate_compressor",
     "calibration_report",
+    "champernowne_digits",
     "choose_compressor",
     "choose_for_job",
+    "copeland_erdos_digits",
     "estimate_classify_seconds",
     "estimate_job_seconds",
     "holds",
+    "known_answers",
     "make_controls",
     "normality_violations",
+    "pi_digits",
     "resolve_auto",
+    "rule30_centre_bits",
+    "seeded_digits",
     "size_sweep",
 ]

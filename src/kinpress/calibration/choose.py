@@ -42,7 +42,6 @@ from .measure import (
     DEFAULT_SWEEP_SECONDS,
     CalibrationReport,
     CompressorCalibration,
-    Normality,
     calibrate_compressor,
 )
 
@@ -208,16 +207,30 @@ def estimate_job_seconds(
     lengths: Sequence[int],
     jobs: int | None = None,
     strand: str = "one",
+    *,
+    replicates: int = 0,
+    null_pairs: int = 0,
 ) -> float:
-    """Wall time of a whole matrix by concatenation at the calibrated throughput.
+    """Wall time of a whole job by concatenation at the calibrated throughput.
 
     n items of T bytes in all: every item once, its x+x once, and the n(n-1)/2 pairs, each of two
     items: T + (n + 1)·T bytes, the pairs twice with ``strand="both"`` (each y is also tried
-    reverse-complemented), spread over ``jobs`` cores (default: all).
+    reverse-complemented). Each of ``replicates`` bootstrap replicates is a whole matrix again
+    (items resampled to their own lengths, so the same bytes); each of ``null_pairs`` (derived's
+    null) is measured both ways against material of a partner's size: two concatenations of two
+    mean items and the material once, 5·T/n bytes. All spread over ``jobs`` cores (default: all).
     """
     n, total = len(lengths), sum(lengths)
-    work = total + (n + 1) * total * (2 if strand == "both" else 1)
+    matrix = total + (n + 1) * total * (2 if strand == "both" else 1)
+    work = matrix * (1 + replicates) + null_pairs * 5 * total / max(n, 1)
     return work / (result.throughput_mb_s * 1e6) / (jobs or _cores())
+
+
+def _job_words(replicates: int, null_pairs: int) -> str:
+    """What the estimate counts beyond the matrix, in words ("" when nothing)."""
+    extra = [f"{replicates:,} bootstrap replicates"] if replicates else []
+    extra += [f"{null_pairs:,} null pairs"] if null_pairs else []
+    return f" (the matrix and {' and '.join(extra)})" if extra else ""
 
 
 def _estimate(seconds: float) -> str:
@@ -233,9 +246,12 @@ def choose_compressor(
     jobs: int | None = None,
     strand: str = "one",
     max_bytes: int = DEFAULT_MAX_BYTES,
+    replicates: int = 0,
+    null_pairs: int = 0,
 ) -> tuple[str, CalibrationReport]:
     """The compressor for ``-c auto``: the best one (as :func:`calibrate` ranks them) among those
-    whose estimated whole-job time (:func:`estimate_job_seconds`) is within ``budget_seconds``;
+    whose estimated whole-job time (:func:`estimate_job_seconds`, with ``replicates`` bootstrap
+    matrices and ``null_pairs`` of derived's null) is within ``budget_seconds``;
     quality is worth paying for only inside the budget. If none fits the budget, the fastest
     reliable one; the reasons say which and why.
     """
@@ -243,12 +259,15 @@ def choose_compressor(
     lengths = [len(item.data) for item in items]
     cores = jobs or _cores()
 
+    extra = {"replicates": replicates, "null_pairs": null_pairs}
+    words = _job_words(replicates, null_pairs)
+
     def slow(result: CompressorCalibration) -> str | None:
-        seconds = estimate_job_seconds(result, lengths, cores, strand)
+        seconds = estimate_job_seconds(result, lengths, cores, strand, **extra)
         if seconds <= budget_seconds:
             return None
         return (
-            f"the whole job would take {_estimate(seconds)} on {cores} cores, over the "
+            f"the whole job{words} would take {_estimate(seconds)} on {cores} cores, over the "
             f"{duration_text(budget_seconds)} budget"
         )
 
@@ -257,8 +276,9 @@ def choose_compressor(
         raise ValueError("no candidate compressors to choose from")
     chosen = report.result(recommended)
     estimate = (
-        f"estimated job time with {recommended}: "
-        f"{_estimate(estimate_job_seconds(chosen, lengths, cores, strand))} on {cores} cores "
+        f"estimated job time with {recommended}{words}: "
+        f"{_estimate(estimate_job_seconds(chosen, lengths, cores, strand, **extra))} on"
+        f" {cores} cores "
         f"(budget {duration_text(budget_seconds)})"
     )
     report = replace(report, recommended=recommended, reasons=(*reasons, estimate))
@@ -543,6 +563,8 @@ def choose_for_job(
     strand: str = "one",
     engine: Engine | None = None,
     cache: SizeCache | None = None,
+    replicates: int = 0,
+    null_pairs: int = 0,
 ) -> Choice:
     """The compressor ``-c auto`` uses for a job of kind ``job`` (one of JOBS) on ``items``.
 
@@ -559,7 +581,8 @@ def choose_for_job(
     checked against a full matrix's time even for nearest, which measures far fewer pairs: on a
     large set that favours the quicker compressors, as a large set needs. The job's time is
     estimated on the ``engine``'s workers (default: a `LocalEngine` on every core), where the
-    measuring runs too.
+    measuring runs too, and counts ``replicates`` bootstrap matrices (tree --bootstrap) and
+    ``null_pairs`` of derived's null beside the matrix.
     """
     if job not in JOBS:
         raise ValueError(f"unknown job {job!r}; use one of {', '.join(JOBS)}")
@@ -580,154 +603,16 @@ def choose_for_job(
                       figures, tuple(reasons))  # fmt: skip
     spec, report = choose_compressor(
         items, budget_seconds=budget_seconds, candidates=candidates, seed=seed, jobs=cores,
-        strand=strand,
+        strand=strand, replicates=replicates, null_pairs=null_pairs,
     )  # fmt: skip
     lengths = [len(item.data) for item in items]
 
     def quick(result: CompressorCalibration) -> bool:
-        return estimate_job_seconds(result, lengths, cores, strand) <= budget_seconds
+        seconds = estimate_job_seconds(result, lengths, cores, strand, replicates=replicates,
+                                       null_pairs=null_pairs)  # fmt: skip
+        return seconds <= budget_seconds
 
     chosen, figures, extra = _check_real_pairs(items, spec, report, seed, engine, cache, quick)
     kept = (*extra, *report.reasons) if chosen == spec else (*extra, *report.reasons[1:])
     return Choice(chosen, job, replace(report, recommended=chosen, reasons=kept), figures,
                   kept)  # fmt: skip
-
-
-# The ``-c auto`` resolution: a choice per job, kept in the size cache
-
-
-def resolve_auto(
-    items: Sequence[Item],
-    job: str,
-    *,
-    targets: Sequence[Item] = (),
-    budget_seconds: float = DEFAULT_BUDGET_SECONDS,
-    strand: str = "one",
-    engine: Engine,
-    cache: SizeCache | None = None,
-    say: Callable[[str], None] = lambda message: None,
-) -> str:
-    """The spec ``-c auto`` uses for ``job`` on ``items``: :func:`choose_for_job`'s choice
-    (classify: ``items`` is the labelled reference, ``targets`` the unknowns), said through
-    ``say``, with a MeasurementWarning when even it cannot hold the largest pair of items.
-
-    The choice is kept in ``cache``, keyed by the items' contents (and labels for a labelled
-    job), the job, the candidates (with their library versions), the seed, the budget, the
-    cores of ``engine`` and the strand, so a rerun does not calibrate again.
-    """
-    import hashlib
-    import json
-
-    from ..measure import MeasurementWarning, content_digest
-
-    labelled = job in LABELLED_JOBS
-    cores = engine.jobs
-    candidates = AUTO_CANDIDATES["labelled" if labelled else "unlabelled"]
-    lines = [
-        *sorted(
-            content_digest(item.data).hex() + (f"\t{item.label}" if labelled else "")
-            for item in items
-        ),
-        *(compressor(spec).cache_key for spec in candidates),
-        f"seed={DEFAULT_SEED} budget={budget_seconds} cores={cores} strand={strand}",
-        f"job={job} targets={len(targets)}:{sum(len(t.data) for t in targets)} ranked=merit"
-        if labelled
-        else "job=unlabelled",
-    ]
-    key = "auto:" + hashlib.blake2b("\n".join(lines).encode(), digest_size=16).hexdigest()
-    stored = cache.get_choice(key) if cache is not None else None
-    if stored is None:
-        say(f"auto: calibrating the compressors on these inputs for {job} ...")
-        choice = choose_for_job(items, job, targets=targets, budget_seconds=budget_seconds,
-                                strand=strand, engine=engine, cache=cache)  # fmt: skip
-        pair = int(sum(sorted((len(item.data) for item in items), reverse=True)[:2]))
-        result = choice.report.result(choice.spec)
-        # A labelled choice leads with its task figures; an unlabelled one with the controls'
-        # comparison when there was one, else with the time estimate that settled it.
-        lead = labelled or " chosen over " in choice.reasons[0]
-        stored = json.dumps(
-            {
-                "spec": choice.spec,
-                "why": choice.reasons[0] if lead else choice.reasons[-1],
-                "holds": labelled or holds(result, pair),
-                "reliable": result.reliable_up_to_bytes,
-                "pair": pair,
-            }
-        )
-        if cache is not None:
-            cache.put_choice(key, stored)
-    else:
-        say("auto: the choice for these inputs is in the cache")
-    chosen = json.loads(stored)
-    say(f"auto: chose {chosen['spec']}: {chosen['why']}")
-    if not chosen["holds"]:
-        warnings.warn(
-            f"{chosen['spec']}: reliable up to {chosen['reliable']:,} bytes, below the largest"
-            f" pair of items ({chosen['pair']:,} bytes); their distances drift towards 1",
-            MeasurementWarning,
-            stacklevel=2,
-        )
-    return str(chosen["spec"])
-
-
-def calibration_report(
-    items: Sequence[Item] | None,
-    candidates: Sequence[str],
-    *,
-    seed: int = DEFAULT_SEED,
-    max_bytes: int = DEFAULT_MAX_BYTES,
-    budget_seconds: float | None = None,
-    jobs: int | None = None,
-    cache: SizeCache | None = None,
-    say: Callable[[str], None] = lambda message: None,
-) -> CalibrationReport:
-    """What ``kinpress calibrate`` reports: :func:`calibrate`, or with ``budget_seconds`` (which
-    needs ``items``) :func:`choose_compressor`, whose recommendation is the best compressor
-    whose whole matrix of the items is estimated to fit the budget on ``jobs`` cores.
-
-    The report is kept in ``cache``, keyed by the items' contents, the candidates (with their
-    library versions), the seed, the size cap, the budget and the cores, so a rerun does not
-    measure again (its throughputs are those of the first run).
-    """
-    import hashlib
-    import json
-
-    from ..measure import content_digest
-
-    if budget_seconds is not None and not items:
-        raise ValueError("a budget weighs the run time of the inputs' matrix: give inputs")
-    lines = [
-        *sorted(content_digest(item.data).hex() for item in items or ()),
-        *(compressor(spec).cache_key for spec in candidates),
-        f"seed={seed} max_bytes={max_bytes} budget={budget_seconds} cores={jobs}",
-    ]
-    key = "calibrate:" + hashlib.blake2b("\n".join(lines).encode(), digest_size=16).hexdigest()
-    stored = cache.get_choice(key) if cache is not None else None
-    if stored is not None:
-        say("calibrate: the report for these inputs is in the cache")
-        return _report_from_json(stored)
-    if budget_seconds is None or not items:
-        report = calibrate(items, candidates, seed=seed, max_bytes=max_bytes)
-    else:
-        _, report = choose_compressor(items, budget_seconds=budget_seconds, candidates=candidates,
-                                      seed=seed, jobs=jobs, max_bytes=max_bytes)  # fmt: skip
-    if cache is not None:
-        cache.put_choice(key, json.dumps(report.as_json()))
-    return report
-
-
-def _report_from_json(text: str) -> CalibrationReport:
-    """The report :meth:`CalibrationReport.as_json` wrote (its derived figures recomputed)."""
-    import json
-
-    doc = json.loads(text)
-    derived = {"mutation_distance", "quality"}
-    results = []
-    for entry in doc["compressors"]:
-        fields = {k: v for k, v in entry.items() if k not in derived}
-        fields["normality"] = Normality(**fields["normality"])
-        for curve in ("size_sweep", "mutation_ladder", "block_moves"):
-            fields[curve] = tuple(tuple(point) for point in fields[curve])
-        results.append(CompressorCalibration(**fields))
-    return CalibrationReport(doc["seed"], doc["inputs"], tuple(results), doc["recommended"],
-                             tuple(doc["reasons"]))  # fmt: skip

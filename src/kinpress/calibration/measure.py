@@ -15,6 +15,13 @@ Rules (the constants below hold the numbers):
   ``TOLERANCE_BYTES`` (16) plus ``TOLERANCE_FRACTION`` (2 %) of its reference size (C(x) for
   idempotency and monotonicity, the larger of C(xy), C(yx) for symmetry, C(xz) + C(yz) for
   distributivity), which stands in for the paper's "up to O(log n)".
+* known answers: a compressor codes a known-answer string in 8·C(x)/symbols bits a symbol, and
+  reports how far that is below log2(alphabet), what a coder that finds nothing spends (3.3219
+  bits a digit, 1 a bit). It sees structure there when it is below the string's own order-0
+  entropy (what counting symbols gets; on finite prefixes a little below log2(alphabet)) by more
+  than ``STRUCTURE_MARGIN`` (3 %) of log2(alphabet).
+  On the random-looking ones (pi, rule 30, a seeded stream) no practical compressor does: a
+  distance near 1 says only that the compressor found nothing shared, not that nothing is.
 """
 
 from __future__ import annotations
@@ -37,6 +44,7 @@ from .controls import (
     DEFAULT_SEED,
     MUTATION_RATES,
     Controls,
+    KnownAnswer,
     _random_over,
     _rng,
 )
@@ -51,6 +59,7 @@ BIAS_GROWTH = 2.0
 RESOLUTION_MARGIN = 0.02
 TOLERANCE_BYTES = 16
 TOLERANCE_FRACTION = 0.02
+STRUCTURE_MARGIN = 0.03
 RELATED_RATE = 0.10
 
 
@@ -223,6 +232,57 @@ def _normality(meter: _Meter, pieces: Sequence[bytes]) -> Normality:
     )
 
 
+# Known answers
+
+
+@dataclass(frozen=True)
+class BlindSpot:
+    """How one compressor codes one known-answer string (:class:`.controls.KnownAnswer`).
+
+    ``bits_per_symbol`` is 8·C(x) / symbols; ``uniform_bits`` is log2(alphabet), what a coder
+    that finds nothing spends; ``below`` is their difference (positive: below the random rate).
+    ``order0_bits`` is the string's own symbol-count entropy, and ``sees_structure`` whether
+    the compressor got below it by more than ``STRUCTURE_MARGIN`` of ``uniform_bits``: found
+    more than symbol counts. On a ``"random-looking"`` string, not seeing any is the blind spot.
+    """
+
+    control: str
+    kind: str
+    source: str
+    symbols: int
+    uniform_bits: float
+    order0_bits: float
+    bits_per_symbol: float
+
+    @property
+    def below(self) -> float:
+        return self.uniform_bits - self.bits_per_symbol
+
+    @property
+    def sees_structure(self) -> bool:
+        return self.order0_bits - self.bits_per_symbol > STRUCTURE_MARGIN * self.uniform_bits
+
+    def as_json(self) -> dict[str, object]:
+        return {
+            "control": self.control,
+            "kind": self.kind,
+            "source": self.source,
+            "symbols": self.symbols,
+            "uniform_bits": self.uniform_bits,
+            "order0_bits": self.order0_bits,
+            "bits_per_symbol": self.bits_per_symbol,
+            "below": self.below,
+            "sees_structure": self.sees_structure,
+        }
+
+
+def blind_spot(comp: Compressor | str, known: KnownAnswer) -> BlindSpot:
+    """Bits a symbol ``comp`` spends on the known-answer string ``known``."""
+    size = compressor(comp).size(known.data)
+    return BlindSpot(known.name, known.kind, known.source, known.symbols, known.uniform_bits,
+                     known.order0_bits, 8 * size / known.symbols)  # fmt: skip
+
+
 # One compressor
 
 
@@ -236,7 +296,8 @@ class CompressorCalibration:
     rate (0 included), ideal 1. mutation_resolution: smallest rate told from identity, or None.
     reliable_up_to_bytes: item size whose x+x is still compressed as a repeat (a lower bound when
     ``reliable_capped``). throughput_mb_s: MB (10^6 bytes) per second compressing the inputs'
-    samples and pairs of them (each sample after another), one thread.
+    samples and pairs of them (each sample after another), one thread. blind_spots: bits a
+    symbol on the known-answer strings (:class:`BlindSpot`).
     """
 
     spec: str
@@ -255,6 +316,7 @@ class CompressorCalibration:
     mutation_ladder: tuple[tuple[float, float], ...]
     block_moves: tuple[tuple[int, float], ...]
     seconds: float
+    blind_spots: tuple[BlindSpot, ...] = ()
 
     @property
     def mutation_distance(self) -> float:
@@ -299,6 +361,7 @@ class CompressorCalibration:
             "mutation_ladder": [list(point) for point in self.mutation_ladder],
             "block_moves": [list(point) for point in self.block_moves],
             "seconds": self.seconds,
+            "blind_spots": [spot.as_json() for spot in self.blind_spots],
         }
 
 
@@ -368,6 +431,7 @@ def calibrate_compressor(
         seconds=sweep_seconds,
     )
     means = [_mean(identity), *(_mean(row) for row in ladder)]
+    spots = tuple(blind_spot(comp, known) for known in controls.known)
     return CompressorCalibration(
         spec=comp.spec,
         window_bytes=comp.window_bytes,
@@ -385,6 +449,7 @@ def calibrate_compressor(
         mutation_ladder=tuple(zip((0.0, *MUTATION_RATES), means, strict=True)),
         block_moves=tuple((k, _mean(row)) for k, row in zip(BLOCK_COUNTS, moved, strict=True)),
         seconds=time.perf_counter() - started,
+        blind_spots=spots,
     )
 
 

@@ -138,17 +138,33 @@ def resolve_spec(
     targets: Sequence[Item] = (),
 ) -> str:
     """The compressor spec to use: as given, or with auto the one calibration chose for this
-    command's job (see calibration.resolve_auto)."""
+    command's job (see calibration.resolve_auto), its time counting tree's --bootstrap
+    replicates and derived's null."""
     if args.compressor != "auto":
         return str(args.compressor)
     from ..calibration import resolve_auto
 
+    null_pairs = 0
+    if args.command == "derived":
+        from ..derived import default_null_pairs
+
+        null_pairs = default_null_pairs(args.max_fpr)
     with opened_cache(args) as cache:
         args.compressor = resolve_auto(
             items, args.command, targets=targets, budget_seconds=budget_seconds(args),
             strand=args.strand, engine=args.engine, cache=cache, say=console.say,
+            replicates=getattr(args, "bootstrap", 0) or 0, null_pairs=null_pairs,
         )  # fmt: skip
     return str(args.compressor)
+
+
+def check_strands(args: argparse.Namespace, items: Sequence[Item]) -> None:
+    """Under --strand one, warn of DNA records that look deposited on the other strand (a
+    k-mer check of record pairs, no compression; see kinpress.strands)."""
+    if args.strand == "one" and any(item.nucleotide for item in items):
+        from ..strands import warn_flipped_strands
+
+        warn_flipped_strands(items)
 
 
 Check = Callable[[Sequence[str]], None]
@@ -170,6 +186,7 @@ def compute_matrix(
         if check is not None:
             check([item.name for item in items])
     check_matrix_memory(items)
+    check_strands(args, items)
     comp = compressor(resolve_spec(args, items, console))
     with opened_cache(args) as cache, console.progress() as progress:
         dm = distance_matrix(

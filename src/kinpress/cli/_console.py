@@ -3,8 +3,9 @@
 from __future__ import annotations
 
 import sys
+import threading
 import time
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from typing import Any, TextIO
 
@@ -14,14 +15,30 @@ from ..units import duration_text
 
 class Console:
     """Progress and messages on stderr, nothing with --quiet. On a terminal progress is a bar;
-    elsewhere (a log file, a batch job) a line every LINE_SECONDS while work goes on."""
+    elsewhere (a log file, a batch job) a line every LINE_SECONDS while work goes on, from the
+    progress reports or, while none arrives (one long tile, one bootstrap replicate), from a
+    watch that says what is still running and for how long. ``line_seconds`` and ``clock``
+    replace the class interval and ``time.monotonic`` (tests pass small or fake ones)."""
 
-    LINE_SECONDS = 10.0
+    LINE_SECONDS = 5.0
 
-    def __init__(self, quiet: bool, stream: TextIO | None = None) -> None:
+    def __init__(
+        self,
+        quiet: bool,
+        stream: TextIO | None = None,
+        *,
+        line_seconds: float | None = None,
+        clock: Callable[[], float] = time.monotonic,
+    ) -> None:
         self.stream = stream or sys.stderr
         self.quiet = quiet
         self.interactive = not quiet and self.stream.isatty()
+        self.line_seconds = line_seconds
+        self.clock = clock
+
+    @property
+    def interval(self) -> float:
+        return self.LINE_SECONDS if self.line_seconds is None else self.line_seconds
 
     def say(self, message: str) -> None:
         if not self.quiet:
@@ -32,29 +49,64 @@ class Console:
         if self.quiet:
             yield None
         elif not self.interactive:
-            yield self._lines()
+            with self._lines() as update:
+                yield update
         else:
             with self._bar() as update:
                 yield update
 
-    def _lines(self) -> Progress:
-        """A progress callback that writes one line every LINE_SECONDS, the first after that."""
-        last = [time.monotonic()]
+    @contextmanager
+    def _lines(self) -> Iterator[Progress]:
+        """A progress callback that writes at most one line every ``interval`` seconds, the
+        first after that, and a watch thread that writes one when no report has for as long."""
+        lock = threading.Lock()
+        begun = self.clock()
+        last = [begun]
+        state: dict[str, Any] = {}
         started: dict[str, float] = {}
 
         def update(phase: str, done: int, total: int) -> None:
-            now = time.monotonic()
-            begun = started.setdefault(phase, now)
-            if now - last[0] < self.LINE_SECONDS or not 0 < done < total:
-                return
-            last[0] = now
-            left = (now - begun) * (total - done) / done
+            now = self.clock()
+            with lock:
+                started.setdefault(phase, now)
+                state.update(phase=phase, done=done, total=total)
+                if now - last[0] < self.interval or not 0 < done < total:
+                    return
+                last[0] = now
+            left = (now - started[phase]) * (total - done) / done
             self.say(
                 f"{phase}: {done:,} of {total:,} done ({done / total:.0%}), about"
                 f" {duration_text(left)} left"
             )
 
-        return update
+        def still_working() -> None:
+            now = self.clock()
+            with lock:
+                if now - last[0] < self.interval:
+                    return
+                last[0] = now
+                where = (
+                    f"{state['phase']}: {state['done']:,} of {state['total']:,} done, "
+                    if state and state["done"] < state["total"]
+                    else ""
+                )
+            self.say(f"{where}still working ({duration_text(now - begun)} so far)")
+
+        stop = threading.Event()
+
+        def watch() -> None:
+            while not stop.wait(self.interval):
+                still_working()
+
+        watcher = threading.Thread(target=watch, name="kinpress-progress", daemon=True)
+        if self.interval > 0:
+            watcher.start()
+        try:
+            yield update
+        finally:
+            stop.set()
+            if watcher.is_alive():
+                watcher.join()
 
     @contextmanager
     def _bar(self) -> Iterator[Progress]:

@@ -15,6 +15,7 @@ from . import _options
 from ._common import (
     Check,
     as_usage_errors,
+    check_strands,
     compute_matrix,
     known_labels,
     load,
@@ -100,6 +101,7 @@ def _sparse_grouping(
         f" (HDBSCAN* on their graph, silhouettes on"
         f" {min(SAMPLE_ITEMS, max(2, len(items) // 4))} sampled items)"
     )
+    check_strands(args, items)
     with as_usage_errors(), opened_cache(args) as cache, console.progress() as progress:
         found = sparse_groups(
             items, spec, k=args.k, cut=args.cut, report_outliers=args.outliers,

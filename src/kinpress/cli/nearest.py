@@ -8,7 +8,15 @@ import itertools
 from ..formats import emit
 from ..items import escape_name
 from . import _options
-from ._common import as_usage_errors, known_labels, load, opened_cache, resolve_spec, write_json
+from ._common import (
+    as_usage_errors,
+    check_strands,
+    known_labels,
+    load,
+    opened_cache,
+    resolve_spec,
+    write_json,
+)
 from ._console import Console
 
 LEGEND = (
@@ -45,6 +53,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
 
     _options.refuse_budget_without_auto(args)
     items = load(args, known_labels(args))
+    check_strands(args, items)
     spec = resolve_spec(args, items, console)
     with as_usage_errors(), opened_cache(args) as cache, console.progress() as progress:
         found = nearest_neighbours(

@@ -5,6 +5,7 @@ from __future__ import annotations
 import argparse
 import difflib
 from collections.abc import Sequence
+from typing import TYPE_CHECKING
 
 from ..compressors import compressor
 from ..distance import DistanceMatrix
@@ -13,6 +14,10 @@ from . import _options
 from ._common import as_usage_errors, check_plot, known_labels, matrix_for, write_json
 from ._console import Console
 from ._options import UsageError
+
+if TYPE_CHECKING:
+    from ..items import Item
+    from ..trees import Node, Resampling
 
 
 def inputs_or_matrix(parser: argparse.ArgumentParser) -> None:
@@ -94,10 +99,8 @@ def classes(dm: DistanceMatrix) -> dict[str, str] | None:
     return {n: c for n, c in zip(dm.labels, dm.classes, strict=True) if c is not None}
 
 
-def run(args: argparse.Namespace, console: Console) -> int:
-    from ..support import bootstrap_support
-    from ..trees import Resampling, TreeResult, build_tree, outgroup_root
-
+def _refuse_useless(args: argparse.Namespace) -> None:
+    """Refuse options that cannot work or would do nothing with the others given."""
     if args.bootstrap and args.matrix:
         raise UsageError("--bootstrap resamples the items, so it needs inputs, not --matrix")
     refuse_measuring(args)
@@ -106,14 +109,20 @@ def run(args: argparse.Namespace, console: Console) -> int:
     if not args.plot:
         _options.refuse_given(args, ("labels",), "colours the leaves of --plot; give --plot")
     check_plot(args.plot)
-    title = _options.plot_title(args)
+    _options.plot_title(args)
 
-    def check(labels: Sequence[str]) -> None:
-        _outgroup(args.outgroup, labels)
 
-    labels = known_labels(args)
-    dm, items = matrix_for(args, console, labels, check=check)
-    outgroup = _outgroup(args.outgroup, dm.labels)
+def _tree(
+    args: argparse.Namespace,
+    console: Console,
+    dm: DistanceMatrix,
+    items: Sequence[Item],
+    outgroup: list[str] | None,
+) -> tuple[Node, Resampling | None]:
+    """The tree of `dm`, with its bootstrap support when asked for, and how that was counted."""
+    from ..support import bootstrap_support
+    from ..trees import Resampling, build_tree, outgroup_root
+
     support = None
     with as_usage_errors():
         tree = build_tree(dm.labels, dm.distances, method=args.method, outgroup=outgroup)
@@ -135,6 +144,21 @@ def run(args: argparse.Namespace, console: Console) -> int:
                 )
     if outgroup is not None and args.bootstrap:
         tree = outgroup_root(tree, outgroup)
+    return tree, support
+
+
+def run(args: argparse.Namespace, console: Console) -> int:
+    from ..trees import TreeResult
+
+    _refuse_useless(args)
+
+    def check(labels: Sequence[str]) -> None:
+        _outgroup(args.outgroup, labels)
+
+    labels = known_labels(args)
+    dm, items = matrix_for(args, console, labels, check=check)
+    outgroup = _outgroup(args.outgroup, dm.labels)
+    tree, support = _tree(args, console, dm, items, outgroup)
     result = TreeResult.of_matrix(tree, args.method, dm, outgroup, support)
     console.say(
         f"tree: {args.method}, {result.leaves} leaves, rooted {result.rooting}; fit: path"
@@ -147,7 +171,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
             tree,
             args.plot,
             classes=classes(dm),
-            title=title,
+            title=_options.plot_title(args),
             scale_label="NCD",
             legend_title="class" if labels is None else labels.column,
         )

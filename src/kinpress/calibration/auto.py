@@ -1,0 +1,178 @@
+"""The ``-c auto`` resolution and the calibrate command's report, each kept in the size cache:
+:func:`resolve_auto` (a choice per job, made by :func:`.choose.choose_for_job`) and
+:func:`calibration_report` (what ``kinpress calibrate`` reports)."""
+
+from __future__ import annotations
+
+import warnings
+from collections.abc import Callable, Sequence
+
+from ..cache import SizeCache
+from ..compressors import AUTO_CANDIDATES, compressor
+from ..engine import Engine
+from ..items import Item
+from .choose import (
+    DEFAULT_BUDGET_SECONDS,
+    LABELLED_JOBS,
+    calibrate,
+    choose_compressor,
+    choose_for_job,
+    holds,
+)
+from .controls import DEFAULT_SEED
+from .measure import (
+    DEFAULT_MAX_BYTES,
+    BlindSpot,
+    CalibrationReport,
+    CompressorCalibration,
+    Normality,
+)
+
+
+def resolve_auto(
+    items: Sequence[Item],
+    job: str,
+    *,
+    targets: Sequence[Item] = (),
+    budget_seconds: float = DEFAULT_BUDGET_SECONDS,
+    strand: str = "one",
+    engine: Engine,
+    cache: SizeCache | None = None,
+    say: Callable[[str], None] = lambda message: None,
+    replicates: int = 0,
+    null_pairs: int = 0,
+) -> str:
+    """The spec ``-c auto`` uses for ``job`` on ``items``: :func:`choose_for_job`'s choice
+    (classify: ``items`` is the labelled reference, ``targets`` the unknowns; ``replicates``
+    and ``null_pairs`` the job's work beyond its matrix), said through ``say``, with a
+    MeasurementWarning when even it cannot hold the largest pair of items.
+
+    The choice is kept in ``cache``, keyed by the items' contents (and labels for a labelled
+    job), the job, the candidates (with their library versions), the seed, the budget, the
+    cores of ``engine``, the strand and the work beyond the matrix, so a rerun does not
+    calibrate again.
+    """
+    import hashlib
+    import json
+
+    from ..measure import MeasurementWarning, content_digest
+
+    labelled = job in LABELLED_JOBS
+    cores = engine.jobs
+    candidates = AUTO_CANDIDATES["labelled" if labelled else "unlabelled"]
+    lines = [
+        *sorted(
+            content_digest(item.data).hex() + (f"\t{item.label}" if labelled else "")
+            for item in items
+        ),
+        *(compressor(spec).cache_key for spec in candidates),
+        f"seed={DEFAULT_SEED} budget={budget_seconds} cores={cores} strand={strand}"
+        + (f" replicates={replicates} null_pairs={null_pairs}" if replicates or null_pairs else ""),
+        f"job={job} targets={len(targets)}:{sum(len(t.data) for t in targets)} ranked=merit"
+        if labelled
+        else "job=unlabelled",
+    ]
+    key = "auto:" + hashlib.blake2b("\n".join(lines).encode(), digest_size=16).hexdigest()
+    stored = cache.get_choice(key) if cache is not None else None
+    if stored is None:
+        say(f"auto: calibrating the compressors on these inputs for {job} ...")
+        choice = choose_for_job(items, job, targets=targets, budget_seconds=budget_seconds,
+                                strand=strand, engine=engine, cache=cache,
+                                replicates=replicates, null_pairs=null_pairs)  # fmt: skip
+        pair = int(sum(sorted((len(item.data) for item in items), reverse=True)[:2]))
+        result = choice.report.result(choice.spec)
+        # A labelled choice leads with its task figures; an unlabelled one with the controls'
+        # comparison when there was one, else with the time estimate that settled it.
+        lead = labelled or " chosen over " in choice.reasons[0]
+        stored = json.dumps(
+            {
+                "spec": choice.spec,
+                "why": choice.reasons[0] if lead else choice.reasons[-1],
+                "holds": labelled or holds(result, pair),
+                "reliable": result.reliable_up_to_bytes,
+                "pair": pair,
+            }
+        )
+        if cache is not None:
+            cache.put_choice(key, stored)
+    else:
+        say("auto: the choice for these inputs is in the cache")
+    chosen = json.loads(stored)
+    say(f"auto: chose {chosen['spec']}: {chosen['why']}")
+    if not chosen["holds"]:
+        warnings.warn(
+            f"{chosen['spec']}: reliable up to {chosen['reliable']:,} bytes, below the largest"
+            f" pair of items ({chosen['pair']:,} bytes); their distances drift towards 1",
+            MeasurementWarning,
+            stacklevel=2,
+        )
+    return str(chosen["spec"])
+
+
+def calibration_report(
+    items: Sequence[Item] | None,
+    candidates: Sequence[str],
+    *,
+    seed: int = DEFAULT_SEED,
+    max_bytes: int = DEFAULT_MAX_BYTES,
+    budget_seconds: float | None = None,
+    jobs: int | None = None,
+    cache: SizeCache | None = None,
+    say: Callable[[str], None] = lambda message: None,
+) -> CalibrationReport:
+    """What ``kinpress calibrate`` reports: :func:`calibrate`, or with ``budget_seconds`` (which
+    needs ``items``) :func:`choose_compressor`, whose recommendation is the best compressor
+    whose whole matrix of the items is estimated to fit the budget on ``jobs`` cores.
+
+    The report is kept in ``cache``, keyed by the items' contents, the candidates (with their
+    library versions), the seed, the size cap, the budget and the cores, so a rerun does not
+    measure again (its throughputs are those of the first run).
+    """
+    import hashlib
+    import json
+
+    from ..measure import content_digest
+
+    if budget_seconds is not None and not items:
+        raise ValueError("a budget weighs the run time of the inputs' matrix: give inputs")
+    lines = [
+        *sorted(content_digest(item.data).hex() for item in items or ()),
+        *(compressor(spec).cache_key for spec in candidates),
+        f"seed={seed} max_bytes={max_bytes} budget={budget_seconds} cores={jobs}",
+        "known-answers",  # a report kept before they were added is measured again
+    ]
+    key = "calibrate:" + hashlib.blake2b("\n".join(lines).encode(), digest_size=16).hexdigest()
+    stored = cache.get_choice(key) if cache is not None else None
+    if stored is not None:
+        say("calibrate: the report for these inputs is in the cache")
+        return _report_from_json(stored)
+    if budget_seconds is None or not items:
+        report = calibrate(items, candidates, seed=seed, max_bytes=max_bytes)
+    else:
+        _, report = choose_compressor(items, budget_seconds=budget_seconds, candidates=candidates,
+                                      seed=seed, jobs=jobs, max_bytes=max_bytes)  # fmt: skip
+    if cache is not None:
+        cache.put_choice(key, json.dumps(report.as_json()))
+    return report
+
+
+def _report_from_json(text: str) -> CalibrationReport:
+    """The report :meth:`CalibrationReport.as_json` wrote (its derived figures recomputed)."""
+    import json
+
+    doc = json.loads(text)
+    derived = {"mutation_distance", "quality"}
+    spot_derived = {"below", "sees_structure"}
+    results = []
+    for entry in doc["compressors"]:
+        fields = {k: v for k, v in entry.items() if k not in derived}
+        fields["normality"] = Normality(**fields["normality"])
+        for curve in ("size_sweep", "mutation_ladder", "block_moves"):
+            fields[curve] = tuple(tuple(point) for point in fields[curve])
+        fields["blind_spots"] = tuple(
+            BlindSpot(**{k: v for k, v in spot.items() if k not in spot_derived})
+            for spot in fields.get("blind_spots", ())
+        )
+        results.append(CompressorCalibration(**fields))
+    return CalibrationReport(doc["seed"], doc["inputs"], tuple(results), doc["recommended"],
+                             tuple(doc["reasons"]))  # fmt: skip

@@ -1,0 +1,455 @@
+"""Decisions and results (see kinpress.origins): `classify` unknown items against a reference,
+and `evaluate` the reference by its own held-out folds."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from ..cache import SizeCache
+from ..compressors import Compressor
+from ..engine import Engine
+from ..formats import json_ready
+from ..items import InputError, Item, ItemLike, as_items
+from ..measure import Measurement, Progress, content_digest
+from .conformal import Abstention, Conformity, _abstention
+from .scores import (
+    DEFAULT_BLOCKS,
+    DEFAULT_SIGNIFICANCE,
+    FoldScores,
+    _check_k,
+    _fold_scores,
+    _measurement,
+    _Reference,
+    _score,
+    _Scores,
+    _with_nearest,
+)
+
+DECISIONS = ("named", "ambiguous", "unknown")
+
+
+@dataclass(frozen=True)
+class Prediction:
+    """One classified item.
+
+    `decision` is "named" when the best origin (lowest score, `best`) accepts the item
+    (`predicted` is that origin); otherwise "ambiguous" when several origins fit it
+    (`candidates`, best score first, each with a p-value above the significance;
+    `predicted` is None) and "unknown" when fewer do. With a given cut, origins whose score is
+    within it accept. `confidence` is the runner-up's score minus the best one; `credibility`
+    the p-value of the deciding test for the best origin; `p_values` each origin's p-value of
+    that test, the item taken as that origin's
+    (see Conformity). `path` is where the item came from (`Item.source`: its file, '-' for
+    standard input) and `hash` the hex BLAKE2b-128 of its bytes (`content_digest`, as the cache
+    keys them), so a reviewer can find and check the very bytes classified.
+    """
+
+    item: str
+    predicted: str | None
+    decision: str
+    candidates: tuple[str, ...]
+    best: str
+    confidence: float
+    credibility: float | None
+    nearest: str
+    distance: float
+    scores: tuple[tuple[str, float], ...]
+    p_values: tuple[tuple[str, float], ...] | None
+    path: str
+    hash: str
+
+    def as_json(self) -> dict[str, object]:
+        """The fields by name; `predicted` says what the text does: the origin when one is
+        named, else the decision ("ambiguous", with its `candidates`, or "unknown"), never null.
+        `confidence` is null with a single origin (no runner-up); `credibility` and `p_values`
+        are null with a given cut."""
+        return dict(
+            json_ready(
+                {
+                    "item": self.item,
+                    "predicted": self.predicted or self.decision,
+                    "decision": self.decision,
+                    "candidates": self.candidates,
+                    "best": self.best,
+                    "confidence": self.confidence,
+                    "credibility": self.credibility,
+                    "nearest": self.nearest,
+                    "distance": self.distance,
+                    "scores": dict(self.scores),
+                    "p_values": None if self.p_values is None else dict(self.p_values),
+                    "path": self.path,
+                    "hash": self.hash,
+                }
+            )
+        )
+
+
+@dataclass(frozen=True)
+class _Decisions:
+    """What the abstention says of each item: decision, candidate origins (best score first),
+    the deciding test's p-values for every origin (None with a cut) and for the best origin."""
+
+    decisions: list[str]
+    candidates: list[list[int]]
+    origin_p: np.ndarray | None
+    test_p: np.ndarray | None
+
+
+def _decisions(
+    scores: np.ndarray, conformity: Conformity | None, threshold: float | None
+) -> _Decisions:
+    """Decide every item (see Prediction and Conformity)."""
+    order = np.argsort(scores, axis=1, kind="stable")
+    if conformity is None:
+        accepted = scores <= threshold
+        candidates = [[int(o) for o in row if accepted[t, o]] for t, row in enumerate(order)]
+        decisions = [
+            "unknown" if not c else "named" if len(c) == 1 else "ambiguous" for c in candidates
+        ]
+        return _Decisions(decisions, candidates, None, None)
+    origin_p, best, test_p = conformity.p_values(scores)
+    rate = conformity.significance
+    decisions, candidates = [], []
+    for t, row in enumerate(order):
+        if test_p[t] > rate:
+            decisions.append("named")
+            candidates.append([int(best[t])])
+            continue
+        fitting = [int(o) for o in row if origin_p[t, o] > rate]
+        decisions.append("ambiguous" if len(fitting) > 1 else "unknown")
+        candidates.append(fitting if len(fitting) > 1 else [])
+    return _Decisions(decisions, candidates, origin_p, test_p)
+
+
+def _decide(
+    scores: _Scores, decided: _Decisions, reference: _Reference, targets: Sequence[Item]
+) -> list[Prediction]:
+    if scores.nearest is None or scores.distance is None:
+        raise ValueError("scores lack the nearest reference items")
+    origins = reference.origins
+    out = []
+    for t, target in enumerate(targets):
+        row = scores.scores[t]
+        decision, candidates = decided.decisions[t], decided.candidates[t]
+        ranked = np.sort(row)
+        origin_p = decided.origin_p
+        out.append(
+            Prediction(
+                item=target.name,
+                predicted=origins[candidates[0]] if decision == "named" else None,
+                decision=decision,
+                candidates=tuple(origins[c] for c in candidates),
+                best=origins[int(scores.picked[t])],
+                confidence=float(ranked[1] - ranked[0]) if len(ranked) > 1 else float("inf"),
+                credibility=None if decided.test_p is None else float(decided.test_p[t]),
+                nearest=reference.items[int(scores.nearest[t])].name,
+                distance=float(scores.distance[t]),
+                scores=tuple((o, float(v)) for o, v in zip(origins, row, strict=True)),
+                p_values=None
+                if origin_p is None
+                else tuple((o, float(p)) for o, p in zip(origins, origin_p[t], strict=True)),
+                path=target.source,
+                hash=content_digest(target.data).hex(),
+            )
+        )
+    return out
+
+
+@dataclass(frozen=True)
+class Classification:
+    """Predictions for unknown items, the abstention behind them and the measurement.
+
+    `scores` holds one row per item and one column per origin (lower is better): NCD to the
+    origin's nearest reference item for knn, C(x | corpus) / C(x) for conditional; `p_values`
+    the deciding test's p-value of each (None with a given threshold; see Conformity).
+    """
+
+    predictions: tuple[Prediction, ...]
+    origins: tuple[str, ...]
+    scores: np.ndarray
+    p_values: np.ndarray | None
+    abstention: Abstention
+    method: str
+    k: int
+    compressor: str
+    conditional: str
+
+    def as_json(self) -> list[dict[str, object]]:
+        """One object per item (see Prediction.as_json)."""
+        return list(json_ready(self.predictions))
+
+    def counts(self) -> dict[str, int]:
+        """How many items were named, ambiguous and unknown."""
+        return {d: sum(p.decision == d for p in self.predictions) for d in DECISIONS}
+
+    def to_frame(self) -> Any:
+        """One pandas row per item: prediction, scores, p-values (`convert`)."""
+        from ..convert import classification_frame
+
+        return classification_frame(self)
+
+
+@dataclass(frozen=True)
+class FoldReport:
+    """Figures of held-out reference folds: the reference's own test of the whole method.
+
+    Each measured item is decided with p-values from the other folds' items (cross-conformal,
+    Vovk 2015, "Cross-conformal predictors", Ann. Math. Artif. Intell. 74): `accuracy` named
+    right, `refusal_rate` unknown, `ambiguous_rate` several origins; `confusion[i, j]` counts
+    items of origin i named j, the last two columns ambiguous and unknown. `left_out_unknown`
+    is, per origin, the share of its items that come back unknown when the origin is missing
+    from the reference (its items scored against the others, p-values from the others' items).
+    `gap` is the `significance` quantile of the best foreign alpha minus the 1 - significance
+    quantile of the own alpha: above 0, own and foreign scores part at that rate.
+    """
+
+    accuracy: float
+    refusal_rate: float
+    ambiguous_rate: float
+    left_out_unknown: tuple[float, ...]
+    confusion: np.ndarray
+    gap: float
+    items: int
+
+    @property
+    def left_out_unknown_rate(self) -> float:
+        return float(np.mean(self.left_out_unknown))
+
+    @property
+    def separation(self) -> float:
+        """Mean of named right and missing-origin unknown: one figure to rank compressors by."""
+        return (self.accuracy + self.left_out_unknown_rate) / 2
+
+
+def fold_report(
+    folds: FoldScores,
+    significance: float = DEFAULT_SIGNIFICANCE,
+    threshold: float | None = None,
+) -> FoldReport:
+    """Decide every measured held-out reference item as a new one would be (see FoldReport)."""
+    keep = folds.measured
+    scores, codes, fold_of = folds.scores[keep], folds.codes[keep], folds.folds[keep]
+    n, m = scores.shape
+    origins = [folds.origins[o] for o in range(m)]
+    confusion = np.zeros((m, m + 2), dtype=np.int64)
+    for fold in np.unique(fold_of):
+        rows = fold_of == fold
+        conformity = None
+        if threshold is None:
+            conformity = Conformity.of(scores[~rows], codes[~rows], origins, significance)
+        decided = _decisions(scores[rows], conformity, threshold)
+        for truth, decision, candidates in zip(
+            codes[rows], decided.decisions, decided.candidates, strict=True
+        ):
+            column = {"named": candidates[0] if candidates else 0, "ambiguous": m, "unknown": m + 1}
+            confusion[truth, column[decision]] += 1
+    left_out = []
+    for origin in range(m):
+        others = [o for o in range(m) if o != origin]
+        mine, rest = codes == origin, codes != origin
+        if not mine.any() or not rest.any():
+            continue
+        reduced = scores[:, others]
+        relabel = np.searchsorted(others, codes[rest])
+        conformity = None
+        if threshold is None:
+            names = [origins[o] for o in others]
+            conformity = Conformity.of(reduced[rest], relabel, names, significance)
+        decided = _decisions(reduced[mine], conformity, threshold)
+        left_out.append(float(np.mean([d == "unknown" for d in decided.decisions])))
+    total = max(n, 1)
+    own = scores[np.arange(n), codes]
+    foreign = np.where(np.arange(m)[None, :] == codes[:, None], np.inf, scores).min(axis=1)
+    return FoldReport(
+        accuracy=float(np.trace(confusion[:, :m]) / total),
+        refusal_rate=float(confusion[:, m + 1].sum() / total),
+        ambiguous_rate=float(confusion[:, m].sum() / total),
+        left_out_unknown=tuple(left_out),
+        confusion=confusion,
+        gap=float(np.quantile(foreign, significance) - np.quantile(own, 1 - significance))
+        if n
+        else float("nan"),
+        items=n,
+    )
+
+
+@dataclass(frozen=True)
+class Evaluation:
+    """The reference's own test: every item held out in turn with its fold (see FoldReport).
+
+    `accuracy`, `refusal_rate` and `ambiguous_rate` are shares of all reference items;
+    `left_out_unknown_rate` the mean over origins of the share of an origin's items refused when
+    that origin is missing from the reference.
+    """
+
+    accuracy: float
+    refusal_rate: float
+    ambiguous_rate: float
+    left_out_unknown_rate: float
+    left_out_unknown: tuple[float, ...]
+    origins: tuple[str, ...]
+    confusion: np.ndarray
+    abstention: Abstention
+
+    def as_json(self) -> dict[str, object]:
+        """The rates, per origin its missing-origin refusal rate, the confusion table (rows:
+        true origins; columns: origins named, then ambiguous and unknown) and the abstention."""
+        return dict(
+            json_ready(
+                {
+                    "accuracy": self.accuracy,
+                    "refusal_rate": self.refusal_rate,
+                    "ambiguous_rate": self.ambiguous_rate,
+                    "left_out_unknown_rate": self.left_out_unknown_rate,
+                    "left_out_unknown": dict(zip(self.origins, self.left_out_unknown, strict=True)),
+                    "origins": self.origins,
+                    "confusion": {
+                        "rows": self.origins,
+                        "columns": [*self.origins, "ambiguous", "unknown"],
+                        "counts": self.confusion,
+                    },
+                    "abstention": self.abstention,
+                }
+            )
+        )
+
+
+@dataclass(frozen=True)
+class _Calibrated:
+    """What a fitted classification keeps: the abstention and its calibration (None with a
+    given threshold)."""
+
+    abstention: Abstention
+    conformity: Conformity | None
+
+    def decide(self, scores: np.ndarray) -> _Decisions:
+        return _decisions(scores, self.conformity, self.abstention.threshold)
+
+
+def _calibrate(
+    reference: _Reference,
+    measurement: Measurement,
+    method: str,
+    significance: float | None,
+    threshold: float | None,
+    blocks: int,
+    longest: int,
+) -> _Calibrated:
+    if threshold is not None:
+        if significance is not None:
+            raise ValueError("give a significance or a threshold, not both")
+        return _Calibrated(Abstention(None, float(threshold), blocks=blocks), None)
+    significance = DEFAULT_SIGNIFICANCE if significance is None else significance
+    if not 0 < significance < 1:
+        raise ValueError(f"significance must lie between 0 and 1, got {significance}")
+    reference.check(calibrate=True)
+    folds = _fold_scores(reference, measurement, method, blocks, longest)
+    keep = folds.measured
+    conformity = Conformity.of(
+        folds.scores[keep], reference.codes[keep], reference.origins, significance
+    )
+    return _Calibrated(_abstention(conformity, blocks), conformity)
+
+
+def classify(
+    unknowns: Sequence[ItemLike],
+    reference: Sequence[ItemLike],
+    comp: str | Compressor = "zstd:level=19",
+    *,
+    method: str = "conditional",
+    k: int = 1,
+    significance: float | None = None,
+    threshold: float | None = None,
+    blocks: int = DEFAULT_BLOCKS,
+    conditional: str = "auto",
+    engine: Engine | None = None,
+    cache: SizeCache | None = None,
+    progress: Progress | None = None,
+) -> Classification:
+    """The origin of each unknown item among the reference's labels, or unknown / ambiguous.
+
+    `method` is "conditional" (C(x | origin corpus) / C(x), Cohen & Vitanyi 2015) or "knn"
+    (weighted k nearest neighbours under NCD, Jiang et al. 2023). The best origin accepts an
+    item when the deciding test's conformal p-value is above `significance` (default 0.05; see
+    Conformity), calibrated on the reference held out in `blocks` contiguous blocks per origin;
+    a given `threshold` replaces that test by score <= threshold (float("inf") accepts all).
+    `conditional` "auto" primes where the compressor can for the conditional method and
+    concatenates otherwise. The nearest reference item is searched among the best origin's.
+    """
+    unknowns = as_items(unknowns)
+    if not unknowns:
+        raise InputError("no items to classify")
+    ref = _Reference.of(reference)
+    ref.check(calibrate=False)
+    if method == "knn":
+        _check_k(k, ref)
+    measurement = _measurement(comp, method, conditional, engine, cache, progress)
+    longest = max(len(i.data) for i in [*unknowns, *ref.items])
+    fitted = _calibrate(ref, measurement, method, significance, threshold, blocks, longest)
+    scores = _with_nearest(
+        _score(unknowns, ref, measurement, method, k, longest), unknowns, ref, measurement,
+        exclude_self=False,
+    )  # fmt: skip
+    decided = fitted.decide(scores.scores)
+    return Classification(
+        predictions=tuple(_decide(scores, decided, ref, unknowns)),
+        origins=ref.origins,
+        scores=scores.scores,
+        p_values=decided.origin_p,
+        abstention=fitted.abstention,
+        method=method,
+        k=k,
+        compressor=measurement.compressor.spec,
+        conditional=measurement.conditional,
+    )
+
+
+def evaluate(
+    reference: Sequence[ItemLike],
+    comp: str | Compressor = "zstd:level=19",
+    *,
+    method: str = "conditional",
+    significance: float | None = None,
+    threshold: float | None = None,
+    blocks: int = DEFAULT_BLOCKS,
+    conditional: str = "auto",
+    engine: Engine | None = None,
+    cache: SizeCache | None = None,
+    progress: Progress | None = None,
+) -> Evaluation:
+    """The reference's own test (see FoldReport): each block of every origin held out in turn,
+    scored against the rest and decided with p-values from the other blocks; then each origin in
+    turn missing from the reference. Refusals and ambiguities count as errors in the accuracy.
+    Arguments as for `classify` (knn scores by the nearest neighbour of each origin).
+    """
+    if threshold is not None and significance is not None:
+        raise ValueError("give a significance or a threshold, not both")
+    ref = _Reference.of(reference)
+    ref.check(calibrate=True)
+    measurement = _measurement(comp, method, conditional, engine, cache, progress)
+    longest = max(len(i.data) for i in ref.items)
+    folds = _fold_scores(ref, measurement, method, blocks, longest)
+    rate = DEFAULT_SIGNIFICANCE if significance is None else significance
+    report = fold_report(folds, rate, threshold)
+    keep = folds.measured
+    abstention = (
+        Abstention(None, float(threshold), blocks=blocks)
+        if threshold is not None
+        else _abstention(
+            Conformity.of(folds.scores[keep], ref.codes[keep], ref.origins, rate), blocks
+        )
+    )
+    return Evaluation(
+        accuracy=report.accuracy,
+        refusal_rate=report.refusal_rate,
+        ambiguous_rate=report.ambiguous_rate,
+        left_out_unknown_rate=report.left_out_unknown_rate,
+        left_out_unknown=report.left_out_unknown,
+        origins=ref.origins,
+        confusion=report.confusion,
+        abstention=abstention,
+    )
