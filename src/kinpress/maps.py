@@ -102,9 +102,5 @@ def classical_scaling(
     fitted = np.sqrt(((coordinates[:, None, :] - coordinates[None, :, :]) ** 2).sum(axis=2))
     upper = np.triu_indices(n, 1)
     scale = float((d[upper] ** 2).sum())
-    stress = (
-        math.sqrt(float(((d[upper] - fitted[upper]) ** 2).sum()) / scale)
-        if scale > 0
-        else 0.0
-    )
+    stress = math.sqrt(float(((d[upper] - fitted[upper]) ** 2).sum()) / scale) if scale > 0 else 0.0
     return MapResult(tuple(labels), coordinates, values, explained, stress)

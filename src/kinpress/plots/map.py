@@ -6,6 +6,7 @@ import os
 from collections.abc import Collection, Mapping
 
 import numpy as np
+from matplotlib.colors import to_rgba
 from matplotlib.figure import Figure
 
 from ..maps import MapResult
@@ -60,15 +61,15 @@ def map_figure(
     page = _Page(width + _MARGIN, height)
     fig = Figure(figsize=(page.width, page.height))
     ax = fig.add_axes(page.rect(_MARGIN + 0.5, _MARGIN + 0.4, _SIDE, _SIDE), label="map")
-    fill = [colours[c] for c in item_classes] if colours else ["#3b6ea8"] * len(names)
+    default = to_rgba("#3b6ea8")
+    fill = np.array([colours[c] for c in item_classes] if colours else [default] * len(names))
     is_marked = np.array([n in marked for n in names], dtype=bool)
-    ax.scatter(xy[~is_marked, 0], xy[~is_marked, 1], s=36, c=[f for f, m in
-               zip(fill, is_marked, strict=True) if not m], edgecolors="white",
+    plain = ~is_marked
+    ax.scatter(xy[plain, 0], xy[plain, 1], s=36, c=fill[plain], edgecolors="white",
                linewidths=0.5, zorder=2)  # fmt: skip
     if is_marked.any():
-        ax.scatter(xy[is_marked, 0], xy[is_marked, 1], s=90, marker="D", c=[f for f, m in
-                   zip(fill, is_marked, strict=True) if m], edgecolors="black",
-                   linewidths=1.0, zorder=3)  # fmt: skip
+        ax.scatter(xy[is_marked, 0], xy[is_marked, 1], s=90, marker="D", c=fill[is_marked],
+                   edgecolors="black", linewidths=1.0, zorder=3)  # fmt: skip
     if len(names) <= NAME_LIMIT:
         for name, (x, y) in zip(names, xy, strict=True):
             ax.annotate(
@@ -109,7 +110,5 @@ def plot_map(
 ) -> None:
     """Write :func:`map_figure` to ``path`` (.png, .svg or .pdf)."""
     figure_format(path)
-    fig = map_figure(
-        result, classes=classes, marked=marked, title=title, legend_title=legend_title
-    )
+    fig = map_figure(result, classes=classes, marked=marked, title=title, legend_title=legend_title)
     write_figure(fig, path)
