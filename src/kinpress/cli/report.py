@@ -17,9 +17,9 @@ from ._common import (
     compute_matrix,
     input_options,
     known_labels,
-    load,
     opened_cache,
     resolve_spec,
+    warn_unlabelled,
     write_json,
 )
 from ._console import Console
@@ -83,7 +83,12 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
         action="store_true",
         help="with --derived, show each finding's longest shared passage side by side",
     )
-    what.add_argument("--seed", type=int, default=1, help="seed of the bootstrap (default 1)")
+    what.add_argument(
+        "--seed",
+        type=int,
+        default=1,
+        help="seed of the bootstrap and of --derived's null and sketches (default 1)",
+    )
     _options.output(parser, "the HTML page", "the report's data as JSON instead of the page")
 
 
@@ -144,9 +149,13 @@ def _items(
     args: argparse.Namespace, labels: Labels | None, left_out: list[str]
 ) -> tuple[list[Item], list[Item]]:
     """The reference items (none without --reference) and the inputs, InputWarnings kept."""
+    if args.reference is None:
+        with _recorded(left_out, InputWarning):
+            items = load_items(args.inputs, args.split, labels, **input_options(args))
+        if labels is not None:  # said on stderr, not in the list of what was left out
+            warn_unlabelled(labels, labels.missing(items), len(items))
+        return [], items
     with _recorded(left_out, InputWarning):
-        if args.reference is None:
-            return [], load(args, labels)
         if labels is not None:
             reference = load_items([args.reference], args.split, labels, **input_options(args))
         else:
@@ -173,6 +182,11 @@ def _calibration(args: argparse.Namespace, items: Sequence[Item], labelled: bool
             items, candidates, budget_seconds=budget_seconds(args), jobs=args.engine.jobs,
             cache=cache,
         )  # fmt: skip
+
+
+def _reasons(said: Sequence[str]) -> tuple[str, ...]:
+    """What -c auto said of its choice, without its notes on progress."""
+    return tuple(m.removeprefix("auto: ") for m in said if m.startswith("auto: chose"))
 
 
 def _with_progress(console: Console, work: Callable[[Any], T]) -> T:
@@ -245,7 +259,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
     roles.update({item.name: "unknown" for item in unknowns} if reference else {})
     column = labels.column if labels is not None else ("origin" if reference else None)
     choice = CompressorChoice(
-        spec, dm.conditional, dm.strand, given, tuple(recorder.said), tuple(auto_warnings),
+        spec, dm.conditional, dm.strand, given, _reasons(recorder.said), tuple(auto_warnings),
         calibration,
     )  # fmt: skip
     with as_usage_errors():
