@@ -315,3 +315,28 @@ def test_chromium_renders_the_report_offline(tmp_path: Path, report_of_families)
     run = _chromium(page, f"--screenshot={shot}", "--window-size=1200,1600")
     assert run.returncode == 0, run.stderr[-2000:]
     assert shot.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n" and shot.stat().st_size > 20_000
+
+
+def test_auto_choice_shows_its_calibration_table_reasons_and_warnings() -> None:
+    from kinpress.calibration import calibrate
+
+    items = _family_items()
+    table = calibrate(items, ["zlib:level=9", "zstd:level=3"], samples=2, sweep_seconds=0.5,
+                      max_bytes=1 << 15)  # fmt: skip
+    spec = "zstd:level=3"
+    dm = distance_matrix(items, compressor(spec))
+    warning = "zstd:level=3: reliable up to 1 bytes, below the largest pair <of items>"
+    choice = CompressorChoice(spec, dm.conditional, dm.strand, given=False,
+                              reasons=("chose zstd:level=3: quick",), warnings=(warning,),
+                              calibration=table)  # fmt: skip
+    report = build_report(items, dm, choice)
+    page = render_html(report)
+    assert "chosen by calibration on these inputs" in page
+    assert "chose zstd:level=3: quick" in page
+    assert "largest pair &lt;of items&gt;" in page
+    assert '<tr style="font-weight:600"><td><code>zstd:level=3</code>' in page
+    assert "<tr><td><code>zlib:level=9,window=15</code>" in page  # the canonical spec
+    doc = report.as_json()
+    specs = [c["spec"] for c in doc["compressor"]["calibration"]["compressors"]]
+    assert specs == ["zlib:level=9,window=15", "zstd:level=3"]
+    assert doc["compressor"]["warnings"] == [warning]
