@@ -340,3 +340,23 @@ def test_auto_choice_shows_its_calibration_table_reasons_and_warnings() -> None:
     specs = [c["spec"] for c in doc["compressor"]["calibration"]["compressors"]]
     assert specs == ["zlib:level=9,window=15", "zstd:level=3"]
     assert doc["compressor"]["warnings"] == [warning]
+
+
+def test_map_figure_names_medoids_first_and_never_one_name_on_another() -> None:
+    from kinpress.plots.map import map_figure
+
+    # Two tight clusters of four and one point apart: one name per cluster, the marked one's.
+    xy = [(0, 0), (0.001, 0.001), (0.002, 0), (0, 0.002), (1, 1), (1.001, 1), (1, 1.001),
+          (1.002, 1.002), (0, 1)]  # fmt: skip
+    names = [f"$p{i}$" for i in range(9)]  # '$' must show as it is, not as mathtext
+    found = classical_scaling(names, squareform_of(xy))
+    fig = map_figure(found, classes={n: "c" for n in names}, marked=["$p2$", "$p6$"])
+    ax = next(a for a in fig.axes if a.get_label() == "map")
+    shown = sorted(t.get_text() for t in ax.texts)
+    assert shown == sorted([r"\$p2\$", r"\$p6\$", r"\$p8\$"])
+
+
+def squareform_of(points: list[tuple[float, float]]) -> np.ndarray:
+    from scipy.spatial.distance import pdist, squareform
+
+    return squareform(pdist(np.array(points, dtype=float)))

@@ -30,6 +30,23 @@ NAME_LIMIT = 60
 _SIDE = 4.6  # inches of the square plot
 
 
+def _uncrowded(
+    xy: np.ndarray, first: np.ndarray, across: float = 0.14, up: float = 0.035
+) -> list[int]:
+    """Points to name, those in `first` (a mask) first, leaving out any whose name would lie on
+    one already named (within `across` and `up` of the plot's span: about a name's width and a
+    line's height)."""
+    span = np.ptp(xy, axis=0) if len(xy) > 1 else np.ones(2)
+    scaled = xy / np.where(span > 0, span, 1.0).max()
+    named: list[int] = []
+    for i in [*np.flatnonzero(first), *np.flatnonzero(~first)]:
+        point = scaled[i]
+        if all(abs(point[0] - scaled[j, 0]) > across or abs(point[1] - scaled[j, 1]) > up
+               for j in named):  # fmt: skip
+            named.append(int(i))
+    return named
+
+
 def map_figure(
     result: MapResult,
     *,
@@ -42,8 +59,9 @@ def map_figure(
 
     ``classes`` (item → class) colours the points and adds a legend titled ``legend_title``;
     items named in ``marked`` (e.g. group medoids) are drawn larger with a black edge. Points are
-    named up to :data:`NAME_LIMIT` items. The caption states how much of the matrix the axes
-    show and the map's stress. The axes carry the label ``map``.
+    named up to :data:`NAME_LIMIT` items, except where a name would cover another. The caption
+    states how much of the matrix the axes show and the map's stress. The axes carry the label
+    ``map``.
     """
     xy = np.zeros((len(result.labels), 2))
     xy[:, : min(2, result.dimensions)] = result.coordinates[:, :2]
@@ -71,10 +89,10 @@ def map_figure(
         ax.scatter(xy[is_marked, 0], xy[is_marked, 1], s=90, marker="D", c=fill[is_marked],
                    edgecolors="black", linewidths=1.0, zorder=3)  # fmt: skip
     if len(names) <= NAME_LIMIT:
-        for name, (x, y) in zip(names, xy, strict=True):
+        for i in _uncrowded(xy, is_marked):
             ax.annotate(
-                _literal(name),
-                (x, y),
+                _literal(names[i]),
+                (xy[i, 0], xy[i, 1]),
                 xytext=(4, 3),
                 textcoords="offset points",
                 fontsize=7,
