@@ -239,6 +239,8 @@ def test_report_command_writes_html_and_json(tmp_path: Path, capsys) -> None:  #
     hostile = "<b>x&y<b>.txt"  # a file name cannot hold '/'
     inputs = tmp_path / "in"
     _write_family_files(inputs, hostile)
+    # a label table kept beside the inputs is left out, and the report says so
+    (inputs / "labels.tsv").write_text("item\tfamily\nf0m0.txt\tfamily0\nf1m0.txt\tfamily1\n")
     page, data = tmp_path / "r.html", tmp_path / "r.json"
     common = [str(inputs), "-c", "zlib:level=9", "--no-cache", "--quiet"]
     assert main(["report", *common, "-o", str(page)]) == 0
@@ -247,6 +249,8 @@ def test_report_command_writes_html_and_json(tmp_path: Path, capsys) -> None:  #
     assert main(["report", *common, "--json", "-o", str(data)]) == 0
     doc = json.loads(data.read_text())
     assert hostile in doc["matrix"]["labels"]
+    assert "labels.tsv" not in doc["matrix"]["labels"]
+    assert any("labels.tsv" in line for line in doc["left_out"])
     assert doc["provenance"]["command"].startswith("kinpress report --compressor zlib:level=9")
     assert doc["provenance"]["command"].endswith(str(inputs))
     # an output inside the input folder is refused before any work, the folder left as it was
