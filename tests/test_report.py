@@ -340,6 +340,14 @@ def test_auto_choice_shows_its_calibration_table_reasons_and_warnings() -> None:
     assert "largest pair &lt;of items&gt;" in page
     assert '<tr style="font-weight:600"><td><code>zstd:level=3</code>' in page
     assert "<tr><td><code>zlib:level=9,window=15</code>" in page  # the canonical spec
+    # The known answers (calibration/controls.py) beside it: one column each, the bits a symbol
+    # each compressor spent, and what follows from a compressor at the random rate.
+    assert "What no compressor can see" in page
+    for spot in table.compressors[0].blind_spots:
+        assert f"<th>{spot.control}<br>" in page
+    zlib_pi = next(s for s in table.compressors[0].blind_spots if s.control == "pi")
+    assert f"{zlib_pi.bits_per_symbol:.2f}" in page
+    assert "does not prove two items unrelated" in page
     doc = report.as_json()
     specs = [c["spec"] for c in doc["compressor"]["calibration"]["compressors"]]
     assert specs == ["zlib:level=9,window=15", "zstd:level=3"]
