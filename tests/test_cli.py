@@ -436,6 +436,8 @@ IGNORED = {
         "--block-fraction",
     ),
     "tree --labels without --plot": (["tree", "--matrix", "{m}", "--labels", "{m}"], "--labels"),
+    "tree --title without --plot": (["tree", "--matrix", "{m}", "--title", "frogs"], "--title"),
+    "matrix --title without --plot": (["matrix", "{f}", *FAST, "--title", "frogs"], "--title"),
     "classify --k with the conditional method": (
         ["classify", "--reference", "{f}", "{f}", *FAST, "--k", "3"],
         "--k",

@@ -19,9 +19,11 @@ from matplotlib.text import Text
 from matplotlib.transforms import Bbox, BboxBase
 
 from kinpress import plots
+from kinpress.calibration import MUTATION_RATES, CalibrationReport, calibrate
 from kinpress.distance import DistanceMatrix
 from kinpress.plots import heatmap_figure, plot_heatmap, plot_tree, tree_figure
-from kinpress.plots.tree import _positions
+from kinpress.plots.calibration import calibration_figure
+from kinpress.plots.tree import _positions, _tree_sizes, support_threshold
 from kinpress.trees import Node, add_support, build_tree, leaf_order, preorder
 
 FORMATS = ["png", "svg", "pdf"]
@@ -183,7 +185,12 @@ def test_svg_names_each_leaf_label(tmp_path: Path) -> None:
 
 def test_support_labels_appear_when_supports_are_set() -> None:
     tree = with_supports(random_tree(10))
-    expected = sorted(f"{node.support:.0f}" for node in preorder(tree) if node.support is not None)
+    _, shortest = support_threshold(_positions(tree), _tree_sizes(leaf_order(tree), [], None, ""))
+    expected = sorted(
+        f"{node.support:.0f}"
+        for node in preorder(tree)
+        if node.support is not None and (node.length or 0.0) >= shortest
+    )
     assert expected
     shown = texts_with_gid(tree_figure(tree), "support-")
     assert sorted(t.get_text() for t in shown) == expected
@@ -375,3 +382,147 @@ def test_failed_write_leaves_the_old_file_and_no_temporary(
         plot_tree(random_tree(5), target)
     assert target.read_text() == "old"
     assert [p.name for p in tmp_path.iterdir()] == ["tree.svg"]
+
+
+# -- support labels on short branches, heatmaps in tree order, titles, the calibration figure ----
+
+
+def test_support_labels_shrink_on_short_branches_and_are_left_out_on_very_short_ones() -> None:
+    def pair(name: str, length: float, support: float) -> Node:
+        tips = (Node(name=f"{name}1", length=1.0), Node(name=f"{name}2", length=1.0))
+        return Node(children=tips, length=length, support=support)
+
+    # The thresholds scale with the tree's depth, which the long leaf z sets for both trees.
+    z = Node(name="z", length=10.0)
+    probe = Node(children=(z, pair("a", 0.5, 60)))
+    full, small = support_threshold(_positions(probe), _tree_sizes(leaf_order(probe), [], None, ""))
+    assert 0 < small < full < 1  # the smallest font fits on shorter branches than the usual one
+    # One branch well above both thresholds, one between them, one far below the smaller.
+    tree = Node(
+        children=(
+            z,
+            pair("a", 3 * full, 61),
+            Node(children=(pair("b", (full + small) / 2, 72), pair("c", small / 20, 83)), length=1),
+        )
+    )
+    assert support_threshold(_positions(tree), _tree_sizes(leaf_order(tree), [], None, "")) == (
+        full,
+        small,
+    )
+    fig = drawn(tree_figure(tree))
+    shown = {t.get_text(): t.get_fontsize() for t in texts_with_gid(fig, "support-")}
+    assert set(shown) == {"61", "72"}  # 83 sits on a branch far below the threshold
+    assert shown["72"] < shown["61"]
+    (note,) = texts_with_gid_exact(fig, "supports-note")
+    assert "1 left out on branches shorter than" in note.get_text()
+
+
+def test_heatmap_follows_a_given_trees_leaf_order() -> None:
+    dm = matrix(12)
+    tree = build_tree(dm.labels, dm.distances, method="average")
+    ax = axes_labelled(heatmap_figure(dm, tree=tree), "matrix")
+    assert [t.get_text() for t in ax.get_yticklabels()] == leaf_order(tree)
+    assert [t.get_text() for t in ax.get_xticklabels()] == leaf_order(tree)
+    assert leaf_order(tree) != list(dm.labels)  # the test would not notice otherwise
+    with pytest.raises(ValueError, match="not both"):
+        heatmap_figure(dm, tree=tree, order=list(dm.labels))
+
+
+def test_heatmap_has_no_wide_empty_margin_right_of_its_legend() -> None:
+    dm = matrix(14, classes=True)
+    fig = drawn(heatmap_figure(dm))
+    page = fig.bbox
+    right = max(t.get_window_extent().x1 for t in fig.findobj(Text) if t.get_text())
+    # Everything drawn ends within two margins (2 x 0.25 in) of the page's right edge.
+    assert page.x1 - right <= 2 * 0.25 * fig.dpi
+
+
+def svg_ids(path: Path) -> set[str | None]:
+    return {e.get("id") for e in ET.parse(path).iter()}
+
+
+@pytest.mark.parametrize("command", ["tree", "matrix"])
+def test_the_title_option_heads_the_plot(tmp_path: Path, command: str) -> None:
+    from kinpress import cli
+    from kinpress.formats import write_matrix
+
+    texts = tmp_path / "texts"
+    texts.mkdir()
+    for k in range(4):
+        (texts / f"t{k}.txt").write_text(" ".join(f"word{(k * j) % 11}" for j in range(300)))
+    svg = tmp_path / "p.svg"
+    if command == "tree":
+        dm = DistanceMatrix(labels=("a", "b", "c", "d"), distances=random_distances(4))
+        write_matrix(dm, tmp_path / "m.phy", "phylip")
+        argv = ["tree", "--matrix", str(tmp_path / "m.phy"), "-o", str(tmp_path / "t.nwk")]
+    else:
+        argv = ["matrix", str(texts), "-c", "zlib:level=9", "--no-cache", "--quiet",
+                "-o", str(tmp_path / "m.tsv")]  # fmt: skip
+    assert cli.main([*argv, "--plot", str(svg), "--title", "Frogs & toads"]) == 0
+    assert "title" in svg_ids(svg)
+    # Matplotlib writes text as paths, with the text itself in a comment beside them.
+    assert "Frogs &amp; toads" in svg.read_text()
+
+
+@pytest.fixture(scope="module")
+def twin_report() -> CalibrationReport:
+    # zstd with and without a long window measure alike on small data: the curves coincide.
+    specs = ["zlib:level=9", "zstd:level=19", "zstd:level=19,window=27"]
+    return calibrate(None, specs, samples=2, sample_bytes=4096, max_bytes=1 << 16)
+
+
+def test_calibration_mutation_axis_places_the_rates_by_value(
+    twin_report: CalibrationReport,
+) -> None:
+    ax = axes_labelled(drawn(calibration_figure(twin_report)), "mutation-ladder")
+    rates = np.array([0.0, *MUTATION_RATES])
+    np.testing.assert_allclose(ax.get_xticks(), rates)
+    at = ax.transData.transform(np.column_stack([rates, np.zeros_like(rates)]))[:, 0]
+    # A square-root axis: positions from the 0 tick grow as the root of the rate, not evenly.
+    np.testing.assert_allclose((at - at[0]) / (at[-1] - at[0]), np.sqrt(rates / rates[-1]))
+    assert "square-root" in ax.get_xlabel()
+
+
+def test_calibration_curves_that_coincide_are_told_apart(twin_report: CalibrationReport) -> None:
+    fig = drawn(calibration_figure(twin_report))
+    ax = axes_labelled(fig, "mutation-ladder")
+    lines = [line for line in ax.get_lines() if (line.get_gid() or "").startswith("ladder-")]
+    assert len(lines) == 3
+    styles = {
+        (str(line.get_color()), line.get_marker(), str(line.get_linestyle()),
+         str(line.get_markerfacecolor()))
+        for line in lines
+    }  # fmt: skip
+    assert len(styles) == 3
+    twins = lines[1:]
+    np.testing.assert_array_equal(twins[0].get_ydata(), twins[1].get_ydata())
+    x0, x1 = (
+        line.get_transform().transform(np.column_stack([line.get_xdata(), line.get_ydata()]))[:, 0]
+        for line in twins
+    )
+    assert np.all(np.abs(x1 - x0) >= 1.0 * fig.dpi / 72)  # at least a point apart
+
+
+def test_every_calibration_line_is_named_in_the_legend(twin_report: CalibrationReport) -> None:
+    fig = drawn(calibration_figure(twin_report, title="twins"))
+    (legend,) = fig.legends
+    named = [t.get_text() for t in legend.get_texts()]
+    assert [r.spec for r in twin_report.compressors] == named[:3]
+    assert any(n.startswith("reliability limit") for n in named)
+    sizes_ax = axes_labelled(fig, "size-sweep")
+    kinds = {line.get_linestyle() for line in sizes_ax.get_lines()}
+    legend_kinds = {h.get_linestyle() for h in legend.legend_handles if isinstance(h, Line2D)}
+    assert kinds <= legend_kinds
+    windows = [line for line in sizes_ax.get_lines() if line.get_linestyle() == ":"]
+    if windows:
+        assert any(n.startswith("documented window") for n in named)
+
+
+def test_the_calibration_title_appears_in_its_svg(
+    twin_report: CalibrationReport, tmp_path: Path
+) -> None:
+    from kinpress.plots import plot_calibration
+
+    plot_calibration(twin_report, tmp_path / "c.svg", title="Frogs & toads")
+    assert "title" in svg_ids(tmp_path / "c.svg")
+    assert "Frogs &amp; toads" in (tmp_path / "c.svg").read_text()

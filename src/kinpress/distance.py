@@ -23,7 +23,7 @@ from ._version import __version__
 from .cache import SizeCache
 from .compressors import Compressor, compressor
 from .engine import Engine
-from .items import Item, as_items
+from .items import Item, ItemLike, as_items
 from .measure import (
     MatrixStats,
     Measurement,
@@ -198,6 +198,12 @@ class DistanceMatrix:
     def __len__(self) -> int:
         return len(self.labels)
 
+    def to_frame(self) -> Any:
+        """The distances as a pandas DataFrame indexed by label both ways (`convert`)."""
+        from .convert import matrix_frame
+
+        return matrix_frame(self)
+
     def as_json(self, rows: bool = True) -> dict[str, Any]:
         """Labels, the compressor and method, per-item C(x) and NCD(x, x) (by label), run stats,
         the kinpress version, the known classes when there are any, and the distances (rounded
@@ -363,7 +369,7 @@ def _row_chunks(m: int, chunk: int) -> Iterator[tuple[np.ndarray, np.ndarray]]:
 
 
 def distance_matrix(
-    items: Sequence[Item],
+    items: Sequence[ItemLike],
     comp: Compressor | str = "zstd",
     *,
     conditional: str = "concat",
@@ -390,7 +396,7 @@ def distance_matrix(
     measurement = Measurement.of(
         comp, conditional=conditional, strand=strand, engine=engine, cache=cache, progress=progress
     )
-    return measure_matrix(items, measurement, memory_limit=memory_limit)
+    return measure_matrix(as_items(items), measurement, memory_limit=memory_limit)
 
 
 @dataclass
@@ -503,8 +509,8 @@ def measure_matrix(
 
 
 def pairwise_distances(
-    X: Iterable[bytes | str],
-    Y: Iterable[bytes | str] | None = None,
+    X: Iterable[ItemLike],
+    Y: Iterable[ItemLike] | None = None,
     compressor: str | Compressor = "zstd:level=19",
     *,
     conditional: str = "concat",
@@ -515,7 +521,8 @@ def pairwise_distances(
 
     Without Y, the square matrix of `distance_matrix` (symmetric, zero diagonal, non-negative);
     with Y, the block of rows X and columns Y of the matrix of X + Y, measured the same way.
-    Strings are encoded as UTF-8.
+    Inputs are taken as `items.as_items` takes them: bytes, str (UTF-8), `Item`s or Biopython
+    `SeqRecord`s.
     """
     measurement = Measurement.of(compressor, conditional=conditional, engine=engine, cache=cache)
     rows = as_items(X, "x")

@@ -19,17 +19,20 @@ import zlib
 from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, replace
 from pathlib import Path
-from typing import Any, BinaryIO
+from typing import TYPE_CHECKING, Any, BinaryIO, TypeAlias
 
 import zstandard
 
+from .sequences import _SEQUENCE_CHARS, _sniff_format
 from .sequences import SEQUENCE_FORMATS as SEQUENCE_FORMATS  # re-exported
-from .sequences import _sniff_format
 from .sequences import is_nucleotide as is_nucleotide  # re-exported
 from .sequences import parse_fasta as parse_fasta  # re-exported
 from .sequences import reverse_complement as reverse_complement  # re-exported
 from .sequences import sequence_records as sequence_records  # re-exported
 from .units import size_text
+
+if TYPE_CHECKING:
+    from Bio.SeqRecord import SeqRecord
 
 
 class InputError(ValueError):
@@ -49,6 +52,12 @@ class Item:
     source: str
     label: str | None = None
     nucleotide: bool = False
+
+    def __repr__(self) -> str:
+        """Short: the name, the size, where it came from and the label, never the bytes."""
+        label = "" if self.label is None else f", label={self.label!r}"
+        size = size_text(len(self.data))
+        return f"Item(name={self.name!r}, {size}, source={self.source!r}{label})"
 
 
 @dataclass(frozen=True)
@@ -395,18 +404,51 @@ def _warn_mixed(items: Sequence[Item]) -> None:
         )
 
 
-def as_items(values: Iterable[bytes | str], prefix: str = "x") -> list[Item]:
-    """Items named prefix0, prefix1, ... from bytes, or from strings encoded as UTF-8."""
+ItemLike: TypeAlias = "Item | bytes | bytearray | memoryview | str | SeqRecord"
+"""What `as_items` takes: an `Item`, bytes, a str (encoded as UTF-8) or a Biopython `SeqRecord`."""
+
+
+def _record_item(record: Any, source: str) -> Item:
+    """An item of a Biopython SeqRecord's letters, cleaned as sequence files are."""
+    from Bio.Seq import UndefinedSequenceError
+
+    try:
+        letters = str(record.seq).encode("ascii", "replace")
+    except UndefinedSequenceError:
+        raise InputError(f"{source}: record {record.id} has no sequence letters") from None
+    seq = _SEQUENCE_CHARS.sub(b"", letters).translate(None, b"*.-").upper()
+    if not seq:
+        raise InputError(f"{source}: record {record.id} is empty")
+    return Item(str(record.id), seq, source, nucleotide=is_nucleotide(seq))
+
+
+def as_items(values: Iterable[ItemLike], prefix: str = "x") -> list[Item]:
+    """Items from what a library user has at hand, in order, names made unique (`unique_names`).
+
+    An `Item` is kept as it is. Bytes become an item named prefix0, prefix1, ... (by position)
+    and a str the same, encoded as UTF-8. A Biopython `SeqRecord` becomes an item named by its
+    id holding its sequence letters as sequence files give them (uppercase, without gaps or
+    stops), a nucleotide item when they are nucleotides (so `strand="both"` takes it).
+
+    >>> [repr(i) for i in as_items([b"abc", "d\u00e9f"])]
+    ["Item(name='x0', 3 B, source='input')", "Item(name='x1', 4 B, source='input')"]
+    """
     out = []
     for k, value in enumerate(values):
-        if isinstance(value, str):
-            data = value.encode("utf-8")
+        if isinstance(value, Item):
+            out.append(value)
+        elif isinstance(value, str):
+            out.append(Item(f"{prefix}{k}", value.encode("utf-8"), "input"))
         elif isinstance(value, bytes | bytearray | memoryview):
-            data = bytes(value)
+            out.append(Item(f"{prefix}{k}", bytes(value), "input"))
+        elif hasattr(value, "seq") and hasattr(value, "id"):
+            out.append(_record_item(value, f"SeqRecord at position {k}"))
         else:
-            raise TypeError(f"expected bytes or str, got {type(value).__name__} at position {k}")
-        out.append(Item(f"{prefix}{k}", data, "input"))
-    return out
+            raise TypeError(
+                f"expected an Item, bytes, str or SeqRecord, got {type(value).__name__} "
+                f"at position {k}"
+            )
+    return unique_names(out)
 
 
 def load_items(

@@ -23,7 +23,7 @@ import numpy as np
 from .cache import SizeCache
 from .compressors import ADAPTERS, Compressor, SpecError, compressor
 from .engine import Engine, LocalEngine, SizeJob, Tile, plan_tiles
-from .items import InputError, Item
+from .items import InputError, Item, ItemLike, as_items
 
 CONDITIONALS = ("concat", "primed")
 STRANDS = ("one", "both")
@@ -280,7 +280,7 @@ def measure_singles(
 
 
 def conditional_sizes(
-    items: Sequence[Item],
+    items: Sequence[ItemLike],
     pairs: Sequence[tuple[int, int]],
     comp: Compressor | str = "zstd",
     *,
@@ -299,7 +299,7 @@ def conditional_sizes(
     measurement = Measurement.of(
         comp, conditional=conditional, strand=strand, engine=engine, cache=cache, progress=progress
     )
-    return measure_conditional(items, pairs, measurement)
+    return measure_conditional(as_items(items), pairs, measurement)
 
 
 def measure_conditional(

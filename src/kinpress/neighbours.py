@@ -31,6 +31,7 @@ from __future__ import annotations
 import time
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -40,7 +41,7 @@ from .derived import shingle_hashes
 from .distance import PAIR_CHUNK, PairDistances, measure_matrix
 from .engine import Engine
 from .groups import Grouping
-from .items import Item
+from .items import Item, ItemLike, as_items
 from .measure import MatrixStats, Measurement, Progress, measure_singles, warn_beyond_window
 
 _BATCH = 1 << 12
@@ -117,6 +118,12 @@ class Neighbours:
                 j = int(self.index[i, r])
                 if j >= 0:
                     yield name, r + 1, self.labels[j], float(self.distances[i, r])
+
+    def to_frame(self) -> Any:
+        """One pandas row per found neighbour: item, rank, neighbour, ncd (`convert`)."""
+        from .convert import neighbours_frame
+
+        return neighbours_frame(self)
 
     def as_json(self) -> dict[str, object]:
         """The neighbour lists per item, how they were measured and what they cost."""
@@ -339,7 +346,7 @@ def _searched(
 
 
 def nearest_neighbours(
-    items: Sequence[Item],
+    items: Sequence[ItemLike],
     comp: Compressor | str = "zstd",
     *,
     k: int = 10,
@@ -360,7 +367,7 @@ def nearest_neighbours(
     measurement = Measurement.of(
         comp, conditional=conditional, strand=strand, engine=engine, cache=cache, progress=progress
     )
-    return _nearest(items, measurement, k, search or Search())
+    return _nearest(as_items(items), measurement, k, search or Search())
 
 
 def _nearest(items: Sequence[Item], measurement: Measurement, k: int, search: Search) -> Neighbours:
@@ -446,7 +453,7 @@ class SparseGroups:
 
 
 def sparse_groups(
-    items: Sequence[Item],
+    items: Sequence[ItemLike],
     comp: Compressor | str = "zstd",
     *,
     k: int | None = None,
@@ -472,6 +479,7 @@ def sparse_groups(
     measurement = Measurement.of(
         comp, conditional=conditional, strand=strand, engine=engine, cache=cache, progress=progress
     )
+    items = as_items(items)
     found = _nearest(items, measurement, neighbours, search or Search())
     rng = np.random.default_rng(seed)
     count = min(sample_items, max(2, len(items) // 4))  # never near a full matrix

@@ -9,7 +9,7 @@ from collections.abc import Sequence
 
 import numpy as np
 
-from .items import Item
+from .items import ItemLike, as_items
 from .measure import (
     Measurement,
     Sizes,
@@ -63,18 +63,19 @@ class PairDistances:
 
 
 def pair_distances(
-    items: Sequence[Item], pairs: Sequence[tuple[int, int]], measurement: Measurement
+    items: Sequence[ItemLike], pairs: Sequence[tuple[int, int]], measurement: Measurement
 ) -> np.ndarray:
     """NCD of each unordered index pair into `items`, the same numbers `measure_matrix` gives."""
-    sizes, content, single, _ = measure_singles(items, measurement)
+    sizes, content, single, _ = measure_singles(as_items(items), measurement)
     a, b = np.asarray(pairs, dtype=np.int64).reshape(-1, 2).T
     return PairDistances(sizes, content, single, measurement.conditional)(a, b, "pairs")
 
 
 def cross_distances(
-    rows: Sequence[Item], columns: Sequence[Item], measurement: Measurement
+    rows: Sequence[ItemLike], columns: Sequence[ItemLike], measurement: Measurement
 ) -> np.ndarray:
     """The (len(rows), len(columns)) block of the NCD matrix of rows + columns."""
+    rows, columns = as_items(rows, "x"), as_items(columns, "y")
     n = len(rows)
     pairs = [(i, n + j) for i in range(n) for j in range(len(columns))]
     return pair_distances([*rows, *columns], pairs, measurement).reshape(n, len(columns))

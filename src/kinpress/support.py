@@ -17,7 +17,7 @@ import numpy as np
 from .compressors import Compressor
 from .distance import measure_matrix
 from .engine import Engine
-from .items import Item
+from .items import Item, ItemLike, as_items
 from .measure import Measurement, Progress
 from .trees import Method, Node, add_support, build_tree
 
@@ -52,7 +52,7 @@ def replicate_items(
 
 def bootstrap_support(
     tree: Node,
-    items: Sequence[Item],
+    items: Sequence[ItemLike],
     comp: Compressor,
     *,
     replicates: int,
@@ -73,6 +73,7 @@ def bootstrap_support(
         raise ValueError("the number of replicates must be at least 1")
     measurement = Measurement.of(comp, conditional=conditional, strand=strand, engine=engine)
     rng = np.random.default_rng(seed)
+    items = as_items(items)
     trees = []
     for k in range(replicates):
         resampled = replicate_items(items, block_fraction, rng)

@@ -20,7 +20,7 @@ from ..compressors import SpecError
 from ..distance import TooLarge
 from ..engine import ClusterError
 from ..items import InputError
-from . import calibrate, classify, compressors, derived, groups, matrix, nearest, tree
+from . import calibrate, classify, compressors, derived, groups, matrix, nearest, report, tree
 from ._common import check_paths, opened_engine
 from ._console import Console
 from ._options import UsageError, byte_size, check_values, common, examples
@@ -36,6 +36,7 @@ COMMANDS: dict[str, ModuleType] = {
     "calibrate": calibrate,
     "classify": classify,
     "derived": derived,
+    "report": report,
 }
 """Each command's name and its module, in the order --help lists them."""
 

@@ -136,22 +136,24 @@ def resolve_spec(
     items: Sequence[Item],
     console: Console,
     targets: Sequence[Item] = (),
+    job: str | None = None,
 ) -> str:
     """The compressor spec to use: as given, or with auto the one calibration chose for this
-    command's job (see calibration.resolve_auto), its time counting tree's --bootstrap
-    replicates and derived's null."""
+    command's job (`job`, default the command's name; see calibration.resolve_auto), its time
+    counting --bootstrap replicates and derived's null."""
     if args.compressor != "auto":
         return str(args.compressor)
     from ..calibration import resolve_auto
 
+    job = job or args.command
     null_pairs = 0
-    if args.command == "derived":
+    if job == "derived":
         from ..derived import default_null_pairs
 
-        null_pairs = default_null_pairs(args.max_fpr)
+        null_pairs = default_null_pairs(getattr(args, "max_fpr", None) or 0.01)
     with opened_cache(args) as cache:
         args.compressor = resolve_auto(
-            items, args.command, targets=targets, budget_seconds=budget_seconds(args),
+            items, job, targets=targets, budget_seconds=budget_seconds(args),
             strand=args.strand, engine=args.engine, cache=cache, say=console.say,
             replicates=getattr(args, "bootstrap", 0) or 0, null_pairs=null_pairs,
         )  # fmt: skip

@@ -171,7 +171,8 @@ def output(
     parser: argparse.ArgumentParser, what: str, json: str, plot: str | None = None
 ) -> argparse._ArgumentGroup:
     """-o and --json, the same for every command: --json selects JSON, -o says where (default
-    stdout); with `plot`, --plot FILE draws a picture as well."""
+    stdout); with `plot`, --plot FILE draws a picture as well and --title TEXT heads it
+    (`plot_title` reads it)."""
     group = parser.add_argument_group("output")
     group.add_argument(
         "-o", "--output", metavar="FILE", help=f"write {what} here (default: stdout)"
@@ -179,7 +180,15 @@ def output(
     group.add_argument("--json", action="store_true", help=json)
     if plot is not None:
         group.add_argument("--plot", metavar="FILE", help=f"{plot} (.png, .svg or .pdf)")
+        group.add_argument("--title", metavar="TEXT", help="a title over the --plot")
     return group
+
+
+def plot_title(args: argparse.Namespace) -> str | None:
+    """The --title of the --plot; a usage error when there is no --plot to head."""
+    if not args.plot:
+        refuse_given(args, ("title",), "heads the --plot; give --plot")
+    return str(args.title) if args.title else None
 
 
 VALUE_RULES: dict[str, tuple[Callable[[float], bool], str]] = {

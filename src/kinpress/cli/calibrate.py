@@ -51,6 +51,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
     from ..calibration import DEFAULT_CANDIDATES, calibration_report
 
     check_plot(args.plot)
+    title = _options.plot_title(args)
     weighs_time = ("budget", "jobs", "cluster")
     if not args.inputs:
         _options.refuse_given(args, weighs_time, "weighs the run time of a matrix of the inputs;"
@@ -73,7 +74,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
     if args.plot:
         from ..plots import plot_calibration
 
-        plot_calibration(report, args.plot)
+        plot_calibration(report, args.plot, title=title)
     return 0
 
 

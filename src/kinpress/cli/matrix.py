@@ -42,6 +42,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
         raise UsageError(f"--json and --format {args.format}: give one")
     fmt = format_for(args.output, "json" if args.json else args.format)
     check_plot(args.plot)
+    title = _options.plot_title(args)
     _options.refuse_budget_without_auto(args)
     labels = known_labels(args)  # a missing labels file is reported before the check below
     if fmt != "json" and not args.plot:
@@ -52,10 +53,10 @@ def run(args: argparse.Namespace, console: Console) -> int:
     write_matrix(dm, args.output, fmt)
     if args.plot:
         from ..plots import plot_heatmap
-        from ..trees import build_tree, leaf_order
+        from ..trees import build_tree
 
         # Average-linkage leaf order puts near items side by side, so groups show as blocks.
-        order = leaf_order(build_tree(dm.labels, dm.distances, method="average"))
-        title = "class" if labels is None else labels.column
-        plot_heatmap(dm, args.plot, order=order, legend_title=title)
+        tree = build_tree(dm.labels, dm.distances, method="average")
+        legend = "class" if labels is None else labels.column
+        plot_heatmap(dm, args.plot, tree=tree, title=title, legend_title=legend)
     return 0

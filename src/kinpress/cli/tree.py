@@ -109,6 +109,7 @@ def _refuse_useless(args: argparse.Namespace) -> None:
     if not args.plot:
         _options.refuse_given(args, ("labels",), "colours the leaves of --plot; give --plot")
     check_plot(args.plot)
+    _options.plot_title(args)
 
 
 def _tree(
@@ -170,6 +171,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
             tree,
             args.plot,
             classes=classes(dm),
+            title=_options.plot_title(args),
             scale_label="NCD",
             legend_title="class" if labels is None else labels.column,
         )

@@ -22,7 +22,7 @@ from ..evidence import (
     remapped,
     seed_print,
 )
-from ..items import InputError, Item
+from ..items import InputError, Item, ItemLike, as_items
 from ..measure import (
     MatrixStats,
     Measurement,
@@ -221,7 +221,7 @@ def _findings(
 
 
 def find_derived(
-    items: Sequence[Item],
+    items: Sequence[ItemLike],
     compressor: Compressor | str = "zstd",
     *,
     exhaustive: bool = False,
@@ -263,6 +263,7 @@ def find_derived(
     """
     if not 0 < max_fpr <= 1:
         raise ValueError(f"max_fpr must be in (0, 1], got {max_fpr}")
+    items = as_items(items)
     if len(items) < 2:
         raise InputError(f"need at least two items to compare, got {len(items)}")
     measurement = Measurement.of(compressor, engine=engine, cache=cache, progress=progress)

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass, field
+from typing import Any
 
 from ..evidence import (
     Stretch,
@@ -170,6 +171,12 @@ class DerivedReport:
     def as_json(self) -> list[dict[str, object]]:
         """Per finding: see `DerivedFinding.as_json`."""
         return list(json_ready(self.findings))
+
+    def to_frame(self, same_source: bool = False) -> Any:
+        """One pandas row per finding (`convert.findings_frame`)."""
+        from ..convert import findings_frame
+
+        return findings_frame(self, same_source)
 
 
 @dataclass(frozen=True)

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import numpy.typing as npt
@@ -131,6 +132,12 @@ class GroupingResult:
         """(item, group, medoid, outlier) for every item, in input order."""
         g = self.grouping
         yield from zip(self.labels, g.assignment, g.is_medoid, g.is_outlier, strict=True)
+
+    def to_frame(self) -> Any:
+        """One pandas row per item: group, medoid, outlier (`convert.grouping_frame`)."""
+        from ..convert import grouping_frame
+
+        return grouping_frame(self)
 
     def as_json(self) -> dict[str, object]:
         """Per item its group, medoid and outlier flags; per group its size, medoid item and

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -12,7 +13,7 @@ from ..cache import SizeCache
 from ..compressors import Compressor
 from ..engine import Engine
 from ..formats import json_ready
-from ..items import InputError, Item
+from ..items import InputError, Item, ItemLike, as_items
 from ..measure import Measurement, Progress, content_digest
 from .conformal import Abstention, Conformity, _abstention
 from .scores import (
@@ -185,6 +186,12 @@ class Classification:
         """How many items were named, ambiguous and unknown."""
         return {d: sum(p.decision == d for p in self.predictions) for d in DECISIONS}
 
+    def to_frame(self) -> Any:
+        """One pandas row per item: prediction, scores, p-values (`convert`)."""
+        from ..convert import classification_frame
+
+        return classification_frame(self)
+
 
 @dataclass(frozen=True)
 class FoldReport:
@@ -349,8 +356,8 @@ def _calibrate(
 
 
 def classify(
-    unknowns: Sequence[Item],
-    reference: Sequence[Item],
+    unknowns: Sequence[ItemLike],
+    reference: Sequence[ItemLike],
     comp: str | Compressor = "zstd:level=19",
     *,
     method: str = "conditional",
@@ -373,6 +380,7 @@ def classify(
     `conditional` "auto" primes where the compressor can for the conditional method and
     concatenates otherwise. The nearest reference item is searched among the best origin's.
     """
+    unknowns = as_items(unknowns)
     if not unknowns:
         raise InputError("no items to classify")
     ref = _Reference.of(reference)
@@ -401,7 +409,7 @@ def classify(
 
 
 def evaluate(
-    reference: Sequence[Item],
+    reference: Sequence[ItemLike],
     comp: str | Compressor = "zstd:level=19",
     *,
     method: str = "conditional",

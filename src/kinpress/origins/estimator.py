@@ -12,7 +12,7 @@ from sklearn.utils.validation import check_is_fitted
 
 from ..cache import SizeCache
 from ..engine import Engine
-from ..items import as_items
+from ..items import ItemLike, as_items
 from ..measure import Measurement
 from .classification import _calibrate
 from .scores import DEFAULT_BLOCKS, _measurement, _Reference, _score
@@ -64,7 +64,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
     def _open_cache(self) -> SizeCache | None:
         return SizeCache(self.cache) if self.cache is not None else None
 
-    def fit(self, X: Sequence[bytes | str], y: Sequence[Any]) -> Self:
+    def fit(self, X: Sequence[ItemLike], y: Sequence[Any]) -> Self:
         """Keep X as the reference labelled by y, choose the compressor, calibrate abstention."""
         items = as_items(X, "ref")
         if len(items) != len(y):
@@ -98,7 +98,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
                 cache.close()
         return self
 
-    def _scores(self, X: Sequence[bytes | str]) -> np.ndarray:
+    def _scores(self, X: Sequence[ItemLike]) -> np.ndarray:
         check_is_fitted(self, "calibrated_")
         targets = as_items(X, "x")
         cache = self._open_cache()
@@ -111,7 +111,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
                 cache.close()
         return scores.scores
 
-    def p_values(self, X: Sequence[bytes | str]) -> np.ndarray:
+    def p_values(self, X: Sequence[ItemLike]) -> np.ndarray:
         """Conformal p-values of the deciding test, shaped (len(X), len(classes_)): how typical
         each input is of each class (see Conformity). Raises ValueError when fitted with a
         threshold."""
@@ -120,7 +120,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
             raise ValueError("fitted with a threshold: no p-values")
         return p
 
-    def predict(self, X: Sequence[bytes | str]) -> np.ndarray:
+    def predict(self, X: Sequence[ItemLike]) -> np.ndarray:
         """The class of each input, or `unknown_label` where it is unknown or ambiguous."""
         decided = self.calibrated_.decide(self._scores(X))
         named = np.array([d == "named" for d in decided.decisions], dtype=bool)
@@ -135,7 +135,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         ]
         return out
 
-    def score(self, X: Sequence[bytes | str], y: Sequence[Any], sample_weight: Any = None) -> float:
+    def score(self, X: Sequence[ItemLike], y: Sequence[Any], sample_weight: Any = None) -> float:
         """Mean accuracy on (X, y); a refused item counts as wrong."""
         hits = np.array([p == t for p, t in zip(self.predict(X), y, strict=True)], dtype=float)
         return float(np.average(hits, weights=sample_weight))

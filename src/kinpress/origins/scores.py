@@ -14,7 +14,7 @@ from ..compressors import Compressor
 from ..compressors import compressor as build_compressor
 from ..distance import cross_distances, measure_matrix, pair_distances
 from ..engine import Engine
-from ..items import InputError, Item
+from ..items import InputError, Item, ItemLike, as_items
 from ..measure import Measurement, MeasurementWarning, Progress, measure_conditional, ncd
 
 METHODS = ("conditional", "knn")
@@ -34,7 +34,8 @@ class _Reference:
     codes: np.ndarray
 
     @classmethod
-    def of(cls, items: Sequence[Item]) -> _Reference:
+    def of(cls, given: Sequence[ItemLike]) -> _Reference:
+        items = as_items(given, "ref")
         missing = next((item.name for item in items if item.label is None), None)
         if missing is not None:
             raise InputError(f"reference item {missing} has no origin label")

@@ -207,6 +207,7 @@ def _heading(fig: Figure, page: _Page, top: float, title: str | None, note: str 
             fontsize=12,
             fontweight="bold",
             parse_math=False,
+            gid="title",
         )
         top -= _TITLE_HEIGHT
     if note:
@@ -217,6 +218,7 @@ def _heading(fig: Figure, page: _Page, top: float, title: str | None, note: str 
             va="top",
             fontsize=9,
             color="#555555",
+            linespacing=1.2,
             parse_math=False,
         )
 
@@ -226,8 +228,11 @@ _NOTE_HEIGHT = 0.3
 
 
 def _heading_size(title: str | None, note: str = "") -> tuple[float, float]:
-    """Width and height in inches of what :func:`_heading` draws."""
+    """Width and height in inches of what :func:`_heading` draws (a note may hold several
+    lines, each 1.2 of its 9 points below the one before)."""
+    lines = note.split("\n") if note else []
     width = max(
-        _text_width([title], 12, "bold") if title else 0.0, _text_width([note], 9) if note else 0.0
+        _text_width([title], 12, "bold") if title else 0.0, _text_width(lines, 9) if note else 0.0
     )
-    return width, (_TITLE_HEIGHT if title else 0.0) + (_NOTE_HEIGHT if note else 0.0)
+    extra = max(len(lines) - 1, 0) * 1.2 * 9 / 72
+    return width, (_TITLE_HEIGHT if title else 0.0) + (_NOTE_HEIGHT + extra if note else 0.0)

@@ -12,6 +12,7 @@ from matplotlib.axes import Axes
 from matplotlib.figure import Figure
 
 from ..distance import DistanceMatrix
+from ..trees import Node, leaf_order
 from ._layout import (
     _MARGIN,
     _NO_CLASS,
@@ -34,7 +35,9 @@ LABEL_LIMIT = 150
 
 _STRIP = 0.16  # inches across a class strip
 _STRIP_GAP = 0.04
-_BAR_ROOM = 0.2 + 0.2 + 0.75  # gap, colour bar, its tick labels and "NCD"
+_BAR_GAP = 0.15  # inches between the matrix and its colour bar
+_BAR_WIDTH = 0.2
+_LEGEND_GAP = 0.2  # inches between the colour bar's label and the class legend
 
 
 def _permutation(dm: DistanceMatrix, order: Sequence[str] | None) -> list[int]:
@@ -75,8 +78,8 @@ def _caption(dm: DistanceMatrix, low: float, high: float) -> str:
         parts.append(f"conditional {dm.conditional}")
     if dm.strand == "both":
         parts.append("both strands")
-    parts.append(f"colours span {low:.3g} to {high:.3g} (off the diagonal, which is grey)")
-    return ", ".join(parts)
+    span = f"colours span {low:.3g} to {high:.3g} (off the diagonal, which is grey)"
+    return ", ".join(parts) + "\n" + span if parts else span
 
 
 @dataclass(frozen=True)
@@ -89,11 +92,22 @@ class _HeatmapSizes:
     left: float
     bottom: float
     strip: float  # 0 without classes
+    bar: float  # from the matrix's right edge to the end of the colour bar's label
     page: _Page
 
     @property
     def top(self) -> float:
         return self.bottom + self.side
+
+
+def _bar_room(low: float, high: float) -> float:
+    """Inches from the matrix's right edge to the end of the colour bar's label: the gap, the
+    bar, its ticks and their labels (as wide as the widest of the range's ends, written to two
+    decimals, or to three figures, whichever is wider), and the rotated "NCD"."""
+    ticks = [f"{v:.2f}" for v in (low, high)] + [f"{v:.3g}" for v in (low, high)]
+    tick_labels = _text_width(ticks, 10)  # matplotlib's default tick label size
+    marks = (3.5 + 3.5 + 4.0) / 72  # tick length, tick pad, label pad (matplotlib's defaults)
+    return _BAR_GAP + _BAR_WIDTH + marks + tick_labels + 12 / 72
 
 
 def _heatmap_sizes(
@@ -102,6 +116,7 @@ def _heatmap_sizes(
     header: tuple[float, float],
     strips: bool,
     legend_title: str,
+    bar: float,
 ) -> _HeatmapSizes:
     """Cells sized for the names up to :data:`LABEL_LIMIT` items, a fixed square beyond."""
     count = len(labels)
@@ -113,10 +128,10 @@ def _heatmap_sizes(
     legend_width, legend_height = _legend_size(legend, legend_title) if legend else (-0.2, 0.0)
     left, bottom = _MARGIN + names + strip, _MARGIN + names
     page = _Page(
-        width=max(left + side + _BAR_ROOM + 0.2 + legend_width, _MARGIN + header[0]) + _MARGIN,
+        width=max(left + side + bar + _LEGEND_GAP + legend_width, _MARGIN + header[0]) + _MARGIN,
         height=bottom + max(side + strip, legend_height) + header[1] + _MARGIN,
     )
-    return _HeatmapSizes(font, named, side, left, bottom, strip, page)
+    return _HeatmapSizes(font, named, side, left, bottom, strip, bar, page)
 
 
 def _name_axes(ax: Axes, side_ax: Axes, labels: Sequence[str], sizes: _HeatmapSizes) -> None:
@@ -166,11 +181,13 @@ def heatmap_figure(
     dm: DistanceMatrix,
     *,
     order: Sequence[str] | None = None,
+    tree: Node | None = None,
     title: str | None = None,
     legend_title: str = "class",
 ) -> Figure:
-    """The distances as a heatmap, rows and columns in ``order`` (default: as in ``dm``), e.g. a
-    tree's leaf order.
+    """The distances as a heatmap, rows and columns in ``order`` (default: as in ``dm``), or in
+    ``tree``'s leaf order (:func:`~kinpress.trees.leaf_order`, top to bottom as the tree figure
+    draws them) when a tree is given instead.
 
     Colours (viridis) span the range of the finite distances off the diagonal, which the caption
     states; the diagonal, and any distance not measured, is grey.
@@ -180,6 +197,10 @@ def heatmap_figure(
     the labels ``matrix``, ``colorbar`` and, with classes, ``row-classes`` and
     ``column-classes``.
     """
+    if tree is not None:
+        if order is not None:
+            raise ValueError("give an order or a tree, not both")
+        order = leaf_order(tree)
     index = _permutation(dm, order)
     labels = [dm.labels[i] for i in index]
     values = np.asarray(dm.distances, dtype=np.float64)[np.ix_(index, index)]
@@ -188,7 +209,9 @@ def heatmap_figure(
     low, high = _colour_range(values)
     caption = _caption(dm, low, high)
     header = _heading_size(title, caption)
-    sizes = _heatmap_sizes(labels, list(colours), header, bool(classes), legend_title)
+    sizes = _heatmap_sizes(
+        labels, list(colours), header, bool(classes), legend_title, _bar_room(low, high)
+    )
     page = sizes.page
     fig = Figure(figsize=(page.width, page.height))
     ax = fig.add_axes(page.rect(sizes.left, sizes.bottom, sizes.side, sizes.side), label="matrix")
@@ -199,10 +222,10 @@ def heatmap_figure(
     ax.set_aspect("auto")
     side_ax = _class_strips(fig, ax, sizes, [colours[c] for c in classes]) if classes else ax
     _name_axes(ax, side_ax, labels, sizes)
-    bar_rect = page.rect(sizes.left + sizes.side + 0.2, sizes.bottom, 0.2, sizes.side)
+    bar_rect = page.rect(sizes.left + sizes.side + _BAR_GAP, sizes.bottom, _BAR_WIDTH, sizes.side)
     fig.colorbar(image, cax=fig.add_axes(bar_rect, label="colorbar")).set_label("NCD")
     if colours:
-        corner = page.point(sizes.left + sizes.side + _BAR_ROOM + 0.2, sizes.top)
+        corner = page.point(sizes.left + sizes.side + sizes.bar + _LEGEND_GAP, sizes.top)
         _legend(fig, colours, corner, legend_title)
     _heading(fig, page, page.height - _MARGIN, title, caption)
     return fig
@@ -213,9 +236,11 @@ def plot_heatmap(
     path: str | os.PathLike[str],
     *,
     order: Sequence[str] | None = None,
+    tree: Node | None = None,
     title: str | None = None,
     legend_title: str = "class",
 ) -> None:
     """Write :func:`heatmap_figure` to ``path`` (.png, .svg or .pdf)."""
     figure_format(path)
-    write_figure(heatmap_figure(dm, order=order, title=title, legend_title=legend_title), path)
+    fig = heatmap_figure(dm, order=order, tree=tree, title=title, legend_title=legend_title)
+    write_figure(fig, path)

@@ -35,6 +35,7 @@ from ._layout import (
 
 _TREE_WIDTH = 6.0  # inches from the root to the deepest tip
 _SCALE_HEIGHT = 0.5  # inches under the tree for the scale bar
+_SUPPORT_FLOOR = 5.0  # points: the smallest support label
 
 
 @dataclass(frozen=True)
@@ -198,14 +199,47 @@ def _draw_leaves(
         )
 
 
+def _support_font(sizes: _TreeSizes) -> float:
+    return max(sizes.font - 2, _SUPPORT_FLOOR)
+
+
+def support_threshold(at: _Drawing, sizes: _TreeSizes) -> tuple[float, float]:
+    """Branch lengths (in branch units) below which a support label, as wide as "100", no
+    longer fits on the branch left of its node: at the usual support font, and at the
+    smallest (`_SUPPORT_FLOOR`); a label on a branch shorter than the second is left out, so
+    that labels on short branches never crowd the forks and each other."""
+    low = min(at.x.values())
+    span = 1.01 * ((at.depth - low) or 1.0)
+    units_per_inch = span / _TREE_WIDTH
+    room = 1.5 / 72  # the label's offset left of its node
+    full = (_text_width(["100"], _support_font(sizes)) + room) * units_per_inch
+    small = (_text_width(["100"], _SUPPORT_FLOOR) + room) * units_per_inch
+    return full, small
+
+
+def _branch(node: Node, at: _Drawing) -> float:
+    return (node.length or 0.0) if at.has_lengths else 1.0
+
+
 def _draw_supports(fig: Figure, ax: Axes, tree: Node, at: _Drawing, sizes: _TreeSizes) -> None:
-    """Each support as a whole percentage above the branch just left of its node, and a note
-    saying so beside the scale bar."""
-    nodes = [node for node in preorder(tree) if node.children and node.support is not None]
+    """Each support as a whole percentage above the branch just left of its node (smaller on a
+    short branch, left out on a very short one: `support_threshold`), and a note saying so
+    beside the scale bar."""
+    nodes = [
+        node
+        for node in preorder(tree)
+        if node.children and node.support is not None and node is not tree
+    ]
     if not nodes:
         return
+    full, small = support_threshold(at, sizes)
     shifted = offset_copy(ax.transData, fig=fig, x=-1.5, y=1.0, units="points")
+    dropped = 0
     for k, node in enumerate(nodes):
+        length = _branch(node, at)
+        if length < small:
+            dropped += 1
+            continue
         ax.text(
             at.x[id(node)],
             at.y[id(node)],
@@ -213,17 +247,21 @@ def _draw_supports(fig: Figure, ax: Axes, tree: Node, at: _Drawing, sizes: _Tree
             transform=shifted,
             ha="right",
             va="bottom",
-            fontsize=max(sizes.font - 2, 5),
+            fontsize=_support_font(sizes) if length >= full else _SUPPORT_FLOOR,
             color="#4d4d4d",
             gid=f"support-{k}",
         )
+    note = "numbers at nodes: support (%)"
+    if dropped:
+        note += f"; {dropped} left out on branches shorter than {small:.2g}"
     fig.text(
         *sizes.page.point(_MARGIN + _TREE_WIDTH, _MARGIN + _SCALE_HEIGHT - 0.1),
-        "numbers at nodes: support (%)",
+        note,
         ha="right",
         va="top",
         fontsize=8,
         color="#555555",
+        gid="supports-note",
     )
 
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, replace
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 import numpy.typing as npt
 
@@ -99,6 +99,12 @@ class TreeResult:
     @property
     def leaves(self) -> int:
         return sum(1 for node in preorder(self.tree) if not node.children)
+
+    def to_phylo(self) -> Any:
+        """The tree as a Bio.Phylo Newick tree, support as confidence (`convert.tree_phylo`)."""
+        from ..convert import tree_phylo
+
+        return tree_phylo(self)
 
     def as_json(self) -> dict[str, object]:
         """Newick, method, rooting, outgroup, leaves, fit (6 decimals), bootstrap (replicates,

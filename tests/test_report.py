@@ -1,0 +1,374 @@
+"""The report: classical scaling (maps.py), the Report data, its HTML page (escaping, nothing
+fetched), the command, and a real render in headless Chromium where it is installed."""
+
+from __future__ import annotations
+
+import json
+import random
+import shutil
+import subprocess
+import tomllib
+from html.parser import HTMLParser
+from importlib import resources
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from kinpress import distance_matrix
+from kinpress.cli import main
+from kinpress.compressors import compressor
+from kinpress.items import Item
+from kinpress.maps import classical_scaling
+from kinpress.report import (
+    CONTENT_SECURITY_POLICY,
+    CompressorChoice,
+    build_report,
+    render_html,
+)
+
+ROOT = Path(__file__).resolve().parents[1]
+HOSTILE = "<b>x&y</b>.txt"
+ESCAPED = "&lt;b&gt;x&amp;y&lt;/b&gt;.txt"
+
+# Classical scaling
+
+
+def test_classical_scaling_recovers_points_on_a_line_worked_by_hand() -> None:
+    # Worked by hand from Torgerson (1952) / Gower (1966): points 0, 1, 3 on a line have
+    # distances 1, 3, 2; centred at their mean 4/3 they are -4/3, -1/3, 5/3, and the one
+    # positive eigenvalue of B = -1/2 J D² J is their sum of squares, 16/9 + 1/9 + 25/9 = 14/3.
+    d = np.array([[0, 1, 3], [1, 0, 2], [3, 2, 0]], dtype=float)
+    found = classical_scaling(["a", "b", "c"], d)
+    assert found.coordinates[:, 0] == pytest.approx([-4 / 3, -1 / 3, 5 / 3])
+    assert found.coordinates[:, 1] == pytest.approx([0, 0, 0], abs=1e-9)
+    assert found.eigenvalues[0] == pytest.approx(14 / 3)
+    assert found.explained == pytest.approx(1.0)
+    assert found.stress == pytest.approx(0.0, abs=1e-9)
+
+
+def test_classical_scaling_recovers_a_plane_up_to_rotation() -> None:
+    from scipy.spatial import procrustes
+    from scipy.spatial.distance import pdist, squareform
+    from sklearn.decomposition import PCA
+
+    rng = np.random.default_rng(7)
+    points = rng.normal(size=(12, 2)) * [3.0, 1.0]
+    angle = 0.7
+    rotation = np.array([[np.cos(angle), -np.sin(angle)], [np.sin(angle), np.cos(angle)]])
+    moved = points @ rotation.T + [5.0, -2.0]
+    d = squareform(pdist(moved))
+    found = classical_scaling([f"p{i}" for i in range(12)], d)
+    # scipy's Procrustes analysis: the same shape up to rotation, reflection, scale and shift.
+    _, _, disparity = procrustes(points, found.coordinates)
+    assert disparity == pytest.approx(0.0, abs=1e-12)
+    # Gower (1966): principal coordinates of Euclidean distances are the principal components
+    # of the centred points; scikit-learn's PCA gives them, each axis up to its sign.
+    scores = PCA(n_components=2).fit_transform(moved)
+    for axis in range(2):
+        ours, theirs = found.coordinates[:, axis], scores[:, axis]
+        assert np.allclose(ours, theirs, atol=1e-9) or np.allclose(ours, -theirs, atol=1e-9)
+    assert found.stress == pytest.approx(0.0, abs=1e-9)
+
+
+def test_classical_scaling_of_a_non_euclidean_matrix_says_what_it_loses() -> None:
+    # Four points all 1 apart (a regular simplex) need three axes: two show two thirds of it.
+    d = 1.0 - np.eye(4)
+    found = classical_scaling(list("abcd"), d)
+    assert found.explained == pytest.approx(2 / 3)
+    assert found.stress > 0.1
+    # A matrix that breaks the triangle inequality has a negative eigenvalue (Gower 1966).
+    bad = np.array([[0, 1, 5], [1, 0, 1], [5, 1, 0]], dtype=float)
+    assert classical_scaling(list("abc"), bad).eigenvalues[-1] < 0
+    doc = found.as_json()
+    assert [row["item"] for row in doc["items"]] == list("abcd")
+    assert len(doc["items"][0]["coordinates"]) == 2
+
+
+# The Report and its page
+
+
+def _family_items(names: list[str] | None = None) -> list[Item]:
+    """Three families of three texts each: a random text and two copies with 5 % of words
+    changed."""
+    rng = random.Random(3)
+    words = [f"w{i}" for i in range(400)]
+    items = []
+    for family in range(3):
+        base = [rng.choice(words) for _ in range(600)]
+        for member in range(3):
+            text = [w if rng.random() > 0.05 else rng.choice(words) for w in base]
+            name = f"f{family}m{member}.txt"
+            items.append(Item(name, " ".join(text).encode(), f"/data/{name}", f"family{family}"))
+    if names:
+        items = [Item(n, i.data, i.source, i.label) for n, i in zip(names, items, strict=False)] + (
+            items[len(names) :]
+        )
+    return items
+
+
+@pytest.fixture(scope="module")
+def report_of_families():  # type: ignore[no-untyped-def]
+    items = _family_items([HOSTILE])
+    dm = distance_matrix(items, compressor("zlib:level=9"), engine=None)
+    choice = CompressorChoice("zlib:level=9", dm.conditional, dm.strand, given=True)
+    return build_report(
+        items, dm, choice, title="families & <friends>", command="kinpress report x", seed=1
+    )
+
+
+def test_report_json_holds_every_result(report_of_families) -> None:  # type: ignore[no-untyped-def]
+    doc = json.loads(json.dumps(report_of_families.as_json()))
+    assert set(doc) >= {"title", "items", "left_out", "compressor", "matrix", "tree", "groups",
+                        "map", "nearest", "provenance", "cautions"}  # fmt: skip
+    assert doc["items"][0]["name"] == HOSTILE
+    assert doc["items"][1] == {"name": "f0m1.txt", "source": "/data/f0m1.txt",
+                               "size": doc["items"][1]["size"], "kind": ".txt file",
+                               "label": "family0", "role": "compared"}  # fmt: skip
+    assert doc["matrix"]["labels"][0] == HOSTILE
+    assert len(doc["matrix"]["distances"]) == 9
+    assert doc["tree"]["leaves"] == 9
+    assert doc["groups"]["k"] == 3  # three families, far apart
+    assert doc["groups"]["agreement"]["adjusted_rand"] == pytest.approx(1.0)
+    assert len(doc["map"]["items"]) == 9
+    first = doc["nearest"][0]
+    assert first["item"] == HOSTILE
+    # the nearest of each item is one of its own family
+    assert {n["item"] for n in first["neighbours"][:2]} == {"f0m1.txt", "f0m2.txt"}
+    assert doc["compressor"]["spec"] == "zlib:level=9" and doc["compressor"]["given"] is True
+    assert doc["provenance"]["command"] == "kinpress report x"
+    assert doc["provenance"]["versions"]["kinpress"]
+    assert any("not proof" in c for c in doc["cautions"])
+    assert any("model-based phylogenetics" in c for c in doc["cautions"])
+    assert any("near 1" in c for c in doc["cautions"])
+    assert doc["derived"] is None and doc["classification"] is None
+
+
+class _Links(HTMLParser):
+    """Every tag, and every src and href, of a page."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.tags: list[str] = []
+        self.urls: list[str] = []
+        self.meta: dict[str, str] = {}
+
+    def handle_starttag(self, tag: str, attrs: list[tuple[str, str | None]]) -> None:
+        self.tags.append(tag)
+        values = dict(attrs)
+        for key in ("src", "href", "srcset", "action", "poster", "data"):
+            if values.get(key):
+                self.urls.append(values[key] or "")
+        if tag == "meta" and values.get("http-equiv"):
+            self.meta[values["http-equiv"] or ""] = values.get("content") or ""
+
+
+def test_html_shows_names_as_text_never_markup(report_of_families) -> None:  # type: ignore[no-untyped-def]
+    page = render_html(report_of_families)
+    assert ESCAPED in page
+    assert "<b>x" not in page
+    assert "families &amp; &lt;friends&gt;" in page
+    parser = _Links()
+    parser.feed(page)
+    assert "b" not in parser.tags
+
+
+def test_html_fetches_nothing(report_of_families) -> None:  # type: ignore[no-untyped-def]
+    page = render_html(report_of_families)
+    parser = _Links()
+    parser.feed(page)
+    assert parser.urls, "the figures are images with data URIs"
+    assert all(url.startswith("data:image/svg+xml;base64,") for url in parser.urls)
+    assert "script" not in parser.tags and "link" not in parser.tags
+    assert parser.meta["Content-Security-Policy"] == CONTENT_SECURITY_POLICY
+    assert "default-src 'none'" in CONTENT_SECURITY_POLICY
+    assert "http://" not in page and "https://" not in page
+
+
+def test_template_is_package_data() -> None:
+    template = resources.files("kinpress.report").joinpath("templates", "report.html.j2")
+    assert template.is_file()
+    # A non-editable install ships only what package-data names.
+    config = tomllib.loads((ROOT / "pyproject.toml").read_text())
+    patterns = config["tool"]["setuptools"]["package-data"]["kinpress.report"]
+    assert any(Path("templates/report.html.j2").match(p) for p in patterns)
+    assert any(dep.startswith("jinja2") for dep in config["project"]["dependencies"])
+
+
+def test_derived_findings_show_their_shared_passage() -> None:
+    from kinpress.derived import find_derived
+
+    rng = random.Random(5)
+    words = [f"word{i}" for i in range(300)]
+    texts = [" ".join(rng.choice(words) for _ in range(500)) for _ in range(5)]
+    items = [Item(f"t{i}.txt", t.encode(), f"t{i}.txt") for i, t in enumerate(texts)]
+    copied = texts[0][:1500] + " <script>alert(1)</script> "
+    items.append(Item("copy.txt", copied.encode(), "copy.txt"))
+    spec = "zlib:level=9"
+    dm = distance_matrix(items, compressor(spec))
+    found = find_derived(items, spec, exhaustive=True)
+    assert any({f.a, f.b} == {"t0.txt", "copy.txt"} for f in found.findings)
+    choice = CompressorChoice(spec, dm.conditional, dm.strand, given=True)
+    report = build_report(items, dm, choice, derived=found, passages=True)
+    assert report.passages and {report.passages[0].a, report.passages[0].b} == {
+        "t0.txt",
+        "copy.txt",
+    }
+    assert (
+        report.passages[0].a_text[:40] == texts[0][:40]
+        or report.passages[0].b_text[:40] == texts[0][:40]
+    )
+    page = render_html(report)
+    assert "longest shared passage" in page
+    assert "<script>" not in page
+    doc = report.as_json()
+    assert doc["derived"]["findings"][0]["relation"]
+
+
+# The command
+
+
+def _write_family_files(folder: Path, hostile: str) -> None:
+    folder.mkdir()
+    for item in _family_items():
+        (folder / item.name).write_bytes(item.data)
+    (folder / hostile).write_bytes((folder / "f2m2.txt").read_bytes()[:2000])
+
+
+def test_report_command_writes_html_and_json(tmp_path: Path, capsys) -> None:  # type: ignore[no-untyped-def]
+    hostile = "<b>x&y<b>.txt"  # a file name cannot hold '/'
+    inputs = tmp_path / "in"
+    _write_family_files(inputs, hostile)
+    # a label table kept beside the inputs is left out, and the report says so
+    (inputs / "labels.tsv").write_text("item\tfamily\nf0m0.txt\tfamily0\nf1m0.txt\tfamily1\n")
+    page, data = tmp_path / "r.html", tmp_path / "r.json"
+    common = [str(inputs), "-c", "zlib:level=9", "--no-cache", "--quiet"]
+    assert main(["report", *common, "-o", str(page)]) == 0
+    text = page.read_text()
+    assert "&lt;b&gt;x&amp;y&lt;b&gt;.txt" in text and "<b>x" not in text
+    assert main(["report", *common, "--json", "-o", str(data)]) == 0
+    doc = json.loads(data.read_text())
+    assert hostile in doc["matrix"]["labels"]
+    assert "labels.tsv" not in doc["matrix"]["labels"]
+    assert any("labels.tsv" in line for line in doc["left_out"])
+    assert doc["provenance"]["command"].startswith("kinpress report --compressor zlib:level=9")
+    assert doc["provenance"]["command"].endswith(str(inputs))
+    # an output inside the input folder is refused before any work, the folder left as it was
+    assert main(["report", *common, "-o", str(inputs / "r.html")]) == 2
+    assert not (inputs / "r.html").exists()
+    assert main(["report", *common, "--passages"]) == 2
+    assert "--passages" in capsys.readouterr().err
+
+
+def test_report_command_classifies_with_a_reference(tmp_path: Path) -> None:
+    reference, unknown = tmp_path / "known", tmp_path / "new"
+    unknown.mkdir()
+    for item in _family_items():
+        origin = reference / item.label  # type: ignore[operator]
+        origin.mkdir(parents=True, exist_ok=True)
+        (origin / item.name).write_bytes(item.data)
+    for family in range(3):
+        moved = reference / f"family{family}" / f"f{family}m2.txt"
+        moved.rename(unknown / f"f{family}m2.txt")
+    data = tmp_path / "o.json"
+    argv = ["report", "--reference", str(reference), str(unknown), "-c", "zlib:level=9",
+            "--no-cache", "--quiet", "--json", "-o", str(data)]  # fmt: skip
+    assert main(argv) == 0
+    doc = json.loads(data.read_text())
+    c = doc["classification"]
+    assert c["origins"] == ["family0", "family1", "family2"]
+    best = {p["item"]: p["best"] for p in c["predictions"]}
+    assert best == {f"f{f}m2.txt": f"family{f}" for f in range(3)}
+    roles = {i["name"]: i["role"] for i in doc["items"]}
+    assert roles["f0m2.txt"] == "unknown" and roles["family0/f0m0.txt"] == "reference"
+    assert any("origin is evidence" in x for x in doc["cautions"])
+
+
+# A real browser
+
+
+CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
+
+
+def _chromium(page: Path, *extra: str) -> subprocess.CompletedProcess[str]:
+    assert CHROMIUM is not None
+    return subprocess.run(
+        [CHROMIUM, "--headless", "--no-sandbox", "--disable-gpu", "--hide-scrollbars",
+         "--host-resolver-rules=MAP * ~NOTFOUND", "--enable-logging=stderr", "--v=0",
+         f"--user-data-dir={page.parent / 'profile'}", *extra, page.as_uri()],
+        capture_output=True, text=True, timeout=120, check=False,
+    )  # fmt: skip
+
+
+@pytest.mark.skipif(CHROMIUM is None, reason="chromium is not installed (.ci/run installs it)")
+def test_chromium_renders_the_report_offline(tmp_path: Path, report_of_families) -> None:  # type: ignore[no-untyped-def]
+    page = tmp_path / "report.html"
+    page.write_text(render_html(report_of_families))
+    dom = _chromium(page, "--dump-dom")
+    assert dom.returncode == 0, dom.stderr[-2000:]
+    assert ESCAPED in dom.stdout  # the name as text in the rendered DOM
+    parser = _Links()
+    parser.feed(dom.stdout)
+    assert "b" not in parser.tags
+    assert all(url.startswith("data:") for url in parser.urls)
+    # Console errors and blocked requests (a CSP refusal, a failed load) are logged on stderr.
+    for line in dom.stderr.splitlines():
+        assert "CONSOLE" not in line and "Content Security Policy" not in line, line
+        assert "net::ERR" not in line, line
+    shot = tmp_path / "report.png"
+    run = _chromium(page, f"--screenshot={shot}", "--window-size=1200,1600")
+    assert run.returncode == 0, run.stderr[-2000:]
+    assert shot.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n" and shot.stat().st_size > 20_000
+
+
+def test_auto_choice_shows_its_calibration_table_reasons_and_warnings() -> None:
+    from kinpress.calibration import calibrate
+
+    items = _family_items()
+    table = calibrate(items, ["zlib:level=9", "zstd:level=3"], samples=2, sweep_seconds=0.5,
+                      max_bytes=1 << 15)  # fmt: skip
+    spec = "zstd:level=3"
+    dm = distance_matrix(items, compressor(spec))
+    warning = "zstd:level=3: reliable up to 1 bytes, below the largest pair <of items>"
+    choice = CompressorChoice(spec, dm.conditional, dm.strand, given=False,
+                              reasons=("chose zstd:level=3: quick",), warnings=(warning,),
+                              calibration=table)  # fmt: skip
+    report = build_report(items, dm, choice)
+    page = render_html(report)
+    assert "chosen by calibration on these inputs" in page
+    assert "chose zstd:level=3: quick" in page
+    assert "largest pair &lt;of items&gt;" in page
+    assert '<tr style="font-weight:600"><td><code>zstd:level=3</code>' in page
+    assert "<tr><td><code>zlib:level=9,window=15</code>" in page  # the canonical spec
+    # The known answers (calibration/controls.py) beside it: one column each, the bits a symbol
+    # each compressor spent, and what follows from a compressor at the random rate.
+    assert "What no compressor can see" in page
+    for spot in table.compressors[0].blind_spots:
+        assert f"<th>{spot.control}<br>" in page
+    zlib_pi = next(s for s in table.compressors[0].blind_spots if s.control == "pi")
+    assert f"{zlib_pi.bits_per_symbol:.2f}" in page
+    assert "does not prove two items unrelated" in page
+    doc = report.as_json()
+    specs = [c["spec"] for c in doc["compressor"]["calibration"]["compressors"]]
+    assert specs == ["zlib:level=9,window=15", "zstd:level=3"]
+    assert doc["compressor"]["warnings"] == [warning]
+
+
+def test_map_figure_names_medoids_first_and_never_one_name_on_another() -> None:
+    from kinpress.plots.map import map_figure
+
+    # Two tight clusters of four and one point apart: one name per cluster, the marked one's.
+    xy = [(0, 0), (0.001, 0.001), (0.002, 0), (0, 0.002), (1, 1), (1.001, 1), (1, 1.001),
+          (1.002, 1.002), (0, 1)]  # fmt: skip
+    names = [f"$p{i}$" for i in range(9)]  # '$' must show as it is, not as mathtext
+    found = classical_scaling(names, squareform_of(xy))
+    fig = map_figure(found, classes={n: "c" for n in names}, marked=["$p2$", "$p6$"])
+    ax = next(a for a in fig.axes if a.get_label() == "map")
+    shown = sorted(t.get_text() for t in ax.texts)
+    assert shown == sorted([r"\$p2\$", r"\$p6\$", r"\$p8\$"])
+
+
+def squareform_of(points: list[tuple[float, float]]) -> np.ndarray:
+    from scipy.spatial.distance import pdist, squareform
+
+    return squareform(pdist(np.array(points, dtype=float)))
