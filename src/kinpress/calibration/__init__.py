@@ -19,9 +19,10 @@ The package in three steps, each a module, and the cached entry points:
 * :mod:`.measure`: each compressor's figures on them (bias, a size sweep of NCD(x, x) over sizes
   doubling from 1 KiB, the four properties of a normal compressor), with the rules that turn
   figures into a reliable size and a resolution;
-* :mod:`.choose`: the recommendation and its reasons in words, and :func:`choose_for_job`, the
-  one function ``-c auto`` calls for every job kind; :mod:`.estimate`: the job-time estimates
-  it weighs against the budget (at the calibrated throughput, on the cores assumed).
+* :mod:`.choose`: the recommendation from the controls and its reasons in words;
+  :mod:`.job`: :func:`choose_for_job`, the one function ``-c auto`` calls for every job kind
+  (the controls' choice checked on the job's own data); :mod:`.estimate`: the job-time
+  estimates both weigh against the budget (at the calibrated throughput, on the cores assumed).
 * :mod:`.auto`: :func:`resolve_auto` (``-c auto``: that choice, kept in the size cache) and
   :func:`calibration_report` (what ``kinpress calibrate`` reports, kept there too).
 """
@@ -30,14 +31,8 @@ from .auto import calibration_report, resolve_auto
 from .choose import (
     DEFAULT_BUDGET_SECONDS,
     DEFAULT_CANDIDATES,
-    JOBS,
-    LABELLED_CANDIDATES,
-    LABELLED_JOBS,
-    Choice,
-    TaskFigures,
     calibrate,
     choose_compressor,
-    choose_for_job,
     holds,
 )
 from .controls import (
@@ -55,6 +50,7 @@ from .controls import (
     seeded_digits,
 )
 from .estimate import estimate_classify_seconds, estimate_job_seconds
+from .job import JOBS, LABELLED_CANDIDATES, LABELLED_JOBS, Choice, TaskFigures, choose_for_job
 from .measure import (
     DEFAULT_MAX_BYTES,
     RELIABLE_NCD,

@@ -11,16 +11,9 @@ from ..cache import SizeCache
 from ..compressors import AUTO_CANDIDATES, compressor
 from ..engine import Engine
 from ..items import Item
-from .choose import (
-    DEFAULT_BUDGET_SECONDS,
-    LABELLED_JOBS,
-    Choice,
-    calibrate,
-    choose_compressor,
-    choose_for_job,
-    holds,
-)
+from .choose import DEFAULT_BUDGET_SECONDS, calibrate, choose_compressor, holds
 from .controls import DEFAULT_SEED
+from .job import LABELLED_JOBS, Choice, choose_for_job
 from .measure import (
     DEFAULT_MAX_BYTES,
     BlindSpot,

@@ -1,0 +1,387 @@
+"""The choice for a job from the job's own data: :func:`choose_for_job` goes on from the
+controls' choice (:mod:`.choose`) to held-out separation of a labelled reference, or to real pairs
+of unlabelled items, within the job's time budget."""
+
+from __future__ import annotations
+
+import time
+import warnings
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, replace
+
+import numpy as np
+
+from ..cache import SizeCache
+from ..compressors import AUTO_CANDIDATES, Compressor, compressor
+from ..engine import Engine, LocalEngine
+from ..items import Item
+from ..units import duration_text, size_text
+from .choose import (
+    DEFAULT_BUDGET_SECONDS,
+    _need,
+    calibrate,
+    choose_compressor,
+    holds,
+)
+from .controls import (
+    _STREAM_SAMPLES,
+    DEFAULT_SEED,
+    _rng,
+)
+from .estimate import _estimate
+from .estimate import estimate_classify_seconds as estimate_classify_seconds  # re-exported
+from .estimate import estimate_job_seconds as estimate_job_seconds  # re-exported
+from .measure import (
+    CalibrationReport,
+    CompressorCalibration,
+)
+
+JOBS = ("matrix", "tree", "groups", "nearest", "derived", "classify")
+LABELLED_JOBS = ("classify",)
+LABELLED_CANDIDATES = AUTO_CANDIDATES["labelled"]
+MEASURED_FOLDS = (0, 2, 4)
+REAL_PAIR_ITEMS = 8
+SATURATED_SHARE = 0.25
+MEASURING_SHARE = 0.25
+
+
+@dataclass(frozen=True)
+class TaskFigures:
+    """What a candidate showed on the job's own data.
+
+    Labelled jobs: on the reference held out fold by fold (see origins.FoldScores), `accuracy`
+    the share of held-out items whose own origin scores best, `novelty` how well an origin left
+    out is told from the others (the better ROC AUC of the fit and separation tests, see
+    origins.Conformity), `merit` their sum, `items` held out. Both are free of any threshold, so
+    they rank compressors finely where rates at a significance would all sit near 1 - rate.
+    Unlabelled jobs: on all pairs of a sample of items, `saturation` the share of distances
+    at or above 1 (nothing shared found) and `contrast` the mean over items of
+    1 - nearest / median distance (how much nearer an item's nearest is than its typical one).
+    """
+
+    spec: str
+    seconds: float
+    accuracy: float | None = None
+    novelty: float | None = None
+    merit: float | None = None
+    own_score: float | None = None
+    items: int = 0
+    saturation: float | None = None
+    contrast: float | None = None
+
+    def as_json(self) -> dict[str, object]:
+        return dict(self.__dict__)
+
+    def summary(self) -> str:
+        if self.merit is not None:
+            return (
+                f"held-out reference: own origin best for {self.accuracy:.1%}, a missing origin"
+                f" told apart with AUC {self.novelty:.3f}, merit {self.merit:.3f}, own score"
+                f" {self.own_score:.3f} ({self.items} items, {self.seconds:.0f} s)"
+            )
+        return (
+            f"sampled real pairs: {self.saturation:.0%} at or above 1, contrast"
+            f" {self.contrast:.3f} ({self.items} items)"
+        )
+
+
+@dataclass(frozen=True)
+class Choice:
+    """The compressor chosen for a job, the controls and task figures behind it, and why."""
+
+    spec: str
+    job: str
+    report: CalibrationReport
+    task: tuple[TaskFigures, ...]
+    reasons: tuple[str, ...]
+
+    def as_json(self) -> dict[str, object]:
+        return {
+            "spec": self.spec,
+            "job": self.job,
+            "task": [t.as_json() for t in self.task],
+            "reasons": list(self.reasons),
+            "calibration": self.report.as_json(),
+        }
+
+
+def _labelled_figures(
+    items: Sequence[Item],
+    spec: str,
+    longest: int,
+    engine: Engine | None,
+    cache: SizeCache | None,
+) -> TaskFigures:
+    from ..origins import fold_scores, novelty_aucs
+
+    started = time.perf_counter()
+    folds = fold_scores(
+        items, spec, folds=MEASURED_FOLDS, longest=longest, engine=engine, cache=cache
+    )
+    keep = folds.measured
+    scores, codes = folds.scores[keep], folds.codes[keep]
+    accuracy = float(np.mean(scores.argmin(axis=1) == codes))
+    own_score = float(np.median(scores[np.arange(len(codes)), codes]))
+    novelty = max(novelty_aucs(scores, codes))
+    novelty = 0.5 if novelty != novelty else novelty  # NaN: too few origins to leave one out
+    return TaskFigures(
+        spec=spec,
+        seconds=time.perf_counter() - started,
+        accuracy=accuracy,
+        novelty=novelty,
+        merit=accuracy + novelty,
+        own_score=own_score,
+        items=len(codes),
+    )
+
+
+def _choose_labelled(
+    items: Sequence[Item],
+    targets: Sequence[Item],
+    report: CalibrationReport,
+    budget_seconds: float,
+    cores: int,
+    engine: Engine | None,
+    cache: SizeCache | None,
+) -> tuple[str, tuple[TaskFigures, ...], list[str]]:
+    """The labelled choice in three steps: the candidates that hold the largest item and whose
+    job fits the budget (:func:`_within_budget`), their held-out figures within the measuring
+    allowance (:func:`_measure_labelled`), and the best of those (:func:`_pick_labelled`)."""
+    lengths = [len(item.data) for item in items]
+    longest = max([*lengths, *(len(t.data) for t in targets)])
+    reasons: list[str] = []
+    timed = _within_budget(items, targets, report, budget_seconds, cores, longest, reasons)
+    if not timed:
+        fastest = max(report.compressors, key=lambda r: r.throughput_mb_s)
+        reasons.insert(0, f"{fastest.spec}: chosen although over the budget: the fastest")
+        return fastest.spec, (), reasons
+    figures = _measure_labelled(
+        items, len(targets), timed, budget_seconds, longest, engine, cache, reasons
+    )
+    best = _pick_labelled(figures, len({item.label for item in items}), reasons)
+    return best.spec, tuple(figures), reasons
+
+
+def _within_budget(
+    items: Sequence[Item],
+    targets: Sequence[Item],
+    report: CalibrationReport,
+    budget_seconds: float,
+    cores: int,
+    longest: int,
+    reasons: list[str],
+) -> list[tuple[float, str]]:
+    """(estimated seconds, spec) of the candidates that hold the largest item and whose whole
+    classification fits the budget; why each other one is passed over goes to ``reasons``."""
+    labels = {item.label for item in items}
+    lengths = [len(item.data) for item in items]
+    timed = []
+    for result in report.compressors:
+        if not holds(result, longest):
+            reasons.append(
+                f"{result.spec}: passed over: cannot hold the largest item ({size_text(longest)})"
+            )
+            continue
+        seconds = estimate_classify_seconds(
+            result, lengths, len(labels), [len(t.data) for t in targets],
+            primed=compressor(result.spec).primable, cores=cores,
+        )  # fmt: skip
+        if seconds > budget_seconds:
+            reasons.append(
+                f"{result.spec}: passed over: the job would take {_estimate(seconds)} on {cores}"
+                f" cores, over the {duration_text(budget_seconds)} budget"
+            )
+            continue
+        timed.append((seconds, result.spec))
+    return timed
+
+
+def _measure_labelled(
+    items: Sequence[Item],
+    targets: int,
+    timed: Sequence[tuple[float, str]],
+    budget_seconds: float,
+    longest: int,
+    engine: Engine | None,
+    cache: SizeCache | None,
+    reasons: list[str],
+) -> list[TaskFigures]:
+    """Held-out figures of the ``timed`` candidates, quickest first, while their measuring fits
+    MEASURING_SHARE of the budget (the first is always measured); those left out go to
+    ``reasons``."""
+    figures: list[TaskFigures] = []
+    spent, allowance = 0.0, budget_seconds * MEASURING_SHARE
+    n = len(items)
+    for seconds, spec in sorted(timed):
+        # Measuring runs the reference part of the job on MEASURED_FOLDS of its folds.
+        share = seconds * n / (n + targets) * len(MEASURED_FOLDS) / 5
+        if figures and spent + share > allowance:
+            reasons.append(
+                f"{spec}: passed over: measuring it too would take more than"
+                f" {duration_text(allowance)} ({MEASURING_SHARE:.0%} of the budget)"
+            )
+            continue
+        spent += share
+        figures.append(_labelled_figures(items, spec, longest, engine, cache))
+    return figures
+
+
+def _pick_labelled(figures: Sequence[TaskFigures], m: int, reasons: list[str]) -> TaskFigures:
+    """The best of the measured ``figures`` (of a reference of ``m`` origins): its reason first
+    in ``reasons``, then why each other one was passed over."""
+    top = max(f.merit or 0.0 for f in figures)
+    tie = 1.0 / max(figures[0].items, 1)
+    tied = [f for f in figures if (f.merit or 0.0) >= top - tie]
+    # Held-out figures saturate on easy references (every candidate 100 %), so among equals:
+    # one primed with the corpus first (it measures C(x | corpus) directly, where concatenation
+    # takes the difference of two sizes of the whole corpus, whose noise grows with it), then
+    # the one that explains held-out items best by their own origin (lowest own score: a
+    # compressor only ever overestimates what is shared, and one that finds little parts an
+    # easy reference but not data that drifts), then the quickest (figures are in order of
+    # estimated job time).
+    best = min(tied, key=lambda f: (not compressor(f.spec).primable, f.own_score or 1.0))
+    reasons.insert(
+        0,
+        f"{best.spec}: chosen: it tells the reference's {m} origins apart best on held-out"
+        f" items (of those within one item of the best: primed ones first, then the lowest own"
+        " score, then the quickest);"
+        f" {best.summary()}",
+    )
+    for f in figures:
+        if f is best:
+            continue
+        why = "separates as well but is slower" if f in tied else "separates the origins less"
+        reasons.append(f"{f.spec}: passed over: {why}; {f.summary()}")
+    return best
+
+
+def _real_pair_figures(
+    items: Sequence[Item], spec: str, seed: int, engine: Engine | None, cache: SizeCache | None
+) -> TaskFigures:
+    from ..distance import distance_matrix
+
+    started = time.perf_counter()
+    rng = _rng(seed, _STREAM_SAMPLES)
+    distinct = list({item.data: item for item in items if item.data}.values())
+    chosen = sorted(rng.choice(len(distinct), min(REAL_PAIR_ITEMS, len(distinct)), replace=False))
+    sample = [distinct[k] for k in chosen]
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        matrix = distance_matrix(sample, spec, engine=engine, cache=cache)
+    d = np.array(matrix.raw)
+    n = len(sample)
+    off = ~np.eye(n, dtype=bool)
+    values = d[off].reshape(n, n - 1)
+    median = np.maximum(np.median(values, axis=1), 1e-9)
+    return TaskFigures(
+        spec=spec,
+        seconds=time.perf_counter() - started,
+        saturation=float(np.mean(values >= 1.0)),
+        contrast=float(np.mean(1.0 - values.min(axis=1) / median)),
+        items=n,
+    )
+
+
+def _check_real_pairs(
+    items: Sequence[Item],
+    spec: str,
+    report: CalibrationReport,
+    seed: int,
+    engine: Engine | None,
+    cache: SizeCache | None,
+    quick: Callable[[CompressorCalibration], bool],
+) -> tuple[str, tuple[TaskFigures, ...], list[str]]:
+    """The controls' choice, unless a sample of real pairs shows it finds nothing shared
+    (more than SATURATED_SHARE of distances at or above 1) where the next candidates by quality
+    do not: then the best of those by contrast."""
+    if len({item.data for item in items}) < 3:
+        return spec, (), []
+    chosen = _real_pair_figures(items, spec, seed, engine, cache)
+    figures = [chosen]
+    reasons = [f"{spec}: {chosen.summary()}"]
+    if (chosen.saturation or 0.0) <= SATURATED_SHARE:
+        return spec, tuple(figures), reasons
+    need = _need(report.inputs)
+    others = sorted(
+        (r for r in report.compressors
+         if r.spec != spec and holds(r, need.pair if need else None) and quick(r)),
+        key=lambda r: r.quality,
+    )[:2]  # fmt: skip
+    for other in others:
+        figures.append(_real_pair_figures(items, other.spec, seed, engine, cache))
+    better = [f for f in figures[1:] if (f.saturation or 0.0) <= SATURATED_SHARE]
+    if not better:
+        return spec, tuple(figures), reasons
+    best = max(better, key=lambda f: f.contrast or 0.0)
+    reasons = [
+        f"{best.spec}: chosen over {spec}: on real pairs of these items {spec} found nothing"
+        f" shared for {chosen.saturation:.0%} of them; {best.summary()}",
+        *(f"{f.spec}: {f.summary()}" for f in figures if f is not best),
+    ]
+    return best.spec, tuple(figures), reasons
+
+
+def choose_for_job(
+    items: Sequence[Item],
+    job: str = "matrix",
+    *,
+    targets: Sequence[Item] = (),
+    budget_seconds: float = DEFAULT_BUDGET_SECONDS,
+    candidates: Sequence[str | Compressor] | None = None,
+    seed: int = DEFAULT_SEED,
+    strand: str = "one",
+    engine: Engine | None = None,
+    cache: SizeCache | None = None,
+    replicates: int = 0,
+    null_pairs: int = 0,
+) -> Choice:
+    """The compressor ``-c auto`` uses for a job of kind ``job`` (one of JOBS) on ``items``.
+
+    Every job first calibrates the candidates on controls (:func:`calibrate`), which guard
+    against windows too small and report biases and speed. A labelled job (classify: ``items``
+    is the labelled reference, ``targets`` the items to classify) then ranks the candidates
+    whose whole job fits ``budget_seconds`` by how well they separate the reference's own
+    origins held out fold by fold (origins.fold_report): named right and refused when their
+    origin is missing; within one item of the best, the quickest wins. Measuring may take a
+    quarter of the budget (MEASURING_SHARE); the held-out sizes are
+    measured through the size cache, so the winner's calibration reuses them. An unlabelled
+    job (matrix, tree, groups, derived) takes :func:`choose_compressor`'s choice unless a sample
+    of real pairs shows that it finds nothing shared (see ``_check_real_pairs``). The budget is
+    checked against a full matrix's time even for nearest, which measures far fewer pairs: on a
+    large set that favours the quicker compressors, as a large set needs. The job's time is
+    estimated on the ``engine``'s workers (default: a `LocalEngine` on every core), where the
+    measuring runs too, and counts ``replicates`` bootstrap matrices (tree --bootstrap) and
+    ``null_pairs`` of derived's null beside the matrix.
+    """
+    if job not in JOBS:
+        raise ValueError(f"unknown job {job!r}; use one of {', '.join(JOBS)}")
+    engine = engine or LocalEngine()
+    cores = engine.jobs
+    if job in LABELLED_JOBS:
+        report = calibrate(
+            items,
+            candidates or AUTO_CANDIDATES["labelled"],
+            seed=seed,
+            samples=2,
+            sweep_seconds=1.0,
+        )
+        spec, figures, reasons = _choose_labelled(
+            items, targets, report, budget_seconds, cores, engine, cache
+        )
+        return Choice(spec, job, replace(report, recommended=spec, reasons=tuple(reasons)),
+                      figures, tuple(reasons))  # fmt: skip
+    spec, report = choose_compressor(
+        items, budget_seconds=budget_seconds, candidates=candidates, seed=seed, cores=cores,
+        strand=strand, replicates=replicates, null_pairs=null_pairs,
+    )  # fmt: skip
+    lengths = [len(item.data) for item in items]
+
+    def quick(result: CompressorCalibration) -> bool:
+        seconds = estimate_job_seconds(result, lengths, cores, strand, replicates=replicates,
+                                       null_pairs=null_pairs)  # fmt: skip
+        return seconds <= budget_seconds
+
+    chosen, figures, extra = _check_real_pairs(items, spec, report, seed, engine, cache, quick)
+    kept = (*extra, *report.reasons) if chosen == spec else (*extra, *report.reasons[1:])
+    return Choice(chosen, job, replace(report, recommended=chosen, reasons=kept), figures,
+                  kept)  # fmt: skip
