@@ -372,3 +372,25 @@ def squareform_of(points: list[tuple[float, float]]) -> np.ndarray:
     from scipy.spatial.distance import pdist, squareform
 
     return squareform(pdist(np.array(points, dtype=float)))
+
+
+def test_rerun_command_names_what_auto_chose_and_drops_the_budget_it_weighed() -> None:
+    # The page's "how to make this again" must measure the same way on another machine, where
+    # -c auto (which weighs cores and budget) might choose otherwise: it names the choice.
+    import shlex
+
+    from kinpress.cli import build_parser
+    from kinpress.cli.report import rerun_command
+
+    parser = build_parser()
+    args = parser.parse_args(["report", "in dir", "--budget", "30", "--k", "3", "-o", "r.html"])
+    words = shlex.split(rerun_command(args, "lzma:level=9,extreme=0"))
+    assert words[:2] == ["kinpress", "report"]
+    assert words[words.index("--compressor") + 1] == "lzma:level=9,extreme=0"
+    assert "--budget" not in words and "auto" not in words
+    assert words[words.index("--k") + 1] == "3" and words[-1] == "in dir"
+    # the rerun parses, and a named compressor is kept as given
+    again = parser.parse_args(words[1:])
+    assert again.compressor == "lzma:level=9,extreme=0"
+    named = parser.parse_args(["report", "x", "-c", "zlib:level=9"])
+    assert "--compressor zlib:level=9" in rerun_command(named, "zlib:level=9,window=15")

@@ -92,16 +92,24 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
     _options.output(parser, "the HTML page", "the report's data as JSON instead of the page")
 
 
-def rerun_command(args: argparse.Namespace) -> str:
-    """The command line that makes this report again: the inputs and every option given."""
+def rerun_command(args: argparse.Namespace, spec: str | None = None) -> str:
+    """The command line that makes this report again: the inputs and every option given, with
+    `spec` (what ``-c auto`` chose) named in place of auto, so that a rerun measures the same
+    way on any machine (the choice weighs the cores and the budget)."""
     parser: argparse.ArgumentParser = args.command_parser
     words = ["kinpress", "report"]
+    named = spec is not None and args.compressor == "auto"
     for action in parser._actions:
         if not action.option_strings or action.dest in ("help", "quiet", "debug"):
             continue
+        if named and action.dest == "budget":
+            continue  # a budget only weighs the choice, which the command now names
+        value = getattr(args, action.dest)
+        if named and action.dest == "compressor":
+            words += [action.option_strings[-1], str(spec)]
+            continue
         if not _options.given(args, action.dest):
             continue
-        value = getattr(args, action.dest)
         if action.nargs == 0:
             words.append(action.option_strings[-1])
         else:
@@ -201,7 +209,6 @@ def run(args: argparse.Namespace, console: Console) -> int:
     from ..trees import Resampling, TreeResult, build_tree, outgroup_root
 
     _checks(args)
-    command = rerun_command(args)
     left_out: list[str] = []
     labels = known_labels(args)
     reference, unknowns = _items(args, labels, left_out)
@@ -220,6 +227,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
             spec = resolve_spec(args, reference, recorder, targets=unknowns, job="classify")
         else:
             spec = resolve_spec(args, items, recorder, job="derived" if args.derived else "tree")
+    command = rerun_command(args, spec)
     if not given:
         calibration = _calibration(args, reference or items, bool(reference))
     dm, _ = compute_matrix(args, console, None, items=items)
