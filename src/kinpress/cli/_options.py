@@ -151,6 +151,28 @@ def reading(group: Group) -> None:
     )
 
 
+def tree_shape(group: Group) -> None:
+    """How a tree is built and supported: --method, --outgroup, --bootstrap, --block-fraction
+    (tree and report; each command declares its own --seed, which seeds more in a report)."""
+    group.add_argument(
+        "--method",
+        choices=("nj", "average", "complete", "single"),
+        default="nj",
+        help="nj: neighbour joining (default); average: UPGMA; complete, single: linkage",
+    )
+    group.add_argument("--outgroup", metavar="LABELS", help="root on these items (comma list)")
+    group.add_argument(
+        "--bootstrap", type=int, default=0, metavar="N", help="support from N block replicates"
+    )
+    group.add_argument(
+        "--block-fraction",
+        type=float,
+        default=0.02,
+        metavar="F",
+        help="bootstrap block size as a fraction of each item (default 0.02)",
+    )
+
+
 def running(parser: argparse.ArgumentParser) -> None:
     """Where the work runs (--jobs, --cluster) and the size cache."""
     group = parser.add_argument_group("running")

@@ -7,7 +7,7 @@ import shlex
 import warnings
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
-from typing import Any, TypeVar
+from typing import TYPE_CHECKING, Any, TypeVar
 
 from ..formats import emit
 from ..items import InputWarning, Item, Labels, escape_name, load_items, reference_items
@@ -25,6 +25,9 @@ from ._common import (
 from ._console import Console
 from ._options import UsageError, budget_seconds
 from .tree import _outgroup
+
+if TYPE_CHECKING:
+    from ..calibration import CalibrationReport
 
 T = TypeVar("T")
 
@@ -56,23 +59,7 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
     _options.measuring(parser)
     what = parser.add_argument_group("report")
     what.add_argument("--title", help="the page's title (default: kinpress report)")
-    what.add_argument(
-        "--method",
-        choices=("nj", "average", "complete", "single"),
-        default="nj",
-        help="tree: nj (neighbour joining, default), average (UPGMA), complete, single",
-    )
-    what.add_argument("--outgroup", metavar="LABELS", help="root the tree on these items")
-    what.add_argument(
-        "--bootstrap", type=int, default=0, metavar="N", help="tree support from N replicates"
-    )
-    what.add_argument(
-        "--block-fraction",
-        type=float,
-        default=0.02,
-        metavar="F",
-        help="bootstrap block size as a fraction of each item (default 0.02)",
-    )
+    _options.tree_shape(what)
     what.add_argument("--k", type=int, metavar="N", help="exactly N groups (default: chosen)")
     what.add_argument(
         "--neighbours", type=int, default=5, metavar="N", help="nearest items listed per item"
@@ -176,20 +163,21 @@ def _items(
     return reference, unknowns
 
 
-def _calibration(args: argparse.Namespace, items: Sequence[Item], labelled: bool) -> Any:
+def _calibration(
+    args: argparse.Namespace, items: Sequence[Item], labelled: bool
+) -> CalibrationReport:
     """The calibration table behind a -c auto choice (kept in the size cache, so a rerun or an
-    earlier `kinpress calibrate` of the same inputs measures nothing again)."""
+    earlier `kinpress calibrate` of the same inputs measures nothing again); a labelled choice
+    weighs no matrix against the budget, so its table has no budget either."""
     from ..calibration import calibration_report
     from ..compressors import AUTO_CANDIDATES
 
     candidates = AUTO_CANDIDATES["labelled" if labelled else "unlabelled"]
+    budget = None if labelled else budget_seconds(args)
     with opened_cache(args) as cache:
-        if labelled:
-            return calibration_report(items, candidates, cores=args.engine.jobs, cache=cache)
         return calibration_report(
-            items, candidates, budget_seconds=budget_seconds(args), cores=args.engine.jobs,
-            cache=cache,
-        )  # fmt: skip
+            items, candidates, budget_seconds=budget, cores=args.engine.jobs, cache=cache
+        )
 
 
 def _reasons(said: Sequence[str]) -> tuple[str, ...]:

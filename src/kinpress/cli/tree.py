@@ -44,23 +44,7 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
     )
     inputs_or_matrix(parser)
     shape = parser.add_argument_group("tree")
-    shape.add_argument(
-        "--method",
-        choices=("nj", "average", "complete", "single"),
-        default="nj",
-        help="nj: neighbour joining (default); average: UPGMA; complete, single: linkage",
-    )
-    shape.add_argument("--outgroup", metavar="LABELS", help="root on these items (comma list)")
-    shape.add_argument(
-        "--bootstrap", type=int, default=0, metavar="N", help="support from N block replicates"
-    )
-    shape.add_argument(
-        "--block-fraction",
-        type=float,
-        default=0.02,
-        metavar="F",
-        help="bootstrap block size as a fraction of each item (default 0.02)",
-    )
+    _options.tree_shape(shape)
     shape.add_argument("--seed", type=int, default=1, help="bootstrap random seed (default 1)")
     _options.output(
         parser,
