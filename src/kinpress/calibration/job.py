@@ -52,8 +52,11 @@ class TaskFigures:
     Labelled jobs: on the reference held out fold by fold (see origins.FoldScores), `accuracy`
     the share of held-out items whose own origin scores best, `novelty` how well an origin left
     out is told from the others (the better ROC AUC of the fit and separation tests, see
-    origins.Conformity), `merit` their sum, `items` held out. Both are free of any threshold, so
-    they rank compressors finely where rates at a significance would all sit near 1 - rate.
+    origins.Conformity), `merit` their sum, `items` held out, `divided` whether the scores are
+    divided by the origins' backgrounds as the classification will divide them (see
+    origins.Background; `own_score` is the median own score as measured). Both are free of any
+    threshold, so they rank compressors finely where rates at a significance would all sit near
+    1 - rate.
     Unlabelled jobs: on all pairs of a sample of items, `saturation` the share of distances
     at or above 1 (nothing shared found) and `contrast` the mean over items of
     1 - nearest / median distance (how much nearer an item's nearest is than its typical one).
@@ -68,6 +71,7 @@ class TaskFigures:
     items: int = 0
     saturation: float | None = None
     contrast: float | None = None
+    divided: bool | None = None
 
     def as_json(self) -> dict[str, object]:
         return dict(self.__dict__)
@@ -77,7 +81,9 @@ class TaskFigures:
             return (
                 f"held-out reference: own origin best for {self.accuracy:.1%}, a missing origin"
                 f" told apart with AUC {self.novelty:.3f}, merit {self.merit:.3f}, own score"
-                f" {self.own_score:.3f} ({self.items} items, {self.seconds:.0f} s)"
+                f" {self.own_score:.3f}"
+                + (", scores divided by the origins' backgrounds" if self.divided else "")
+                + f" ({self.items} items, {self.seconds:.0f} s)"
             )
         return (
             f"sampled real pairs: {self.saturation:.0%} at or above 1, contrast"
@@ -112,16 +118,18 @@ def _labelled_figures(
     engine: Engine | None,
     cache: SizeCache | None,
 ) -> TaskFigures:
-    from ..origins import fold_scores, novelty_aucs
+    from ..origins import Background, fold_scores, novelty_aucs
 
     started = time.perf_counter()
     folds = fold_scores(
         items, spec, folds=MEASURED_FOLDS, longest=longest, engine=engine, cache=cache
     )
     keep = folds.measured
-    scores, codes = folds.scores[keep], folds.codes[keep]
+    measured, codes = folds.scores[keep], folds.codes[keep]
+    common = Background.choose(measured, codes, folds.origins)
+    scores = common.apply(measured)
     accuracy = float(np.mean(scores.argmin(axis=1) == codes))
-    own_score = float(np.median(scores[np.arange(len(codes)), codes]))
+    own_score = float(np.median(measured[np.arange(len(codes)), codes]))
     novelty = max(novelty_aucs(scores, codes))
     novelty = 0.5 if novelty != novelty else novelty  # NaN: too few origins to leave one out
     return TaskFigures(
@@ -132,6 +140,7 @@ def _labelled_figures(
         merit=accuracy + novelty,
         own_score=own_score,
         items=len(codes),
+        divided=common.divided,
     )
 
 

@@ -32,12 +32,18 @@ is ambiguous when several origins fit it, unknown otherwise. Known items are ref
 at most the significance as long as new data drifts no more than the held-out blocks do; the
 output says so, and warns when too few reference items make the asked rate impossible. A fixed
 cut on the score can be given instead.
+
+Scores on a common footing (see Background): an origin whose corpus is large or generic explains
+every item fairly well and would win strangers, so each origin's conditional score may be divided
+by its background, the median score it gives other origins' held-out items. The reference's
+held-out items decide: the division is kept when it names more of them right.
 """
 
 from __future__ import annotations
 
 # Moved to items, where inputs become items; importable from here while callers move over.
 from ..items import reference_items as reference_items
+from .background import Background, backgrounds
 from .classification import (
     DECISIONS,
     Classification,
@@ -76,6 +82,7 @@ __all__ = [
     "METHODS",
     "TESTS",
     "Abstention",
+    "Background",
     "Classification",
     "CompressionClassifier",
     "Conformity",
@@ -85,6 +92,7 @@ __all__ = [
     "Prediction",
     "_auc",
     "_statistics",
+    "backgrounds",
     "classify",
     "conformal_p_values",
     "corpus_bytes",

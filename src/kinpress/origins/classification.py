@@ -4,7 +4,7 @@ and `evaluate` the reference by its own held-out folds."""
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 import numpy as np
@@ -15,6 +15,7 @@ from ..engine import Engine
 from ..formats import json_ready
 from ..items import InputError, Item, ItemLike, as_items
 from ..measure import Measurement, Progress, content_digest
+from .background import Background
 from .conformal import Abstention, Conformity, _abstention
 from .scores import (
     DEFAULT_BLOCKS,
@@ -164,8 +165,9 @@ class Classification:
     """Predictions for unknown items, the abstention behind them and the measurement.
 
     `scores` holds one row per item and one column per origin (lower is better): NCD to the
-    origin's nearest reference item for knn, C(x | corpus) / C(x) for conditional; `p_values`
-    the deciding test's p-value of each (None with a given threshold; see Conformity).
+    origin's nearest reference item for knn, C(x | corpus) / C(x) for conditional, divided by
+    each origin's background where `background` says so (see Background); `p_values` the
+    deciding test's p-value of each (None with a given threshold; see Conformity).
     """
 
     predictions: tuple[Prediction, ...]
@@ -173,6 +175,7 @@ class Classification:
     scores: np.ndarray
     p_values: np.ndarray | None
     abstention: Abstention
+    background: Background
     method: str
     k: int
     compressor: str
@@ -225,12 +228,23 @@ class FoldReport:
         return (self.accuracy + self.left_out_unknown_rate) / 2
 
 
+def _background(
+    scores: np.ndarray, codes: np.ndarray, origins: Sequence[str], divide: bool
+) -> Background:
+    """The footing of held-out `scores`: chosen on them (see Background), or as measured."""
+    return Background.choose(scores, codes, origins) if divide else Background.none(origins)
+
+
 def fold_report(
     folds: FoldScores,
     significance: float = DEFAULT_SIGNIFICANCE,
     threshold: float | None = None,
+    divide: bool = True,
 ) -> FoldReport:
-    """Decide every measured held-out reference item as a new one would be (see FoldReport)."""
+    """Decide every measured held-out reference item as a new one would be (see FoldReport).
+
+    With `divide` (the conditional method's scores) each decision also chooses whether to divide
+    the scores by the origins' backgrounds (see Background) from the items it calibrates on."""
     keep = folds.measured
     scores, codes, fold_of = folds.scores[keep], folds.codes[keep], folds.folds[keep]
     n, m = scores.shape
@@ -238,10 +252,14 @@ def fold_report(
     confusion = np.zeros((m, m + 2), dtype=np.int64)
     for fold in np.unique(fold_of):
         rows = fold_of == fold
-        conformity = None
+        conformity, fold = None, scores[rows]
         if threshold is None:
-            conformity = Conformity.of(scores[~rows], codes[~rows], origins, significance)
-        decided = _decisions(scores[rows], conformity, threshold)
+            common = _background(scores[~rows], codes[~rows], origins, divide)
+            conformity = Conformity.of(
+                common.apply(scores[~rows]), codes[~rows], origins, significance
+            )
+            fold = common.apply(fold)
+        decided = _decisions(fold, conformity, threshold)
         for truth, decision, candidates in zip(
             codes[rows], decided.decisions, decided.candidates, strict=True
         ):
@@ -255,11 +273,13 @@ def fold_report(
             continue
         reduced = scores[:, others]
         relabel = np.searchsorted(others, codes[rest])
-        conformity = None
+        conformity, strangers = None, reduced[mine]
         if threshold is None:
             names = [origins[o] for o in others]
-            conformity = Conformity.of(reduced[rest], relabel, names, significance)
-        decided = _decisions(reduced[mine], conformity, threshold)
+            common = _background(reduced[rest], relabel, names, divide)
+            conformity = Conformity.of(common.apply(reduced[rest]), relabel, names, significance)
+            strangers = common.apply(strangers)
+        decided = _decisions(strangers, conformity, threshold)
         left_out.append(float(np.mean([d == "unknown" for d in decided.decisions])))
     total = max(n, 1)
     own = scores[np.arange(n), codes]
@@ -294,10 +314,13 @@ class Evaluation:
     origins: tuple[str, ...]
     confusion: np.ndarray
     abstention: Abstention
+    background: Background
 
     def as_json(self) -> dict[str, object]:
         """The rates, per origin its missing-origin refusal rate, the confusion table (rows:
-        true origins; columns: origins named, then ambiguous and unknown) and the abstention."""
+        true origins; columns: origins named, then ambiguous and unknown), the abstention and
+        the footing of the scores (see Background: chosen on all held-out items, where each
+        fold's decisions chose it on the other folds)."""
         return dict(
             json_ready(
                 {
@@ -313,6 +336,7 @@ class Evaluation:
                         "counts": self.confusion,
                     },
                     "abstention": self.abstention,
+                    "background": self.background,
                 }
             )
         )
@@ -320,13 +344,15 @@ class Evaluation:
 
 @dataclass(frozen=True)
 class _Calibrated:
-    """What a fitted classification keeps: the abstention and its calibration (None with a
-    given threshold)."""
+    """What a fitted classification keeps: the abstention, its calibration (None with a given
+    threshold) and the footing of the scores (see Background)."""
 
     abstention: Abstention
     conformity: Conformity | None
+    background: Background
 
     def decide(self, scores: np.ndarray) -> _Decisions:
+        """Decide items by their scores on the common footing (`background.apply`)."""
         return _decisions(scores, self.conformity, self.abstention.threshold)
 
 
@@ -342,17 +368,18 @@ def _calibrate(
     if threshold is not None:
         if significance is not None:
             raise ValueError("give a significance or a threshold, not both")
-        return _Calibrated(Abstention(None, float(threshold), blocks=blocks), None)
+        abstention = Abstention(None, float(threshold), blocks=blocks)
+        return _Calibrated(abstention, None, Background.none(reference.origins))
     significance = DEFAULT_SIGNIFICANCE if significance is None else significance
     if not 0 < significance < 1:
         raise ValueError(f"significance must lie between 0 and 1, got {significance}")
     reference.check(calibrate=True)
     folds = _fold_scores(reference, measurement, method, blocks, longest)
     keep = folds.measured
-    conformity = Conformity.of(
-        folds.scores[keep], reference.codes[keep], reference.origins, significance
-    )
-    return _Calibrated(_abstention(conformity, blocks), conformity)
+    held, codes = folds.scores[keep], reference.codes[keep]
+    common = _background(held, codes, reference.origins, method == "conditional")
+    conformity = Conformity.of(common.apply(held), codes, reference.origins, significance)
+    return _Calibrated(_abstention(conformity, blocks), conformity, common)
 
 
 def classify(
@@ -390,10 +417,11 @@ def classify(
     measurement = _measurement(comp, method, conditional, engine, cache, progress)
     longest = max(len(i.data) for i in [*unknowns, *ref.items])
     fitted = _calibrate(ref, measurement, method, significance, threshold, blocks, longest)
-    scores = _with_nearest(
-        _score(unknowns, ref, measurement, method, k, longest), unknowns, ref, measurement,
-        exclude_self=False,
-    )  # fmt: skip
+    measured = _score(unknowns, ref, measurement, method, k, longest)
+    if fitted.background.divided:
+        common = fitted.background.apply(measured.scores)
+        measured = replace(measured, scores=common, picked=common.argmin(axis=1))
+    scores = _with_nearest(measured, unknowns, ref, measurement, exclude_self=False)
     decided = fitted.decide(scores.scores)
     return Classification(
         predictions=tuple(_decide(scores, decided, ref, unknowns)),
@@ -401,6 +429,7 @@ def classify(
         scores=scores.scores,
         p_values=decided.origin_p,
         abstention=fitted.abstention,
+        background=fitted.background,
         method=method,
         k=k,
         compressor=measurement.compressor.spec,
@@ -434,14 +463,15 @@ def evaluate(
     longest = max(len(i.data) for i in ref.items)
     folds = _fold_scores(ref, measurement, method, blocks, longest)
     rate = DEFAULT_SIGNIFICANCE if significance is None else significance
-    report = fold_report(folds, rate, threshold)
+    divide = method == "conditional"
+    report = fold_report(folds, rate, threshold, divide)
     keep = folds.measured
+    held, codes = folds.scores[keep], ref.codes[keep]
+    common = _background(held, codes, ref.origins, divide and threshold is None)
     abstention = (
         Abstention(None, float(threshold), blocks=blocks)
         if threshold is not None
-        else _abstention(
-            Conformity.of(folds.scores[keep], ref.codes[keep], ref.origins, rate), blocks
-        )
+        else _abstention(Conformity.of(common.apply(held), codes, ref.origins, rate), blocks)
     )
     return Evaluation(
         accuracy=report.accuracy,
@@ -452,4 +482,5 @@ def evaluate(
         origins=ref.origins,
         confusion=report.confusion,
         abstention=abstention,
+        background=common,
     )

@@ -109,7 +109,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         finally:
             if cache is not None:
                 cache.close()
-        return scores.scores
+        return np.asarray(self.calibrated_.background.apply(scores.scores))
 
     def p_values(self, X: Sequence[ItemLike]) -> np.ndarray:
         """Conformal p-values of the deciding test, shaped (len(X), len(classes_)): how typical
