@@ -7,12 +7,13 @@ from __future__ import annotations
 
 import json
 import math
+from typing import Any
 
 import numpy as np
 import pytest
 
 from kinpress import Item
-from kinpress.origins import Background, backgrounds, classify, evaluate
+from kinpress.origins import Background, Scoring, backgrounds, classify, evaluate, shape
 from kinpress.origins.background import SIGN_TEST_LEVEL, sign_test
 
 
@@ -123,15 +124,97 @@ def test_classify_divides_when_a_big_generic_corpus_steals_items() -> None:
              for o in "ABCDEF" for k in range(20)]  # fmt: skip
     found = classify(later, reference, "zstd:level=19")
     as_measured = classify(later, reference, "zstd:level=19", threshold=float("inf"))
-    assert found.background.divided, found.background.description
+    assert found.scoring.content.divided, found.scoring.description
     truth = [i.label for i in later]
     divided_right = np.mean([p.best == t for p, t in zip(found.predictions, truth, strict=True)])
     raw_right = np.mean([p.best == t for p, t in zip(as_measured.predictions, truth, strict=True)])
     assert divided_right >= raw_right + 0.15, (divided_right, raw_right)
     # The scores reported are those the decision used: the best is the lowest.
     assert all(p.best == min(p.scores, key=lambda s: s[1])[0] for p in found.predictions)
-    assert not as_measured.background.divided
+    assert not as_measured.scoring.content.divided
     # The reference's own test divides in the same way and says so.
     shown = json.loads(json.dumps(evaluate(reference, "zstd:level=19").as_json()))
-    assert shown["background"]["divided"] is True
+    assert shown["scoring"]["content"]["divided"] is True
     assert shown["accuracy"] > 0.8
+
+
+def test_the_shape_view_masks_words_and_digits_and_keeps_the_rest() -> None:
+    assert shape(b"def f(x1, y):\n    return x1 + 42\n") == b"w w(w0, w):\n    w w0 + 0\n"
+    assert shape(b"## Usage\n\n```js\nconst a = require('b');\n```\n") == (
+        b"## w\n\n```w\nw w = w('w');\n```\n"
+    )
+    # Bytes outside ASCII letters and digits (other scripts, control bytes) stay as they are.
+    text = "größe=3 \u00e9t\u00e9\n".encode()
+    assert shape(text) == "w\u00f6\u00dfw=0 \u00e9w\u00e9\n".encode()
+    assert shape(b"\x00\xff\x10") == b"\x00\xff\x10"
+    assert shape(shape(b"a1b2 c3")) == shape(b"a1b2 c3") == b"w0w0 w0"
+
+
+def test_the_shape_joins_in_only_where_it_names_more_held_out_items_right() -> None:
+    # Synthetic scores: the content confuses origins 0 and 1 (half their items go to the other),
+    # the shape tells them apart; a shape that is noise alone is not kept.
+    rng = np.random.default_rng(11)
+    codes = np.repeat(np.arange(3), 30)
+    content = rng.normal(0.95, 0.02, (90, 3))
+    content[np.arange(90), codes] = rng.normal(0.70, 0.03, 90)
+    kin = codes < 2
+    content[np.flatnonzero(kin), 1 - codes[kin]] = rng.normal(0.70, 0.03, int(kin.sum()))
+    telling = rng.normal(0.95, 0.02, (90, 3))
+    telling[np.arange(90), codes] = rng.normal(0.60, 0.03, 90)
+    way = Scoring.choose(content, telling, codes, ("a", "b", "c"))
+    assert way.uses_shape, way.description
+    assert way.accuracy_content < 0.8 < 0.95 < way.accuracy_both
+    both = way.apply(content, telling)
+    assert both == pytest.approx(
+        np.sqrt(way.content.apply(content) * way.shape.apply(telling))  # type: ignore[union-attr]
+    )
+    with pytest.raises(ValueError, match="shape view"):
+        way.apply(content)
+    noise = rng.normal(0.9, 0.05, (90, 3))
+    plain = Scoring.choose(content, noise, codes, ("a", "b", "c"))
+    assert not plain.uses_shape
+    assert plain.apply(content) is content or not plain.content.divided
+    assert "not used" in plain.description
+    shown = json.loads(json.dumps(way.as_json()))
+    assert shown["shape"] is not None and shown["p_value"] <= 0.05
+
+
+def test_classify_scores_the_shape_of_files_whose_words_cross_kinds() -> None:
+    # Invented files of three kinds, each file about one of 12 topics with its own words: notes
+    # write a topic's words as sentences, configs as `key: [a, b, c]` lines, tables as `|`
+    # separated rows. Every kind covers every topic, so the content is explained best by the
+    # corpus that happens to hold more of the file's topic, whatever its kind; the shape tells
+    # the kinds apart. Measured when written: best origin right 0.56 by the content alone and
+    # 0.80 with the shape (held out: 0.56 and 0.67, sign test p = 0.03).
+    rng = np.random.default_rng(17)
+    topics = [_vocabulary(rng, 60) for _ in range(12)]
+
+    def note(words: list[str]) -> bytes:
+        return "\n".join(" ".join(rng.choice(words, 9)) + "." for _ in range(20)).encode()
+
+    def config(words: list[str]) -> bytes:
+        return "\n".join(f"{rng.choice(words)}: [{', '.join(rng.choice(words, 5))}]"
+                         for _ in range(20)).encode()  # fmt: skip
+
+    def table(words: list[str]) -> bytes:
+        return "\n".join("|".join(rng.choice(words, 5)) for _ in range(25)).encode()
+
+    make = {"notes": note, "configs": config, "tables": table}
+
+    def item(kind: str, k: int, tag: str = "") -> Item:
+        data = make[kind](topics[int(rng.integers(len(topics)))])
+        return Item(f"{tag}{kind}{k}", data, "invented", label=kind)
+
+    reference = [item(kind, k) for kind in make for k in range(15)]
+    later = [item(kind, k, "new ") for kind in make for k in range(15)]
+    found = classify(later, reference, "zstd:level=19")
+    content_only = classify(later, reference, "zstd:level=19", threshold=float("inf"))
+    assert found.scoring.uses_shape, found.scoring.description
+    assert not content_only.scoring.uses_shape
+    truth = [i.label for i in later]
+
+    def right(result: Any) -> float:
+        return float(np.mean([p.best == t for p, t in zip(result.predictions, truth, strict=True)]))
+
+    assert right(found) >= right(content_only) + 0.15, (right(found), right(content_only))
+    assert "geometric mean" in found.scoring.description

@@ -59,14 +59,16 @@ def estimate_classify_seconds(
     targets: Sequence[int] = (),
     *,
     primed: bool = False,
-    blocks: int = 5,
+    blocks: int = 3,
     cores: int | None = None,
+    shape: float = 0.0,
 ) -> float:
     """Wall time of classifying `targets` against a reference of `origins` origins, with the
     held-out calibration, at the calibrated throughput: every item (held-out reference items and
     targets) against every origin's corpus. Concatenation compresses corpus + item for each;
-    priming compresses each corpus once per fold and the items alone (a lower bound). Spread
-    over ``cores`` cores (default: all)."""
+    priming compresses each corpus once per fold and the items alone (a lower bound). The shape
+    view (see origins.views) repeats all of it on bytes ``shape`` times the size (0: no shape
+    view). Spread over ``cores`` cores (default: all)."""
     corpus = sum(reference) / max(origins, 1)
     if result.window_bytes is not None:
         corpus = min(corpus, result.window_bytes)
@@ -74,4 +76,4 @@ def estimate_classify_seconds(
     pairs = len(items) * origins
     mean = sum(items) / max(len(items), 1)
     work = pairs * mean + origins * (blocks + 1) * corpus if primed else pairs * (corpus + mean)
-    return work / (result.throughput_mb_s * 1e6) / (cores or _cores())
+    return work * (1 + shape) / (result.throughput_mb_s * 1e6) / (cores or _cores())

@@ -8,6 +8,7 @@ import time
 import warnings
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -36,10 +37,13 @@ from .measure import (
     CompressorCalibration,
 )
 
+if TYPE_CHECKING:
+    from ..origins import FoldScores
+
 JOBS = ("matrix", "tree", "groups", "nearest", "derived", "classify")
 LABELLED_JOBS = ("classify",)
 LABELLED_CANDIDATES = AUTO_CANDIDATES["labelled"]
-MEASURED_FOLDS = (0, 2, 4)
+MEASURED_FOLDS = (0, 2)
 REAL_PAIR_ITEMS = 8
 SATURATED_SHARE = 0.25
 MEASURING_SHARE = 0.25
@@ -52,9 +56,10 @@ class TaskFigures:
     Labelled jobs: on the reference held out fold by fold (see origins.FoldScores), `accuracy`
     the share of held-out items whose own origin scores best, `novelty` how well an origin left
     out is told from the others (the better ROC AUC of the fit and separation tests, see
-    origins.Conformity), `merit` their sum, `items` held out, `divided` whether the scores are
-    divided by the origins' backgrounds as the classification will divide them (see
-    origins.Background; `own_score` is the median own score as measured). Both are free of any
+    origins.Conformity), `merit` their sum, `items` held out, `divided` whether the content
+    scores are divided by the origins' backgrounds and `shape` whether the shape view joins in,
+    as the classification will decide them (see origins.Scoring; `own_score` is the median own
+    score as measured). Both are free of any
     threshold, so they rank compressors finely where rates at a significance would all sit near
     1 - rate.
     Unlabelled jobs: on all pairs of a sample of items, `saturation` the share of distances
@@ -72,6 +77,7 @@ class TaskFigures:
     saturation: float | None = None
     contrast: float | None = None
     divided: bool | None = None
+    shape: bool | None = None
 
     def as_json(self) -> dict[str, object]:
         return dict(self.__dict__)
@@ -82,7 +88,8 @@ class TaskFigures:
                 f"held-out reference: own origin best for {self.accuracy:.1%}, a missing origin"
                 f" told apart with AUC {self.novelty:.3f}, merit {self.merit:.3f}, own score"
                 f" {self.own_score:.3f}"
-                + (", scores divided by the origins' backgrounds" if self.divided else "")
+                + (", content scores divided by the origins' backgrounds" if self.divided else "")
+                + (", with the shape view" if self.shape else "")
                 + f" ({self.items} items, {self.seconds:.0f} s)"
             )
         return (
@@ -118,16 +125,21 @@ def _labelled_figures(
     engine: Engine | None,
     cache: SizeCache | None,
 ) -> TaskFigures:
-    from ..origins import Background, fold_scores, novelty_aucs
+    from ..origins import fold_scores, novelty_aucs
+    from ..origins.views import Scoring, shaped_items
 
     started = time.perf_counter()
-    folds = fold_scores(
-        items, spec, folds=MEASURED_FOLDS, longest=longest, engine=engine, cache=cache
-    )
-    keep = folds.measured
+
+    def held_out(given: Sequence[Item]) -> FoldScores:
+        return fold_scores(
+            given, spec, folds=MEASURED_FOLDS, longest=longest, engine=engine, cache=cache
+        )
+
+    folds, shaped = held_out(items), held_out(shaped_items(items))
+    keep = folds.measured & shaped.measured
     measured, codes = folds.scores[keep], folds.codes[keep]
-    common = Background.choose(measured, codes, folds.origins)
-    scores = common.apply(measured)
+    way = Scoring.choose(measured, shaped.scores[keep], codes, folds.origins)
+    scores = way.apply(measured, shaped.scores[keep])
     accuracy = float(np.mean(scores.argmin(axis=1) == codes))
     own_score = float(np.median(measured[np.arange(len(codes)), codes]))
     novelty = max(novelty_aucs(scores, codes))
@@ -140,7 +152,8 @@ def _labelled_figures(
         merit=accuracy + novelty,
         own_score=own_score,
         items=len(codes),
-        divided=common.divided,
+        divided=way.content.divided,
+        shape=way.uses_shape,
     )
 
 
@@ -182,8 +195,11 @@ def _within_budget(
 ) -> list[tuple[float, str]]:
     """(estimated seconds, spec) of the candidates that hold the largest item and whose whole
     classification fits the budget; why each other one is passed over goes to ``reasons``."""
+    from ..origins.views import shape_share
+
     labels = {item.label for item in items}
     lengths = [len(item.data) for item in items]
+    shape = shape_share([*items, *targets])
     timed = []
     for result in report.compressors:
         if not holds(result, longest):
@@ -193,7 +209,7 @@ def _within_budget(
             continue
         seconds = estimate_classify_seconds(
             result, lengths, len(labels), [len(t.data) for t in targets],
-            primed=compressor(result.spec).primable, cores=cores,
+            primed=compressor(result.spec).primable, cores=cores, shape=shape,
         )  # fmt: skip
         if seconds > budget_seconds:
             reasons.append(
@@ -218,12 +234,14 @@ def _measure_labelled(
     """Held-out figures of the ``timed`` candidates, quickest first, while their measuring fits
     MEASURING_SHARE of the budget (the first is always measured); those left out go to
     ``reasons``."""
+    from ..origins import DEFAULT_BLOCKS as blocks
+
     figures: list[TaskFigures] = []
     spent, allowance = 0.0, budget_seconds * MEASURING_SHARE
     n = len(items)
     for seconds, spec in sorted(timed):
         # Measuring runs the reference part of the job on MEASURED_FOLDS of its folds.
-        share = seconds * n / (n + targets) * len(MEASURED_FOLDS) / 5
+        share = seconds * n / (n + targets) * len(MEASURED_FOLDS) / blocks
         if figures and spent + share > allowance:
             reasons.append(
                 f"{spec}: passed over: measuring it too would take more than"

@@ -129,7 +129,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
         f"classify: {found.method} with {found.compressor}; {counts['named']} named,"
         f" {counts['ambiguous']} ambiguous, {counts['unknown']} unknown; "
         + found.abstention.guarantee
-        + f"; {found.background.description}"
+        + f"; {found.scoring.description}"
     )
     if args.json:
         write_json(args, found.as_json())
@@ -158,15 +158,9 @@ def _classification_text(found: Any) -> str:
         " the item than the next origin does, against its own items; contrast, fit less how"
         " much better it explains the item than a typical other origin does); an origin's"
         " score is"
-        " C(x | origin) / C(x), lower is better"
-        + (
-            ", divided by the origin's background (the median score it gives other origins'"
-            " held-out items)"
-            if found.background.divided
-            else ""
-        )
-        + ".",
-        f"Scores: {found.background.description}.",
+        " C(x | origin) / C(x), lower is better, made comparable across origins as the next"
+        " line says.",
+        f"Scores: {found.scoring.description}.",
         f"Abstention: {found.abstention.guarantee}.",
         ORIGIN_CAUTION,
     ]
@@ -184,7 +178,7 @@ def _evaluation_text(result: Any) -> str:
         f"each origin missing from the reference in turn: its items refused"
         f" {result.left_out_unknown_rate:.3f} ({missing})",
         f"abstention: {result.abstention.guarantee}",
-        f"scores: {result.background.description}",
+        f"scores: {result.scoring.description}",
         "",
     ]
     rows = [("true \\ predicted", *result.origins, "ambiguous", "unknown")]

@@ -22,7 +22,7 @@ where a plain join would let the window see only the last few items.
 Abstention (see Conformity): the origin with the best score accepts the item, or not, by a
 conformal test (Vovk, Gammerman & Shafer 2005) calibrated on reference items held out as new data
 would come: each origin's items are cut into contiguous blocks (later chunks of a log, files of
-another folder), and block b of every origin is scored against the reference without block b.
+other folders), and block b of every origin is scored against the reference without block b.
 Leave-one-out scores were too optimistic: neighbouring chunks of one log explain each other, and
 new data drifts. The test is either the fit of the item to the best origin (its score against
 the scores of that origin's own held-out items, on a scale from a typical own item to a typical
@@ -33,10 +33,12 @@ at most the significance as long as new data drifts no more than the held-out bl
 output says so, and warns when too few reference items make the asked rate impossible. A fixed
 cut on the score can be given instead.
 
-Scores on a common footing (see Background): an origin whose corpus is large or generic explains
-every item fairly well and would win strangers, so each origin's conditional score may be divided
-by its background, the median score it gives other origins' held-out items. The reference's
-held-out items decide: the division is kept when it names more of them right.
+Scores that compare across origins (see Scoring): an origin whose corpus is large or generic
+explains every item fairly well and would win strangers, so each origin's conditional score may
+be divided by its background, the median score it gives other origins' held-out items
+(Background); and each item may also be scored in its shape view, letters and digits masked
+(views), the origin's score being the geometric mean of the two. The reference's held-out items
+decide both: each is kept when it names significantly more of them right.
 """
 
 from __future__ import annotations
@@ -74,6 +76,7 @@ from .scores import (
     fold_scores,
     reference_folds,
 )
+from .views import Scoring, shape
 
 __all__ = [
     "DECISIONS",
@@ -90,6 +93,7 @@ __all__ = [
     "FoldReport",
     "FoldScores",
     "Prediction",
+    "Scoring",
     "_auc",
     "_statistics",
     "backgrounds",
@@ -103,4 +107,5 @@ __all__ = [
     "novelty_detection",
     "reference_folds",
     "reference_items",
+    "shape",
 ]

@@ -15,7 +15,6 @@ from ..engine import Engine
 from ..formats import json_ready
 from ..items import InputError, Item, ItemLike, as_items
 from ..measure import Measurement, Progress, content_digest
-from .background import Background
 from .conformal import Abstention, Conformity, _abstention
 from .scores import (
     DEFAULT_BLOCKS,
@@ -29,6 +28,7 @@ from .scores import (
     _Scores,
     _with_nearest,
 )
+from .views import Scoring
 
 DECISIONS = ("named", "ambiguous", "unknown")
 
@@ -165,8 +165,8 @@ class Classification:
     """Predictions for unknown items, the abstention behind them and the measurement.
 
     `scores` holds one row per item and one column per origin (lower is better): NCD to the
-    origin's nearest reference item for knn, C(x | corpus) / C(x) for conditional, divided by
-    each origin's background where `background` says so (see Background); `p_values` the
+    origin's nearest reference item for knn, C(x | corpus) / C(x) for conditional, made
+    comparable across origins as `scoring` says (see Scoring); `p_values` the
     deciding test's p-value of each (None with a given threshold; see Conformity).
     """
 
@@ -175,7 +175,7 @@ class Classification:
     scores: np.ndarray
     p_values: np.ndarray | None
     abstention: Abstention
-    background: Background
+    scoring: Scoring
     method: str
     k: int
     compressor: str
@@ -228,38 +228,60 @@ class FoldReport:
         return (self.accuracy + self.left_out_unknown_rate) / 2
 
 
-def _background(
-    scores: np.ndarray, codes: np.ndarray, origins: Sequence[str], divide: bool
-) -> Background:
-    """The footing of held-out `scores`: chosen on them (see Background), or as measured."""
-    return Background.choose(scores, codes, origins) if divide else Background.none(origins)
+def _scoring(
+    content: np.ndarray,
+    shaped: np.ndarray | None,
+    codes: np.ndarray,
+    origins: Sequence[str],
+    choose: bool,
+) -> Scoring:
+    """How held-out scores become decision scores: chosen on them (see Scoring), or the
+    content as measured."""
+    if not choose:
+        return Scoring.as_measured(origins)
+    return Scoring.choose(content, shaped, codes, origins)
 
 
 def fold_report(
     folds: FoldScores,
     significance: float = DEFAULT_SIGNIFICANCE,
     threshold: float | None = None,
-    divide: bool = True,
+    shaped: FoldScores | None = None,
+    choose: bool = True,
 ) -> FoldReport:
     """Decide every measured held-out reference item as a new one would be (see FoldReport).
 
-    With `divide` (the conditional method's scores) each decision also chooses whether to divide
-    the scores by the origins' backgrounds (see Background) from the items it calibrates on."""
-    keep = folds.measured
+    With `choose` (the conditional method's scores) each decision also chooses the scoring (each
+    view's footing, and whether the shape view's scores in `shaped` join in; see Scoring) from
+    the items it calibrates on."""
+    keep = folds.measured if shaped is None else folds.measured & shaped.measured
     scores, codes, fold_of = folds.scores[keep], folds.codes[keep], folds.folds[keep]
+    shapes = None if shaped is None else shaped.scores[keep]
     n, m = scores.shape
     origins = [folds.origins[o] for o in range(m)]
+    choose = choose and threshold is None
+
+    def decide(train: np.ndarray, test: np.ndarray, columns: list[int]) -> _Decisions:
+        """Calibrate on rows `train`, decide rows `test`, on the origins in `columns`."""
+        names = [origins[o] for o in columns]
+        content = scores[:, columns]
+        shape = None if shapes is None else shapes[:, columns]
+        relabel = np.searchsorted(columns, codes[train])
+        way = _scoring(
+            content[train], None if shape is None else shape[train], relabel, names, choose
+        )
+        conformity = None
+        if threshold is None:
+            calibration = way.apply(content[train], None if shape is None else shape[train])
+            conformity = Conformity.of(calibration, relabel, names, significance)
+        decided = way.apply(content[test], None if shape is None else shape[test])
+        return _decisions(decided, conformity, threshold)
+
     confusion = np.zeros((m, m + 2), dtype=np.int64)
+    everyone = list(range(m))
     for fold in np.unique(fold_of):
         rows = fold_of == fold
-        conformity, fold = None, scores[rows]
-        if threshold is None:
-            common = _background(scores[~rows], codes[~rows], origins, divide)
-            conformity = Conformity.of(
-                common.apply(scores[~rows]), codes[~rows], origins, significance
-            )
-            fold = common.apply(fold)
-        decided = _decisions(fold, conformity, threshold)
+        decided = decide(~rows, rows, everyone)
         for truth, decision, candidates in zip(
             codes[rows], decided.decisions, decided.candidates, strict=True
         ):
@@ -267,19 +289,10 @@ def fold_report(
             confusion[truth, column[decision]] += 1
     left_out = []
     for origin in range(m):
-        others = [o for o in range(m) if o != origin]
         mine, rest = codes == origin, codes != origin
         if not mine.any() or not rest.any():
             continue
-        reduced = scores[:, others]
-        relabel = np.searchsorted(others, codes[rest])
-        conformity, strangers = None, reduced[mine]
-        if threshold is None:
-            names = [origins[o] for o in others]
-            common = _background(reduced[rest], relabel, names, divide)
-            conformity = Conformity.of(common.apply(reduced[rest]), relabel, names, significance)
-            strangers = common.apply(strangers)
-        decided = _decisions(strangers, conformity, threshold)
+        decided = decide(rest, mine, [o for o in range(m) if o != origin])
         left_out.append(float(np.mean([d == "unknown" for d in decided.decisions])))
     total = max(n, 1)
     own = scores[np.arange(n), codes]
@@ -314,13 +327,13 @@ class Evaluation:
     origins: tuple[str, ...]
     confusion: np.ndarray
     abstention: Abstention
-    background: Background
+    scoring: Scoring
 
     def as_json(self) -> dict[str, object]:
         """The rates, per origin its missing-origin refusal rate, the confusion table (rows:
         true origins; columns: origins named, then ambiguous and unknown), the abstention and
-        the footing of the scores (see Background: chosen on all held-out items, where each
-        fold's decisions chose it on the other folds)."""
+        the scoring (see Scoring: chosen on all held-out items, where each fold's decisions
+        chose it on the other folds)."""
         return dict(
             json_ready(
                 {
@@ -336,7 +349,7 @@ class Evaluation:
                         "counts": self.confusion,
                     },
                     "abstention": self.abstention,
-                    "background": self.background,
+                    "scoring": self.scoring,
                 }
             )
         )
@@ -345,14 +358,14 @@ class Evaluation:
 @dataclass(frozen=True)
 class _Calibrated:
     """What a fitted classification keeps: the abstention, its calibration (None with a given
-    threshold) and the footing of the scores (see Background)."""
+    threshold) and how measured scores become decision scores (see Scoring)."""
 
     abstention: Abstention
     conformity: Conformity | None
-    background: Background
+    scoring: Scoring
 
     def decide(self, scores: np.ndarray) -> _Decisions:
-        """Decide items by their scores on the common footing (`background.apply`)."""
+        """Decide items by their decision scores (`scoring.apply`)."""
         return _decisions(scores, self.conformity, self.abstention.threshold)
 
 
@@ -369,17 +382,55 @@ def _calibrate(
         if significance is not None:
             raise ValueError("give a significance or a threshold, not both")
         abstention = Abstention(None, float(threshold), blocks=blocks)
-        return _Calibrated(abstention, None, Background.none(reference.origins))
+        return _Calibrated(abstention, None, Scoring.as_measured(reference.origins))
     significance = DEFAULT_SIGNIFICANCE if significance is None else significance
     if not 0 < significance < 1:
         raise ValueError(f"significance must lie between 0 and 1, got {significance}")
     reference.check(calibrate=True)
-    folds = _fold_scores(reference, measurement, method, blocks, longest)
-    keep = folds.measured
+    folds, shaped = _both_views(reference, measurement, method, blocks, longest)
+    keep = folds.measured if shaped is None else folds.measured & shaped.measured
     held, codes = folds.scores[keep], reference.codes[keep]
-    common = _background(held, codes, reference.origins, method == "conditional")
-    conformity = Conformity.of(common.apply(held), codes, reference.origins, significance)
-    return _Calibrated(_abstention(conformity, blocks), conformity, common)
+    held_shape = None if shaped is None else shaped.scores[keep]
+    way = _scoring(held, held_shape, codes, reference.origins, method == "conditional")
+    calibration = way.apply(held, held_shape)
+    conformity = Conformity.of(calibration, codes, reference.origins, significance)
+    return _Calibrated(_abstention(conformity, blocks), conformity, way)
+
+
+def _both_views(
+    reference: _Reference, measurement: Measurement, method: str, blocks: int, longest: int
+) -> tuple[FoldScores, FoldScores | None]:
+    """Held-out scores of the content and, for the conditional method, of the shape view."""
+    folds = _fold_scores(reference, measurement, method, blocks, longest)
+    if method != "conditional":
+        return folds, None
+    return folds, _fold_scores(reference.shaped(), measurement, method, blocks, longest)
+
+
+def _decision_scores(
+    targets: Sequence[Item],
+    reference: _Reference,
+    measurement: Measurement,
+    method: str,
+    k: int,
+    longest: int,
+    scoring: Scoring,
+) -> _Scores:
+    """The targets' scores as the decision uses them (see Scoring): the content's, on its
+    footing, and with the shape view's where the scoring uses it; the best origin is the
+    lowest."""
+    measured = _score(targets, reference, measurement, method, k, longest)
+    if not scoring.content.divided and not scoring.uses_shape:
+        return measured
+    shaped = None
+    if scoring.uses_shape:
+        from .views import shaped_items
+
+        shaped = _score(
+            shaped_items(targets), reference.shaped(), measurement, method, k, longest
+        ).scores
+    common = scoring.apply(measured.scores, shaped)
+    return replace(measured, scores=common, picked=common.argmin(axis=1))
 
 
 def classify(
@@ -417,10 +468,7 @@ def classify(
     measurement = _measurement(comp, method, conditional, engine, cache, progress)
     longest = max(len(i.data) for i in [*unknowns, *ref.items])
     fitted = _calibrate(ref, measurement, method, significance, threshold, blocks, longest)
-    measured = _score(unknowns, ref, measurement, method, k, longest)
-    if fitted.background.divided:
-        common = fitted.background.apply(measured.scores)
-        measured = replace(measured, scores=common, picked=common.argmin(axis=1))
+    measured = _decision_scores(unknowns, ref, measurement, method, k, longest, fitted.scoring)
     scores = _with_nearest(measured, unknowns, ref, measurement, exclude_self=False)
     decided = fitted.decide(scores.scores)
     return Classification(
@@ -429,7 +477,7 @@ def classify(
         scores=scores.scores,
         p_values=decided.origin_p,
         abstention=fitted.abstention,
-        background=fitted.background,
+        scoring=fitted.scoring,
         method=method,
         k=k,
         compressor=measurement.compressor.spec,
@@ -461,17 +509,19 @@ def evaluate(
     ref.check(calibrate=True)
     measurement = _measurement(comp, method, conditional, engine, cache, progress)
     longest = max(len(i.data) for i in ref.items)
-    folds = _fold_scores(ref, measurement, method, blocks, longest)
+    folds, shaped = _both_views(ref, measurement, method, blocks, longest)
     rate = DEFAULT_SIGNIFICANCE if significance is None else significance
-    divide = method == "conditional"
-    report = fold_report(folds, rate, threshold, divide)
-    keep = folds.measured
+    choose = method == "conditional"
+    report = fold_report(folds, rate, threshold, shaped, choose)
+    keep = folds.measured if shaped is None else folds.measured & shaped.measured
     held, codes = folds.scores[keep], ref.codes[keep]
-    common = _background(held, codes, ref.origins, divide and threshold is None)
+    held_shape = None if shaped is None else shaped.scores[keep]
+    way = _scoring(held, held_shape, codes, ref.origins, choose and threshold is None)
+    calibration = way.apply(held, held_shape)
     abstention = (
         Abstention(None, float(threshold), blocks=blocks)
         if threshold is not None
-        else _abstention(Conformity.of(common.apply(held), codes, ref.origins, rate), blocks)
+        else _abstention(Conformity.of(calibration, codes, ref.origins, rate), blocks)
     )
     return Evaluation(
         accuracy=report.accuracy,
@@ -482,5 +532,5 @@ def evaluate(
         origins=ref.origins,
         confusion=report.confusion,
         abstention=abstention,
-        background=common,
+        scoring=way,
     )

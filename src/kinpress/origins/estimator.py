@@ -14,8 +14,8 @@ from ..cache import SizeCache
 from ..engine import Engine
 from ..items import ItemLike, as_items
 from ..measure import Measurement
-from .classification import _calibrate
-from .scores import DEFAULT_BLOCKS, _measurement, _Reference, _score
+from .classification import _calibrate, _decision_scores
+from .scores import DEFAULT_BLOCKS, _measurement, _Reference
 
 
 class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[misc]
@@ -104,12 +104,13 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         cache = self._open_cache()
         try:
             longest = max([self.longest_, *(len(t.data) for t in targets)])
-            scores = _score(targets, self.reference_, self._measurement(cache), self.method,
-                            self.k, longest)  # fmt: skip
+            scores = _decision_scores(targets, self.reference_, self._measurement(cache),
+                                      self.method, self.k, longest,
+                                      self.calibrated_.scoring)  # fmt: skip
         finally:
             if cache is not None:
                 cache.close()
-        return np.asarray(self.calibrated_.background.apply(scores.scores))
+        return scores.scores
 
     def p_values(self, X: Sequence[ItemLike]) -> np.ndarray:
         """Conformal p-values of the deciding test, shaped (len(X), len(classes_)): how typical

@@ -173,7 +173,7 @@ class Report:
                 "conditional": c.conditional,
                 "origins": c.origins,
                 "abstention": c.abstention,
-                "background": c.background,
+                "scoring": c.scoring,
                 "counts": c.counts(),
                 "predictions": c.as_json(),
             }
