@@ -108,7 +108,7 @@ def test_evaluate_reports_accuracy_refusals_and_a_confusion_table(
     assert sum(map(sum, report["confusion"]["counts"])) == chunks
     assert cli.main(["classify", "--reference", str(reference), "--evaluate", *FAST]) == 0
     text = capsys.readouterr().out
-    assert text.startswith("held-out blocks of the reference (5 per origin): named right")
+    assert text.startswith("held-out blocks of the reference (3 per origin): named right")
 
 
 def test_classify_needs_unknowns_or_evaluate(
