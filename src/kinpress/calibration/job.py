@@ -126,6 +126,7 @@ def _labelled_figures(
     cache: SizeCache | None,
 ) -> TaskFigures:
     from ..origins import fold_scores, novelty_aucs
+    from ..origins.conformal import combined
     from ..origins.views import Scoring, shaped_items
 
     started = time.perf_counter()
@@ -139,8 +140,8 @@ def _labelled_figures(
     keep = folds.measured & shaped.measured
     measured, codes = folds.scores[keep], folds.codes[keep]
     way = Scoring.choose(measured, shaped.scores[keep], codes, folds.origins)
-    scores = way.apply(measured, shaped.scores[keep])
-    accuracy = float(np.mean(scores.argmin(axis=1) == codes))
+    scores = way.stack(measured, shaped.scores[keep])
+    accuracy = float(np.mean(combined(scores).argmin(axis=1) == codes))
     own_score = float(np.median(measured[np.arange(len(codes)), codes]))
     novelty = max(novelty_aucs(scores, codes))
     novelty = 0.5 if novelty != novelty else novelty  # NaN: too few origins to leave one out

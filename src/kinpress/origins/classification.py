@@ -15,7 +15,7 @@ from ..engine import Engine
 from ..formats import json_ready
 from ..items import InputError, Item, ItemLike, as_items
 from ..measure import Measurement, Progress, content_digest
-from .conformal import Abstention, Conformity, _abstention
+from .conformal import Abstention, Conformity, _abstention, combined
 from .scores import (
     DEFAULT_BLOCKS,
     DEFAULT_SIGNIFICANCE,
@@ -103,8 +103,8 @@ class _Decisions:
 def _decisions(
     scores: np.ndarray, conformity: Conformity | None, threshold: float | None
 ) -> _Decisions:
-    """Decide every item (see Prediction and Conformity)."""
-    order = np.argsort(scores, axis=1, kind="stable")
+    """Decide every item (see Prediction and Conformity); `scores` may be a stack of views."""
+    order = np.argsort(combined(scores), axis=1, kind="stable")
     if conformity is None:
         accepted = scores <= threshold
         candidates = [[int(o) for o in row if accepted[t, o]] for t, row in enumerate(order)]
@@ -272,9 +272,9 @@ def fold_report(
         )
         conformity = None
         if threshold is None:
-            calibration = way.apply(content[train], None if shape is None else shape[train])
+            calibration = way.stack(content[train], None if shape is None else shape[train])
             conformity = Conformity.of(calibration, relabel, names, significance)
-        decided = way.apply(content[test], None if shape is None else shape[test])
+        decided = way.stack(content[test], None if shape is None else shape[test])
         return _decisions(decided, conformity, threshold)
 
     confusion = np.zeros((m, m + 2), dtype=np.int64)
@@ -365,7 +365,7 @@ class _Calibrated:
     scoring: Scoring
 
     def decide(self, scores: np.ndarray) -> _Decisions:
-        """Decide items by their decision scores (`scoring.apply`)."""
+        """Decide items by what the decision tests (`scoring.stack`)."""
         return _decisions(scores, self.conformity, self.abstention.threshold)
 
 
@@ -392,7 +392,7 @@ def _calibrate(
     held, codes = folds.scores[keep], reference.codes[keep]
     held_shape = None if shaped is None else shaped.scores[keep]
     way = _scoring(held, held_shape, codes, reference.origins, method == "conditional")
-    calibration = way.apply(held, held_shape)
+    calibration = way.stack(held, held_shape)
     conformity = Conformity.of(calibration, codes, reference.origins, significance)
     return _Calibrated(_abstention(conformity, blocks), conformity, way)
 
@@ -415,13 +415,13 @@ def _decision_scores(
     k: int,
     longest: int,
     scoring: Scoring,
-) -> _Scores:
-    """The targets' scores as the decision uses them (see Scoring): the content's, on its
-    footing, and with the shape view's where the scoring uses it; the best origin is the
-    lowest."""
+) -> tuple[_Scores, np.ndarray]:
+    """The targets' scores as the decision uses them (see Scoring): the scores an origin is
+    picked by (the lowest is best), and what the decision tests, the content's on its footing
+    or, where the scoring uses the shape view, the stack of both views."""
     measured = _score(targets, reference, measurement, method, k, longest)
     if not scoring.content.divided and not scoring.uses_shape:
-        return measured
+        return measured, measured.scores
     shaped = None
     if scoring.uses_shape:
         from .views import shaped_items
@@ -429,8 +429,9 @@ def _decision_scores(
         shaped = _score(
             shaped_items(targets), reference.shaped(), measurement, method, k, longest
         ).scores
-    common = scoring.apply(measured.scores, shaped)
-    return replace(measured, scores=common, picked=common.argmin(axis=1))
+    stack = scoring.stack(measured.scores, shaped)
+    common = combined(stack)
+    return replace(measured, scores=common, picked=common.argmin(axis=1)), stack
 
 
 def classify(
@@ -468,9 +469,11 @@ def classify(
     measurement = _measurement(comp, method, conditional, engine, cache, progress)
     longest = max(len(i.data) for i in [*unknowns, *ref.items])
     fitted = _calibrate(ref, measurement, method, significance, threshold, blocks, longest)
-    measured = _decision_scores(unknowns, ref, measurement, method, k, longest, fitted.scoring)
+    measured, stack = _decision_scores(
+        unknowns, ref, measurement, method, k, longest, fitted.scoring
+    )
     scores = _with_nearest(measured, unknowns, ref, measurement, exclude_self=False)
-    decided = fitted.decide(scores.scores)
+    decided = fitted.decide(stack)
     return Classification(
         predictions=tuple(_decide(scores, decided, ref, unknowns)),
         origins=ref.origins,
@@ -517,7 +520,7 @@ def evaluate(
     held, codes = folds.scores[keep], ref.codes[keep]
     held_shape = None if shaped is None else shaped.scores[keep]
     way = _scoring(held, held_shape, codes, ref.origins, choose and threshold is None)
-    calibration = way.apply(held, held_shape)
+    calibration = way.stack(held, held_shape)
     abstention = (
         Abstention(None, float(threshold), blocks=blocks)
         if threshold is not None

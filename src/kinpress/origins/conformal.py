@@ -31,10 +31,27 @@ def _label_conditional(counts: np.ndarray, significance: float) -> np.ndarray:
     return np.asarray(counts + 1 >= 2.0 / significance)
 
 
+FLOOR = 1e-3
+"""Scores are floored here before a geometric mean over views: a view whose bytes a corpus
+predicts entirely (a shape of nothing but words) can measure 0 or a hair below."""
+
+
+def combined(scores: np.ndarray) -> np.ndarray:
+    """The scores an origin is picked by: a (items, origins) matrix as it is, or the geometric
+    mean over the last axis of an (items, origins, views) stack, each floored at FLOOR."""
+    if scores.ndim == 2:
+        return scores
+    return np.asarray(np.exp(np.log(np.maximum(scores, FLOOR)).mean(axis=2)))
+
+
 def _profile(scores: np.ndarray, codes: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Per origin, the median held-out score of its own items (centre) and how far above it the
     median score of the other origins' items on it lies (scale; up to 1, a score that explains
-    nothing, where no other origin's items were scored)."""
+    nothing, where no other origin's items were scored). A stack of views gets a profile per
+    view: (origins, views) arrays."""
+    if scores.ndim == 3:
+        views = [_profile(scores[:, :, v], codes) for v in range(scores.shape[2])]
+        return np.stack([c for c, _ in views], axis=1), np.stack([s for _, s in views], axis=1)
     m = scores.shape[1]
     centre = np.empty(m)
     scale = np.empty(m)
@@ -67,7 +84,14 @@ def _statistics(
     scores: np.ndarray, centre: np.ndarray, scale: np.ndarray, own: np.ndarray
 ) -> dict[str, np.ndarray]:
     """Each test's statistic (larger is stranger) of each row for the origin `own[row]`: fit,
-    -separation and contrast (see Conformity)."""
+    -separation and contrast (see Conformity); of a stack of views, the largest of the views'
+    statistics, each on its own profile."""
+    if scores.ndim == 3:
+        views = [
+            _statistics(scores[:, :, v], centre[:, v], scale[:, v], own)
+            for v in range(scores.shape[2])
+        ]
+        return {test: np.max([found[test] for found in views], axis=0) for test in TESTS}
     rows = np.arange(len(scores))
     chosen = scores[rows, own]
     fit = (chosen - centre[own]) / scale[own]
@@ -118,7 +142,9 @@ def novelty_aucs(scores: np.ndarray, codes: np.ndarray) -> tuple[float, float]:
     reference from those of the others (ROC AUC, 1 = perfectly), each origin left out in turn."""
     fit_aucs, separation_aucs = [], []
     for out in _leave_each_origin_out(scores, codes):
-        found = _statistics(out.reduced, out.centre, out.scale, out.reduced.argmin(axis=1))
+        found = _statistics(
+            out.reduced, out.centre, out.scale, combined(out.reduced).argmin(axis=1)
+        )
         stranger = ~out.known
         fit_aucs.append(_auc(stranger, found["fit"]))
         separation_aucs.append(_auc(stranger, found["separation"]))
@@ -138,7 +164,7 @@ def novelty_detection(
     for out in _leave_each_origin_out(scores, codes) if scores.shape[1] >= 3 else ():
         known, strangers = out.reduced[out.known], out.reduced[~out.known]
         calibration = _statistics(known, out.centre, out.scale, out.relabel)
-        strange = _statistics(strangers, out.centre, out.scale, strangers.argmin(axis=1))
+        strange = _statistics(strangers, out.centre, out.scale, combined(strangers).argmin(axis=1))
         for test in TESTS:
             p = conformal_p_values(calibration[test], strange[test])
             refused[test].append(float(np.mean(p <= significance)))
@@ -173,6 +199,11 @@ class Conformity:
     as it does its own held-out items) or "contrast", chosen on the reference: the test that
     refuses most held-out items of an origin left out of it at the significance
     (`detection`, see novelty_detection; fit on ties).
+    Scores of two views (an (items, origins, views) stack: content and shape, see Scoring) pick
+    b by their geometric mean, and each test's statistic is the stranger of the two views', each
+    view with its own centre and scale ((origins, views) arrays): an item of a missing origin
+    tends to resemble a kindred origin in one view only (a README's code examples in content,
+    its prose layout in shape), where a known item resembles its origin in both.
     p-values are conformal (Vovk, Gammerman & Shafer 2005, "Algorithmic Learning in a Random
     World"): the share of held-out statistics at least as strange, label-conditional for an
     origin with 2 / significance - 1 held-out items or more (Mondrian, ch. 4.5 there), pooled
@@ -221,13 +252,13 @@ class Conformity:
     def p_values(self, scores: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """Each item's p-value of the deciding test for every origin (the item taken as that
         origin's), the best origin, and the p-value for the best origin."""
-        n, m = scores.shape
+        n, m = scores.shape[:2]
         p = np.zeros((n, m))
         for origin in range(m):
             own = np.full(n, origin)
             strange = _statistics(scores, self.centre, self.scale, own)[self.test]
             p[:, origin] = self._against(self.test_calibration, origin, strange)
-        best = scores.argmin(axis=1)
+        best = combined(scores).argmin(axis=1)
         return p, best, p[np.arange(n), best]
 
 

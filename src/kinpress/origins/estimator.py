@@ -104,13 +104,13 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         cache = self._open_cache()
         try:
             longest = max([self.longest_, *(len(t.data) for t in targets)])
-            scores = _decision_scores(targets, self.reference_, self._measurement(cache),
-                                      self.method, self.k, longest,
-                                      self.calibrated_.scoring)  # fmt: skip
+            _, tested = _decision_scores(targets, self.reference_, self._measurement(cache),
+                                         self.method, self.k, longest,
+                                         self.calibrated_.scoring)  # fmt: skip
         finally:
             if cache is not None:
                 cache.close()
-        return scores.scores
+        return tested
 
     def p_values(self, X: Sequence[ItemLike]) -> np.ndarray:
         """Conformal p-values of the deciding test, shaped (len(X), len(classes_)): how typical

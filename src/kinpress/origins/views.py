@@ -25,6 +25,7 @@ import numpy as np
 from ..formats import json_ready
 from ..items import Item
 from .background import SIGN_TEST_LEVEL, Background, sign_test
+from .conformal import combined
 
 _LETTERS = re.compile(rb"[A-Za-z]+")
 _DIGITS = re.compile(rb"[0-9]+")
@@ -47,15 +48,9 @@ def shape_share(items: Sequence[Item]) -> float:
     return sum(len(shape(item.data)) for item in items) / total if total else 0.0
 
 
-_FLOOR = 1e-3
-"""Scores are floored here before the geometric mean: a view whose bytes a corpus predicts
-entirely (a shape of nothing but words) can measure 0 or a hair below, where one view alone
-would otherwise decide."""
-
-
 def _combined(content: np.ndarray, shaped: np.ndarray) -> np.ndarray:
-    """The geometric mean of two score matrices, each floored at _FLOOR."""
-    return np.asarray(np.sqrt(np.maximum(content, _FLOOR) * np.maximum(shaped, _FLOOR)))
+    """The geometric mean of two score matrices, each floored (see conformal.combined)."""
+    return combined(np.stack([content, shaped], axis=2))
 
 
 @dataclass(frozen=True)
@@ -111,14 +106,20 @@ class Scoring:
         return self.shape is not None
 
     def apply(self, content: np.ndarray, shaped: np.ndarray | None = None) -> np.ndarray:
-        """The scores the decision uses, from the measured content scores and, when the shape
-        is used, the measured shape scores."""
+        """The scores an origin is picked by, from the measured content scores and, when the
+        shape is used, the measured shape scores (their geometric mean, see `stack`)."""
+        return combined(self.stack(content, shaped))
+
+    def stack(self, content: np.ndarray, shaped: np.ndarray | None = None) -> np.ndarray:
+        """The scores the decision uses: the content's on its footing, an (items, origins)
+        matrix; with the shape, an (items, origins, 2) stack of both views on their footings
+        (see Conformity for how a stack is tested)."""
         scores = self.content.apply(content)
         if self.shape is None:
             return scores
         if shaped is None:
             raise ValueError("this scoring uses the shape view: give its scores")
-        return _combined(scores, self.shape.apply(shaped))
+        return np.stack([scores, self.shape.apply(shaped)], axis=2)
 
     @property
     def description(self) -> str:
