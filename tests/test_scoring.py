@@ -88,7 +88,7 @@ def test_scores_without_a_generalist_stay_as_measured() -> None:
     assert not common.divided
     assert common.apply(held) is held
     assert common.p_value > 0.05
-    assert "not divided" in common.description
+    assert common.description.startswith("as measured (divided by each origin")
 
 
 def test_sign_test_needs_more_than_a_coin_would_give() -> None:

@@ -104,17 +104,19 @@ class Background:
     def description(self) -> str:
         """In words, for the output."""
         if self.accuracy_raw != self.accuracy_raw:
-            return "scores as measured"
-        figures = (
-            f"held-out reference items named right {self.accuracy_divided:.3f} divided,"
-            f" {self.accuracy_raw:.3f} as measured (sign test p = {self.p_value:.2g})"
-        )
+            return "as measured"
         if self.divided:
             return (
-                "each origin's score divided by its background (the median score it gives"
-                f" other origins' held-out items): {figures}"
+                "divided by each origin's background (the median score it gives other origins'"
+                f" held-out items): {self.accuracy_divided:.3f} of held-out reference items"
+                f" named right, against {self.accuracy_raw:.3f} as measured (sign test"
+                f" p = {self.p_value:.2g})"
             )
-        return f"scores as measured, not divided by each origin's background: {figures}"
+        return (
+            f"as measured (divided by each origin's background, {self.accuracy_divided:.3f} of"
+            f" held-out reference items would be named right, against {self.accuracy_raw:.3f};"
+            f" sign test p = {self.p_value:.2g})"
+        )
 
     def as_json(self) -> dict[str, object]:
         """Whether scores were divided, the divisors by origin (null when not), the two

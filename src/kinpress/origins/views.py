@@ -124,18 +124,19 @@ class Scoring:
     @property
     def description(self) -> str:
         """In words, for the output."""
-        text = f"content: {self.content.description}"
+        text = f"content scores {self.content.description}"
         if self.accuracy_content != self.accuracy_content:
             return text
         figures = (
-            f"held-out reference items named right {self.accuracy_both:.3f} with the shape,"
+            f"{self.accuracy_both:.3f} of held-out reference items named right with it, against"
             f" {self.accuracy_content:.3f} without (sign test p = {self.p_value:.2g})"
         )
         if self.shape is None:
-            return f"{text}; the shape view (words masked) not used: {figures}"
+            return f"{text}; the shape view (letters and digits masked) not used: {figures}"
         return (
-            f"{text}; shape (letters and digits masked): {self.shape.description}; an origin's"
-            f" score is the geometric mean of the two: {figures}"
+            f"{text}; with the shape view (letters and digits masked), its scores"
+            f" {self.shape.description}: {figures}; an origin's score is the geometric mean of"
+            " the two, and each test takes the stranger view"
         )
 
     def as_json(self) -> dict[str, object]:
