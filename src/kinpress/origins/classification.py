@@ -512,7 +512,10 @@ def evaluate(
     ref.check(calibrate=True)
     measurement = _measurement(comp, method, conditional, engine, cache, progress)
     longest = max(len(i.data) for i in ref.items)
-    folds, shaped = _both_views(ref, measurement, method, blocks, longest)
+    if threshold is None:
+        folds, shaped = _both_views(ref, measurement, method, blocks, longest)
+    else:  # a given cut: scores as measured, no shape view to choose
+        folds, shaped = _fold_scores(ref, measurement, method, blocks, longest), None
     rate = DEFAULT_SIGNIFICANCE if significance is None else significance
     choose = method == "conditional"
     report = fold_report(folds, rate, threshold, shaped, choose)
