@@ -53,6 +53,12 @@ def sign_test(gained: int, lost: int) -> float:
     return float(binomtest(gained, gained + lost, 0.5, alternative="greater").pvalue)
 
 
+def paired_sign_test(tried: np.ndarray, kept: np.ndarray) -> float:
+    """The sign test that one way (`tried`, True where it names an item right) names more right
+    than another (`kept`): over the items only one of them names right."""
+    return sign_test(int(np.sum(tried & ~kept)), int(np.sum(kept & ~tried)))
+
+
 @dataclass(frozen=True)
 class Background:
     """How scores were put on a common footing: `divisors` per origin (None: left as measured);
@@ -78,7 +84,7 @@ class Background:
         divisors = backgrounds(scores, codes)
         raw = scores.argmin(axis=1) == codes
         divided = (scores / divisors).argmin(axis=1) == codes
-        p = sign_test(int(np.sum(divided & ~raw)), int(np.sum(raw & ~divided)))
+        p = paired_sign_test(divided, raw)
         return cls(
             tuple(origins),
             divisors if p <= significance else None,

@@ -242,6 +242,23 @@ def _scoring(
     return Scoring.choose(content, shaped, codes, origins)
 
 
+def _both_measured(folds: FoldScores, shaped: FoldScores | None) -> np.ndarray:
+    """The held-out rows measured in the content and, when given, in the shape view."""
+    return folds.measured if shaped is None else folds.measured & shaped.measured
+
+
+def _calibration(
+    folds: FoldScores, shaped: FoldScores | None, choose: bool
+) -> tuple[Scoring, np.ndarray, np.ndarray]:
+    """The scoring chosen on all measured held-out rows (see _scoring), what the decision tests
+    of them (`Scoring.stack`) and their origins."""
+    keep = _both_measured(folds, shaped)
+    held, codes = folds.scores[keep], folds.codes[keep]
+    held_shape = None if shaped is None else shaped.scores[keep]
+    way = _scoring(held, held_shape, codes, folds.origins, choose)
+    return way, way.stack(held, held_shape), codes
+
+
 def fold_report(
     folds: FoldScores,
     significance: float = DEFAULT_SIGNIFICANCE,
@@ -254,7 +271,7 @@ def fold_report(
     With `choose` (the conditional method's scores) each decision also chooses the scoring (each
     view's footing, and whether the shape view's scores in `shaped` join in; see Scoring) from
     the items it calibrates on."""
-    keep = folds.measured if shaped is None else folds.measured & shaped.measured
+    keep = _both_measured(folds, shaped)
     scores, codes, fold_of = folds.scores[keep], folds.codes[keep], folds.folds[keep]
     shapes = None if shaped is None else shaped.scores[keep]
     n, m = scores.shape
@@ -388,11 +405,7 @@ def _calibrate(
         raise ValueError(f"significance must lie between 0 and 1, got {significance}")
     reference.check(calibrate=True)
     folds, shaped = _both_views(reference, measurement, method, blocks, longest)
-    keep = folds.measured if shaped is None else folds.measured & shaped.measured
-    held, codes = folds.scores[keep], reference.codes[keep]
-    held_shape = None if shaped is None else shaped.scores[keep]
-    way = _scoring(held, held_shape, codes, reference.origins, method == "conditional")
-    calibration = way.stack(held, held_shape)
+    way, calibration, codes = _calibration(folds, shaped, method == "conditional")
     conformity = Conformity.of(calibration, codes, reference.origins, significance)
     return _Calibrated(_abstention(conformity, blocks), conformity, way)
 
@@ -519,11 +532,7 @@ def evaluate(
     rate = DEFAULT_SIGNIFICANCE if significance is None else significance
     choose = method == "conditional"
     report = fold_report(folds, rate, threshold, shaped, choose)
-    keep = folds.measured if shaped is None else folds.measured & shaped.measured
-    held, codes = folds.scores[keep], ref.codes[keep]
-    held_shape = None if shaped is None else shaped.scores[keep]
-    way = _scoring(held, held_shape, codes, ref.origins, choose and threshold is None)
-    calibration = way.stack(held, held_shape)
+    way, calibration, codes = _calibration(folds, shaped, choose and threshold is None)
     abstention = (
         Abstention(None, float(threshold), blocks=blocks)
         if threshold is not None

@@ -24,7 +24,7 @@ import numpy as np
 
 from ..formats import json_ready
 from ..items import Item
-from .background import SIGN_TEST_LEVEL, Background, sign_test
+from .background import SIGN_TEST_LEVEL, Background, paired_sign_test
 from .conformal import combined
 
 _LETTERS = re.compile(rb"[A-Za-z]+")
@@ -46,11 +46,6 @@ def shape_share(items: Sequence[Item]) -> float:
     """The shape view's bytes as a share of the items' (what it adds to a job's work)."""
     total = sum(len(item.data) for item in items)
     return sum(len(shape(item.data)) for item in items) / total if total else 0.0
-
-
-def _combined(content: np.ndarray, shaped: np.ndarray) -> np.ndarray:
-    """The geometric mean of two score matrices, each floored (see conformal.combined)."""
-    return combined(np.stack([content, shaped], axis=2))
 
 
 @dataclass(frozen=True)
@@ -83,11 +78,8 @@ class Scoring:
             return cls(content_footing, None)
         shape_footing = Background.choose(shaped, codes, origins)
         alone = content_footing.apply(content).argmin(axis=1) == codes
-        both = (
-            _combined(content_footing.apply(content), shape_footing.apply(shaped)).argmin(axis=1)
-            == codes
-        )
-        p = sign_test(int(np.sum(both & ~alone)), int(np.sum(alone & ~both)))
+        both = cls(content_footing, shape_footing).apply(content, shaped).argmin(axis=1) == codes
+        p = paired_sign_test(both, alone)
         return cls(
             content_footing,
             shape_footing if p <= significance else None,
