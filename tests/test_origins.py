@@ -45,6 +45,7 @@ from kinpress.calibration import choose_for_job
 from kinpress.calibration.job import MEASURED_FOLDS
 from kinpress.items import reference_items
 from kinpress.origins import (
+    DEFAULT_SIGNIFICANCE,
     TESTS,
     CompressionClassifier,
     Conformity,
@@ -60,6 +61,7 @@ from kinpress.origins import (
     novelty_detection,
     reference_folds,
 )
+from kinpress.origins.conformal import combined
 from kinpress.origins.views import Scoring, shaped_items
 
 SHARED_DATA = Path(__file__).resolve().parents[2] / "shared" / "datasets-real"
@@ -576,11 +578,13 @@ def test_real_code_of_a_language_missing_from_the_reference_comes_back_unknown(
 ) -> None:
     # Default options, two of the 8 Rosetta languages at a time left out, in rotation (these
     # tasks are solved in every language, so a missing language shares tasks and idioms with a
-    # present one: a hard negative). Issue 10's goal is >= 0.8 of their files unknown; it is
-    # not met on code in general, so this guards what holds: measured with held-out thirds,
-    # 0.74 unknown (per round 0.35-1.0 by the compressor chosen; ppmd or deflate in every round
-    # would give 0.81), known files refused 0.040; with fifths 0.81 but later files of other
-    # code refused above the stated rate (see DEFAULT_BLOCKS). The fit test alone gave 0.69.
+    # present one: a hard negative). Issue 10's goal is >= 0.8 of their files unknown. Measured
+    # since auto ranks by the share of a missing origin refused at the significance (with the
+    # AUC): 0.81 unknown, known files refused 0.040 (ranked by the AUC alone, 0.74: per round
+    # 0.35-1.0 by the compressor chosen). The goal is not met on code in general (random splits
+    # of this set: 0.56; 21 kinds of this machine's files: 0.52), and the choice among close
+    # candidates hangs on an item or two, which timing on another machine can shift, so this
+    # guards 0.75. The fit test alone gave 0.69.
     reference, held_out = _code(shared)
     languages = sorted({str(i.label) for i in reference})
     unknown = strangers = refused = known = 0
@@ -599,7 +603,7 @@ def test_real_code_of_a_language_missing_from_the_reference_comes_back_unknown(
     print(
         f"missing languages unknown {unknown / strangers:.3f}, known refused {refused / known:.3f}"
     )
-    assert unknown / strangers >= 0.7
+    assert unknown / strangers >= 0.75
     assert refused / known <= 0.07
 
 
@@ -668,8 +672,9 @@ def test_auto_separates_the_reference_at_least_as_well_as_each_candidate_it_pass
 ) -> None:
     # Recomputed here from the public functions (the sizes come from the cache): the chosen
     # compressor's held-out merit (own origin best, plus how well a missing origin is told
-    # apart, on the scores as the classification would make them: footing and shape view) is
-    # within one item of the best of those it measured.
+    # apart: the mean of the better AUC and the share of its items refused at the default
+    # significance, on the scores as the classification would make them: footing and shape
+    # view) is within one item of the best of those it measured.
     reference, _, _ = log_rounds[0]
     measured = {f.spec: f for f in log_choice.task}
     assert log_choice.spec in measured and len(measured) >= 3
@@ -683,8 +688,10 @@ def test_auto_separates_the_reference_at_least_as_well_as_each_candidate_it_pass
         keep = content.measured & shaped.measured
         codes = content.codes[keep]
         way = Scoring.choose(content.scores[keep], shaped.scores[keep], codes, content.origins)
-        scores = way.apply(content.scores[keep], shaped.scores[keep])
-        figures[spec] = np.mean(scores.argmin(axis=1) == codes) + max(novelty_aucs(scores, codes))
+        scores = way.stack(content.scores[keep], shaped.scores[keep])
+        auc = max(novelty_aucs(scores, codes))
+        refused = max(novelty_detection(scores, codes, DEFAULT_SIGNIFICANCE).values())
+        figures[spec] = np.mean(combined(scores).argmin(axis=1) == codes) + (auc + refused) / 2
         assert figures[spec] == pytest.approx(measured[spec].merit)
     one_item = 1 / measured[log_choice.spec].items
     assert all(figures[log_choice.spec] >= s - one_item for s in figures.values()), figures

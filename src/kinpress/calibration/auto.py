@@ -11,6 +11,7 @@ from ..cache import SizeCache
 from ..compressors import AUTO_CANDIDATES, compressor
 from ..engine import Engine
 from ..items import Item
+from ..origins.scores import DEFAULT_SIGNIFICANCE
 from .choose import DEFAULT_BUDGET_SECONDS, calibrate, choose_compressor, holds
 from .controls import DEFAULT_SEED
 from .job import LABELLED_JOBS, Choice, choose_for_job
@@ -35,29 +36,34 @@ def resolve_auto(
     say: Callable[[str], None] = lambda message: None,
     replicates: int = 0,
     null_pairs: int = 0,
+    significance: float = DEFAULT_SIGNIFICANCE,
 ) -> str:
     """The spec ``-c auto`` uses for ``job`` on ``items``: :func:`choose_for_job`'s choice
-    (classify: ``items`` is the labelled reference, ``targets`` the unknowns; ``replicates``
-    and ``null_pairs`` the job's work beyond its matrix), said through ``say``, with a
+    (classify: ``items`` is the labelled reference, ``targets`` the unknowns, ``significance``
+    the rate its abstention refuses at; ``replicates`` and ``null_pairs`` the job's work beyond
+    its matrix), said through ``say``, with a
     MeasurementWarning when even it cannot hold the largest pair of items.
 
     The choice is kept in ``cache``, keyed by the items' contents (and labels for a labelled
     job), the job, the candidates (with their library versions), the seed, the budget, the
-    cores of ``engine``, the strand and the work beyond the matrix, so a rerun does not
-    calibrate again.
+    cores of ``engine``, the strand, the work beyond the matrix and a labelled job's
+    significance, so a rerun does not calibrate again.
     """
     import json
 
     from ..measure import MeasurementWarning
 
     cores = engine.jobs
-    key = _auto_key(items, job, targets, budget_seconds, cores, strand, replicates, null_pairs)
+    key = _auto_key(
+        items, job, targets, budget_seconds, cores, strand, replicates, null_pairs, significance
+    )
     stored = cache.get_choice(key) if cache is not None else None
     if stored is None:
         say(f"auto: calibrating the compressors on these inputs for {job} ...")
         choice = choose_for_job(items, job, targets=targets, budget_seconds=budget_seconds,
                                 strand=strand, engine=engine, cache=cache,
-                                replicates=replicates, null_pairs=null_pairs)  # fmt: skip
+                                replicates=replicates, null_pairs=null_pairs,
+                                significance=significance)  # fmt: skip
         stored = _choice_json(choice, items, job in LABELLED_JOBS)
         if cache is not None:
             cache.put_choice(key, stored)
@@ -84,6 +90,7 @@ def _auto_key(
     strand: str,
     replicates: int,
     null_pairs: int,
+    significance: float = DEFAULT_SIGNIFICANCE,
 ) -> str:
     """The size-cache key of :func:`resolve_auto`'s choice (what its docstring lists)."""
     import hashlib
@@ -100,7 +107,8 @@ def _auto_key(
         *(compressor(spec).cache_key for spec in candidates),
         f"seed={DEFAULT_SEED} budget={budget_seconds} cores={cores} strand={strand}"
         + (f" replicates={replicates} null_pairs={null_pairs}" if replicates or null_pairs else ""),
-        f"job={job} targets={len(targets)}:{sum(len(t.data) for t in targets)} ranked=merit"
+        f"job={job} targets={len(targets)}:{sum(len(t.data) for t in targets)}"
+        f" ranked=named-right+missing-refused significance={significance}"
         if labelled
         else "job=unlabelled",
     ]

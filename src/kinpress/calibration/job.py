@@ -16,6 +16,7 @@ from ..cache import SizeCache
 from ..compressors import AUTO_CANDIDATES, Compressor, compressor
 from ..engine import Engine, LocalEngine
 from ..items import Item
+from ..origins.scores import DEFAULT_SIGNIFICANCE
 from ..units import duration_text, size_text
 from .choose import (
     DEFAULT_BUDGET_SECONDS,
@@ -58,14 +59,16 @@ class TaskFigures:
     """What a candidate showed on the job's own data.
 
     Labelled jobs: on the reference held out fold by fold (see origins.FoldScores), `accuracy`
-    the share of held-out items whose own origin scores best, `novelty` how well an origin left
-    out is told from the others (the better ROC AUC of the fit and separation tests, see
-    origins.Conformity), `merit` their sum, `items` held out, `divided` whether the content
+    the share of held-out items whose own origin scores best, `novelty` how well the held-out
+    items of an origin left out of the reference are told from the others' (each origin left
+    out in turn): the mean of `refused`, the share of them the abstention refuses at
+    `significance` by the test the classification would choose (origins.novelty_detection), and
+    `auc`, the better ROC AUC of the fit and separation tests (origins.novelty_aucs), free of
+    any threshold, which steadies a count that moves by whole items on a small reference;
+    `merit` is accuracy plus novelty, `items` the items held out, `divided` whether the content
     scores are divided by the origins' backgrounds and `shape` whether the shape view joins in,
     as the classification will decide them (see origins.Scoring; `own_score` is the median own
-    score as measured). Both are free of any
-    threshold, so they rank compressors finely where rates at a significance would all sit near
-    1 - rate.
+    score as measured).
     Unlabelled jobs: on all pairs of a sample of items, `saturation` the share of distances
     at or above 1 (nothing shared found) and `contrast` the mean over items of
     1 - nearest / median distance (how much nearer an item's nearest is than its typical one).
@@ -75,7 +78,10 @@ class TaskFigures:
     seconds: float
     accuracy: float | None = None
     novelty: float | None = None
+    refused: float | None = None
+    auc: float | None = None
     merit: float | None = None
+    significance: float | None = None
     own_score: float | None = None
     items: int = 0
     saturation: float | None = None
@@ -89,8 +95,9 @@ class TaskFigures:
     def summary(self) -> str:
         if self.merit is not None:
             return (
-                f"held-out reference: own origin best for {self.accuracy:.1%}, a missing origin"
-                f" told apart with AUC {self.novelty:.3f}, merit {self.merit:.3f}, own score"
+                f"held-out reference: own origin best for {self.accuracy:.1%}; a missing"
+                f" origin's items refused at {self.significance:g} for {self.refused:.1%}, told"
+                f" apart with AUC {self.auc:.3f}; merit {self.merit:.3f}, own score"
                 f" {self.own_score:.3f}"
                 + (", content scores divided by the origins' backgrounds" if self.divided else "")
                 + (", with the shape view" if self.shape else "")
@@ -128,8 +135,9 @@ def _labelled_figures(
     longest: int,
     engine: Engine | None,
     cache: SizeCache | None,
+    significance: float,
 ) -> TaskFigures:
-    from ..origins import fold_scores, novelty_aucs
+    from ..origins import fold_scores, novelty_aucs, novelty_detection
     from ..origins.conformal import combined
     from ..origins.views import Scoring, shaped_items
 
@@ -147,14 +155,21 @@ def _labelled_figures(
     scores = way.stack(measured, shaped.scores[keep])
     accuracy = float(np.mean(combined(scores).argmin(axis=1) == codes))
     own_score = float(np.median(measured[np.arange(len(codes)), codes]))
-    novelty = max(novelty_aucs(scores, codes))
-    novelty = 0.5 if novelty != novelty else novelty  # NaN: too few origins to leave one out
+    # NaN with too few origins to leave one out: no better than chance, nothing refused
+    auc = max(novelty_aucs(scores, codes))
+    auc = 0.5 if auc != auc else auc
+    refused = max(novelty_detection(scores, codes, significance).values())
+    refused = 0.0 if refused != refused else refused
+    novelty = (auc + refused) / 2
     return TaskFigures(
         spec=spec,
         seconds=time.perf_counter() - started,
         accuracy=accuracy,
         novelty=novelty,
+        refused=refused,
+        auc=auc,
         merit=accuracy + novelty,
+        significance=significance,
         own_score=own_score,
         items=len(codes),
         divided=way.content.divided,
@@ -170,6 +185,7 @@ def _choose_labelled(
     cores: int,
     engine: Engine | None,
     cache: SizeCache | None,
+    significance: float,
 ) -> tuple[str, tuple[TaskFigures, ...], list[str]]:
     """The labelled choice in three steps: the candidates that hold the largest item and whose
     job fits the budget (:func:`_within_budget`), their held-out figures within the measuring
@@ -183,7 +199,7 @@ def _choose_labelled(
         reasons.insert(0, f"{fastest.spec}: chosen although over the budget: the fastest")
         return fastest.spec, (), reasons
     figures = _measure_labelled(
-        items, len(targets), timed, budget_seconds, longest, engine, cache, reasons
+        items, len(targets), timed, budget_seconds, longest, engine, cache, significance, reasons
     )
     best = _pick_labelled(figures, len({item.label for item in items}), reasons)
     return best.spec, tuple(figures), reasons
@@ -234,6 +250,7 @@ def _measure_labelled(
     longest: int,
     engine: Engine | None,
     cache: SizeCache | None,
+    significance: float,
     reasons: list[str],
 ) -> list[TaskFigures]:
     """Held-out figures of the ``timed`` candidates, quickest first, while their measuring fits
@@ -254,7 +271,7 @@ def _measure_labelled(
             )
             continue
         spent += share
-        figures.append(_labelled_figures(items, spec, longest, engine, cache))
+        figures.append(_labelled_figures(items, spec, longest, engine, cache, significance))
     return figures
 
 
@@ -366,6 +383,7 @@ def choose_for_job(
     cache: SizeCache | None = None,
     replicates: int = 0,
     null_pairs: int = 0,
+    significance: float = DEFAULT_SIGNIFICANCE,
 ) -> Choice:
     """The compressor ``-c auto`` uses for a job of kind ``job`` (one of JOBS) on ``items``.
 
@@ -373,8 +391,9 @@ def choose_for_job(
     against windows too small and report biases and speed. A labelled job (classify: ``items``
     is the labelled reference, ``targets`` the items to classify) then ranks the candidates
     whose whole job fits ``budget_seconds`` by how well they separate the reference's own
-    origins held out fold by fold (origins.fold_report): named right and refused when their
-    origin is missing; within one item of the best, the quickest wins. Measuring may take a
+    origins held out fold by fold (origins.fold_report): named right, and refused at
+    ``significance`` when their origin is missing; within one item of the best, the quickest
+    wins. Measuring may take a
     half of the budget (MEASURING_SHARE); the held-out sizes are
     measured through the size cache, so the winner's calibration reuses them. An unlabelled
     job (matrix, tree, groups, derived) takes :func:`choose_compressor`'s choice unless a sample
@@ -398,7 +417,7 @@ def choose_for_job(
             sweep_seconds=1.0,
         )
         spec, figures, reasons = _choose_labelled(
-            items, targets, report, budget_seconds, cores, engine, cache
+            items, targets, report, budget_seconds, cores, engine, cache, significance
         )
         return Choice(spec, job, replace(report, recommended=spec, reasons=tuple(reasons)),
                       figures, tuple(reasons))  # fmt: skip

@@ -144,6 +144,7 @@ def resolve_spec(
     if args.compressor != "auto":
         return str(args.compressor)
     from ..calibration import resolve_auto
+    from ..origins import DEFAULT_SIGNIFICANCE
 
     job = job or args.command
     null_pairs = 0
@@ -151,11 +152,14 @@ def resolve_spec(
         from ..derived import default_null_pairs
 
         null_pairs = default_null_pairs(getattr(args, "max_fpr", None) or 0.01)
+    # classify's abstention refuses at --significance; auto ranks by what is refused at it
+    given = getattr(args, "significance", None)
     with opened_cache(args) as cache:
         args.compressor = resolve_auto(
             items, job, targets=targets, budget_seconds=budget_seconds(args),
             strand=args.strand, engine=args.engine, cache=cache, say=console.say,
             replicates=getattr(args, "bootstrap", 0) or 0, null_pairs=null_pairs,
+            significance=DEFAULT_SIGNIFICANCE if given is None else given,
         )  # fmt: skip
     return str(args.compressor)
 

@@ -15,7 +15,7 @@ from ..engine import Engine
 from ..items import ItemLike, as_items
 from ..measure import Measurement
 from .classification import _calibrate, _decision_scores
-from .scores import DEFAULT_BLOCKS, _measurement, _Reference
+from .scores import DEFAULT_BLOCKS, DEFAULT_SIGNIFICANCE, _measurement, _Reference
 
 
 class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[misc]
@@ -87,6 +87,9 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
                     budget_seconds=self.budget,
                     engine=self.engine,
                     cache=cache,
+                    significance=DEFAULT_SIGNIFICANCE
+                    if self.significance is None
+                    else self.significance,
                 ).spec
             self.longest_ = max(len(i.data) for i in labelled)
             self.calibrated_ = _calibrate(
