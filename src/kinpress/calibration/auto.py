@@ -70,7 +70,12 @@ def resolve_auto(
     else:
         say("auto: the choice for these inputs is in the cache")
     chosen = json.loads(stored)
-    say(f"auto: chose {chosen['spec']}: {chosen['why']}")
+    why = str(chosen["why"])
+    # The reasons name their spec first ("SPEC: chosen: ...", "SPEC: chosen over X: ..."):
+    # said once here.
+    lead = f"{chosen['spec']}: chosen"
+    said = why[len(lead) :] if why.startswith(lead) else f": {why}"
+    say(f"auto: chose {chosen['spec']}{said}")
     if not chosen["holds"]:
         warnings.warn(
             f"{chosen['spec']}: reliable up to {chosen['reliable']:,} bytes, below the largest"
