@@ -63,7 +63,7 @@ def exhaustive_rows(items: list[Item], queries: list[int], spec: str) -> np.ndar
     single = np.array(comp.sizes([item.data for item in items]), dtype=np.int64)
     rows = np.empty((len(queries), len(items)))
     others = np.arange(len(items))
-    batch = max(1, 200_000 // len(items))
+    batch = max(1, 2_000_000 // len(items))  # a few calls: each measures every C(x) again
     for start in range(0, len(queries), batch):
         chunk = queries[start : start + batch]
         pairs = []
