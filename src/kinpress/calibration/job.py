@@ -138,8 +138,9 @@ def _labelled_figures(
     significance: float,
 ) -> TaskFigures:
     from ..origins import fold_scores, novelty_aucs, novelty_detection
+    from ..origins.classification import _both_measured, _calibration
     from ..origins.conformal import combined
-    from ..origins.views import Scoring, shaped_items
+    from ..origins.views import shaped_items
 
     started = time.perf_counter()
 
@@ -149,10 +150,9 @@ def _labelled_figures(
         )
 
     folds, shaped = held_out(items), held_out(shaped_items(items))
-    keep = folds.measured & shaped.measured
-    measured, codes = folds.scores[keep], folds.codes[keep]
-    way = Scoring.choose(measured, shaped.scores[keep], codes, folds.origins)
-    scores = way.stack(measured, shaped.scores[keep])
+    # the scoring and decision scores the classification's calibration would make of them
+    way, scores, codes = _calibration(folds, shaped, choose=True)
+    measured = folds.scores[_both_measured(folds, shaped)]
     accuracy = float(np.mean(combined(scores).argmin(axis=1) == codes))
     own_score = float(np.median(measured[np.arange(len(codes)), codes]))
     # NaN with too few origins to leave one out: no better than chance, nothing refused
