@@ -158,8 +158,8 @@ def _labelled_figures(
     # NaN with too few origins to leave one out: no better than chance, nothing refused
     auc = max(novelty_aucs(scores, codes))
     auc = 0.5 if auc != auc else auc
-    refused = max(novelty_detection(scores, codes, significance).values())
-    refused = 0.0 if refused != refused else refused
+    detected = [v for v in novelty_detection(scores, codes, significance).values() if v == v]
+    refused = max(detected) if detected else 0.0
     novelty = (auc + refused) / 2
     return TaskFigures(
         spec=spec,

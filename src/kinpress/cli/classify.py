@@ -7,6 +7,7 @@ from typing import Any
 
 from ..formats import emit
 from ..items import escape_name, load_items
+from ..origins.conformal import test_words
 from . import _options
 from ._common import (
     as_usage_errors,
@@ -152,7 +153,7 @@ def _classification_text(found: Any) -> str:
         table(rows).rstrip("\n"),
         LEGEND,
         "",
-        f"p-value: of the {found.abstention.test} test for the best origin (below"
+        f"p-value: of {test_words(found.abstention.test)} for the best origin (below"
         f" {found.abstention.significance} it does not accept the item: fit, how typical the"
         " item is of that origin's own held-out items; separation, how much better it explains"
         " the item than the next origin does, against its own items; contrast, fit less how"

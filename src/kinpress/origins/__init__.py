@@ -24,10 +24,11 @@ conformal test (Vovk, Gammerman & Shafer 2005) calibrated on reference items hel
 would come: each origin's items are cut into contiguous blocks (later chunks of a log, files of
 other folders), and block b of every origin is scored against the reference without block b.
 Leave-one-out scores were too optimistic: neighbouring chunks of one log explain each other, and
-new data drifts. The test is either the fit of the item to the best origin (its score against
-the scores of that origin's own held-out items, on a scale from a typical own item to a typical
-stranger) or the separation of the best origin from the next, whichever tells held-out items of a
-left-out origin from the rest better on this reference. An item the best origin does not accept
+new data drifts. The test is the fit of the item to the best origin (its score against the
+scores of that origin's own held-out items, on a scale from a typical own item to a typical
+stranger), the separation of the best origin from the next, their contrast, or a mix of the three
+learnt on the reference (Mix), whichever refuses more held-out items of a left-out origin on this
+reference. An item the best origin does not accept
 is ambiguous when several origins fit it, unknown otherwise. Known items are refused at a rate of
 at most the significance as long as new data drifts no more than the held-out blocks do; the
 output says so, and warns when too few reference items make the asked rate impossible. A fixed
@@ -57,9 +58,12 @@ from .classification import (
     fold_report,
 )
 from .conformal import (
+    DECIDERS,
+    MIX,
     TESTS,
     Abstention,
     Conformity,
+    Mix,
     _auc,
     _statistics,
     conformal_p_values,
@@ -79,10 +83,12 @@ from .scores import (
 from .views import Scoring, shape
 
 __all__ = [
+    "DECIDERS",
     "DECISIONS",
     "DEFAULT_BLOCKS",
     "DEFAULT_SIGNIFICANCE",
     "METHODS",
+    "MIX",
     "TESTS",
     "Abstention",
     "Background",
@@ -92,6 +98,7 @@ __all__ = [
     "Evaluation",
     "FoldReport",
     "FoldScores",
+    "Mix",
     "Prediction",
     "Scoring",
     "_auc",

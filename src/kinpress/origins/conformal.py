@@ -6,7 +6,7 @@ from __future__ import annotations
 
 import warnings
 from collections.abc import Iterator, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -15,7 +15,17 @@ from ..measure import MeasurementWarning
 from .scores import DEFAULT_BLOCKS
 
 TESTS = ("fit", "separation", "contrast")
-"""The statistics an abstention can test (see Conformity); the reference chooses among them."""
+"""The single statistics an abstention can test (see Conformity)."""
+
+MIX = "mix"
+"""The deciding statistic that weighs every test's statistic of every view (see Mix)."""
+
+DECIDERS = (*TESTS, MIX)
+"""What the reference chooses the deciding statistic among (see Conformity)."""
+
+CLIP = 20.0
+"""Test statistics are clipped to +-CLIP before the mix standardises them: a score far beyond
+every held-out one (an item nothing explains) would otherwise set the mix's scales."""
 
 
 def conformal_p_values(sample: np.ndarray, values: np.ndarray) -> np.ndarray:
@@ -153,13 +163,137 @@ def novelty_aucs(scores: np.ndarray, codes: np.ndarray) -> tuple[float, float]:
     return float(np.mean(fit_aucs)), float(np.mean(separation_aucs))
 
 
+def _features(
+    scores: np.ndarray, centre: np.ndarray, scale: np.ndarray, own: np.ndarray
+) -> np.ndarray:
+    """Each row's statistic of every test in every view, for the origin `own[row]`, clipped to
+    +-CLIP: (items, tests x views), what Mix weighs."""
+    if scores.ndim == 3:
+        return np.column_stack(
+            [
+                _features(scores[:, :, v], centre[:, v], scale[:, v], own)
+                for v in range(scores.shape[2])
+            ]
+        )
+    found = _statistics(scores, centre, scale, own)
+    return np.asarray(np.clip(np.column_stack([found[test] for test in TESTS]), -CLIP, CLIP))
+
+
+@dataclass(frozen=True)
+class _Round:
+    """One origin left out: the test statistics (see _features) of the other origins' held-out
+    items for their own origin (`known`) and of the left-out origin's items for their best
+    kept origin (`strangers`)."""
+
+    known: np.ndarray
+    strangers: np.ndarray
+
+
+def _rounds(scores: np.ndarray, codes: np.ndarray) -> list[_Round]:
+    """Each origin left out in turn (see _leave_each_origin_out), as Mix learns from it."""
+    found = []
+    for out in _leave_each_origin_out(scores, codes):
+        known, strangers = out.reduced[out.known], out.reduced[~out.known]
+        found.append(
+            _Round(
+                _features(known, out.centre, out.scale, out.relabel),
+                _features(strangers, out.centre, out.scale, combined(strangers).argmin(axis=1)),
+            )
+        )
+    return found
+
+
+@dataclass(frozen=True)
+class Mix:
+    """A deciding statistic that weighs the fit, separation and contrast statistics of every
+    view together: the log-odds of a logistic regression that tells held-out items of origins
+    left out of the reference (each in turn) from the other origins' held-out items, each
+    class weighted to half, no weight below 0 (each statistic is larger for a stranger, so
+    the mix only adds them up). Features are standardised by `centre` and `spread`; the
+    statistic is `weights` . standardised + `offset`, larger is stranger. A mix is a function of the
+    reference's held-out scores alone, so a new known item's statistic is still compared with
+    its origin's held-out items' (Conformity)."""
+
+    centre: np.ndarray
+    spread: np.ndarray
+    weights: np.ndarray
+    offset: float
+
+    @classmethod
+    def learn(cls, rounds: Sequence[_Round]) -> Mix | None:
+        """The mix of the rounds' items; None without items of both kinds, or when no
+        statistic earns a weight above 0."""
+        known = [r.known for r in rounds if len(r.known)]
+        strangers = [r.strangers for r in rounds if len(r.strangers)]
+        if not known or not strangers:
+            return None
+        x = np.vstack([*known, *strangers])
+        y = np.repeat([0.0, 1.0], [sum(map(len, known)), sum(map(len, strangers))])
+        centre, spread = x.mean(axis=0), x.std(axis=0) + 1e-9
+        standard = (x - centre) / spread
+        # Every statistic is larger for a stranger, so the mix may only add them up: a weight
+        # below 0 (collinear statistics pulling against each other, contrast being fit less
+        # the lead) drops its statistic and the rest are fitted again.
+        used = np.ones(x.shape[1], dtype=bool)
+        while True:
+            found, offset = _logistic(standard[:, used], y)
+            if (found >= 0).all():
+                break
+            used[np.flatnonzero(used)[found < 0]] = False
+        if not used.any():
+            return None  # nothing tells the strangers: no mix
+        weights = np.zeros(x.shape[1])
+        weights[used] = found
+        return cls(centre, spread, weights, offset)
+
+    def __call__(self, features: np.ndarray) -> np.ndarray:
+        return np.asarray(((features - self.centre) / self.spread) @ self.weights + self.offset)
+
+
+def _logistic(x: np.ndarray, y: np.ndarray, steps: int = 50) -> tuple[np.ndarray, float]:
+    """Weights and offset of an L2-penalised logistic regression (penalty half the squared
+    weights, the offset free), each class weighted to half the total, by Newton's method: the
+    model scikit-learn's LogisticRegression(class_weight="balanced") fits by default."""
+    n, k = x.shape
+    share = np.where(y > 0, n / (2 * max(y.sum(), 1)), n / (2 * max(n - y.sum(), 1)))
+    design = np.column_stack([x, np.ones(n)])
+    penalty = np.ones(k + 1)
+    penalty[-1] = 0.0
+    beta = np.zeros(k + 1)
+    for _ in range(steps):
+        p = 1 / (1 + np.exp(-np.clip(design @ beta, -30, 30)))
+        gradient = design.T @ (share * (p - y)) + penalty * beta
+        hessian = (design * (share * p * (1 - p))[:, None]).T @ design + np.diag(penalty)
+        hessian[-1, -1] += 1e-9
+        step = np.linalg.solve(hessian, gradient)
+        beta -= step
+        if np.abs(step).max() < 1e-8:
+            break
+    return beta[:-1].copy(), float(beta[-1])
+
+
+def _mix_detection(rounds: Sequence[_Round], significance: float) -> float:
+    """The share of a left-out origin's held-out items the mix refuses at `significance`, each
+    round's mix learnt on the other rounds only (an honest figure, comparable with the single
+    tests'); NaN with fewer than three rounds."""
+    refused = []
+    for k, round_ in enumerate(rounds if len(rounds) >= 3 else ()):
+        mix = Mix.learn([r for j, r in enumerate(rounds) if j != k])
+        if mix is None or not len(round_.known) or not len(round_.strangers):
+            continue
+        p = conformal_p_values(mix(round_.known), mix(round_.strangers))
+        refused.append(float(np.mean(p <= significance)))
+    return float(np.mean(refused)) if refused else float("nan")
+
+
 def novelty_detection(
     scores: np.ndarray, codes: np.ndarray, significance: float
 ) -> dict[str, float]:
-    """Per test, the share of held-out items of an origin missing from the reference that the
-    test refuses at `significance`, each origin left out in turn: the others' held-out items
-    calibrate, as they would for new data (pooled conformal p-values), and the left-out
-    origin's items are scored on the rest. NaN with fewer than three origins."""
+    """Per deciding statistic (DECIDERS), the share of held-out items of an origin missing from
+    the reference that it refuses at `significance`, each origin left out in turn: the others'
+    held-out items calibrate, as they would for new data (pooled conformal p-values), and the
+    left-out origin's items are scored on the rest; the mix of each round is learnt without
+    it (_mix_detection). NaN with fewer than three origins."""
     refused: dict[str, list[float]] = {test: [] for test in TESTS}
     for out in _leave_each_origin_out(scores, codes) if scores.shape[1] >= 3 else ():
         known, strangers = out.reduced[out.known], out.reduced[~out.known]
@@ -168,13 +302,29 @@ def novelty_detection(
         for test in TESTS:
             p = conformal_p_values(calibration[test], strange[test])
             refused[test].append(float(np.mean(p <= significance)))
-    return {test: float(np.mean(v)) if v else float("nan") for test, v in refused.items()}
+    found = {test: float(np.mean(v)) if v else float("nan") for test, v in refused.items()}
+    rounds = _rounds(scores, codes) if scores.shape[1] >= 3 else []
+    found[MIX] = _mix_detection(rounds, significance)
+    return found
+
+
+def test_words(test: str | None) -> str:
+    """A deciding statistic named for a reader: "the fit test", or what the mix weighs."""
+    if test == MIX:
+        return (
+            "the fit, separation and contrast tests weighed together (a logistic regression"
+            " learnt on the reference's origins, each left out in turn)"
+        )
+    return f"the {test} test"
 
 
 def _choose_test(detection: dict[str, float]) -> str:
-    """The test that refused most held-out strangers; fit on ties or without a measure."""
+    """The deciding statistic that refused most held-out strangers; on ties a single test before
+    the mix and fit first; fit without a measure."""
     measured = {t: v for t, v in detection.items() if v == v}
-    return max(TESTS, key=lambda t: (measured.get(t, -1.0), t == "fit")) if measured else "fit"
+    if not measured:
+        return "fit"
+    return max(DECIDERS, key=lambda t: (measured.get(t, -1.0), t != MIX, t == "fit"))
 
 
 @dataclass(frozen=True)
@@ -196,9 +346,11 @@ class Conformity:
     the reference, explained by a kindred origin hardly better than by the rest, is strange on
     both counts). `test` is the one that decides whether b accepts x: "fit" (x is as typical
     of b as b's own held-out items), "separation" (b explains x as much better than the next
-    as it does its own held-out items) or "contrast", chosen on the reference: the test that
-    refuses most held-out items of an origin left out of it at the significance
-    (`detection`, see novelty_detection; fit on ties).
+    as it does its own held-out items), "contrast" or "mix" (`mix`, every test's statistic of
+    every view weighed together by a logistic regression learnt on the reference, see Mix),
+    chosen on the reference: the one that refuses most held-out items of an origin left out of
+    it at the significance (`detection`, see novelty_detection; on ties a single test, fit
+    first).
     Scores of two views (an (items, origins, views) stack: content and shape, see Scoring) pick
     b by their geometric mean, and each test's statistic is the stranger of the two views', each
     view with its own centre and scale ((origins, views) arrays): an item of a missing origin
@@ -219,26 +371,46 @@ class Conformity:
     codes: np.ndarray
     significance: float
     detection: tuple[tuple[str, float], ...]
+    mix: Mix | None = None
 
     @classmethod
     def of(
-        cls, scores: np.ndarray, codes: np.ndarray, origins: Sequence[str], significance: float
+        cls,
+        scores: np.ndarray,
+        codes: np.ndarray,
+        origins: Sequence[str],
+        significance: float,
+        test: str | None = None,
     ) -> Conformity:
-        """Calibrate on held-out scores (one row per held-out item, `codes` their origins)."""
+        """Calibrate on held-out scores (one row per held-out item, `codes` their origins);
+        `test` (one of DECIDERS) overrides the reference's choice of the deciding statistic,
+        and then nothing is chosen (`detection` is empty)."""
+        if test is not None and test not in DECIDERS:
+            raise ValueError(f"unknown test {test!r}: use one of {', '.join(DECIDERS)}")
         centre, scale = _profile(scores, codes)
-        found = _statistics(scores, centre, scale, codes)
-        detection = novelty_detection(scores, codes, significance)
-        test = _choose_test(detection)
-        return cls(
+        detection = novelty_detection(scores, codes, significance) if test is None else {}
+        test = _choose_test(detection) if test is None else test
+        mix = Mix.learn(_rounds(scores, codes)) if test == MIX else None
+        if test == MIX and mix is None:
+            test = "fit"  # nothing to learn a mix from, or nothing it could tell
+        found = cls(
             origins=tuple(origins),
             centre=centre,
             scale=scale,
             test=test,
-            test_calibration=found[test],
+            test_calibration=np.empty(0),
             codes=codes,
             significance=significance,
             detection=tuple(detection.items()),
+            mix=mix,
         )
+        return replace(found, test_calibration=found.statistic(scores, codes))
+
+    def statistic(self, scores: np.ndarray, own: np.ndarray) -> np.ndarray:
+        """The deciding statistic of each row for the origin `own[row]`, larger is stranger."""
+        if self.mix is not None:
+            return self.mix(_features(scores, self.centre, self.scale, own))
+        return _statistics(scores, self.centre, self.scale, own)[self.test]
 
     @property
     def label_conditional(self) -> np.ndarray:
@@ -256,8 +428,7 @@ class Conformity:
         p = np.zeros((n, m))
         for origin in range(m):
             own = np.full(n, origin)
-            strange = _statistics(scores, self.centre, self.scale, own)[self.test]
-            p[:, origin] = self._against(self.test_calibration, origin, strange)
+            p[:, origin] = self._against(self.test_calibration, origin, self.statistic(scores, own))
         best = combined(scores).argmin(axis=1)
         return p, best, p[np.arange(n), best]
 
@@ -297,12 +468,12 @@ class Abstention:
         )
         text = (
             f"items of origins in the reference are refused (unknown or ambiguous) at a rate of"
-            f" at most {self.significance:g} (conformal p-values of the {self.test} test, Vovk et"
-            f" al. 2005; {pooled}; from {self.calibration_scores} reference items held out in"
-            f" {self.blocks} blocks), provided new items differ from the reference no more than"
-            " its held-out blocks differ from the rest; data that drifts further is refused more"
-            " often, and items of an origin missing from the reference are refused but without"
-            " a stated rate"
+            f" at most {self.significance:g} (conformal p-values of {test_words(self.test)},"
+            f" Vovk et al. 2005; {pooled}; from {self.calibration_scores} reference items held"
+            f" out in {self.blocks} blocks), provided new items differ from the reference no more"
+            " than its held-out blocks differ from the rest; data that drifts further is refused"
+            " more often, and items of an origin missing from the reference are refused but"
+            " without a stated rate"
         )
         if self.smallest_rate is not None and self.significance < self.smallest_rate:
             text += (
@@ -320,6 +491,7 @@ class Abstention:
                     "significance": self.significance,
                     "threshold": self.threshold,
                     "test": self.test,
+                    "test_words": None if self.test is None else test_words(self.test),
                     "detection": dict(self.detection),
                     "calibration_scores": self.calibration_scores,
                     "label_conditional": self.label_conditional,
