@@ -260,6 +260,33 @@ def test_report_command_writes_html_and_json(tmp_path: Path, capsys) -> None:  #
     assert "--passages" in capsys.readouterr().err
 
 
+def test_report_with_auto_shows_the_table_behind_the_choice_without_calibrating_again(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    # -c auto calibrates once to choose; the page shows that calibration's table. A second
+    # calibration for the page (calibration_report's own) would double a first run's wait.
+    import kinpress.calibration.auto as auto
+
+    def again(*args: object, **kwargs: object) -> None:
+        raise AssertionError("the report calibrated a second time")
+
+    monkeypatch.setattr(auto, "calibrate", again)
+    monkeypatch.setattr(auto, "choose_compressor", again)
+    inputs = tmp_path / "in"
+    _write_family_files(inputs, "extra.txt")
+    cache = tmp_path / "sizes.sqlite"
+    for run, store in enumerate((["--no-cache"], ["--cache", str(cache)], ["--cache", str(cache)])):
+        data = tmp_path / f"r{run}.json"
+        argv = ["report", str(inputs), "--budget", "20", "--quiet", "--json", "-o", str(data)]
+        assert main([*argv, *store]) == 0
+        shown = json.loads(data.read_text())["compressor"]
+        assert not shown["given"]
+        table = shown["calibration"]
+        assert table["recommended"] == shown["spec"]
+        assert len(table["compressors"]) >= 2
+    assert cache.exists()
+
+
 def test_report_command_classifies_with_a_reference(tmp_path: Path) -> None:
     reference, unknown = tmp_path / "known", tmp_path / "new"
     unknown.mkdir()

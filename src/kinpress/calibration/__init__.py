@@ -27,7 +27,7 @@ The package in three steps, each a module, and the cached entry points:
   :func:`calibration_report` (what ``kinpress calibrate`` reports, kept there too).
 """
 
-from .auto import calibration_report, resolve_auto
+from .auto import auto_choice, calibration_report, resolve_auto
 from .choose import (
     DEFAULT_BUDGET_SECONDS,
     DEFAULT_CANDIDATES,
@@ -89,6 +89,7 @@ __all__ = [
     "Normality",
     "SizeSweep",
     "TaskFigures",
+    "auto_choice",
     "blind_spot",
     "calibrate",
     "calibrate_compressor",

@@ -1,5 +1,6 @@
 """The ``-c auto`` resolution and the calibrate command's report, each kept in the size cache:
-:func:`resolve_auto` (a choice per job, made by :func:`.choose.choose_for_job`) and
+:func:`resolve_auto` (a choice per job, made by :func:`.choose.choose_for_job`; with its
+calibration table, :func:`auto_choice`) and
 :func:`calibration_report` (what ``kinpress calibrate`` reports)."""
 
 from __future__ import annotations
@@ -38,7 +39,31 @@ def resolve_auto(
     null_pairs: int = 0,
     significance: float = DEFAULT_SIGNIFICANCE,
 ) -> str:
-    """The spec ``-c auto`` uses for ``job`` on ``items``: :func:`choose_for_job`'s choice
+    """The spec ``-c auto`` uses for ``job`` on ``items`` (see :func:`auto_choice`)."""
+    return auto_choice(
+        items, job, targets=targets, budget_seconds=budget_seconds, strand=strand,
+        engine=engine, cache=cache, say=say, replicates=replicates, null_pairs=null_pairs,
+        significance=significance,
+    )[0]  # fmt: skip
+
+
+def auto_choice(
+    items: Sequence[Item],
+    job: str,
+    *,
+    targets: Sequence[Item] = (),
+    budget_seconds: float = DEFAULT_BUDGET_SECONDS,
+    strand: str = "one",
+    engine: Engine,
+    cache: SizeCache | None = None,
+    say: Callable[[str], None] = lambda message: None,
+    replicates: int = 0,
+    null_pairs: int = 0,
+    significance: float = DEFAULT_SIGNIFICANCE,
+) -> tuple[str, CalibrationReport | None]:
+    """The spec ``-c auto`` uses for ``job`` on ``items``, and the calibration table behind it
+    (None for a choice kept by an earlier version, which did not keep its table):
+    :func:`choose_for_job`'s choice
     (classify: ``items`` is the labelled reference, ``targets`` the unknowns, ``significance``
     the rate its abstention refuses at; ``replicates`` and ``null_pairs`` the job's work beyond
     its matrix), said through ``say``, with a
@@ -58,6 +83,7 @@ def resolve_auto(
         items, job, targets, budget_seconds, cores, strand, replicates, null_pairs, significance
     )
     stored = cache.get_choice(key) if cache is not None else None
+    table: CalibrationReport | None = None
     if stored is None:
         say(f"auto: calibrating the compressors on these inputs for {job} ...")
         choice = choose_for_job(items, job, targets=targets, budget_seconds=budget_seconds,
@@ -65,11 +91,14 @@ def resolve_auto(
                                 replicates=replicates, null_pairs=null_pairs,
                                 significance=significance)  # fmt: skip
         stored = _choice_json(choice, items, job in LABELLED_JOBS)
+        table = choice.report
         if cache is not None:
             cache.put_choice(key, stored)
     else:
         say("auto: the choice for these inputs is in the cache")
     chosen = json.loads(stored)
+    if table is None and "report" in chosen:
+        table = _report_from_json(json.dumps(chosen["report"]))
     why = str(chosen["why"])
     # The reasons name their spec first ("SPEC: chosen: ...", "SPEC: chosen over X: ..."):
     # said once here.
@@ -83,7 +112,7 @@ def resolve_auto(
             MeasurementWarning,
             stacklevel=2,
         )
-    return str(chosen["spec"])
+    return str(chosen["spec"]), table
 
 
 def _auto_key(
@@ -121,8 +150,9 @@ def _auto_key(
 
 
 def _choice_json(choice: Choice, items: Sequence[Item], labelled: bool) -> str:
-    """What :func:`resolve_auto` keeps of a choice: the spec, the reason that settled it, and
-    whether it holds the largest pair of ``items`` (with the sizes a warning names)."""
+    """What :func:`resolve_auto` keeps of a choice: the spec, the reason that settled it,
+    whether it holds the largest pair of ``items`` (with the sizes a warning names), and the
+    calibration table behind it (what a report shows)."""
     import json
 
     pair = int(sum(sorted((len(item.data) for item in items), reverse=True)[:2]))
@@ -137,6 +167,7 @@ def _choice_json(choice: Choice, items: Sequence[Item], labelled: bool) -> str:
             "holds": labelled or holds(result, pair),
             "reliable": result.reliable_up_to_bytes,
             "pair": pair,
+            "report": choice.report.as_json(),
         }
     )
 

@@ -9,7 +9,7 @@ import os
 import warnings
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from ..cache import SizeCache, default_cache_path
 from ..compressors import SpecError, compressor
@@ -28,6 +28,9 @@ from ..items import (
 )
 from ._console import Console
 from ._options import UsageError, budget_seconds
+
+if TYPE_CHECKING:
+    from ..calibration.measure import CalibrationReport
 
 
 def table(rows: Sequence[Sequence[str]]) -> str:
@@ -141,9 +144,21 @@ def resolve_spec(
     """The compressor spec to use: as given, or with auto the one calibration chose for this
     command's job (`job`, default the command's name; see calibration.resolve_auto), its time
     counting --bootstrap replicates and derived's null."""
+    return resolve_choice(args, items, console, targets, job)[0]
+
+
+def resolve_choice(
+    args: argparse.Namespace,
+    items: Sequence[Item],
+    console: Console,
+    targets: Sequence[Item] = (),
+    job: str | None = None,
+) -> tuple[str, CalibrationReport | None]:
+    """resolve_spec's spec, and with auto the calibration table behind the choice (None for a
+    given compressor, or a choice an earlier version kept without its table)."""
     if args.compressor != "auto":
-        return str(args.compressor)
-    from ..calibration import resolve_auto
+        return str(args.compressor), None
+    from ..calibration import auto_choice
     from ..origins import DEFAULT_SIGNIFICANCE
 
     job = job or args.command
@@ -155,13 +170,13 @@ def resolve_spec(
     # classify's abstention refuses at --significance; auto ranks by what is refused at it
     given = getattr(args, "significance", None)
     with opened_cache(args) as cache:
-        args.compressor = resolve_auto(
+        args.compressor, table = auto_choice(
             items, job, targets=targets, budget_seconds=budget_seconds(args),
             strand=args.strand, engine=args.engine, cache=cache, say=console.say,
             replicates=getattr(args, "bootstrap", 0) or 0, null_pairs=null_pairs,
             significance=DEFAULT_SIGNIFICANCE if given is None else given,
         )  # fmt: skip
-    return str(args.compressor)
+    return str(args.compressor), table
 
 
 def check_strands(args: argparse.Namespace, items: Sequence[Item]) -> None:

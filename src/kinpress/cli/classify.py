@@ -7,7 +7,6 @@ from typing import Any
 
 from ..formats import emit
 from ..items import escape_name, load_items
-from ..origins.conformal import test_words
 from . import _options
 from ._common import (
     as_usage_errors,
@@ -140,6 +139,8 @@ def run(args: argparse.Namespace, console: Console) -> int:
 
 
 def _classification_text(found: Any) -> str:
+    from ..origins.conformal import test_words  # not at start-up: origins loads scikit-learn
+
     rows = [("item", "origin", "p-value", "confidence", "nearest", "distance")]
     for p in found.predictions:
         origin = p.predicted or p.decision

@@ -18,7 +18,7 @@ from ._common import (
     input_options,
     known_labels,
     opened_cache,
-    resolve_spec,
+    resolve_choice,
     warn_unlabelled,
     write_json,
 )
@@ -212,12 +212,15 @@ def run(args: argparse.Namespace, console: Console) -> int:
     calibration = None
     with _recorded(auto_warnings):
         if reference:
-            spec = resolve_spec(args, reference, recorder, targets=unknowns, job="classify")
+            spec, table = resolve_choice(args, reference, recorder, targets=unknowns,
+                                         job="classify")  # fmt: skip
         else:
-            spec = resolve_spec(args, items, recorder, job="derived" if args.derived else "tree")
+            job = "derived" if args.derived else "tree"
+            spec, table = resolve_choice(args, items, recorder, job=job)
     command = rerun_command(args, spec)
     if not given:
-        calibration = _calibration(args, reference or items, bool(reference))
+        # the table behind the choice; a choice kept by an earlier version has none
+        calibration = table or _calibration(args, reference or items, bool(reference))
     dm, _ = compute_matrix(args, console, None, items=items)
     with as_usage_errors():
         tree = build_tree(dm.labels, dm.distances, method=args.method, outgroup=outgroup)
