@@ -3,12 +3,14 @@
 Protocols (issue 10): logs, per system the first 10 chunks of 100 lines as reference and the next
 10 to classify, systems missing from the reference two (or a quarter) at a time, rotated; code,
 per language the first half of its files (name order) as reference and the rest to classify,
-languages missing a quarter at a time. For each setting it prints the share of known items named
-right, refused (unknown) and ambiguous, the share of a missing origin's items refused, and the
-run time; gzip 1-NN (Jiang et al. 2023) beside, which never refuses. "auto" is the default
-(-c auto, chosen on each round's reference). Data: ../shared/datasets-real (logs, code) and, where
-present, this machine's own material: --logs DIR (a folder of *.log files of other systems) and
-source files of many languages under /usr (--machine-code).
+languages missing a quarter at a time; texts, the Universal Declaration of Human Rights in 14
+languages cut into 6-line chunks, the first 10 of each as reference and the next 10 to classify,
+a quarter of the languages missing at a time. For each setting it prints the share of known
+items named right, refused (unknown) and ambiguous, the share of a missing origin's items
+refused, and the run time; gzip 1-NN (Jiang et al. 2023) beside, which never refuses. "auto" is
+the default (-c auto, chosen on each round's reference). Data: ../shared/datasets-real (logs,
+code, texts) and, where present, this machine's own material: --logs DIR (a folder of *.log files
+of other systems) and source files of many languages under /usr (--machine-code).
 
     python benchmarks/bench_origins.py [--logs DIR] [--machine-code] [--cache PATH]
 """
@@ -74,6 +76,17 @@ def log_origins(folder: Path) -> dict[str, list[Item]]:
         if len(chunks) >= 15:
             out[path.stem] = [Item(f"{path.stem}#{k + 1}", c, str(path), label=path.stem)
                               for k, c in enumerate(chunks)]  # fmt: skip
+    return out
+
+
+def text_origins(folder: Path, lines: int = 6) -> dict[str, list[Item]]:
+    """Each language's text cut into chunks of `lines` lines, in order (at most 20)."""
+    out = {}
+    for path in sorted(folder.glob("*.txt")):
+        rows = path.read_bytes().splitlines(keepends=True)
+        chunks = [b"".join(rows[k : k + lines]) for k in range(0, len(rows) - lines + 1, lines)]
+        out[path.stem] = [Item(f"{path.stem}#{k + 1}", c, str(path), label=path.stem)
+                          for k, c in enumerate(chunks[:20])]  # fmt: skip
     return out
 
 
@@ -185,6 +198,9 @@ def main() -> None:
     if SHARED.is_dir() and not args.only_machine:
         sets.append(("shared logs (Loghub)", lambda: log_origins(SHARED / "logs"), 10))
         sets.append(("shared code (Rosetta, 8 languages)", shared_code, 20))
+        sets.append(
+            ("shared texts (UDHR, 14 languages)", lambda: text_origins(SHARED / "texts"), 10)
+        )
     if args.logs:
         sets.append((f"logs in {args.logs}", lambda: log_origins(args.logs), 10))
     if args.machine_code:

@@ -47,6 +47,10 @@ def _wait_for_pair_tiles(cache: Path, run: subprocess.Popen[str]) -> None:
     pytest.fail("no pair tile was committed in time")
 
 
+def _default_interrupt() -> None:
+    signal.signal(signal.SIGINT, signal.SIG_DFL)
+
+
 def _stats(out: Path) -> dict[str, int]:
     return dict(json.loads(out.read_text())["stats"])
 
@@ -57,7 +61,10 @@ def test_an_interrupted_command_resumes_from_the_cache(
 ) -> None:
     folder = _folder(tmp_path, text_corpus)
     cache, out = tmp_path / "c.sqlite", tmp_path / "d.json"
-    run = subprocess.Popen(_matrix(folder, cache, out), stderr=subprocess.PIPE, text=True)
+    # A suite started in the background by a shell without job control inherits SIGINT ignored,
+    # and Python then installs no Ctrl-C handler: the command gets the default disposition back.
+    run = subprocess.Popen(_matrix(folder, cache, out), stderr=subprocess.PIPE, text=True,
+                           preexec_fn=_default_interrupt)  # fmt: skip
     _wait_for_pair_tiles(cache, run)
     run.send_signal(how)
     _, err = run.communicate(timeout=60)

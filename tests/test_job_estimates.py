@@ -65,18 +65,18 @@ def test_a_budget_the_matrix_fits_but_its_replicates_do_not_is_said_so() -> None
 
 
 def _fake_auto(calls: list[dict[str, object]]) -> object:
-    def resolve_auto(items: object, job: str, **options: object) -> str:
+    def auto_choice(items: object, job: str, **options: object) -> tuple[str, None]:
         calls.append({"job": job, **options})
-        return "zstd:level=1"
+        return "zstd:level=1", None
 
-    return resolve_auto
+    return auto_choice
 
 
 def test_auto_on_the_command_line_counts_bootstrap_and_null(
     monkeypatch: pytest.MonkeyPatch, tmp_path: Path
 ) -> None:
     calls: list[dict[str, object]] = []
-    monkeypatch.setattr(calibration, "resolve_auto", _fake_auto(calls))
+    monkeypatch.setattr(calibration, "auto_choice", _fake_auto(calls))
     tree = ["tree", str(GENOMES), "-c", "auto", "--no-cache", "--quiet", "--strand", "both"]
     assert cli.main([*tree, "--bootstrap", "2", "-o", str(tmp_path / "t.nwk")]) == 0
     assert cli.main(["derived", str(GENOMES), "-c", "auto", "--no-cache", "--quiet",
