@@ -309,6 +309,13 @@ def test_report_command_classifies_with_a_reference(tmp_path: Path) -> None:
     roles = {i["name"]: i["role"] for i in doc["items"]}
     assert roles["f0m2.txt"] == "unknown" and roles["family0/f0m0.txt"] == "reference"
     assert any("origin is evidence" in x for x in doc["cautions"])
+    # the page names the deciding test in words, as the JSON does
+    page = tmp_path / "o.html"
+    assert main([*argv[:-3], "-o", str(page)]) == 0
+    from markupsafe import escape  # what the page's template escapes with
+
+    words = c["abstention"]["test_words"]
+    assert words.startswith("the ") and f"conformal p-value of {escape(words)}" in page.read_text()
 
 
 # A real browser

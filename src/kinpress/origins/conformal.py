@@ -454,6 +454,11 @@ class Abstention:
     detection: tuple[tuple[str, float], ...] = ()
 
     @property
+    def test_words(self) -> str | None:
+        """The deciding test named for a reader (see test_words); None with a given cut."""
+        return None if self.test is None else test_words(self.test)
+
+    @property
     def guarantee(self) -> str:
         """What the refusals promise, and when the promise does not hold, in words."""
         if self.significance is None:
@@ -491,7 +496,7 @@ class Abstention:
                     "significance": self.significance,
                     "threshold": self.threshold,
                     "test": self.test,
-                    "test_words": None if self.test is None else test_words(self.test),
+                    "test_words": self.test_words,
                     "detection": dict(self.detection),
                     "calibration_scores": self.calibration_scores,
                     "label_conditional": self.label_conditional,
