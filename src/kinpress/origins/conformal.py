@@ -189,18 +189,18 @@ class _Round:
     strangers: np.ndarray
 
 
+def _round(out: _LeftOut) -> _Round:
+    """One left-out origin's round, as Mix learns from it."""
+    known, strangers = out.reduced[out.known], out.reduced[~out.known]
+    return _Round(
+        _features(known, out.centre, out.scale, out.relabel),
+        _features(strangers, out.centre, out.scale, combined(strangers).argmin(axis=1)),
+    )
+
+
 def _rounds(scores: np.ndarray, codes: np.ndarray) -> list[_Round]:
     """Each origin left out in turn (see _leave_each_origin_out), as Mix learns from it."""
-    found = []
-    for out in _leave_each_origin_out(scores, codes):
-        known, strangers = out.reduced[out.known], out.reduced[~out.known]
-        found.append(
-            _Round(
-                _features(known, out.centre, out.scale, out.relabel),
-                _features(strangers, out.centre, out.scale, combined(strangers).argmin(axis=1)),
-            )
-        )
-    return found
+    return [_round(out) for out in _leave_each_origin_out(scores, codes)]
 
 
 @dataclass(frozen=True)
@@ -294,7 +294,16 @@ def novelty_detection(
     held-out items calibrate, as they would for new data (pooled conformal p-values), and the
     left-out origin's items are scored on the rest; the mix of each round is learnt without
     it (_mix_detection). NaN with fewer than three origins."""
+    return _detection(scores, codes, significance)[0]
+
+
+def _detection(
+    scores: np.ndarray, codes: np.ndarray, significance: float
+) -> tuple[dict[str, float], list[_Round]]:
+    """novelty_detection's shares and the rounds the mix learns from, from one pass over the
+    left-out origins (no rounds with fewer than three origins)."""
     refused: dict[str, list[float]] = {test: [] for test in TESTS}
+    rounds = []
     for out in _leave_each_origin_out(scores, codes) if scores.shape[1] >= 3 else ():
         known, strangers = out.reduced[out.known], out.reduced[~out.known]
         calibration = _statistics(known, out.centre, out.scale, out.relabel)
@@ -302,10 +311,10 @@ def novelty_detection(
         for test in TESTS:
             p = conformal_p_values(calibration[test], strange[test])
             refused[test].append(float(np.mean(p <= significance)))
+        rounds.append(_round(out))
     found = {test: float(np.mean(v)) if v else float("nan") for test, v in refused.items()}
-    rounds = _rounds(scores, codes) if scores.shape[1] >= 3 else []
     found[MIX] = _mix_detection(rounds, significance)
-    return found
+    return found, rounds
 
 
 def test_words(test: str | None) -> str:
@@ -388,9 +397,12 @@ class Conformity:
         if test is not None and test not in DECIDERS:
             raise ValueError(f"unknown test {test!r}: use one of {', '.join(DECIDERS)}")
         centre, scale = _profile(scores, codes)
-        detection = novelty_detection(scores, codes, significance) if test is None else {}
-        test = _choose_test(detection) if test is None else test
-        mix = Mix.learn(_rounds(scores, codes)) if test == MIX else None
+        if test is None:  # the rounds the choice was made on are those the mix learns from
+            detection, rounds = _detection(scores, codes, significance)
+            test = _choose_test(detection)
+        else:
+            detection, rounds = {}, _rounds(scores, codes) if test == MIX else []
+        mix = Mix.learn(rounds) if test == MIX else None
         if test == MIX and mix is None:
             test = "fit"  # nothing to learn a mix from, or nothing it could tell
         found = cls(
