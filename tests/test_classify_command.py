@@ -118,6 +118,27 @@ def test_classify_needs_unknowns_or_evaluate(
     assert "--evaluate" in capsys.readouterr().err
 
 
+def test_only_empty_unknowns_are_an_error_before_auto_calibrates(
+    reference: Path,
+    tmp_path: Path,
+    capsys: pytest.CaptureFixture[str],
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    import kinpress.calibration.auto as auto
+
+    def calibrating(*args: object, **kwargs: object) -> None:
+        raise AssertionError("auto calibrated for inputs that hold nothing to classify")
+
+    monkeypatch.setattr(auto, "choose_for_job", calibrating)
+    empty = tmp_path / "empty.log"
+    empty.write_bytes(b"")
+    argv = ["classify", "--reference", str(reference), str(empty), "--no-cache", "--quiet"]
+    assert cli.main(argv) == 2  # -c auto, the default
+    err = capsys.readouterr().err
+    assert "empty.log: empty file; left out" in err
+    assert err.strip().splitlines()[-1] == "kinpress: error: no items to classify"
+
+
 def test_a_reference_that_is_not_a_folder_is_an_error(
     tmp_path: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:

@@ -6,7 +6,7 @@ import argparse
 from typing import Any
 
 from ..formats import emit
-from ..items import escape_name, load_items
+from ..items import InputError, escape_name, load_items
 from . import _options
 from ._common import (
     as_usage_errors,
@@ -104,6 +104,8 @@ def run(args: argparse.Namespace, console: Console) -> int:
     if not args.evaluate and not args.inputs:
         raise UsageError("give unknown inputs to classify, or --evaluate")
     unknowns = [] if args.evaluate else load_items(args.inputs, args.split, **input_options(args))
+    if not args.evaluate and not unknowns:  # before -c auto calibrates, not after
+        raise InputError("no items to classify")
     spec = resolve_spec(args, reference, console, targets=unknowns)
     options: dict[str, Any] = {
         "method": args.method,
