@@ -10,9 +10,13 @@ items named right, refused (unknown) and ambiguous, the share of a missing origi
 refused, and the run time; gzip 1-NN (Jiang et al. 2023) beside, which never refuses. "auto" is
 the default (-c auto, chosen on each round's reference). Data: ../shared/datasets-real (logs,
 code, texts) and, where present, this machine's own material: --logs DIR (a folder of *.log files
-of other systems) and source files of many languages under /usr (--machine-code).
+of other systems) and source files of many languages under /usr (--machine-code); and 24
+programming languages never used while developing (--debian-code DIR, fetched from Debian's
+package registry by fetch_debian_code.sh), the same code protocol with 4 languages missing at a
+time, as issue 10 states it.
 
-    python benchmarks/bench_origins.py [--logs DIR] [--machine-code] [--cache PATH]
+    python benchmarks/bench_origins.py [--logs DIR] [--machine-code] [--debian-code DIR]
+        [--cache PATH]
 """
 
 from __future__ import annotations
@@ -68,6 +72,38 @@ MACHINE_CODE = {
 }
 
 
+def debian_code(root: Path) -> dict[str, str]:
+    """File patterns of 24 languages: those fetch_debian_code.sh unpacks under `root`, and this
+    machine's own Python, Perl, Tcl, C++ headers, JavaScript, shell, Vim script, CMake and SQL."""
+    unpacked = root / "root"
+    return {
+        "go": f"{unpacked}/usr/share/go-*/src/**/*.go",
+        "rust": f"{unpacked}/usr/src/rustc-*/library/**/*.rs",
+        "java": f"{root}/java/**/*.java",
+        "ruby": f"{unpacked}/usr/lib/ruby/[0-9]*/**/*.rb",
+        "erlang": f"{unpacked}/**/*.erl",
+        "elisp": f"{root}/elisp/*.el",
+        "scheme": f"{unpacked}/usr/share/guile/**/*.scm",
+        "ada": f"{unpacked}/usr/lib/gcc/**/adainclude/*.adb",
+        "pascal": f"{unpacked}/usr/share/fpcsrc/**/*.pp",
+        "common-lisp": f"{unpacked}/usr/share/sbcl-source/**/*.lisp",
+        "php": f"{unpacked}/usr/share/php/**/*.php",
+        "d": f"{unpacked}/usr/lib/ldc/**/*.d",
+        "lua": f"{unpacked}/usr/share/lua/**/*.lua",
+        "assembly": f"{unpacked}/usr/share/go-*/src/**/*.s",
+        "c": f"{unpacked}/**/*.c",
+        "tcl": "/usr/share/tcltk/**/*.tcl",
+        "python": "/usr/lib/python3.11/**/*.py",
+        "perl": "/usr/share/perl*/**/*.pm",
+        "cpp": "/usr/include/c++/*/bits/*.h",
+        "javascript": "/usr/lib/node_modules/npm/lib/**/*.js",
+        "shell": "/usr/share/bash-completion/completions/*",
+        "vim": "/usr/share/vim/**/*.vim",
+        "cmake": "/usr/share/cmake-*/Modules/*.cmake",
+        "sql": "/usr/share/postgresql/**/*.sql",
+    }
+
+
 def log_origins(folder: Path) -> dict[str, list[Item]]:
     out = {}
     for path in sorted(folder.glob("*.log")):
@@ -117,10 +153,12 @@ def shared_code() -> dict[str, list[Item]]:
 
 
 def rounds(
-    origins: dict[str, list[Item]], reference: int
+    origins: dict[str, list[Item]], reference: int, missing_at_once: int | None = None
 ) -> list[tuple[list[Item], list[Item], set[str]]]:
+    """Origins missing from the reference in rotation, `missing_at_once` (default a quarter, at
+    least 2) at a time; each origin's first `reference` items as reference, the next as later."""
     names = sorted(origins)
-    step = max(2, len(names) // 4)
+    step = missing_at_once or max(2, len(names) // 4)
     out = []
     for start in range(0, len(names), step):
         missing = set(names[start : start + step])
@@ -147,8 +185,8 @@ def gzip_1nn(reference: list[Item], later: list[Item]) -> list[str]:
 
 
 def run(name: str, origins: dict[str, list[Item]], reference: int, settings: list[str],
-        cache: SizeCache) -> None:  # fmt: skip
-    plan = rounds(origins, reference)
+        cache: SizeCache, missing_at_once: int | None = None) -> None:  # fmt: skip
+    plan = rounds(origins, reference, missing_at_once)
     print(f"\n{name}: {len(origins)} origins, {reference} reference items each, {len(plan)} rounds")
     print(f"  {'setting':28s} right  refused  ambiguous  missing->unknown  seconds")
     for setting in [*settings, "gzip 1-NN"]:
@@ -188,26 +226,32 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--logs", type=Path, help="a folder of *.log files of other systems")
     parser.add_argument("--machine-code", action="store_true", help="languages under /usr")
+    parser.add_argument(
+        "--debian-code", type=Path, help="a folder fetch_debian_code.sh filled (24 languages)"
+    )
     parser.add_argument("--only-machine", action="store_true", help="skip ../shared")
     parser.add_argument("--fixed", nargs="*", default=list(FIXED), help="fixed compressors")
     parser.add_argument("--cache", default="/tmp/kinpress-bench-origins.sqlite")
     args = parser.parse_args()
     warnings.simplefilter("ignore")
     settings = ["auto", *args.fixed]
-    sets: list[tuple[str, Callable[[], dict[str, list[Item]]], int]] = []
+    sets: list[tuple[str, Callable[[], dict[str, list[Item]]], int, int | None]] = []
     if SHARED.is_dir() and not args.only_machine:
-        sets.append(("shared logs (Loghub)", lambda: log_origins(SHARED / "logs"), 10))
-        sets.append(("shared code (Rosetta, 8 languages)", shared_code, 20))
+        sets.append(("shared logs (Loghub)", lambda: log_origins(SHARED / "logs"), 10, None))
+        sets.append(("shared code (Rosetta, 8 languages)", shared_code, 20, None))
         sets.append(
-            ("shared texts (UDHR, 14 languages)", lambda: text_origins(SHARED / "texts"), 10)
+            ("shared texts (UDHR, 14 languages)", lambda: text_origins(SHARED / "texts"), 10, None)
         )
     if args.logs:
-        sets.append((f"logs in {args.logs}", lambda: log_origins(args.logs), 10))
+        sets.append((f"logs in {args.logs}", lambda: log_origins(args.logs), 10, None))
     if args.machine_code:
-        sets.append(("this machine's code", lambda: code_origins(MACHINE_CODE), 20))
+        sets.append(("this machine's code", lambda: code_origins(MACHINE_CODE), 20, None))
+    if args.debian_code:
+        patterns = debian_code(args.debian_code)
+        sets.append(("code of 24 languages (Debian)", lambda: code_origins(patterns), 20, 4))
     with SizeCache(args.cache) as cache:
-        for name, load, reference in sets:
-            run(name, load(), reference, settings, cache)
+        for name, load, reference, missing_at_once in sets:
+            run(name, load(), reference, settings, cache, missing_at_once)
 
 
 if __name__ == "__main__":
