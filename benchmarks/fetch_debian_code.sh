@@ -9,7 +9,7 @@
 # interface), Emacs Lisp (decompressed), Scheme (Guile), Ada (GNAT's runtime), Pascal (Free
 # Pascal), Common Lisp (SBCL), PHP (PEAR), D (Phobos), Lua (Penlight), assembly (Go's); the
 # benchmark adds this machine's Python, Perl, Tcl, C++ headers, JavaScript, shell completions,
-# Vim script, CMake and SQL. About 170 MB of packages, 1 GB unpacked.
+# Vim script, CMake and SQL. About 160 MB of packages, 1.2 GB unpacked.
 set -eu
 DIR=${1:?usage: fetch_debian_code.sh DIR}
 PACKAGES="golang-1.19-src rust-src openjdk-17-source libruby3.1 erlang-src emacs-el guile-3.0-libs
