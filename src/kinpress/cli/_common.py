@@ -142,7 +142,7 @@ def resolve_spec(
     job: str | None = None,
 ) -> str:
     """The compressor spec to use: as given, or with auto the one calibration chose for this
-    command's job (`job`, default the command's name; see calibration.resolve_auto), its time
+    command's job (`job`, default the command's name; see calibration.auto_choice), its time
     counting --bootstrap replicates and derived's null."""
     return resolve_choice(args, items, console, targets, job)[0]
 
