@@ -44,23 +44,13 @@ if TYPE_CHECKING:
 JOBS = ("matrix", "tree", "groups", "nearest", "derived", "classify")
 LABELLED_JOBS = ("classify",)
 LABELLED_CANDIDATES = AUTO_CANDIDATES["labelled"]
-MEASURED_FOLDS = (0, 1, 2)
-"""The held-out blocks (of origins.DEFAULT_BLOCKS) a labelled candidate is measured on: all of
-them. With two of the three, measuring was a third cheaper, but the held-out figures that rank
-the candidates were noisier, and the noise chose compressors that let missing origins through:
-offline, on the candidates' held-out and later scores of 24 languages of code never used while
-developing (benchmarks/fetch_debian_code.sh), the files of a missing language came back
-unknown at 0.76 with two blocks and 0.83 with three (path order, 4 missing at a time, rotated),
-0.83 and 0.87 on 30 random draws of 4 missing. Elsewhere it moved less, not always up: this
-machine's 20 kinds of file 0.54 to 0.56 (random draws of 5: 0.52 to 0.53, known files refused at
-0.052 to 0.066); Rosetta's 8 languages 0.88 either way (random draws: 0.84 to 0.82); Loghub,
-every missing chunk unknown either way, known chunks refused at 0.013 to 0.04."""
+MEASURED_FOLDS = (0, 2)
 REAL_PAIR_ITEMS = 8
 SATURATED_SHARE = 0.25
 MEASURING_SHARE = 0.5
 """How much of the budget measuring the labelled candidates may take. The winner's held-out sizes
-are reused by its classification (its calibration is then done), so only the others' are
-spent; at a quarter, PPMd order 32 and lzma 9 (the strongest content models, and the slowest)
+are reused by its classification (its calibration is then two thirds done), so only the others'
+are spent; at a quarter, PPMd order 32 and lzma 9 (the strongest content models, and the slowest)
 were never measured on 16-21 kinds of code file of 20 files each, and PPMd would have won."""
 
 
