@@ -92,15 +92,11 @@ def debian_code(root: Path) -> dict[str, str]:
         "lua": f"{unpacked}/usr/share/lua/**/*.lua",
         "assembly": f"{unpacked}/usr/share/go-*/src/**/*.s",
         "c": f"{unpacked}/**/*.c",
-        "tcl": "/usr/share/tcltk/**/*.tcl",
-        "python": "/usr/lib/python3.11/**/*.py",
-        "perl": "/usr/share/perl*/**/*.pm",
+        "tcl": MACHINE_CODE["tcl"],
+        "python": MACHINE_CODE["python"],
+        "perl": MACHINE_CODE["perl"],
         "cpp": "/usr/include/c++/*/bits/*.h",
-        "javascript": "/usr/lib/node_modules/npm/lib/**/*.js",
-        "shell": "/usr/share/bash-completion/completions/*",
-        "vim": "/usr/share/vim/**/*.vim",
-        "cmake": "/usr/share/cmake-*/Modules/*.cmake",
-        "sql": "/usr/share/postgresql/**/*.sql",
+        **{kind: MACHINE_CODE[kind] for kind in ("javascript", "shell", "vim", "cmake", "sql")},
     }
 
 
