@@ -8,7 +8,8 @@ languages cut into 6-line chunks, the first 10 of each as reference and the next
 a quarter of the languages missing at a time. For each setting it prints the share of known
 items named right, refused (unknown) and ambiguous, the share of a missing origin's items
 refused, and the run time; gzip 1-NN (Jiang et al. 2023) beside, which never refuses. "auto" is
-the default (-c auto, chosen on each round's reference). Data: ../shared/datasets-real (logs,
+the default (-c auto, chosen on each round's reference; under its row, each round's choice and
+figures, which hang on the choice). Data: ../shared/datasets-real (logs,
 code, texts) and, where present, this machine's own material: --logs DIR (a folder of *.log files
 of other systems) and source files of many languages under /usr (--machine-code); and 24
 programming languages never used while developing (--debian-code DIR, fetched from Debian's
@@ -189,6 +190,7 @@ def run(name: str, origins: dict[str, list[Item]], reference: int, settings: lis
         right = refused = ambiguous = known = unknown = strangers = 0
         started = time.perf_counter()
         chosen = set()
+        per_round = []
         for ref, later, missing in plan:
             known_items = [i for i in later if i.label not in missing]
             if setting == "gzip 1-NN":
@@ -201,6 +203,7 @@ def run(name: str, origins: dict[str, list[Item]], reference: int, settings: lis
                 spec = choose_for_job(ref, "classify", targets=later, cache=cache).spec
                 chosen.add(spec)
             result = classify(later, ref, spec, cache=cache)
+            before = (right, refused, known, unknown, strangers)
             for p, item in zip(result.predictions, later, strict=True):
                 if item.label in missing:
                     strangers += 1
@@ -210,12 +213,22 @@ def run(name: str, origins: dict[str, list[Item]], reference: int, settings: lis
                     right += p.predicted == item.label
                     refused += p.decision == "unknown"
                     ambiguous += p.decision == "ambiguous"
+            if setting == "auto":
+                now = (right, refused, known, unknown, strangers)
+                r, f, k, u, n = (a - b for a, b in zip(now, before, strict=True))
+                per_round.append(
+                    f"    {', '.join(sorted(missing))} missing: {spec}; right {r / k:.3f},"
+                    f" refused {f / k:.3f}, unknown {u / n:.3f}"
+                )
         seconds = time.perf_counter() - started
         label = setting + (f" ({', '.join(sorted(chosen))})" if chosen else "")
         missing_rate = f"{unknown / strangers:.3f}" if strangers else "-"
         figures = f"{right / known:.3f}  {refused / known:.3f}    {ambiguous / known:.3f}"
         print(f"  {label[:60]:28s} {figures}      {missing_rate:>6s}        {seconds:6.0f}",
               flush=True)  # fmt: skip
+        # which compressor each round chose, and what it gave: the figures hang on the choice
+        for line in per_round:
+            print(line, flush=True)
 
 
 def main() -> None:
