@@ -16,7 +16,7 @@ from ..cache import SizeCache
 from ..compressors import AUTO_CANDIDATES, Compressor, compressor
 from ..engine import Engine, LocalEngine
 from ..items import Item
-from ..origins.scores import DEFAULT_SIGNIFICANCE
+from ..origins.scores import DEFAULT_BLOCKS, DEFAULT_SIGNIFICANCE
 from ..units import duration_text, size_text
 from .choose import (
     DEFAULT_BUDGET_SECONDS,
@@ -44,11 +44,11 @@ if TYPE_CHECKING:
 JOBS = ("matrix", "tree", "groups", "nearest", "derived", "classify")
 LABELLED_JOBS = ("classify",)
 LABELLED_CANDIDATES = AUTO_CANDIDATES["labelled"]
-MEASURED_FOLDS = (0, 1, 2)
-"""The held-out folds of the reference (origins.DEFAULT_BLOCKS) a labelled candidate is measured
-on: all three. On two (the first and last), the figures of a 20-file reference moved by whole
-items from one split to the next, and on 24 languages of code auto picked compressors that let
-a missing language through: 0.64-0.77 unknown by run, 0.80 on three (bench_origins.py
+MEASURED_FOLDS = tuple(range(DEFAULT_BLOCKS))
+"""The held-out folds of the reference a labelled candidate is measured on: all of them (three).
+On two (the first and last), the figures of a 20-file reference moved by whole items from one
+split to the next, and on 24 languages of code auto picked compressors that let a missing
+language through: 0.64-0.77 unknown by run, 0.80 on three (bench_origins.py
 --debian-code; offline replays, 4 missing rotated 0.67 and 0.81, random draws 0.81 and 0.87).
 Not a gain everywhere: on this machine's 21 kinds of file one run fell from 0.56 to 0.45 (zstd 19
 in place of PPMd in three rounds; the middle block, whose neighbours on both sides are in the
@@ -274,14 +274,12 @@ def _measure_labelled(
     """Held-out figures of the ``timed`` candidates, quickest first, while their measuring fits
     MEASURING_SHARE of the budget (the first is always measured); those left out go to
     ``reasons``."""
-    from ..origins import DEFAULT_BLOCKS as blocks
-
     figures: list[TaskFigures] = []
     spent, allowance = 0.0, budget_seconds * MEASURING_SHARE
     n = len(items)
     for seconds, spec in sorted(timed):
         # Measuring runs the reference part of the job on MEASURED_FOLDS of its folds.
-        share = seconds * n / (n + targets) * len(MEASURED_FOLDS) / blocks
+        share = seconds * n / (n + targets) * len(MEASURED_FOLDS) / DEFAULT_BLOCKS
         if figures and spent + share > allowance:
             reasons.append(
                 f"{spec}: passed over: measuring it too would take more than"
