@@ -673,7 +673,7 @@ def test_real_code_of_a_language_missing_from_the_reference_comes_back_unknown(
     # refused 0.027. Before, with the mix of tests: 0.88 and 0.033 (single tests only, 0.81 and
     # 0.040; auto ranking by the AUC alone, 0.74: per round 0.35-1.0 by the compressor chosen).
     # On random splits of this set it is 0.80 (offline replay, 30 draws of 2), on 21 kinds of
-    # this machine's files 0.53-0.56, and the choice among close candidates hangs on an item or
+    # this machine's files 0.45-0.56, and the choice among close candidates hangs on an item or
     # two, which timing on another machine can shift (offline, zstd 19 in every round gives
     # 0.79), so this guards 0.75. The fit test alone gave 0.69.
     reference, held_out = _code(shared)
