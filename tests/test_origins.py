@@ -807,6 +807,18 @@ def test_auto_ties_within_an_items_worth_in_each_figure_and_prefers_the_primed()
     reasons: list[str] = []
     assert _pick_labelled([ppmd, zstd], 6, reasons) is zstd
     assert reasons[0].startswith("zstd:level=19: chosen")
+    # the passed-over one is told it lost to priming, not to speed (it is better in merit)
+    assert reasons[1].startswith("ppmd:order=32: passed over: separates 0.018 better in merit,")
+    assert "cannot be primed with the corpus" in reasons[1] and "slower" not in reasons[1]
+    # between two primed ones, equal in merit, the lower own score wins, and the reason says so
+    zlib = dataclasses.replace(zstd, spec="zlib:level=9", own_score=0.7)
+    reasons = []
+    assert _pick_labelled([zlib, zstd], 6, reasons) is zstd
+    assert reasons[1] == (
+        "zlib:level=9: passed over: separates as well (within an item's worth), but explains"
+        " held-out items by their own origin less well (own score 0.700 against 0.600); "
+        + zlib.summary()
+    )
     worse = figures("zstd:level=19", 59 / 60, 58 / 60, 0.997)
     assert ppmd.merit - worse.merit > TIE_ITEMS / 60 > ppmd.merit - zstd.merit
     assert _pick_labelled([ppmd, worse], 6, []) is ppmd

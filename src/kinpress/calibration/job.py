@@ -315,9 +315,27 @@ def _pick_labelled(figures: Sequence[TaskFigures], m: int, reasons: list[str]) -
     for f in figures:
         if f is best:
             continue
-        why = "separates as well but is slower" if f in tied else "separates the origins less"
+        why = _tie_broken(f, best) if f in tied else "separates the origins less"
         reasons.append(f"{f.spec}: passed over: {why}; {f.summary()}")
     return best
+
+
+def _tie_broken(passed: TaskFigures, best: TaskFigures) -> str:
+    """Why ``passed``, tied with ``best`` in merit, lost: the first tie-breaker that told them
+    apart (see _pick_labelled)."""
+    merit = (passed.merit or 0.0) - (best.merit or 0.0)
+    level = (
+        f"separates {merit:.3f} better in merit, within an item's worth" if merit > 0
+        else "separates as well (within an item's worth)"
+    )  # fmt: skip
+    if compressor(best.spec).primable and not compressor(passed.spec).primable:
+        return f"{level}, but cannot be primed with the corpus"
+    if (passed.own_score or 1.0) > (best.own_score or 1.0):
+        return (
+            f"{level}, but explains held-out items by their own origin less well (own score"
+            f" {passed.own_score:.3f} against {best.own_score:.3f})"
+        )
+    return f"{level}, but is slower"
 
 
 def _real_pair_figures(
