@@ -11,7 +11,8 @@ refused, and the run time; gzip 1-NN (Jiang et al. 2023) beside, which never ref
 the default (-c auto, chosen on each round's reference; under its row, each round's choice and
 figures, which hang on the choice). Data: ../shared/datasets-real (logs,
 code, texts) and, where present, this machine's own material: --logs DIR (a folder of *.log files
-of other systems) and source files of many languages under /usr (--machine-code); and 24
+of other systems; machine_logs.sh fills one with 8 logs of this machine's programs) and source
+files of many languages under /usr (--machine-code); and 24
 programming languages never used while developing (--debian-code DIR, fetched from Debian's
 package registry by fetch_debian_code.sh), the same code protocol with 4 languages missing at a
 time, as issue 10 states it.

@@ -9,6 +9,7 @@ import hashlib
 import json
 import math
 import random
+import re
 import shutil
 import subprocess
 import warnings
@@ -350,8 +351,9 @@ def test_the_mix_only_adds_the_tests_up_and_is_chosen_when_it_refuses_more() -> 
     # fit less the lead). The mix keeps only weights of 0 or more: each statistic is larger
     # for a stranger, and a mix that reverses one followed noise on real code. The reference
     # then takes the mix only when its honest held-out share (each origin's items refused by a
-    # mix learnt without them) beats every single test's; both outcomes occur below.
-    from kinpress.origins.conformal import _logistic, _rounds
+    # mix learnt without them) beats every single test's by more than MIX_MARGIN_ITEMS of the
+    # strangers (on these scores it never does: at most one item ahead); then the rule alone.
+    from kinpress.origins.conformal import MIX_MARGIN_ITEMS, _choose_test, _logistic, _rounds
 
     chosen = set()
     for scores, origins in ((_twin_scores, 7), (_kindred_scores, 5)):
@@ -372,10 +374,17 @@ def test_the_mix_only_adds_the_tests_up_and_is_chosen_when_it_refuses_more() -> 
             detection = novelty_detection(held, codes, 0.05)
             conformity = Conformity.of(held, codes, tuple("abcdefg")[:origins], 0.05)
             singles = max(detection[t] for t in TESTS)
-            assert (conformity.test == MIX) == (detection[MIX] > singles), detection
+            margin = MIX_MARGIN_ITEMS / sum(len(r.strangers) for r in rounds)
+            assert (conformity.test == MIX) == (detection[MIX] > singles + margin), detection
             assert (conformity.mix is not None) == (conformity.test == MIX)
             chosen.add(conformity.test == MIX)
-    assert chosen == {True, False}
+    assert chosen == {False}
+    # 60 strangers: the mix ahead of the best single test by 2 of them is not taken, by 3 is;
+    # among single tests, fit on ties.
+    tests = {"fit": 0.9, "separation": 0.9, "contrast": 0.5}
+    assert _choose_test({**tests, MIX: 0.9 + MIX_MARGIN_ITEMS / 60}, 60) == "fit"
+    assert _choose_test({**tests, MIX: 0.9 + (MIX_MARGIN_ITEMS + 1) / 60}, 60) == MIX
+    assert _choose_test({**tests, "contrast": 0.95, MIX: 0.96}, 60) == "contrast"
 
 
 def test_the_mix_is_the_logistic_regression_scikit_learn_fits() -> None:
@@ -755,6 +764,43 @@ def test_real_logs_time_ordered_with_default_options(
                 refused += p.decision == "unknown"
     print(f"logs: {log_choice.spec} right {right / known:.3f} refused {refused / known:.3f}"
           f" missing unknown {unknown / strangers:.3f}")  # fmt: skip
+    assert right / known >= 0.93
+    assert refused / known <= 0.07
+    assert unknown / strangers >= 0.8
+
+
+def _fresh_digits(data: bytes, rng: random.Random) -> bytes:
+    """Every digit replaced by a random one: the same lines with new times, ids and addresses."""
+    return re.sub(rb"[0-9]", lambda m: str(rng.randrange(10)).encode(), data)
+
+
+@pytest.mark.shared
+def test_real_logs_with_new_numbers_are_still_named(
+    log_rounds: list[tuple[list[Item], list[Item], set[str]]], log_choice: Any, cache: SizeCache
+) -> None:
+    # The time-ordered protocol above, with every digit of the later chunks replaced by a random
+    # one: what a system writes later has new times, process ids, block ids, addresses and ports
+    # in the same format (harsher than life: the digits of fixed words change too). The content
+    # drifts, the shape view (digits masked) does not, and an origin accepts an item typical of
+    # it in either view. Measured when written, zstd 19: 0.988 named right, 0.013 refused,
+    # every missing chunk unknown; when a test took the stranger of the two views (and the
+    # shape joined only where it named more held-out chunks right, here never): 0.533 named
+    # right and 0.467 refused, the goals of issue 10 missed as on logs never seen.
+    rng = random.Random(5)
+    known = refused = right = strangers = unknown = 0
+    for reference, later, missing in log_rounds:
+        later = [dataclasses.replace(i, data=_fresh_digits(i.data, rng)) for i in later]
+        result = classify(later, reference, log_choice.spec, cache=cache)
+        for p, item in zip(result.predictions, later, strict=True):
+            if item.label in missing:
+                strangers += 1
+                unknown += p.decision == "unknown"
+            else:
+                known += 1
+                right += p.predicted == item.label
+                refused += p.decision == "unknown"
+    print(f"logs, new numbers: {log_choice.spec} right {right / known:.3f} refused"
+          f" {refused / known:.3f} missing unknown {unknown / strangers:.3f}")  # fmt: skip
     assert right / known >= 0.93
     assert refused / known <= 0.07
     assert unknown / strangers >= 0.8

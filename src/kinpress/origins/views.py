@@ -8,10 +8,14 @@ brackets, operators, indentation and line structure, the marks of a language or 
 the words of a text so that a compression or n-gram model sees its structure is the text
 distortion of authorship attribution (Stamatatos 2017, "Authorship attribution using text
 distortion", EACL; his DV-SA with no word kept). An origin's score is then the geometric mean of
-its two scores, each on its own footing (see Background). Where the shape adds nothing (logs whose
-words are the signal, DNA, bytes with few ASCII letters) the reference shows it, and the content
-alone is kept: both ways name the reference's held-out items, and the shape stays only when it
-names significantly more of them right (the sign test of Background).
+its two scores, each on its own footing (see Background), and an origin accepts an item that is
+typical of it in either view (see Conformity): what a system writes keeps its shape while its
+words and numbers move on (new package names, hosts, ids), so a later item of a known origin
+stays typical in shape where its content has drifted. Where the shape is the weaker view (prose
+in languages of one script, DNA, bytes with few ASCII letters) the reference shows it, and the
+content alone is kept: the shape joins when, alone, it names at least as many of the reference's
+held-out items right as the content alone does, or else when both views together name
+significantly more right than the content alone (the sign test of Background).
 """
 
 from __future__ import annotations
@@ -52,15 +56,17 @@ def shape_share(items: Sequence[Item]) -> float:
 class Scoring:
     """How an item's scores for each origin are made from what was measured: the content's
     footing (`content`, see Background), and the shape's (`shape`, None when the content alone
-    decides); `accuracy_content` and `accuracy_both` are the shares of held-out reference items
-    named right by the content alone and by both views, `p_value` the sign test that the shape
-    names more right (see the module)."""
+    decides); `accuracy_content`, `accuracy_shape` and `accuracy_both` are the shares of
+    held-out reference items named right by the content alone, the shape alone and both views,
+    and `p_value` the sign test that both views name more right than the content alone (see the
+    module)."""
 
     content: Background
     shape: Background | None
     accuracy_content: float = float("nan")
     accuracy_both: float = float("nan")
     p_value: float = float("nan")
+    accuracy_shape: float = float("nan")
 
     @classmethod
     def choose(
@@ -71,21 +77,26 @@ class Scoring:
         origins: Sequence[str],
         significance: float = SIGN_TEST_LEVEL,
     ) -> Scoring:
-        """Each view's footing, then the shape kept when both views name significantly more
-        held-out items right than the content alone (`shaped` None: content alone)."""
+        """Each view's footing, then the shape kept when, alone, it names at least as many
+        held-out items right as the content alone, or else when both views name significantly
+        more right than the content alone (`shaped` None: content alone)."""
         content_footing = Background.choose(content, codes, origins)
         if shaped is None:
             return cls(content_footing, None)
         shape_footing = Background.choose(shaped, codes, origins)
         alone = content_footing.apply(content).argmin(axis=1) == codes
+        shape_alone = shape_footing.apply(shaped).argmin(axis=1) == codes
         both = cls(content_footing, shape_footing).apply(content, shaped).argmin(axis=1) == codes
         p = paired_sign_test(both, alone)
+        keep = shape_alone.sum() >= alone.sum() or p <= significance
+        share = (lambda right: float(np.mean(right)) if len(codes) else 0.0)  # noqa: E731
         return cls(
             content_footing,
-            shape_footing if p <= significance else None,
-            float(np.mean(alone)) if len(codes) else 0.0,
-            float(np.mean(both)) if len(codes) else 0.0,
+            shape_footing if keep else None,
+            share(alone),
+            share(both),
             p,
+            share(shape_alone),
         )
 
     @classmethod
@@ -120,26 +131,28 @@ class Scoring:
         if self.accuracy_content != self.accuracy_content:
             return text
         figures = (
-            f"{self.accuracy_both:.3f} of held-out reference items named right with it, against"
-            f" {self.accuracy_content:.3f} without (sign test p = {self.p_value:.2g})"
+            f"of held-out reference items {self.accuracy_content:.3f} named right by the content"
+            f" alone, {self.accuracy_shape:.3f} by the shape alone, {self.accuracy_both:.3f} by"
+            f" both (sign test that both name more, p = {self.p_value:.2g})"
         )
         if self.shape is None:
             return f"{text}; the shape view (letters and digits masked) not used: {figures}"
         return (
             f"{text}; with the shape view (letters and digits masked), its scores"
             f" {self.shape.description}: {figures}; an origin's score is the geometric mean of"
-            " the two, and each test takes the stranger view"
+            " the two, and each test takes the more typical view"
         )
 
     def as_json(self) -> dict[str, object]:
         """Each view's footing (`shape` null when unused), the held-out accuracies and the sign
-        test that decided the shape, and the description."""
+        tests that decided the shape, and the description."""
         return dict(
             json_ready(
                 {
                     "content": self.content,
                     "shape": self.shape,
                     "accuracy_content": self.accuracy_content,
+                    "accuracy_shape": self.accuracy_shape,
                     "accuracy_both": self.accuracy_both,
                     "p_value": self.p_value,
                     "description": self.description,
