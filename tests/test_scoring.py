@@ -195,7 +195,7 @@ def test_the_shape_joins_unless_it_is_the_weaker_view() -> None:
     equal = Scoring.choose(clear, telling, codes, ("a", "b", "c"))
     assert equal.uses_shape and equal.p_value > 0.05, equal.description
     assert equal.accuracy_content == equal.accuracy_shape == equal.accuracy_both == 1.0
-    assert "more typical view" in equal.description
+    assert "take the more typical view" in equal.description
     shown = json.loads(json.dumps(equal.as_json()))
     assert shown["accuracy_shape"] == 1.0
 

@@ -140,7 +140,8 @@ class Scoring:
         return (
             f"{text}; with the shape view (letters and digits masked), its scores"
             f" {self.shape.description}: {figures}; an origin's score is the geometric mean of"
-            " the two, and each test takes the more typical view"
+            " the two; the fit, separation and contrast tests take the more typical view, the"
+            " mix weighs both views' statistics"
         )
 
     def as_json(self) -> dict[str, object]:
