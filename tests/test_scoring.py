@@ -290,7 +290,8 @@ def test_a_stack_is_tested_by_its_more_typical_view_and_keeps_the_stated_rate() 
     # refuses about a third of the drifted items (its calibration is the smaller of two typical
     # statistics, so one typical view alone sits higher in it), the content alone nearly all.
     assert np.mean(drifted_refused) < 0.4 < 0.9 < np.mean(content_refused), (
-        np.mean(drifted_refused), np.mean(content_refused)
+        np.mean(drifted_refused),
+        np.mean(content_refused),
     )
     assert np.mean(caught) > 0.9, caught
     assert stack_test.centre.shape == (m, 2)

@@ -89,7 +89,10 @@ class Scoring:
         both = cls(content_footing, shape_footing).apply(content, shaped).argmin(axis=1) == codes
         p = paired_sign_test(both, alone)
         keep = shape_alone.sum() >= alone.sum() or p <= significance
-        share = (lambda right: float(np.mean(right)) if len(codes) else 0.0)  # noqa: E731
+
+        def share(right: np.ndarray) -> float:
+            return float(np.mean(right)) if len(codes) else 0.0
+
         return cls(
             content_footing,
             shape_footing if keep else None,
