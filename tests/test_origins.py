@@ -681,9 +681,10 @@ def test_real_code_of_a_language_missing_from_the_reference_comes_back_unknown(
     # tasks are solved in every language, so a missing language shares tasks and idioms with a
     # present one: a hard negative). Issue 10's goal is >= 0.8 of their files unknown. Measured
     # with a test taking the more typical of the two views: 0.912 unknown, known files refused
-    # 0.035 (0.031 with fit first among tied tests); with the stranger view, all three held-out blocks and the two-item tie band: 0.875
-    # and 0.027. Before, with the mix of tests: 0.88 and 0.033 (single tests only, 0.81 and
-    # 0.040; auto ranking by the AUC alone, 0.74: per round 0.35-1.0 by the compressor chosen).
+    # 0.035 (0.031 with fit first among tied tests); with the stranger view, all three held-out
+    # blocks and the two-item tie band: 0.875 and 0.027. Before, with the mix of tests: 0.88
+    # and 0.033 (single tests only, 0.81 and 0.040; auto ranking by the AUC alone, 0.74: per
+    # round 0.35-1.0 by the compressor chosen).
     # On random splits of this set it is 0.80 (offline replay, 30 draws of 2), on 21 kinds of
     # this machine's files 0.45-0.56, and the choice among close candidates hangs on an item or
     # two, which timing on another machine can shift (offline, zstd 19 in every round gives
