@@ -304,7 +304,7 @@ def _pick_labelled(figures: Sequence[TaskFigures], m: int, reasons: list[str]) -
     # compressor only ever overestimates what is shared, and one that finds little parts an
     # easy reference but not data that drifts), then the quickest (figures are in order of
     # estimated job time).
-    best = min(tied, key=lambda f: (not compressor(f.spec).primable, f.own_score or 1.0))
+    best = min(tied, key=_tie_key)
     reasons.insert(
         0,
         f"{best.spec}: chosen: it tells the reference's {m} origins apart best on held-out"
@@ -320,17 +320,24 @@ def _pick_labelled(figures: Sequence[TaskFigures], m: int, reasons: list[str]) -
     return best
 
 
+def _tie_key(f: TaskFigures) -> tuple[bool, float]:
+    """How _pick_labelled orders tied candidates, least first: unprimed after primed, then by
+    own score (then the quickest, by the figures' order)."""
+    return not compressor(f.spec).primable, f.own_score or 1.0
+
+
 def _tie_broken(passed: TaskFigures, best: TaskFigures) -> str:
-    """Why ``passed``, tied with ``best`` in merit, lost: the first tie-breaker that told them
-    apart (see _pick_labelled)."""
+    """Why ``passed``, tied with ``best`` in merit, lost: the first component of _tie_key that
+    told them apart (see _pick_labelled)."""
     merit = (passed.merit or 0.0) - (best.merit or 0.0)
     level = (
         f"separates {merit:.3f} better in merit, within an item's worth" if merit > 0
         else "separates as well (within an item's worth)"
     )  # fmt: skip
-    if compressor(best.spec).primable and not compressor(passed.spec).primable:
+    (unprimed, own), (best_unprimed, best_own) = _tie_key(passed), _tie_key(best)
+    if unprimed > best_unprimed:
         return f"{level}, but cannot be primed with the corpus"
-    if (passed.own_score or 1.0) > (best.own_score or 1.0):
+    if own > best_own:
         return (
             f"{level}, but explains held-out items by their own origin less well (own score"
             f" {passed.own_score:.3f} against {best.own_score:.3f})"
