@@ -352,8 +352,7 @@ def _choose_test(detection: dict[str, float], strangers: int = 0) -> str:
     measured = {t: v for t, v in detection.items() if v == v}
     if not measured:
         return "fit"
-    rank = {t: -k for k, t in enumerate(TIE_ORDER)}
-    single = max(TESTS, key=lambda t: (measured.get(t, -1.0), rank[t]))
+    single = max(TIE_ORDER, key=lambda t: measured.get(t, -1.0))  # the first of equals
     margin = MIX_MARGIN_ITEMS / strangers if strangers else 0.0
     if measured.get(MIX, -1.0) > measured.get(single, -1.0) + margin:
         return MIX

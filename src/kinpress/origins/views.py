@@ -149,7 +149,7 @@ class Scoring:
 
     def as_json(self) -> dict[str, object]:
         """Each view's footing (`shape` null when unused), the held-out accuracies and the sign
-        tests that decided the shape, and the description."""
+        test that decided the shape with them, and the description."""
         return dict(
             json_ready(
                 {
