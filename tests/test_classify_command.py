@@ -136,7 +136,7 @@ def test_only_empty_unknowns_are_an_error_before_auto_calibrates(
     assert cli.main(argv) == 2  # -c auto, the default
     err = capsys.readouterr().err
     assert "empty.log: empty file; left out" in err
-    assert err.strip().splitlines()[-1] == "kinpress: error: no items to classify"
+    assert err.strip().splitlines()[-1] == f"kinpress: error: no items to classify in {empty}"
 
 
 def test_a_reference_that_is_not_a_folder_is_an_error(

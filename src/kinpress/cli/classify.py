@@ -105,7 +105,9 @@ def run(args: argparse.Namespace, console: Console) -> int:
         raise UsageError("give unknown inputs to classify, or --evaluate")
     unknowns = [] if args.evaluate else load_items(args.inputs, args.split, **input_options(args))
     if not args.evaluate and not unknowns:  # before -c auto calibrates, not after
-        raise InputError("no items to classify")
+        named = ", ".join(str(path) for path in args.inputs[:3])
+        more = f" (and {len(args.inputs) - 3} more)" if len(args.inputs) > 3 else ""
+        raise InputError(f"no items to classify in {named}{more}")
     spec = resolve_spec(args, reference, console, targets=unknowns)
     options: dict[str, Any] = {
         "method": args.method,
