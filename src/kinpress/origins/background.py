@@ -119,9 +119,9 @@ class Background:
                 f" p = {self.p_value:.2g})"
             )
         return (
-            f"as measured (divided by each origin's background, {self.accuracy_divided:.3f} of"
-            f" held-out reference items would be named right, against {self.accuracy_raw:.3f};"
-            f" sign test p = {self.p_value:.2g})"
+            f"as measured ({self.accuracy_raw:.3f} of held-out reference items named right;"
+            f" divided by each origin's background, {self.accuracy_divided:.3f} would be, not"
+            f" significantly more: sign test p = {self.p_value:.2g})"
         )
 
     def as_json(self) -> dict[str, object]:

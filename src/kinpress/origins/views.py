@@ -139,9 +139,17 @@ class Scoring:
             f" both (sign test that both name more, p = {self.p_value:.2g})"
         )
         if self.shape is None:
-            return f"{text}; the shape view (letters and digits masked) not used: {figures}"
+            return (
+                f"{text}; the shape view (letters and digits masked) not used, as it names fewer"
+                f" right alone and both views not significantly more: {figures}"
+            )
+        why = (
+            "it names as many right alone"
+            if self.accuracy_shape >= self.accuracy_content
+            else "both views name significantly more"
+        )
         return (
-            f"{text}; with the shape view (letters and digits masked), its scores"
+            f"{text}; with the shape view (letters and digits masked), as {why}, its scores"
             f" {self.shape.description}: {figures}; an origin's score is the geometric mean of"
             " the two; the fit, separation and contrast tests take the more typical view, the"
             " mix weighs both views' statistics"
