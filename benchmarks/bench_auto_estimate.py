@@ -5,11 +5,19 @@ chooses a compressor and estimates the whole matrix's wall time; the matrix is t
 that compressor, uncached, on all cores, and the two are compared. A ratio near 1 is the goal;
 below 1 the estimate is optimistic (the budget could be overrun).
 
-    python benchmarks/bench_auto_estimate.py
+Then a classification (the first round of bench_origins.py's protocols on ../shared's logs and
+code, and with --debian-code DIR its 24 languages): for the slow, strong candidates auto weighs
+against its budget, the estimate from the unit of work timed on the job's own corpus and items
+(what auto uses) and from the calibrated throughput (what it used before), each over the
+classification measured uncached.
+
+    python benchmarks/bench_auto_estimate.py [--debian-code DIR] [--skip-matrix]
 """
 
 from __future__ import annotations
 
+import argparse
+import sys
 import time
 import warnings
 from pathlib import Path
@@ -29,7 +37,63 @@ SETS = [
 ]
 
 
+LABELLED_SPECS = ("zstd:level=19", "bz2:level=9", "lzma:level=9", "ppmd:order=32,memory=256")
+
+
+def classify_rows(debian: Path | None) -> None:
+    """Estimate / measured for classifications (see the module)."""
+    sys.path.insert(0, str(Path(__file__).resolve().parent))
+    import bench_origins as bench
+
+    from kinpress.calibration import calibrate, classify_unit, estimate_classify_seconds
+    from kinpress.compressors import compressor
+    from kinpress.origins import classify
+    from kinpress.origins.views import shape_share
+
+    sets = []
+    if (SHARED / "logs").exists():
+        sets.append(("real logs", bench.log_origins(SHARED / "logs"), 10, None))
+        sets.append(("real code", bench.shared_code(), 20, None))
+    if debian is not None:
+        sets.append(("24 languages", bench.code_origins(bench.debian_code(debian)), 20, 4))
+    cores = available_cores()
+    print(f"\n{'classify, round 1':22s} {'compressor':28s} {'unit':>9s} {'rate':>9s}"
+          f" {'measured':>9s} {'unit/m':>6s} {'rate/m':>6s}")  # fmt: skip
+    for name, origins, reference, missing in sets:
+        ref, later, _ = bench.rounds(origins, reference, missing)[0]
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            report = calibrate(ref, candidates=list(LABELLED_SPECS))
+        lengths, targets = [len(i.data) for i in ref], [len(t.data) for t in later]
+        longest = max([*lengths, *targets])
+        shape = shape_share([*ref, *later])
+        labels = len({i.label for i in ref})
+        for result in report.compressors:
+            comp = compressor(result.spec)
+            common = dict(primed=comp.primable, cores=cores, shape=shape)
+            rate = estimate_classify_seconds(result, lengths, labels, targets, **common)
+            timed = classify_unit(comp, ref, later, longest)
+            unit = estimate_classify_seconds(result, lengths, labels, targets, **common, unit=timed)
+            started = time.perf_counter()
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                classify(later, ref, result.spec)
+            measured = time.perf_counter() - started
+            print(f"{name:22s} {result.spec:28s} {unit:8.1f}s {rate:8.1f}s {measured:8.1f}s"
+                  f" {unit / measured:6.2f} {rate / measured:6.2f}", flush=True)  # fmt: skip
+
+
 def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    parser.add_argument("--debian-code", type=Path, help="the folder fetch_debian_code.sh filled")
+    parser.add_argument("--skip-matrix", action="store_true", help="only the classifications")
+    args = parser.parse_args()
+    if not args.skip_matrix:
+        matrix_rows()
+    classify_rows(args.debian_code)
+
+
+def matrix_rows() -> None:
     cores = available_cores()
     print(f"cores: {cores}")
     print(f"{'set':22s} {'chosen':28s} {'estimate':>9s} {'measured':>9s} {'ratio':>6s}")

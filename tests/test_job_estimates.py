@@ -6,6 +6,7 @@ from __future__ import annotations
 import io
 import time
 from pathlib import Path
+from typing import Any
 
 import pytest
 
@@ -129,3 +130,117 @@ def test_a_long_silence_still_prints_a_line_off_a_terminal() -> None:
     with Console(quiet=True, stream=quiet, line_seconds=0.02).progress() as update:
         time.sleep(0.05)
     assert update is None and quiet.getvalue() == ""
+
+
+class _Clock:
+    """A clock that a compression moves on by one second per MB it reads (plus a fixed 0.01 s
+    per call): time_classify_unit's timings become exact."""
+
+    def __init__(self) -> None:
+        self.now = 0.0
+
+    def __call__(self) -> float:
+        return self.now
+
+    def spend(self, data: bytes) -> None:
+        self.now += 0.01 + len(data) / 1e6
+
+
+def _clocked(monkeypatch: pytest.MonkeyPatch, spec: str) -> tuple[_Clock, Any]:
+    from kinpress.calibration import estimate
+    from kinpress.compressors import compressor
+
+    clock = _Clock()
+    monkeypatch.setattr(estimate.time, "perf_counter", clock)
+    comp = compressor(spec)
+    real_size, real_primed = comp.size, comp.primed
+
+    def size(data: bytes) -> int:
+        clock.spend(data)
+        return real_size(data)
+
+    def primed(reference: bytes, data_size: int = 0) -> Any:
+        clock.spend(reference)
+        ready = real_primed(reference, data_size)
+        real = ready.size
+
+        def ready_size(data: bytes) -> int:
+            clock.spend(data)
+            return real(data)
+
+        ready.size = ready_size  # type: ignore[method-assign]
+        return ready
+
+    comp.size = size  # type: ignore[method-assign]
+    comp.primed = primed  # type: ignore[method-assign]
+    return clock, comp
+
+
+def test_a_classification_unit_is_timed_as_the_job_does_it(monkeypatch: pytest.MonkeyPatch) -> None:
+    # The module's own account, on a clock each compression moves by 0.01 s + 1 s per MB: by
+    # concatenation an item costs C(corpus + x); primed, the corpus is read once and each item
+    # alone; the nearest-item search costs C(y + x) of two items either way. A corpus over
+    # UNIT_CORPUS_BYTES is timed on its first that-many bytes and scaled by length.
+    from kinpress.calibration.estimate import UNIT_CORPUS_BYTES, time_classify_unit
+
+    corpus, items = b"ab" * 50_000, [b"x" * 1000, b"y" * 3000]
+    _, lzma = _clocked(monkeypatch, "lzma:level=1")
+    unit = time_classify_unit(lzma, corpus, items)
+    assert unit.pair == pytest.approx(0.01 + 101_000 / 1e6)  # the quicker of the two items
+    assert unit.prepare == pytest.approx(0.01 + 100_000 / 1e6)
+    assert unit.near == pytest.approx(0.01 + 4_000 / 1e6)
+    _, zstd = _clocked(monkeypatch, "zstd:level=3")
+    assert zstd.primable
+    primed = time_classify_unit(zstd, corpus, items)
+    assert primed.pair == pytest.approx(0.01 + 1_000 / 1e6)
+    assert primed.prepare == pytest.approx(0.01 + 100_000 / 1e6)
+    large = b"ab" * UNIT_CORPUS_BYTES
+    _, lzma = _clocked(monkeypatch, "lzma:level=1")
+    scaled = time_classify_unit(lzma, large, items)
+    timed = UNIT_CORPUS_BYTES + 2000  # the mean item
+    assert scaled.pair == pytest.approx(
+        (0.01 + (UNIT_CORPUS_BYTES + 1000) / 1e6) * (len(large) + 2000) / timed
+    )
+
+
+def test_a_classification_estimate_counts_folds_targets_and_the_nearest_search() -> None:
+    # 3 origins of 4 reference items of 1 kB (corpus 4 kB), 2 targets of 1 kB, 3 blocks: held-out
+    # items meet corpora of two thirds, so by concatenation their pairs cost (2/3 * 4000 + 1000)
+    # / 5000 of a whole one; each corpus is made ready blocks + 1 times; each target is compared
+    # with the 4 items of one origin. One core.
+    from kinpress.calibration.estimate import ClassifyUnit, estimate_classify_seconds
+
+    unit = ClassifyUnit(prepare=2.0, pair=1.0, near=0.5)
+    result = _calibrated(1.0)
+    concat = estimate_classify_seconds(result, [1000] * 12, 3, [1000] * 2, cores=1, unit=unit)
+    fold = (2 / 3 * 4000 + 1000) / 5000
+    assert concat == pytest.approx(12 * 3 * fold * 1.0 + 2 * 3 * 1.0 + 3 * 4 * 2.0 + 2 * 4 * 0.5)
+    primed = estimate_classify_seconds(
+        result, [1000] * 12, 3, [1000] * 2, cores=1, unit=unit, primed=True, shape=0.5
+    )
+    assert primed == pytest.approx((12 * 3 + 2 * 3 + 3 * 4 * 2.0) * 1.5 + 2 * 4 * 0.5)
+
+
+def test_auto_for_a_labelled_job_times_the_job_not_the_samples() -> None:
+    # The calibrated throughput comes from a few samples of a few kB; told it is a thousand
+    # times slower than it is, the budget check still lets a quick compressor through, because
+    # it times the job's own corpus and items.
+    from dataclasses import replace
+
+    from kinpress.calibration import job
+
+    items = [
+        Item(f"{origin}{k}", (origin * 40 + f" line {k} " * 30).encode(), "", label=origin)
+        for origin in ("alpha", "beta", "gamma")
+        for k in range(6)
+    ]
+    _, report = choose_compressor(items, candidates=["zlib:level=6"])
+    slow = replace(report, compressors=tuple(
+        replace(r, throughput_mb_s=r.throughput_mb_s / 1000) for r in report.compressors
+    ))  # fmt: skip
+    sizes = [len(i.data) for i in items]
+    lengths_only = calibration.estimate_classify_seconds(slow.compressors[0], sizes, 3, sizes)
+    reasons: list[str] = []
+    kept = job._within_budget(items, items, slow, lengths_only / 10, 2, max(sizes), reasons)
+    assert [spec for _, spec in kept] == [report.compressors[0].spec], reasons
+    assert kept[0][0] < lengths_only / 10

@@ -49,8 +49,21 @@ from .controls import (
     rule30_centre_bits,
     seeded_digits,
 )
-from .estimate import estimate_classify_seconds, estimate_job_seconds
-from .job import JOBS, LABELLED_CANDIDATES, LABELLED_JOBS, Choice, TaskFigures, choose_for_job
+from .estimate import (
+    ClassifyUnit,
+    estimate_classify_seconds,
+    estimate_job_seconds,
+    time_classify_unit,
+)
+from .job import (
+    JOBS,
+    LABELLED_CANDIDATES,
+    LABELLED_JOBS,
+    Choice,
+    TaskFigures,
+    choose_for_job,
+    classify_unit,
+)
 from .measure import (
     DEFAULT_MAX_BYTES,
     RELIABLE_NCD,
@@ -83,6 +96,7 @@ __all__ = [
     "BlindSpot",
     "CalibrationReport",
     "Choice",
+    "ClassifyUnit",
     "CompressorCalibration",
     "Controls",
     "KnownAnswer",
@@ -97,6 +111,7 @@ __all__ = [
     "champernowne_digits",
     "choose_compressor",
     "choose_for_job",
+    "classify_unit",
     "copeland_erdos_digits",
     "estimate_classify_seconds",
     "estimate_job_seconds",
@@ -109,4 +124,5 @@ __all__ = [
     "rule30_centre_bits",
     "seeded_digits",
     "size_sweep",
+    "time_classify_unit",
 ]

@@ -1,14 +1,18 @@
-"""Job-time estimates at a compressor's calibrated throughput: a whole unlabelled job
+"""Job-time estimates: a whole unlabelled job at a compressor's calibrated throughput
 (:func:`estimate_job_seconds`: the matrix, bootstrap replicates, derived's null) and a
-classification against a reference (:func:`estimate_classify_seconds`), with the words the
-reasons use for them. ``cores`` is the number of cores an estimate assumes the work spreads over
+classification against a reference (:func:`estimate_classify_seconds`), from its unit of work
+timed on the job's own corpus and items (:func:`time_classify_unit`), with the words the reasons
+use for them. ``cores`` is the number of cores an estimate assumes the work spreads over
 (default: every core this process may use), not where any work runs."""
 
 from __future__ import annotations
 
 import os
+import time
 from collections.abc import Sequence
+from dataclasses import dataclass
 
+from ..compressors import Compressor
 from ..units import duration_text
 from .measure import CompressorCalibration
 
@@ -52,6 +56,55 @@ def _estimate(seconds: float) -> str:
     return "under 1 s" if seconds < 1 else f"about {duration_text(seconds)}"
 
 
+UNIT_CORPUS_BYTES = 1 << 19
+"""The most corpus bytes `time_classify_unit` compresses; a longer corpus is timed on its first
+this-many bytes and the times scaled by length."""
+
+
+@dataclass(frozen=True)
+class ClassifyUnit:
+    """What a classification's unit of work costs with one compressor, timed on the job's own
+    bytes: `prepare`, seconds to make one origin's corpus ready (priming it, or compressing it
+    alone for concatenation's C(y)); `pair`, seconds per item against a ready corpus (the primed
+    size of x, or C(corpus + x)); `near`, seconds per NCD of an item and a reference item (the
+    search for each item's nearest reference item in its origin: C(yx) of two items)."""
+
+    prepare: float
+    pair: float
+    near: float = 0.0
+
+
+def time_classify_unit(
+    comp: Compressor, corpus: bytes, items: Sequence[bytes], data_size: int = 0
+) -> ClassifyUnit:
+    """Time `comp` on a real corpus and items as a classification would use them (primed when
+    the compressor can be): the corpus prepared once, each item against it once and after
+    another item once, the quickest of each (what else the machine did only adds time). A
+    corpus over UNIT_CORPUS_BYTES is timed on its first that-many bytes, the times scaled by
+    (corpus + item) length. Why not the calibrated throughput: it is measured on a few samples
+    of a few kB, where a context model's or a large window's fixed cost weighs far more than on
+    a corpus of hundreds of kB (PPMd order 32 on 24 languages of code: 2.4 MB/s there, 5.6 MB/s
+    on 180 kB, so a job of 6 minutes was put at 24 and passed over)."""
+    timed = corpus[:UNIT_CORPUS_BYTES]
+    mean = sum(len(x) for x in items) / max(len(items), 1)
+    scale = (len(corpus) + mean) / max(len(timed) + mean, 1)
+    comp.size(timed[:256])  # library and context set up outside the timing
+    started = time.perf_counter()
+    ready = comp.primed(timed, data_size or int(mean)) if comp.primable else None
+    if ready is None:
+        comp.size(timed)
+    prepare = time.perf_counter() - started
+    times, near = [], []
+    for k, x in enumerate(items):
+        started = time.perf_counter()
+        ready.size(x) if ready is not None else comp.size(timed + x)
+        times.append(time.perf_counter() - started)
+        started = time.perf_counter()
+        comp.size(items[k - 1] + x)
+        near.append(time.perf_counter() - started)
+    return ClassifyUnit(prepare * scale, min(times, default=0.0) * scale, min(near, default=0.0))
+
+
 def estimate_classify_seconds(
     result: CompressorCalibration,
     reference: Sequence[int],
@@ -62,18 +115,31 @@ def estimate_classify_seconds(
     blocks: int = 3,
     cores: int | None = None,
     shape: float = 0.0,
+    unit: ClassifyUnit | None = None,
 ) -> float:
     """Wall time of classifying `targets` against a reference of `origins` origins, with the
-    held-out calibration, at the calibrated throughput: every item (held-out reference items and
-    targets) against every origin's corpus. Concatenation compresses corpus + item for each;
-    priming compresses each corpus once per fold and the items alone (a lower bound). The shape
-    view (see origins.views) repeats all of it on bytes ``shape`` times the size (0: no shape
-    view). Spread over ``cores`` cores (default: all)."""
+    held-out calibration: every item (held-out reference items and targets) against every
+    origin's corpus, each corpus made ready once per fold and once whole. With a `unit` timed on
+    the job's data (see time_classify_unit), at its cost, adding each target's NCD to every
+    reference item of one origin (the search for its nearest); else at the calibrated
+    throughput, where concatenation compresses corpus + item for each and priming each corpus
+    once per fold and the items alone (a lower bound). The shape view (see origins.views)
+    repeats the scoring on bytes ``shape`` times the size (0: no shape view). Spread over
+    ``cores`` cores (default: all)."""
+    items = [*reference, *targets]
+    pairs = len(items) * origins
+    corpora = origins * (blocks + 1)
     corpus = sum(reference) / max(origins, 1)
     if result.window_bytes is not None:
         corpus = min(corpus, result.window_bytes)
-    items = [*reference, *targets]
-    pairs = len(items) * origins
     mean = sum(items) / max(len(items), 1)
-    work = pairs * mean + origins * (blocks + 1) * corpus if primed else pairs * (corpus + mean)
+    if unit is not None:
+        # A held-out reference item meets its fold's corpora, (blocks - 1) / blocks of a whole
+        # one; by concatenation its pairs cost that much less.
+        fold = 1.0 if primed else ((blocks - 1) / blocks * corpus + mean) / (corpus + mean)
+        held = len(reference) * origins * fold + len(targets) * origins
+        scored = (held * unit.pair + corpora * unit.prepare) * (1 + shape)
+        nearest = len(targets) * len(reference) / max(origins, 1) * unit.near
+        return (scored + nearest) / (cores or _cores())
+    work = pairs * mean + corpora * corpus if primed else pairs * (corpus + mean)
     return work * (1 + shape) / (result.throughput_mb_s * 1e6) / (cores or _cores())

@@ -30,7 +30,7 @@ from .controls import (
     DEFAULT_SEED,
     _rng,
 )
-from .estimate import _estimate
+from .estimate import ClassifyUnit, _estimate, time_classify_unit
 from .estimate import estimate_classify_seconds as estimate_classify_seconds  # re-exported
 from .estimate import estimate_job_seconds as estimate_job_seconds  # re-exported
 from .measure import (
@@ -246,9 +246,11 @@ def _within_budget(
                 f"{result.spec}: passed over: cannot hold the largest item ({size_text(longest)})"
             )
             continue
+        comp = compressor(result.spec)
         seconds = estimate_classify_seconds(
             result, lengths, len(labels), [len(t.data) for t in targets],
-            primed=compressor(result.spec).primable, cores=cores, shape=shape,
+            primed=comp.primable, cores=cores, shape=shape,
+            unit=classify_unit(comp, items, targets, longest),
         )  # fmt: skip
         if seconds > budget_seconds:
             reasons.append(
@@ -258,6 +260,31 @@ def _within_budget(
             continue
         timed.append((seconds, result.spec))
     return timed
+
+
+UNIT_ITEMS = 3
+"""Items `_unit` times against the corpus."""
+
+
+def classify_unit(
+    comp: Compressor, items: Sequence[Item], targets: Sequence[Item], longest: int
+) -> ClassifyUnit:
+    """The classification's unit of work timed with `comp` (see time_classify_unit) on the
+    reference's own bytes: the corpus of the origin with the median reference bytes, as the
+    compressor's window lets it be (see origins.scores.corpus_bytes), and the UNIT_ITEMS
+    reference items nearest the mean length of every item."""
+    from ..origins.scores import corpus_bytes
+
+    by_origin: dict[object, list[bytes]] = {}
+    for item in items:
+        by_origin.setdefault(item.label, []).append(item.data)
+    ranked = sorted(by_origin.values(), key=lambda datas: sum(map(len, datas)))
+    window = comp.window_bytes
+    room = None if window is None else (window - longest if longest < window // 2 else window // 2)
+    corpus = corpus_bytes(ranked[len(ranked) // 2], room)
+    mean = sum(len(x.data) for x in [*items, *targets]) / max(len(items) + len(targets), 1)
+    nearest = sorted(items, key=lambda item: abs(len(item.data) - mean))[:UNIT_ITEMS]
+    return time_classify_unit(comp, corpus, [item.data for item in nearest], longest)
 
 
 def _measure_labelled(
