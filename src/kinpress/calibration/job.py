@@ -263,7 +263,7 @@ def _within_budget(
 
 
 UNIT_ITEMS = 3
-"""Items `_unit` times against the corpus."""
+"""Reference items `classify_unit` times against the corpus."""
 
 
 def classify_unit(
@@ -271,17 +271,15 @@ def classify_unit(
 ) -> ClassifyUnit:
     """The classification's unit of work timed with `comp` (see time_classify_unit) on the
     reference's own bytes: the corpus of the origin with the median reference bytes, as the
-    compressor's window lets it be (see origins.scores.corpus_bytes), and the UNIT_ITEMS
+    compressor's window lets it be (origins.scores.corpus_room and corpus_bytes), and the UNIT_ITEMS
     reference items nearest the mean length of every item."""
-    from ..origins.scores import corpus_bytes
+    from ..origins.scores import corpus_bytes, corpus_room
 
     by_origin: dict[object, list[bytes]] = {}
     for item in items:
         by_origin.setdefault(item.label, []).append(item.data)
     ranked = sorted(by_origin.values(), key=lambda datas: sum(map(len, datas)))
-    window = comp.window_bytes
-    room = None if window is None else (window - longest if longest < window // 2 else window // 2)
-    corpus = corpus_bytes(ranked[len(ranked) // 2], room)
+    corpus = corpus_bytes(ranked[len(ranked) // 2], corpus_room(comp, longest))
     mean = sum(len(x.data) for x in [*items, *targets]) / max(len(items) + len(targets), 1)
     nearest = sorted(items, key=lambda item: abs(len(item.data) - mean))[:UNIT_ITEMS]
     return time_classify_unit(comp, corpus, [item.data for item in nearest], longest)

@@ -130,20 +130,28 @@ def _knn_fold_scores(
     return scores
 
 
-def _corpus_budget(comp: Compressor, longest: int) -> int | None:
-    """How many corpus bytes the compressor can see while compressing an item of `longest` bytes."""
+def corpus_room(comp: Compressor, longest: int) -> int | None:
+    """How many corpus bytes the compressor can see while compressing an item of `longest` bytes:
+    its window less the item, or half the window for an item that fills half or more."""
     window = comp.window_bytes
     if window is None:
         return None
-    if longest < window // 2:
-        return window - longest
+    return window - longest if longest < window // 2 else window // 2
+
+
+def _corpus_budget(comp: Compressor, longest: int) -> int | None:
+    """corpus_room, with a warning where the item fills half the window or more."""
+    room = corpus_room(comp, longest)
+    window = comp.window_bytes
+    if window is None or longest < window // 2:
+        return room
     warnings.warn(
         f"{comp.spec}: items of {longest:,} bytes fill most of its {window:,}-byte window;"
         " each origin's corpus is cut to half the window and scores drift towards 1",
         MeasurementWarning,
         stacklevel=4,
     )
-    return window // 2
+    return room
 
 
 def corpus_bytes(datas: Sequence[bytes], budget: int | None) -> bytes:
