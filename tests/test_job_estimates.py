@@ -244,3 +244,40 @@ def test_auto_for_a_labelled_job_times_the_job_not_the_samples() -> None:
     kept = job._within_budget(items, items, slow, lengths_only / 10, 2, max(sizes), reasons)
     assert [spec for _, spec in kept] == [report.compressors[0].spec], reasons
     assert kept[0][0] < lengths_only / 10
+
+
+def test_candidates_are_measured_while_the_jobs_worst_case_fits_the_budget(
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    # Measuring a candidate runs the reference's share of its job; the winner's classification
+    # reuses it and adds the rest. The job's worst case is every measured candidate's share plus
+    # the largest rest (job._measure_labelled), and it must stay within the budget.
+    from kinpress.calibration import job
+
+    measured: list[str] = []
+
+    def figures(items: object, spec: str, *rest: object) -> job.TaskFigures:
+        measured.append(spec)
+        return job.TaskFigures(spec=spec, seconds=0.0)
+
+    monkeypatch.setattr(job, "_labelled_figures", figures)
+    items = [Item(f"r{k}", b"x", "", label=str(k % 4)) for k in range(40)]
+    targets = 60  # the reference is 40 / 100 of the pairs: a job of s seconds shares 0.4 s
+    timed = [(10.0, "a"), (100.0, "b"), (400.0, "c"), (550.0, "d"), (90.0, "e")]
+    reasons: list[str] = []
+    job._measure_labelled(items, targets, timed, 600.0, 1, None, None, 0.05, reasons)
+    # by hand, quickest first: a 4 + 6 = 10; e 4 + 36 + 54 = 94; b 40 + 40 + 60 = 140;
+    # c 80 + 160 + 240 = 480; d 240 + 220 + 330 = 790 > 600, passed over
+    assert measured == ["a", "e", "b", "c"]
+    assert len(reasons) == 1 and reasons[0].startswith("d: passed over: measuring it too")
+    assert "13 min" in reasons[0] and "over the 10 min budget" in reasons[0]
+
+    def worst(chosen: list[str]) -> float:
+        jobs = [s for s, spec in timed if spec in chosen]
+        return sum(0.4 * s for s in jobs) + max(0.6 * s for s in jobs)
+
+    assert worst(measured) <= 600 < worst([*measured, "d"])
+    # the quickest is measured even when its job alone is over the budget
+    measured.clear()
+    job._measure_labelled(items, targets, [(900.0, "slow")], 600.0, 1, None, None, 0.05, [])
+    assert measured == ["slow"]

@@ -65,11 +65,6 @@ and Rosetta within 0.02 either way (0.828 to 0.828 and 0.873 to 0.870; 0.881 to 
 to 0.801)."""
 REAL_PAIR_ITEMS = 8
 SATURATED_SHARE = 0.25
-MEASURING_SHARE = 0.5
-"""How much of the budget measuring the labelled candidates may take. The winner's held-out sizes
-are reused by its classification (its calibration is then done), so only the others' are
-spent; at a quarter, PPMd order 32 and lzma 9 (the strongest content models, and the slowest)
-were never measured on 16-21 kinds of code file of 20 files each, and PPMd would have won."""
 
 
 @dataclass(frozen=True)
@@ -296,22 +291,32 @@ def _measure_labelled(
     significance: float,
     reasons: list[str],
 ) -> list[TaskFigures]:
-    """Held-out figures of the ``timed`` candidates, quickest first, while their measuring fits
-    MEASURING_SHARE of the budget (the first is always measured); those left out go to
-    ``reasons``."""
+    """Held-out figures of the ``timed`` candidates, quickest first, while the job's worst case
+    still fits the budget (the first is always measured); those left out go to ``reasons``.
+
+    Measuring a candidate runs the reference part of its job (its held-out folds); the winner's
+    classification reuses those sizes (its calibration is then done) and adds the rest. So the
+    job takes at most every measured candidate's measuring plus the largest rest of one of them,
+    and a candidate is measured only if that stays within ``budget_seconds``. The measuring thus
+    takes what the winner's rest leaves of the budget, not a fixed share: with half of a 10-min
+    budget, PPMd order 32 on 24 languages of code (estimated 7-9 min, of which 3-4 measuring,
+    beside about 2 min for the quicker candidates) was measured or not as the machine's speed
+    drifted by a fifth, and zstd 19 won where PPMd names more (bench_origins.py
+    --debian-code)."""
     figures: list[TaskFigures] = []
-    spent, allowance = 0.0, budget_seconds * MEASURING_SHARE
+    spent = rest = 0.0
     n = len(items)
     for seconds, spec in sorted(timed):
-        # Measuring runs the reference part of the job on MEASURED_FOLDS of its folds.
         share = seconds * n / (n + targets) * len(MEASURED_FOLDS) / DEFAULT_BLOCKS
-        if figures and spent + share > allowance:
+        worst = spent + share + max(rest, seconds - share)
+        if figures and worst > budget_seconds:
             reasons.append(
-                f"{spec}: passed over: measuring it too would take more than"
-                f" {duration_text(allowance)} ({MEASURING_SHARE:.0%} of the budget)"
+                f"{spec}: passed over: measuring it too could bring the job to"
+                f" {_estimate(worst)}, over the {duration_text(budget_seconds)} budget (each"
+                " candidate measured, then the rest of the slowest one's classification)"
             )
             continue
-        spent += share
+        spent, rest = spent + share, max(rest, seconds - share)
         figures.append(_labelled_figures(items, spec, longest, engine, cache, significance))
     return figures
 
@@ -460,7 +465,8 @@ def choose_for_job(
     origins held out fold by fold (origins.fold_report): named right, and refused at
     ``significance`` when their origin is missing; among those within TIE_ITEMS items' worth of
     the best, a primed one, then the lowest own score, then the quickest wins (_pick_labelled).
-    Measuring may take a half of the budget (MEASURING_SHARE); the held-out sizes are
+    Candidates are measured while the job's worst case (each measured, then the rest of the
+    slowest one's classification) fits the budget (_measure_labelled); the held-out sizes are
     measured through the size cache, so the winner's calibration reuses them. An unlabelled
     job (matrix, tree, groups, derived) takes :func:`choose_compressor`'s choice unless a sample
     of real pairs shows that it finds nothing shared (see ``_check_real_pairs``). The budget is
