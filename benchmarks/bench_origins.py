@@ -5,7 +5,10 @@ Protocols (issue 10): logs, per system the first 10 chunks of 100 lines as refer
 per language the first half of its files (name order) as reference and the rest to classify,
 languages missing a quarter at a time; texts, the Universal Declaration of Human Rights in 14
 languages cut into 6-line chunks, the first 10 of each as reference and the next 10 to classify,
-a quarter of the languages missing at a time. For each setting it prints the share of known
+a quarter of the languages missing at a time; with --draws N, each code set also on N random
+splits (per language 20 random files as reference and 20 others to classify, a quarter of the
+languages, at least 2, missing at random; seeded, so a run repeats). For each setting it prints
+the share of known
 items named right, refused (unknown) and ambiguous, the share of a missing origin's items
 refused, and the run time; gzip 1-NN (Jiang et al. 2023) beside, which never refuses. "auto" is
 the default (-c auto, chosen on each round's reference; under its row, each round's choice and
@@ -18,7 +21,7 @@ package registry by fetch_debian_code.sh), the same code protocol with 4 languag
 time, as issue 10 states it.
 
     python benchmarks/bench_origins.py [--logs DIR] [--machine-code] [--debian-code DIR]
-        [--cache PATH]
+        [--draws N] [--cache PATH]
 """
 
 from __future__ import annotations
@@ -27,6 +30,7 @@ import argparse
 import glob
 import gzip
 import os
+import random
 import sysconfig
 import time
 import warnings
@@ -166,6 +170,33 @@ def rounds(
     return out
 
 
+def random_rounds(
+    origins: dict[str, list[Item]],
+    reference: int,
+    missing_at_once: int | None,
+    draws: int,
+    seed: int = 11,
+) -> list[tuple[list[Item], list[Item], set[str]]]:
+    """`draws` random splits: `missing_at_once` (default a quarter, at least 2) origins drawn
+    missing, and per origin `reference` random items as reference and `reference` others later."""
+    rng = random.Random(seed)
+    names = sorted(origins)
+    k = missing_at_once or max(2, len(names) // 4)
+    out = []
+    for _ in range(draws):
+        missing = set(rng.sample(names, k))
+        ref: list[Item] = []
+        later: list[Item] = []
+        for n in names:
+            items = origins[n][:]
+            rng.shuffle(items)
+            if n not in missing:
+                ref += items[:reference]
+            later += items[reference : 2 * reference]
+        out.append((ref, later, missing))
+    return out
+
+
 def gzip_1nn(reference: list[Item], later: list[Item]) -> list[str]:
     """Jiang et al. 2023 as written in their paper (k = 1; their k = 2 ties count either)."""
 
@@ -183,9 +214,13 @@ def gzip_1nn(reference: list[Item], later: list[Item]) -> list[str]:
 
 
 def run(name: str, origins: dict[str, list[Item]], reference: int, settings: list[str],
-        cache: SizeCache, missing_at_once: int | None = None) -> None:  # fmt: skip
-    plan = rounds(origins, reference, missing_at_once)
-    print(f"\n{name}: {len(origins)} origins, {reference} reference items each, {len(plan)} rounds")
+        cache: SizeCache, missing_at_once: int | None = None, draws: int = 0) -> None:  # fmt: skip
+    plan = (
+        random_rounds(origins, reference, missing_at_once, draws) if draws
+        else rounds(origins, reference, missing_at_once)
+    )  # fmt: skip
+    kind = f"{draws} random draws" if draws else f"{len(plan)} rounds"
+    print(f"\n{name}: {len(origins)} origins, {reference} reference items each, {kind}")
     print(f"  {'setting':28s} right  refused  ambiguous  missing->unknown  seconds")
     for setting in [*settings, "gzip 1-NN"]:
         right = refused = ambiguous = known = unknown = strangers = 0
@@ -241,11 +276,16 @@ def main() -> None:
     )
     parser.add_argument("--only-machine", action="store_true", help="skip ../shared")
     parser.add_argument("--fixed", nargs="*", default=list(FIXED), help="fixed compressors")
+    parser.add_argument(
+        "--draws", type=int, default=0, help="also N random splits of each code set (default 0)"
+    )
     parser.add_argument("--cache", default="/tmp/kinpress-bench-origins.sqlite")
     args = parser.parse_args()
     warnings.simplefilter("ignore")
     settings = ["auto", *args.fixed]
     sets: list[tuple[str, Callable[[], dict[str, list[Item]]], int, int | None]] = []
+    code = {"shared code (Rosetta, 8 languages)", "this machine's code",
+            "code of 24 languages (Debian)"}  # fmt: skip
     if SHARED.is_dir() and not args.only_machine:
         sets.append(("shared logs (Loghub)", lambda: log_origins(SHARED / "logs"), 10, None))
         sets.append(("shared code (Rosetta, 8 languages)", shared_code, 20, None))
@@ -261,7 +301,10 @@ def main() -> None:
         sets.append(("code of 24 languages (Debian)", lambda: code_origins(patterns), 20, 4))
     with SizeCache(args.cache) as cache:
         for name, load, reference, missing_at_once in sets:
-            run(name, load(), reference, settings, cache, missing_at_once)
+            origins = load()
+            run(name, origins, reference, settings, cache, missing_at_once)
+            if args.draws and name in code:
+                run(name, origins, reference, settings, cache, missing_at_once, args.draws)
 
 
 if __name__ == "__main__":
