@@ -157,13 +157,18 @@ def shared_code() -> dict[str, list[Item]]:
             for d in sorted(p for p in root.iterdir() if p.is_dir())}  # fmt: skip
 
 
+def missing_count(names: list[str], missing_at_once: int | None) -> int:
+    """How many origins a round leaves out: `missing_at_once`, or a quarter, at least 2."""
+    return missing_at_once or max(2, len(names) // 4)
+
+
 def rounds(
     origins: dict[str, list[Item]], reference: int, missing_at_once: int | None = None
 ) -> list[tuple[list[Item], list[Item], set[str]]]:
     """Origins missing from the reference in rotation, `missing_at_once` (default a quarter, at
     least 2) at a time; each origin's first `reference` items as reference, the next as later."""
     names = sorted(origins)
-    step = missing_at_once or max(2, len(names) // 4)
+    step = missing_count(names, missing_at_once)
     out = []
     for start in range(0, len(names), step):
         missing = set(names[start : start + step])
@@ -184,7 +189,7 @@ def random_rounds(
     missing, and per origin `reference` random items as reference and `reference` others later."""
     rng = random.Random(seed)
     names = sorted(origins)
-    k = missing_at_once or max(2, len(names) // 4)
+    k = missing_count(names, missing_at_once)
     out = []
     for _ in range(draws):
         missing = set(rng.sample(names, k))
@@ -308,27 +313,29 @@ def main() -> None:
     warnings.simplefilter("ignore")
     settings = ["auto", *args.fixed]
     sets: list[tuple[str, Callable[[], dict[str, list[Item]]], int, int | None]] = []
-    code = {"shared code (Rosetta, 8 languages)", "this machine's code",
-            "code of 24 languages (Debian)"}  # fmt: skip
+    code: list[Callable[[], dict[str, list[Item]]]] = []  # the loaders of code sets (--draws)
     if SHARED.is_dir() and not args.only_machine:
         sets.append(("shared logs (Loghub)", lambda: log_origins(SHARED / "logs"), 10, None))
         sets.append(("shared code (Rosetta, 8 languages)", shared_code, 20, None))
+        code.append(shared_code)
         sets.append(
             ("shared texts (UDHR, 14 languages)", lambda: text_origins(SHARED / "texts"), 10, None)
         )
     if args.logs:
         sets.append((f"logs in {args.logs}", lambda: log_origins(args.logs), 10, None))
     if args.machine_code:
-        sets.append(("this machine's code", lambda: code_origins(MACHINE_CODE), 20, None))
+        code.append(lambda: code_origins(MACHINE_CODE))
+        sets.append(("this machine's code", code[-1], 20, None))
     if args.debian_code:
         patterns = debian_code(args.debian_code)
-        sets.append(("code of 24 languages (Debian)", lambda: code_origins(patterns), 20, 4))
+        code.append(lambda: code_origins(patterns))
+        sets.append(("code of 24 languages (Debian)", code[-1], 20, 4))
+    baseline = not args.no_gzip
     with SizeCache(args.cache) as cache:
         for name, load, reference, missing_at_once in sets:
             origins = load()
-            baseline = not args.no_gzip
             run(name, origins, reference, settings, cache, missing_at_once, 0, baseline)
-            if args.draws and name in code:
+            if args.draws and load in code:
                 run(name, origins, reference, settings, cache, missing_at_once, args.draws,
                     baseline)  # fmt: skip
 
