@@ -3,6 +3,11 @@
 from __future__ import annotations
 
 import lzma as stdlib_lzma
+import os
+import subprocess
+import sys
+import time
+from pathlib import Path
 
 import pytest
 import zstandard
@@ -220,6 +225,80 @@ def test_zlib_priming_sees_only_the_last_window(text_corpus: bytes) -> None:
     reference = text_corpus[:50_000]
     x = text_corpus[60_000:70_000]
     assert comp.primed(reference).size(x) == comp.primed(reference[-32768:]).size(x)
+
+
+@pytest.mark.parametrize("name", sorted(ADAPTERS))
+def test_sizes_after_a_prefix_are_the_concatenations_sizes(name: str, text_corpus: bytes) -> None:
+    # Compressor.after may keep the state after the prefix (PPMd forks from it), but what it
+    # measures is concatenation's C(yx), to the byte.
+    comp = compressor(name)
+    prefix = text_corpus[:60_000]
+    xs = [text_corpus[80_000:86_000], b"", b"x", random_bytes(3_000), text_corpus[:5_000]]
+    assert comp.prefixed_sizes(prefix, xs) == [comp.size(prefix + x) for x in xs]
+    assert comp.prefixed_sizes(prefix, xs[:1]) == [comp.size(prefix + xs[0])]
+
+
+@pytest.mark.skipif(not compressor("ppmd").continues, reason="PPMd keeps its model only on Linux")
+def test_ppmd_sizes_after_a_prefix_come_from_its_kept_model(
+    text_corpus: bytes, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    from kinpress.compressors import ppmd
+
+    comp = compressor("ppmd:order=32")
+    prefix = text_corpus[:200_000]
+    xs = [text_corpus[300_000 + 7_000 * k :][:7_000] for k in range(4)]
+    whole = [comp.size(prefix + x) for x in xs]
+
+    def refuse(data: bytes) -> int:
+        raise AssertionError("compressed whole in this process")
+
+    monkeypatch.setattr(comp, "size", refuse)
+    # the helper process keeps the model after the prefix and answers for each item
+    assert comp.prefixed_sizes(prefix, xs) == whole
+    ready = comp.after(prefix)
+    assert [ready.size(x) for x in xs] == whole  # one at a time, as the job's unit is timed
+    # a short prefix: the helper soon compresses prefix + item whole instead of forking
+    short = [comp.after(b"a").sizes(xs)]
+    monkeypatch.undo()
+    assert short == [[comp.size(b"a" + x) for x in xs]]
+    helper = ppmd._helper(32, 256)
+    assert helper is not None and helper.process.poll() is None
+
+
+@pytest.mark.skipif(not compressor("ppmd").continues, reason="PPMd keeps its model only on Linux")
+def test_ppmd_compresses_whole_when_its_helper_is_gone(text_corpus: bytes) -> None:
+    from kinpress.compressors import ppmd
+
+    comp = compressor("ppmd:order=8")
+    prefix, xs = text_corpus[:50_000], [text_corpus[60_000:64_000], text_corpus[70_000:71_000]]
+    assert comp.prefixed_sizes(prefix, xs) == [comp.size(prefix + x) for x in xs]
+    helper = ppmd._helper(8, 256)
+    assert helper is not None
+    helper.process.kill()
+    helper.process.wait()
+    assert comp.prefixed_sizes(prefix, xs) == [comp.size(prefix + x) for x in xs]
+    assert helper.broken and ppmd._helper(8, 256) is None
+
+
+@pytest.mark.skipif(not compressor("ppmd").continues, reason="PPMd keeps its model only on Linux")
+def test_ppmd_helper_ends_with_the_process_that_started_it(tmp_path: Path) -> None:
+    # Ctrl-C reaches the helper too; it ignores it and ends when its parent's pipe closes, so
+    # an interrupted or finished run leaves no process behind.
+    script = (
+        "from kinpress.compressors import compressor, ppmd\n"
+        "compressor('ppmd:order=4').prefixed_sizes(b'abc' * 1000, [b'x', b'y'])\n"
+        "print(ppmd._helper(4, 256).process.pid, flush=True)\n"
+        "import os, signal; os.kill(os.getpid(), signal.SIGKILL)\n"
+    )
+    done = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True)
+    pid = int(done.stdout.split()[0])
+    for _ in range(50):
+        try:
+            os.kill(pid, 0)
+        except ProcessLookupError:
+            return
+        time.sleep(0.1)
+    raise AssertionError(f"helper {pid} outlived its parent")
 
 
 @pytest.mark.parametrize("name", ["brotli", "lzma", "bz2", "ppmd"])

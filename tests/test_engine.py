@@ -25,6 +25,22 @@ def test_plan_tiles_covers_every_pair_once_and_balances_work() -> None:
     assert covered == list(zip(first.tolist(), second.tolist(), strict=True))
 
 
+def test_a_prefix_kept_for_its_run_is_counted_once_per_run() -> None:
+    # 2 corpora of 1 MB, each against 100 items of 1 kB: by both items' bytes each pair
+    # weighs a whole corpus, so a tile of 64 kB holds one pair; with the prefix kept for its
+    # run, a corpus weighs once and its run stays in a few tiles.
+    items = [bytes(1 << 20), bytes(1 << 20), *(bytes(1000) for _ in range(100))]
+    first = [0] * 100 + [1] * 100
+    second = list(range(2, 102)) * 2
+    whole = plan_tiles(items, first, second, workers=1, target_bytes=64 << 10)
+    kept = plan_tiles(items, first, second, workers=1, target_bytes=64 << 10, prefix_once=True)
+    assert len(whole) == 200
+    assert 4 <= len(kept) <= 8
+    for tiles in (whole, kept):
+        covered = [(f, s) for t in tiles for f, s in zip(t.first, t.second, strict=True)]
+        assert covered == list(zip(first, second, strict=True))
+
+
 def test_worker_processes_agree_with_running_tiles_here(text_corpus: bytes) -> None:
     items = [text_corpus[k * 3000 : k * 3000 + 2000] for k in range(8)]
     job = SizeJob("ppmd:order=6,memory=16")

@@ -179,7 +179,8 @@ def _clocked(monkeypatch: pytest.MonkeyPatch, spec: str) -> tuple[_Clock, Any]:
 def test_a_classification_unit_is_timed_as_the_job_does_it(monkeypatch: pytest.MonkeyPatch) -> None:
     # The module's own account, on a clock each compression moves by 0.01 s + 1 s per MB: by
     # concatenation an item costs C(corpus + x); primed, the corpus is read once and each item
-    # alone; the nearest-item search costs C(y + x) of two items either way. A corpus over
+    # alone, as from a state kept after the corpus; the nearest-item search costs C(y + x) of
+    # two items either way. A corpus over
     # UNIT_CORPUS_BYTES is timed on its first that-many bytes and scaled by length.
     from kinpress.calibration.estimate import UNIT_CORPUS_BYTES, time_classify_unit
 
@@ -194,6 +195,22 @@ def test_a_classification_unit_is_timed_as_the_job_does_it(monkeypatch: pytest.M
     primed = time_classify_unit(zstd, corpus, items)
     assert primed.pair == pytest.approx(0.01 + 1_000 / 1e6)
     assert primed.prepare == pytest.approx(0.01 + 100_000 / 1e6)
+    # an adapter that keeps its state after the corpus (Compressor.after, as PPMd does): the
+    # corpus compressed alone for C(y) and once into the state, then each item alone
+    clock, kept = _clocked(monkeypatch, "lzma:level=1")
+
+    class Kept:
+        def __init__(self, prefix: bytes) -> None:
+            clock.spend(prefix)
+
+        def size(self, data: bytes) -> int:
+            clock.spend(data)
+            return 0
+
+    kept.after = Kept  # type: ignore[method-assign]
+    continued = time_classify_unit(kept, corpus, items)
+    assert continued.prepare == pytest.approx(2 * (0.01 + 100_000 / 1e6))
+    assert continued.pair == pytest.approx(0.01 + 1_000 / 1e6)
     large = b"ab" * UNIT_CORPUS_BYTES
     _, lzma = _clocked(monkeypatch, "lzma:level=1")
     scaled = time_classify_unit(lzma, large, items)
@@ -219,6 +236,15 @@ def test_a_classification_estimate_counts_folds_targets_and_the_nearest_search()
         result, [1000] * 12, 3, [1000] * 2, cores=1, unit=unit, primed=True, shape=0.5
     )
     assert primed == pytest.approx((12 * 3 + 2 * 3 + 3 * 4 * 2.0) * 1.5 + 2 * 4 * 0.5)
+    # the shape view at its own timed unit, not at its share of the bytes
+    shaped = ClassifyUnit(prepare=1.0, pair=0.75)
+    both = estimate_classify_seconds(
+        result, [1000] * 12, 3, [1000] * 2, cores=1, unit=unit, primed=True, shape=0.5,
+        shape_unit=shaped,
+    )  # fmt: skip
+    assert both == pytest.approx(
+        (12 * 3 + 2 * 3) * (1.0 + 0.75) + 3 * 4 * (2.0 + 1.0) + 2 * 4 * 0.5
+    )
 
 
 def test_auto_for_a_labelled_job_times_the_job_not_the_samples() -> None:

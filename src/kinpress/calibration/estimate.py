@@ -12,7 +12,7 @@ import time
 from collections.abc import Sequence
 from dataclasses import dataclass
 
-from ..compressors import Compressor
+from ..compressors import Compressor, Continued, Primed
 from ..units import duration_text
 from .measure import CompressorCalibration
 
@@ -65,8 +65,9 @@ this-many bytes and the times scaled by length."""
 class ClassifyUnit:
     """What a classification's unit of work costs with one compressor, timed on the job's own
     bytes: `prepare`, seconds to make one origin's corpus ready (priming it, or compressing it
-    alone for concatenation's C(y)); `pair`, seconds per item against a ready corpus (the primed
-    size of x, or C(corpus + x)); `near`, seconds per NCD of an item and a reference item (the
+    alone for concatenation's C(y) and keeping the state after it where the adapter can, see
+    Compressor.after); `pair`, seconds per item against a ready corpus (the primed size of x, or
+    C(corpus + x)); `near`, seconds per NCD of an item and a reference item (the
     search for each item's nearest reference item in its origin: C(yx) of two items)."""
 
     prepare: float
@@ -78,26 +79,30 @@ def time_classify_unit(
     comp: Compressor, corpus: bytes, items: Sequence[bytes], data_size: int = 0
 ) -> ClassifyUnit:
     """Time `comp` on a real corpus and items as a classification would use them (primed when
-    the compressor can be): the corpus prepared once, each item against it once and after
-    another item once, the quickest of each (what else the machine did only adds time). A
-    corpus over UNIT_CORPUS_BYTES is timed on its first that-many bytes, the times scaled by
-    (corpus + item) length. Why not the calibrated throughput: it is measured on a few samples
-    of a few kB, where a context model's or a large window's fixed cost weighs far more than on
-    a corpus of hundreds of kB (PPMd order 32 on 24 languages of code: 2.4 MB/s there, 5.6 MB/s
-    on 180 kB, so a job of 6 minutes was put at 24 and passed over)."""
+    the compressor can be, from its state after the corpus where it keeps one): the corpus
+    prepared once, each item against it once and after another item once, the quickest of each
+    (what else the machine did only adds time). A corpus over UNIT_CORPUS_BYTES is timed on its
+    first that-many bytes, the times scaled by (corpus + item) length. Why not the calibrated
+    throughput: it is measured on a few samples of a few kB, where a context model's or a large
+    window's fixed cost weighs far more than on a corpus of hundreds of kB (PPMd order 32 on 24
+    languages of code: 2.4 MB/s there, 5.6 MB/s on 180 kB, so a job of 6 minutes was put at 24
+    and passed over)."""
     timed = corpus[:UNIT_CORPUS_BYTES]
     mean = sum(len(x) for x in items) / max(len(items), 1)
     scale = (len(corpus) + mean) / max(len(timed) + mean, 1)
     comp.size(timed[:256])  # library and context set up outside the timing
     started = time.perf_counter()
-    ready = comp.primed(timed, data_size or int(mean)) if comp.primable else None
-    if ready is None:
+    ready: Primed | Continued
+    if comp.primable:
+        ready = comp.primed(timed, data_size or int(mean))
+    else:  # C(y), then the state after y where the adapter keeps it (Compressor.after)
         comp.size(timed)
+        ready = comp.after(timed)
     prepare = time.perf_counter() - started
     times, near = [], []
     for k, x in enumerate(items):
         started = time.perf_counter()
-        ready.size(x) if ready is not None else comp.size(timed + x)
+        ready.size(x)
         times.append(time.perf_counter() - started)
         started = time.perf_counter()
         comp.size(items[k - 1] + x)
@@ -116,6 +121,7 @@ def estimate_classify_seconds(
     cores: int | None = None,
     shape: float = 0.0,
     unit: ClassifyUnit | None = None,
+    shape_unit: ClassifyUnit | None = None,
 ) -> float:
     """Wall time of classifying `targets` against a reference of `origins` origins, with the
     held-out calibration: every item (held-out reference items and targets) against every
@@ -123,9 +129,13 @@ def estimate_classify_seconds(
     the job's data (see time_classify_unit), at its cost, adding each target's NCD to every
     reference item of one origin (the search for its nearest); else at the calibrated
     throughput, where concatenation compresses corpus + item for each and priming each corpus
-    once per fold and the items alone (a lower bound). The shape view (see origins.views)
-    repeats the scoring on bytes ``shape`` times the size (0: no shape view). Spread over
-    ``cores`` cores (default: all)."""
+    once per fold and the items alone (a lower bound). ``primed``: the compressor is primed with
+    each corpus, or keeps its state after it (Compressor.continues), so an item's cost does not
+    grow with the corpus. The shape view (see origins.views) repeats the scoring: at the cost of
+    `shape_unit`, its unit of work timed on the shape view's corpus and items, or else on bytes
+    ``shape`` times the size (0: no shape view), which holds where a pair's cost follows its
+    bytes but not where a kept state's does (PPMd's shape view took as long as its content on
+    24 languages, on about half the bytes). Spread over ``cores`` cores (default: all)."""
     items = [*reference, *targets]
     pairs = len(items) * origins
     corpora = origins * (blocks + 1)
@@ -138,7 +148,11 @@ def estimate_classify_seconds(
         # one; by concatenation its pairs cost that much less.
         fold = 1.0 if primed else ((blocks - 1) / blocks * corpus + mean) / (corpus + mean)
         held = len(reference) * origins * fold + len(targets) * origins
-        scored = (held * unit.pair + corpora * unit.prepare) * (1 + shape)
+        scored = held * unit.pair + corpora * unit.prepare
+        if shape_unit is not None:
+            scored += held * shape_unit.pair + corpora * shape_unit.prepare
+        else:
+            scored *= 1 + shape
         nearest = len(targets) * len(reference) / max(origins, 1) * unit.near
         return (scored + nearest) / (cores or _cores())
     work = pairs * mean + corpora * corpus if primed else pairs * (corpus + mean)

@@ -229,11 +229,12 @@ def _within_budget(
 ) -> list[tuple[float, str]]:
     """(estimated seconds, spec) of the candidates that hold the largest item and whose whole
     classification fits the budget; why each other one is passed over goes to ``reasons``."""
-    from ..origins.views import shape_share
+    from ..origins.views import shape_share, shaped_items
 
     labels = {item.label for item in items}
     lengths = [len(item.data) for item in items]
     shape = shape_share([*items, *targets])
+    shaped = (shaped_items(items), shaped_items(targets)) if shape else None
     timed = []
     for result in report.compressors:
         if not holds(result, longest):
@@ -244,8 +245,9 @@ def _within_budget(
         comp = compressor(result.spec)
         seconds = estimate_classify_seconds(
             result, lengths, len(labels), [len(t.data) for t in targets],
-            primed=comp.primable, cores=cores, shape=shape,
+            primed=comp.primable or comp.continues, cores=cores, shape=shape,
             unit=classify_unit(comp, items, targets, longest),
+            shape_unit=shaped and classify_unit(comp, *shaped, longest),
         )  # fmt: skip
         if seconds > budget_seconds:
             reasons.append(

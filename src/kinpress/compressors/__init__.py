@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from .base import Compressor, Param, Primed, SpecError
+from .base import Compressor, Continued, Param, Primed, SpecError
 from .brotli import Brotli
 from .bz2 import Bz2
 from .lzma import Lzma
@@ -45,6 +45,7 @@ __all__ = [
     "AUTO_CANDIDATES",
     "Compressor",
     "CompressorInfo",
+    "Continued",
     "Param",
     "Primed",
     "SpecError",

@@ -42,12 +42,33 @@ class Primed(ABC):
         return [self.size(data) for data in datas]
 
 
+class Continued:
+    """C(prefix + x) for many x after one prefix, as concatenation measures C(yx).
+
+    This one compresses each concatenation whole. An adapter whose compressor's state after the
+    prefix can be reused returns its own (see `Compressor.after`), with the same sizes.
+    """
+
+    def __init__(self, owner: Compressor, prefix: bytes) -> None:
+        self._owner = owner
+        self._prefix = prefix
+
+    def size(self, data: bytes) -> int:
+        """C(prefix + data)."""
+        return self._owner.size(self._prefix + data)
+
+    def sizes(self, datas: Sequence[bytes]) -> list[int]:
+        """`size` of each input."""
+        return [self.size(data) for data in datas]
+
+
 class Compressor(ABC):
     """Base of every adapter: validated settings, a canonical spec, sizes.
 
     Subclasses declare `name`, `params` (the first is the level-like setting, reachable as
-    `level` for every compressor), `primable`, and whether their library releases the GIL while
-    compressing (so threads run in parallel).
+    `level` for every compressor), `primable`, `continues` (whether `after` reuses the state
+    after a prefix), and whether their library releases the GIL while compressing (so threads
+    run in parallel).
     """
 
     name: ClassVar[str]
@@ -55,6 +76,7 @@ class Compressor(ABC):
     params: ClassVar[tuple[Param, ...]]
     aliases: ClassVar[dict[str, str]] = {}
     primable: ClassVar[bool] = False
+    continues: ClassVar[bool] = False
     releases_gil: ClassVar[bool] = True
     window_source: ClassVar[str]
 
@@ -119,6 +141,18 @@ class Compressor(ABC):
     def sizes(self, datas: Sequence[bytes]) -> list[int]:
         """C(x) of each input; adapters may batch the calls."""
         return [self.size(data) for data in datas]
+
+    def after(self, prefix: bytes) -> Continued:
+        """C(prefix + x) for the x to come (see `Continued`): concatenation's sizes, which
+        an adapter whose state after the prefix can be reused (`continues`) finds quicker."""
+        return Continued(self, prefix)
+
+    def prefixed_sizes(self, prefix: bytes, datas: Sequence[bytes]) -> list[int]:
+        """C(prefix + x) of each x: through `after` for more than one x after a prefix longer
+        than each (an origin's corpus, not one item as the prefix of another), else whole."""
+        if len(datas) > 1 and len(prefix) > max(len(data) for data in datas):
+            return self.after(prefix).sizes(datas)
+        return self.sizes([prefix + data for data in datas])
 
     def primed(self, reference: bytes, data_size: int = 0) -> Primed:
         """A compressor that knows `reference` already; only where `primable` is true.

@@ -64,7 +64,8 @@ def run_tile(items: Sequence[bytes], job: SizeJob, tile: Tile) -> np.ndarray:
         return np.array(comp.sizes([items[i] for i in tile.first]), dtype=np.int64)
     both = job.strand == "both"
     out = np.empty(len(tile.first), dtype=np.int64)
-    # Runs of pairs that share their first item: one primer, or one reverse complement, per run.
+    # Runs of pairs that share their first item: one primer, or one reverse complement, per run;
+    # by concatenation, one prefix (see Compressor.after).
     for f, start, stop in _runs(tile.first):
         seconds = [items[s] for s in tile.second[start:stop]]
         references = [items[f], reverse_complement(items[f])] if both else [items[f]]
@@ -72,7 +73,7 @@ def run_tile(items: Sequence[bytes], job: SizeJob, tile: Tile) -> np.ndarray:
             largest = max(len(x) for x in seconds)
             found = [comp.primed(ref, largest).sizes(seconds) for ref in references]
         else:
-            found = [comp.sizes([ref + x for x in seconds]) for ref in references]
+            found = [comp.prefixed_sizes(ref, seconds) for ref in references]
         out[start:stop] = np.min(np.array(found, dtype=np.int64), axis=0)
     return out
 
@@ -95,17 +96,29 @@ def plan_tiles(
     workers: int,
     *,
     target_bytes: int = 16 << 20,
+    prefix_once: bool = False,
 ) -> list[Tile]:
     """Cut a work list into tiles: about `target_bytes` each, and at least 4 per worker.
 
-    Pairs should arrive sorted by `first`, so a tile reuses a primed compressor for its run.
+    Pairs should arrive sorted by `first`, so a tile reuses a primed compressor (or, with
+    concatenation, the state after one prefix, see Compressor.after) for its run. A pair weighs
+    its two items' bytes, or with `prefix_once` (primed, or a compressor that keeps its state
+    after a prefix) its second item's, the first's counted only where a run starts: there a
+    long first costs once for the whole run, and cutting the run into tiles by both items'
+    bytes would prepare it again in every tile (PPMd order 32 on 24 languages of code: 1,175
+    prefixes, each 40 ms, for 48 corpora).
     """
     n = len(first)
     if n == 0:
         return []
     lengths = np.array([len(data) for data in items], dtype=np.int64)
-    sizes = lengths[np.asarray(first)]
+    firsts = np.asarray(first)
+    sizes = lengths[firsts]
     if second is not None:
+        if prefix_once:
+            starts = np.ones(n, dtype=bool)
+            starts[1:] = firsts[1:] != firsts[:-1]
+            sizes = np.where(starts, sizes, 0)
         sizes = sizes + lengths[np.asarray(second)]
     total = int(sizes.sum())
     per_tile = max(1, min(target_bytes, total // max(1, 4 * workers)))
