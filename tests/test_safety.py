@@ -157,10 +157,10 @@ def test_a_file_output_on_a_full_disk_keeps_the_old_file_and_no_temporary(
         assert [p.name for p in full.iterdir()] == ["m.tsv"]
 
 
-# 9. worker processes import only installed code ------------------------------------------
+# 9. worker and helper processes import only installed code ------------------------------
 
 
-def test_worker_processes_never_import_modules_from_the_current_folder(
+def test_worker_and_helper_processes_never_import_modules_from_the_current_folder(
     text_folder: Path, tmp_path: Path
 ) -> None:
     trap = tmp_path / "trap"
@@ -178,6 +178,21 @@ def test_worker_processes_never_import_modules_from_the_current_folder(
     assert done.returncode == 0, done.stderr
     assert not marker.exists(), marker.read_text()
     assert len(done.stdout.splitlines()) == 5
+    # classify with -c auto: PPMd's helper process (it keeps the model after a corpus), started
+    # here to time the job's unit of work and in the workers to measure
+    known = tmp_path / "known"
+    for origin, names in (("left", "ab"), ("right", "cd")):
+        (known / origin).mkdir(parents=True)
+        for name in names:
+            (known / origin / f"{name}.txt").write_bytes((text_folder / f"{name}.txt").read_bytes())
+    done = subprocess.run(
+        [KINPRESS, "classify", "--reference", str(known), *map(str, sorted(text_folder.iterdir())),
+         "--jobs", "2", "--no-cache"],
+        cwd=trap, capture_output=True, text=True,
+        env={k: v for k, v in os.environ.items() if k != "PYTHONPATH"},
+    )  # fmt: skip
+    assert done.returncode == 0, done.stderr
+    assert not marker.exists(), marker.read_text()
 
 
 # 10. inputs too large to hold ------------------------------------------------------------
