@@ -86,7 +86,12 @@ def whole(data):
 
 def forked(encoder, data):
     read, write = os.pipe()
-    pid = os.fork()
+    try:
+        pid = os.fork()
+    except OSError:  # no process to spare now: compressed whole
+        os.close(read)
+        os.close(write)
+        return None
     if pid == 0:
         try:
             tail = len(encoder.encode(data)) + len(encoder.flush(endmark=False))
@@ -151,6 +156,7 @@ class _Helper:
             [sys.executable, "-I", "-c", _HELPER, str(order), str(memory)],
             stdin=subprocess.PIPE,
             stdout=subprocess.PIPE,
+            stderr=subprocess.DEVNULL,  # a helper that fails only costs time: sizes come whole
             cwd=os.sep,
         )
 
