@@ -15,9 +15,9 @@ model, so the ratio is not the corpus length's: expect a few times, not hundreds
 from __future__ import annotations
 
 import argparse
-import sysconfig
 import time
-from pathlib import Path
+
+from bench_passages import sources  # the standard library's sources, as text
 
 from kinpress.compressors import compressor
 
@@ -26,21 +26,11 @@ CORPORA = (20_000, 80_000, 200_000, 500_000)
 ITEM = 8_000
 
 
-def text(length: int) -> bytes:
-    """The first `length` bytes of the standard library's sources, in sorted order."""
-    out = bytearray()
-    for path in sorted(Path(sysconfig.get_paths()["stdlib"]).glob("*.py")):
-        out += path.read_bytes()
-        if len(out) >= length:
-            break
-    return bytes(out[:length])
-
-
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--items", type=int, default=20, help="items after each prefix")
     args = parser.parse_args()
-    source = text(max(CORPORA) + ITEM * (args.items + 1))
+    source = sources(max(CORPORA) + ITEM * (args.items + 1))
     items = [source[-ITEM * (k + 1) :][:ITEM] for k in range(args.items)]
     print(f"{'compressor':28s} {'prefix':>8s}  whole ms/item  after ms/item  ratio")
     for spec in SPECS:

@@ -181,7 +181,7 @@ class Sizes:
             None if second is None else second[todo].tolist(),
             self.engine.jobs,
             target_bytes=4 << 20,
-            prefix_once=self.job.method.startswith("primed") or self.comp.continues,
+            prefix_once=self.job.method == "primed" or self.comp.continues,
         )
         where: dict[Tile, np.ndarray] = {}
         start = 0
