@@ -1,8 +1,9 @@
 """Sizes after one prefix (concatenation's C(yx) for many x, as a classification scores items
 against an origin's corpus): `Compressor.prefixed_sizes` over compressing each prefix + x whole.
 
-For each adapter that keeps its state after a prefix (`continues`: PPMd, whose helper process
-keeps the model after the prefix and forks from it for each item) and for one that does not
+For each adapter that keeps its state after a prefix (`continues`: PPMd and lzma, whose helper
+process keeps the encoder after the prefix and forks from it for each item; see
+compressors.kept) and for one that does not
 (bz2, the control: its ratio should stay near 1), on corpora of several lengths cut from this
 Python's own standard library sources, with items of 8 kB: the time per item both ways and
 their ratio, measured in the same run; the sizes must agree to the byte. A ratio above 1 is the
@@ -21,7 +22,13 @@ from bench_passages import sources  # the standard library's sources, as text
 
 from kinpress.compressors import compressor
 
-SPECS = ("ppmd:order=32,memory=256", "ppmd:order=6,memory=16", "bz2:level=9")
+SPECS = (
+    "ppmd:order=32,memory=256",
+    "ppmd:order=6,memory=16",
+    "lzma:level=9",
+    "lzma:level=6",
+    "bz2:level=9",
+)
 CORPORA = (20_000, 80_000, 200_000, 500_000)
 ITEM = 8_000
 

@@ -22,6 +22,7 @@ from kinpress.compressors import (
     Compressor,
     SpecError,
     compressor,
+    kept,
     parse_spec,
 )
 from kinpress.items import Item
@@ -238,13 +239,17 @@ def test_sizes_after_a_prefix_are_the_concatenations_sizes(name: str, text_corpu
     assert comp.prefixed_sizes(prefix, xs[:1]) == [comp.size(prefix + xs[0])]
 
 
-@pytest.mark.skipif(not compressor("ppmd").continues, reason="PPMd keeps its model only on Linux")
-def test_ppmd_sizes_after_a_prefix_come_from_its_kept_model(
-    text_corpus: bytes, monkeypatch: pytest.MonkeyPatch
-) -> None:
-    from kinpress.compressors import ppmd
+KEEPING = ["ppmd:order=32", "lzma:level=9"]
+"""Adapters that keep their state after a prefix in a helper process (see compressors.kept)."""
 
-    comp = compressor("ppmd:order=32")
+
+@pytest.mark.skipif(not kept.AVAILABLE, reason="a state is kept (forked) only on Linux")
+@pytest.mark.parametrize("spec", KEEPING)
+def test_sizes_after_a_prefix_come_from_the_kept_state(
+    spec: str, text_corpus: bytes, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    comp = compressor(spec)
+    assert comp.continues
     prefix = text_corpus[:200_000]
     xs = [text_corpus[300_000 + 7_000 * k :][:7_000] for k in range(4)]
     whole = [comp.size(prefix + x) for x in xs]
@@ -253,7 +258,7 @@ def test_ppmd_sizes_after_a_prefix_come_from_its_kept_model(
         raise AssertionError("compressed whole in this process")
 
     monkeypatch.setattr(comp, "size", refuse)
-    # the helper process keeps the model after the prefix and answers for each item
+    # the helper process keeps the state after the prefix and answers for each item
     assert comp.prefixed_sizes(prefix, xs) == whole
     ready = comp.after(prefix)
     assert [ready.size(x) for x in xs] == whole  # one at a time, as the job's unit is timed
@@ -261,33 +266,43 @@ def test_ppmd_sizes_after_a_prefix_come_from_its_kept_model(
     short = [comp.after(b"a").sizes(xs)]
     monkeypatch.undo()
     assert short == [[comp.size(b"a" + x) for x in xs]]
-    helper = ppmd._helper(32, 256)
-    assert helper is not None and helper.process.poll() is None
+    assert any(h.process.poll() is None for h in kept._helpers.values())
 
 
-@pytest.mark.skipif(not compressor("ppmd").continues, reason="PPMd keeps its model only on Linux")
-def test_ppmd_compresses_whole_when_its_helper_is_gone(text_corpus: bytes) -> None:
-    from kinpress.compressors import ppmd
+@pytest.mark.skipif(not kept.AVAILABLE, reason="a state is kept (forked) only on Linux")
+def test_lzma_keeps_the_dictionary_compressing_whole_would_have(text_corpus: bytes) -> None:
+    # lzma sizes its dictionary to the input (the next power of two): items that take
+    # prefix + item across a power of two are sent apart, with the larger dictionary.
+    comp = compressor("lzma:level=9")
+    prefix = text_corpus[: (1 << 17) - 3_000]
+    xs = [text_corpus[200_000:201_000], text_corpus[210_000:216_000], b"", b"y" * 5_000]
+    assert comp.prefixed_sizes(prefix, xs) == [comp.size(prefix + x) for x in xs]
 
-    comp = compressor("ppmd:order=8")
+
+@pytest.mark.skipif(not kept.AVAILABLE, reason="a state is kept (forked) only on Linux")
+@pytest.mark.parametrize("spec", KEEPING)
+def test_sizes_come_whole_when_the_helper_is_gone(
+    spec: str, text_corpus: bytes, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.setattr(kept, "_helpers", {})  # this test's own helpers, gone with it
+    comp = compressor(spec)
     prefix, xs = text_corpus[:50_000], [text_corpus[60_000:64_000], text_corpus[70_000:71_000]]
     assert comp.prefixed_sizes(prefix, xs) == [comp.size(prefix + x) for x in xs]
-    helper = ppmd._helper(8, 256)
-    assert helper is not None
+    (helper,) = kept._helpers.values()
     helper.process.kill()
     helper.process.wait()
     assert comp.prefixed_sizes(prefix, xs) == [comp.size(prefix + x) for x in xs]
-    assert helper.broken and ppmd._helper(8, 256) is None
+    assert helper.broken and all(kept.helper(r) is None for (_, r) in kept._helpers)
 
 
-@pytest.mark.skipif(not compressor("ppmd").continues, reason="PPMd keeps its model only on Linux")
+@pytest.mark.skipif(not kept.AVAILABLE, reason="a state is kept (forked) only on Linux")
 def test_ppmd_helper_ends_with_the_process_that_started_it(tmp_path: Path) -> None:
     # Ctrl-C reaches the helper too; it ignores it and ends when its parent's pipe closes, so
     # an interrupted or finished run leaves no process behind.
     script = (
-        "from kinpress.compressors import compressor, ppmd\n"
+        "from kinpress.compressors import compressor, kept\n"
         "compressor('ppmd:order=4').prefixed_sizes(b'abc' * 1000, [b'x', b'y'])\n"
-        "print(ppmd._helper(4, 256).process.pid, flush=True)\n"
+        "print(next(iter(kept._helpers.values())).process.pid, flush=True)\n"
         "import os, signal; os.kill(os.getpid(), signal.SIGKILL)\n"
     )
     done = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True)

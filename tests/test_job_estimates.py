@@ -185,8 +185,9 @@ def test_a_classification_unit_is_timed_as_the_job_does_it(monkeypatch: pytest.M
     from kinpress.calibration.estimate import UNIT_CORPUS_BYTES, time_classify_unit
 
     corpus, items = b"ab" * 50_000, [b"x" * 1000, b"y" * 3000]
-    _, lzma = _clocked(monkeypatch, "lzma:level=1")
-    unit = time_classify_unit(lzma, corpus, items)
+    _, bz2 = _clocked(monkeypatch, "bz2:level=1")  # it keeps no state after a prefix
+    assert not bz2.continues
+    unit = time_classify_unit(bz2, corpus, items)
     assert unit.pair == pytest.approx(0.01 + 101_000 / 1e6)  # the quicker of the two items
     assert unit.prepare == pytest.approx(0.01 + 100_000 / 1e6)
     assert unit.near == pytest.approx(0.01 + 4_000 / 1e6)
@@ -195,7 +196,7 @@ def test_a_classification_unit_is_timed_as_the_job_does_it(monkeypatch: pytest.M
     primed = time_classify_unit(zstd, corpus, items)
     assert primed.pair == pytest.approx(0.01 + 1_000 / 1e6)
     assert primed.prepare == pytest.approx(0.01 + 100_000 / 1e6)
-    # an adapter that keeps its state after the corpus (Compressor.after, as PPMd does): the
+    # an adapter that keeps its state after the corpus (Compressor.after, as PPMd and lzma do): the
     # corpus compressed alone for C(y) and once into the state, then each item alone
     clock, kept = _clocked(monkeypatch, "lzma:level=1")
 
@@ -212,8 +213,8 @@ def test_a_classification_unit_is_timed_as_the_job_does_it(monkeypatch: pytest.M
     assert continued.prepare == pytest.approx(2 * (0.01 + 100_000 / 1e6))
     assert continued.pair == pytest.approx(0.01 + 1_000 / 1e6)
     large = b"ab" * UNIT_CORPUS_BYTES
-    _, lzma = _clocked(monkeypatch, "lzma:level=1")
-    scaled = time_classify_unit(lzma, large, items)
+    _, bz2 = _clocked(monkeypatch, "bz2:level=1")
+    scaled = time_classify_unit(bz2, large, items)
     timed = UNIT_CORPUS_BYTES + 2000  # the mean item
     assert scaled.pair == pytest.approx(
         (0.01 + (UNIT_CORPUS_BYTES + 1000) / 1e6) * (len(large) + 2000) / timed

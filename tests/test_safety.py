@@ -166,7 +166,7 @@ def test_worker_and_helper_processes_never_import_modules_from_the_current_folde
     trap = tmp_path / "trap"
     trap.mkdir()
     marker = tmp_path / "imported-from-the-current-folder"
-    for name in ("brotli", "zstandard", "pyppmd", "numpy", "kinpress"):
+    for name in ("brotli", "zstandard", "pyppmd", "lzma", "numpy", "kinpress"):
         (trap / f"{name}.py").write_text(f"open({str(marker)!r}, 'a').write('{name}\\n')\n")
     done = subprocess.run(
         [KINPRESS, "matrix", str(text_folder), "-c", "ppmd:order=4", "--jobs", "2", "--no-cache"],
@@ -178,8 +178,8 @@ def test_worker_and_helper_processes_never_import_modules_from_the_current_folde
     assert done.returncode == 0, done.stderr
     assert not marker.exists(), marker.read_text()
     assert len(done.stdout.splitlines()) == 5
-    # classify with -c auto: PPMd's helper process (it keeps the model after a corpus), started
-    # here to time the job's unit of work and in the workers to measure
+    # classify with -c auto: PPMd's and lzma's helper processes (they keep the state after a
+    # corpus), started here to time the job's unit of work and in the workers to measure
     known = tmp_path / "known"
     for origin, names in (("left", "ab"), ("right", "cd")):
         (known / origin).mkdir(parents=True)

@@ -6,7 +6,8 @@ import lzma
 import sys
 from typing import ClassVar
 
-from .base import Compressor, Param
+from .base import Compressor, Continued, Param
+from .kept import AVAILABLE, Kept
 
 # Dictionary size of each preset, from the xz manual's preset table.
 _PRESET_DICTIONARY = (18, 20, 21, 22, 22, 23, 23, 24, 25, 26)
@@ -22,6 +23,7 @@ class Lzma(Compressor):
     )
     aliases: ClassVar[dict[str, str]] = {"preset": "level"}
     window_source = "xz manual: preset dictionary sizes 256 KiB (-0) .. 64 MiB (-9)"
+    continues = AVAILABLE
 
     @property
     def window_bytes(self) -> int:
@@ -32,10 +34,30 @@ class Lzma(Compressor):
     def library_version() -> str:
         return "liblzma-stdlib-" + sys.version.split()[0]
 
-    def size(self, data: bytes) -> int:
+    def _settings(self, length: int) -> tuple[int, int]:
+        """The preset and dictionary size for an input of `length` bytes."""
         preset = self.setting("level") | (lzma.PRESET_EXTREME if self.setting("extreme") else 0)
         # A dictionary no larger than the input gives byte-identical output and spares the
         # allocation that otherwise dominates small calls (64 MiB at preset 9).
-        dict_size = min(self.window_bytes, max(4096, 1 << max(0, len(data) - 1).bit_length()))
+        return preset, min(self.window_bytes, max(4096, 1 << max(0, length - 1).bit_length()))
+
+    def size(self, data: bytes) -> int:
+        preset, dict_size = self._settings(len(data))
         filters = [{"id": lzma.FILTER_LZMA2, "preset": preset, "dict_size": dict_size}]
         return len(lzma.compress(data, format=lzma.FORMAT_RAW, filters=filters))
+
+    def after(self, prefix: bytes) -> Continued:
+        if not self.continues:
+            return Continued(self, prefix)
+        return Kept(self, prefix, _RECIPE, lambda data: self._settings(len(prefix) + len(data)))
+
+
+# The encoder after a prefix, kept in a helper process (see kept): fed the prefix once, each
+# item from there, with the dictionary compressing prefix + item whole would have.
+_RECIPE = """
+import lzma
+def new(preset, dict_size):
+    filters = [{"id": lzma.FILTER_LZMA2, "preset": preset, "dict_size": dict_size}]
+    encoder = lzma.LZMACompressor(format=lzma.FORMAT_RAW, filters=filters)
+    return (lambda data: len(encoder.compress(data))), (lambda: len(encoder.flush()))
+"""
