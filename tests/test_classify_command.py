@@ -75,6 +75,11 @@ def test_text_output_states_the_guarantee_and_the_caution(
     assert cli.main(argv) == 0
     out, err = capsys.readouterr()
     assert "refused (unknown or ambiguous) at a rate of at most 0.1" in out and "at most 0.1" in err
+    # the terminal gets one short line; the rate's conditions are said once, in the output
+    summary = [line for line in err.splitlines() if line.startswith("kinpress: classify:")]
+    assert len(summary) == 1 and "provided new items" not in summary[0]
+    assert "named" in summary[0] and len(summary[0]) < 250
+    assert out.count("provided new items differ from the reference") == 1
     assert "evidence for a person to review, not proof" in out
     assert out.splitlines()[0].split() == ["item", "origin", "p-value", "confidence", "nearest",
                                            "distance"]  # fmt: skip

@@ -129,11 +129,20 @@ def run(args: argparse.Namespace, console: Console) -> int:
             emit(_evaluation_text(result), args.output)
         return 0
     counts = found.counts()
+    # One line here; the guarantee's conditions and how scores were made comparable are in the
+    # output (under the table, or the JSON's abstention and scoring), not repeated.
+    abstention = found.abstention
+    if abstention.significance is None:
+        rule = f"a given cut at {abstention.threshold:g} (no stated error rate)"
+    else:
+        test = "the mix of tests" if abstention.test == "mix" else f"the {abstention.test} test"
+        rule = (
+            f"items of known origins refused at a rate of at most {abstention.significance:g}"
+            f" by {test}, as the output explains"
+        )
     console.say(
         f"classify: {found.method} with {found.compressor}; {counts['named']} named,"
-        f" {counts['ambiguous']} ambiguous, {counts['unknown']} unknown; "
-        + found.abstention.guarantee
-        + f"; {found.scoring.description}"
+        f" {counts['ambiguous']} ambiguous, {counts['unknown']} unknown; {rule}"
     )
     if args.json:
         write_json(args, found.as_json())
