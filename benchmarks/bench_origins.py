@@ -22,7 +22,10 @@ package registry by fetch_debian_code.sh), the same code protocol with 4 languag
 time, as issue 10 states it.
 
     python benchmarks/bench_origins.py [--logs DIR] [--machine-code] [--debian-code DIR]
-        [--draws N] [--cache PATH]
+        [--draws N] [--cache PATH] [--files PATH]
+
+--files PATH keeps the file lists of the machine's code sets: the first run writes them, later
+runs read the same files even after packages were installed or removed.
 """
 
 from __future__ import annotations
@@ -30,6 +33,7 @@ from __future__ import annotations
 import argparse
 import glob
 import gzip
+import json
 import multiprocessing
 import os
 import random
@@ -147,6 +151,28 @@ def code_origins(patterns: dict[str, str], per: int = 40) -> dict[str, list[Item
         step = len(files) / min(per, len(files))
         chosen = [files[int(k * step)] for k in range(min(per, len(files)))]
         out[language] = [Item(p, d, p, label=language) for d, p in chosen]
+    return out
+
+
+def frozen(name: str, origins: dict[str, list[Item]], path: Path | None) -> dict[str, list[Item]]:
+    """The set `name` as `path` (a JSON file of each set's file paths by origin) lists it, read
+    again from those files; or, where `path` does not list it yet, `origins` as found, written
+    there. Installing packages adds files under /usr and so changes which files the patterns
+    pick (737 packages for the report test's browser changed the 24 languages' figures): a
+    frozen list keeps runs on one machine comparable."""
+    if path is None:
+        return origins
+    lists = json.loads(path.read_text()) if path.exists() else {}
+    if name not in lists:
+        lists[name] = {o: [i.name for i in items] for o, items in origins.items()}
+        path.write_text(json.dumps(lists, indent=1) + "\n")
+        return origins
+    out = {}
+    for origin, paths in lists[name].items():
+        missing = [p for p in paths if not os.path.isfile(p)]
+        if missing:
+            raise SystemExit(f"{path}: {name}: {missing[0]} listed but gone ({len(missing)} files)")
+        out[origin] = [Item(p, Path(p).read_bytes(), p, label=origin) for p in paths]
     return out
 
 
@@ -309,6 +335,11 @@ def main() -> None:
         "--no-gzip", action="store_true", help="leave out gzip 1-NN (12 min on 24 languages)"
     )
     parser.add_argument("--cache", default="/tmp/kinpress-bench-origins.sqlite")
+    parser.add_argument(
+        "--files",
+        type=Path,
+        help="a JSON file of the code sets' file lists: read where it lists a set, else written",
+    )
     args = parser.parse_args()
     warnings.simplefilter("ignore")
     settings = ["auto", *args.fixed]
@@ -324,11 +355,11 @@ def main() -> None:
     if args.logs:
         sets.append((f"logs in {args.logs}", lambda: log_origins(args.logs), 10, None))
     if args.machine_code:
-        code.append(lambda: code_origins(MACHINE_CODE))
+        code.append(lambda: frozen("machine", code_origins(MACHINE_CODE), args.files))
         sets.append(("this machine's code", code[-1], 20, None))
     if args.debian_code:
         patterns = debian_code(args.debian_code)
-        code.append(lambda: code_origins(patterns))
+        code.append(lambda: frozen("debian", code_origins(patterns), args.files))
         sets.append(("code of 24 languages (Debian)", code[-1], 20, 4))
     baseline = not args.no_gzip
     with SizeCache(args.cache) as cache:
