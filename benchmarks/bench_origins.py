@@ -154,16 +154,20 @@ def code_origins(patterns: dict[str, str], per: int = 40) -> dict[str, list[Item
     return out
 
 
-def frozen(name: str, origins: dict[str, list[Item]], path: Path | None) -> dict[str, list[Item]]:
+def frozen(
+    name: str, find: Callable[[], dict[str, list[Item]]], path: Path | None
+) -> dict[str, list[Item]]:
     """The set `name` as `path` (a JSON file of each set's file paths by origin) lists it, read
-    again from those files; or, where `path` does not list it yet, `origins` as found, written
-    there. Installing packages adds files under /usr and so changes which files the patterns
-    pick (737 packages for the report test's browser changed the 24 languages' figures): a
-    frozen list keeps runs on one machine comparable."""
-    if path is None:
-        return origins
-    lists = json.loads(path.read_text()) if path.exists() else {}
-    if name not in lists:
+    again from those files; or, where `path` does not list it yet, the origins `find` finds
+    (searching and reading every matching file), written there. Installing packages adds files
+    under /usr and so changes which files the patterns pick (737 packages for the report test's
+    browser changed the 24 languages' figures): a frozen list keeps runs on one machine
+    comparable."""
+    lists = json.loads(path.read_text()) if path is not None and path.exists() else {}
+    if path is None or name not in lists:
+        origins = find()
+        if path is None:
+            return origins
         lists[name] = {o: [i.name for i in items] for o, items in origins.items()}
         path.write_text(json.dumps(lists, indent=1) + "\n")
         return origins
@@ -355,11 +359,11 @@ def main() -> None:
     if args.logs:
         sets.append((f"logs in {args.logs}", lambda: log_origins(args.logs), 10, None))
     if args.machine_code:
-        code.append(lambda: frozen("machine", code_origins(MACHINE_CODE), args.files))
+        code.append(lambda: frozen("machine", lambda: code_origins(MACHINE_CODE), args.files))
         sets.append(("this machine's code", code[-1], 20, None))
     if args.debian_code:
         patterns = debian_code(args.debian_code)
-        code.append(lambda: frozen("debian", code_origins(patterns), args.files))
+        code.append(lambda: frozen("debian", lambda: code_origins(patterns), args.files))
         sets.append(("code of 24 languages (Debian)", code[-1], 20, 4))
     baseline = not args.no_gzip
     with SizeCache(args.cache) as cache:
