@@ -65,7 +65,7 @@ from kinpress.origins import (
     novelty_detection,
     reference_folds,
 )
-from kinpress.origins.conformal import combined
+from kinpress.origins.conformal import _abstention, combined
 from kinpress.origins.views import Scoring, shaped_items
 
 SHARED_DATA = Path(__file__).resolve().parents[2] / "shared" / "datasets-real"
@@ -692,11 +692,14 @@ def test_real_code_of_a_language_missing_from_the_reference_comes_back_unknown(
     reference, held_out = _code(shared)
     languages = sorted({str(i.label) for i in reference})
     unknown = strangers = refused = known = 0
+    estimated = 0.0  # the output's estimate of the share unknown, weighed by the round's strangers
     for start in range(0, len(languages), 2):
         missing = set(languages[start : start + 2])
         kept = [i for i in reference if i.label not in missing]
         spec = choose_for_job(kept, "classify", targets=held_out, cache=cache).spec
         result = classify(held_out, kept, spec, cache=cache)
+        assert result.abstention.missing_refused is not None
+        estimated += result.abstention.missing_refused * sum(i.label in missing for i in held_out)
         for p, item in zip(result.predictions, held_out, strict=True):
             if item.label in missing:
                 strangers += 1
@@ -705,10 +708,14 @@ def test_real_code_of_a_language_missing_from_the_reference_comes_back_unknown(
                 known += 1
                 refused += p.decision != "named"
     print(
-        f"missing languages unknown {unknown / strangers:.3f}, known refused {refused / known:.3f}"
+        f"missing languages unknown {unknown / strangers:.3f} (estimated"
+        f" {estimated / strangers:.3f}), known refused {refused / known:.3f}"
     )
     assert unknown / strangers >= 0.75
     assert refused / known <= 0.07
+    # The output's estimate for a missing origin (each of the reference's origins left out in
+    # turn) against what the missing languages' files did: within 0.15 over the rounds.
+    assert abs(estimated / strangers - unknown / strangers) <= 0.15
 
 
 def _log_protocol(folder: Path) -> list[tuple[list[Item], list[Item], set[str]]]:
@@ -930,6 +937,62 @@ def test_the_reference_chooses_the_test_that_refuses_most_held_out_strangers() -
     assert np.mean(chosen_p[stranger] <= eps) >= 0.8
     known_refused = np.mean(chosen_p[~stranger] <= eps)
     assert known_refused <= eps + 3 * math.sqrt(eps * (1 - eps) / int((~stranger).sum()))
+
+
+def _exchangeable_scores(
+    rng: np.random.Generator, gap: np.ndarray, codes: np.ndarray, columns: np.ndarray
+) -> np.ndarray:
+    """Synthetic scores of items of origins `codes` on the origins `columns`: about 0.6 on their
+    own origin, 0.6 + gap[own, other] on the others; every origin drawn alike, so an origin
+    missing from the reference is like those in it."""
+    scores = rng.normal(0.6 + gap[codes][:, columns], 0.04)
+    own = np.isin(codes, columns)
+    place = np.searchsorted(columns, codes[own])
+    scores[np.flatnonzero(own), place] = rng.normal(0.6, 0.06, int(own.sum()))
+    return scores
+
+
+def test_the_output_estimates_the_share_of_a_missing_origin_refused() -> None:
+    # The guarantee's words give the deciding test's share of each left-out origin's held-out
+    # items refused, as an estimate for an origin missing from the reference. Origins drawn
+    # alike (8 in the reference, 8 missing), from kin whose scores overlap their own items' to
+    # strangers far apart, 6 draws each: the mean estimate lies within 0.1 of the mean share of
+    # the missing origins' items refused (measured: 0.00 / 0.00, 0.66 / 0.73, 1.00 / 1.00; a
+    # single draw strays up to 0.2 from its share, as a reference of 8 origins can).
+    eps = 0.05
+    reference, codes = np.arange(8), np.repeat(np.arange(8), 30)
+    missing = np.repeat(np.arange(8, 16), 100)
+    means = []
+    for low, high in [(0.02, 0.12), (0.1, 0.3), (0.25, 0.5)]:
+        estimates, refused = [], []
+        for seed in range(6):
+            rng = np.random.default_rng(seed)
+            gap = rng.uniform(low, high, (16, 16))
+            gap = (gap + gap.T) / 2
+            held = _exchangeable_scores(rng, gap, codes, reference)
+            conformity = Conformity.of(held, codes, [str(o) for o in reference], eps)
+            abstention = _abstention(conformity, 3)
+            estimate = abstention.missing_refused
+            assert estimate == pytest.approx(dict(conformity.detection)[conformity.test])
+            assert (
+                f"the test refused {estimate:.0%} of its held-out items, a rough"
+                in abstention.guarantee
+            )
+            assert abstention.as_json()["missing_refused"] == pytest.approx(estimate)
+            _, _, best_p = conformity.p_values(_exchangeable_scores(rng, gap, missing, reference))
+            estimates.append(estimate)
+            refused.append(float(np.mean(best_p <= eps)))
+        assert abs(np.mean(estimates) - np.mean(refused)) <= 0.1, (estimates, refused)
+        means.append(np.mean(estimates))
+    assert means[0] < 0.2 < means[1] < 0.8 < means[2]  # the estimate tells the cases apart
+    # A forced test measured nothing: no estimate, no words about one. Two origins cannot
+    # leave one out and still test: the words say there were too few.
+    held = _exchangeable_scores(rng, gap, codes, reference)
+    forced = _abstention(Conformity.of(held, codes, list("abcdefgh"), eps, test="fit"), 3)
+    assert forced.missing_refused is None and "left out in turn" not in forced.guarantee
+    two = _abstention(Conformity.of(held[:60, :2], codes[:60], ["a", "b"], eps), 3)
+    assert two.missing_refused is None
+    assert "without a stated rate (too few origins to estimate it)" in two.guarantee
 
 
 def test_novelty_detection_is_the_share_of_left_out_items_refused() -> None:
