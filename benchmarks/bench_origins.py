@@ -10,27 +10,33 @@ splits (per language 20 random files as reference and 20 others to classify, a q
 languages, at least 2, missing at random; seeded, so a run repeats). For each setting it prints
 the share of known items named right, refused (unknown) and ambiguous, the share whose
 best-scoring origin is the right one (named or not: what a method that never refuses would
-name), the share of a missing origin's items refused, and the run time; gzip 1-NN (Jiang et al.
+name), the share of a missing origin's items refused (per round, beside the output's estimate
+of it), and the run time; gzip 1-NN (Jiang et al.
 2023) beside, which never refuses (--no-gzip leaves it out). "auto" is
 the default (-c auto, chosen on each round's reference; under its row, each round's choice and
 figures, which hang on the choice). Data: ../shared/datasets-real (logs,
 code, texts) and, where present, this machine's own material: --logs DIR (a folder of *.log files
 of other systems; machine_logs.sh fills one with 8 logs of this machine's programs) and source
-files of many languages under /usr (--machine-code); and 24
+files of many languages under /usr (--machine-code); byte streams of 9 formats under /usr
+(--machine-bytes: ELF libraries and programs, Python bytecode, gettext catalogues, gzip streams,
+PNG images, time-zone files, static libraries, Java archives; each the first 32 KB of a file,
+2 formats missing at a time); and 24
 programming languages never used while developing (--debian-code DIR, fetched from Debian's
 package registry by fetch_debian_code.sh), the same code protocol with 4 languages missing at a
 time, as issue 10 states it.
 
-    python benchmarks/bench_origins.py [--logs DIR] [--machine-code] [--debian-code DIR]
+    python benchmarks/bench_origins.py [--logs DIR] [--machine-code] [--machine-bytes]
+        [--debian-code DIR]
         [--draws N] [--cache PATH] [--files PATH]
 
---files PATH keeps the file lists of the machine's code sets: the first run writes them, later
-runs read the same files even after packages were installed or removed.
+--files PATH keeps the file lists of the machine's code and byte sets: the first run writes
+them, later runs read the same files even after packages were installed or removed.
 """
 
 from __future__ import annotations
 
 import argparse
+import fnmatch
 import glob
 import gzip
 import json
@@ -83,6 +89,20 @@ MACHINE_CODE = {
     "fortran": f"{PURELIB}/**/*.f90",
     "python-stub": f"{PURELIB}/**/*.pyi",
 }
+MACHINE_BYTES = {
+    "elf-shared": ("/usr/lib/x86_64-linux-gnu", "*.so*", False),
+    "elf-program": ("/usr/bin", "*", False),
+    "python-bytecode": ("/usr/lib/python3.11", "*.pyc", True),
+    "gettext": ("/usr/share/locale", "*.mo", True),
+    "gzip": ("/usr/share/doc", "*.gz", True),
+    "png": ("/usr/share", "*.png", True),
+    "tzif": ("/usr/share/zoneinfo", "*", True),
+    "ar-archive": ("/usr/lib", "*.a", True),
+    "java-archive": ("/usr/share", "*.jar", True),
+}
+"""Byte streams of 9 formats on this machine (folder, name pattern, below subfolders too)."""
+HEAD = 32768
+"""A byte stream's item: the first 32 KB of its file."""
 
 
 def debian_code(root: Path) -> dict[str, str]:
@@ -154,8 +174,43 @@ def code_origins(patterns: dict[str, str], per: int = 40) -> dict[str, list[Item
     return out
 
 
+def machine_bytes(per: int = 40) -> dict[str, list[Item]]:
+    """Per format of MACHINE_BYTES, `per` files of 2 KB or more spread over the name order (ELF
+    programs only), each item its first HEAD bytes. Folders are walked without following links
+    (a recursive glob through /usr/lib's links ran for half an hour)."""
+    out = {}
+    for kind, (top, pattern, below) in MACHINE_BYTES.items():
+        paths = []
+        for folder, _, names in os.walk(top):
+            paths += [os.path.join(folder, n) for n in names if fnmatch.fnmatch(n, pattern)]
+            if not below:
+                break
+        datas: dict[bytes, str] = {}
+        for p in sorted(paths):
+            if os.path.islink(p) or not os.path.isfile(p) or os.path.getsize(p) < 2048:
+                continue
+            data = read_head(p)
+            if kind != "elf-program" or data.startswith(b"\x7fELF"):
+                datas.setdefault(data, p)
+        files = list(datas.items())
+        if len(files) < 30:
+            continue
+        step = len(files) / min(per, len(files))
+        chosen = [files[int(k * step)] for k in range(min(per, len(files)))]
+        out[kind] = [Item(p, d, p, label=kind) for d, p in chosen]
+    return out
+
+
+def read_head(path: str) -> bytes:
+    with open(path, "rb") as f:
+        return f.read(HEAD)
+
+
 def frozen(
-    name: str, find: Callable[[], dict[str, list[Item]]], path: Path | None
+    name: str,
+    find: Callable[[], dict[str, list[Item]]],
+    path: Path | None,
+    read: Callable[[str], bytes] = lambda p: Path(p).read_bytes(),
 ) -> dict[str, list[Item]]:
     """The set `name` as `path` (a JSON file of each set's file paths by origin) lists it, read
     again from those files; or, where `path` does not list it yet, the origins `find` finds
@@ -176,7 +231,7 @@ def frozen(
         missing = [p for p in paths if not os.path.isfile(p)]
         if missing:
             raise SystemExit(f"{path}: {name}: {missing[0]} listed but gone ({len(missing)} files)")
-        out[origin] = [Item(p, Path(p).read_bytes(), p, label=origin) for p in paths]
+        out[origin] = [Item(p, read(p), p, label=origin) for p in paths]
     return out
 
 
@@ -304,9 +359,11 @@ def run(name: str, origins: dict[str, list[Item]], reference: int, settings: lis
             if setting == "auto":
                 now = (right, refused, known, unknown, strangers)
                 r, f, k, u, n = (a - b for a, b in zip(now, before, strict=True))
+                estimate = result.abstention.missing_refused
                 per_round.append(
                     f"    {', '.join(sorted(missing))} missing: {spec}; right {r / k:.3f},"
                     f" refused {f / k:.3f}, unknown {u / n:.3f}"
+                    + ("" if estimate is None else f" (estimated {estimate:.3f})")
                 )
         seconds = time.perf_counter() - started
         label = setting + (f" ({', '.join(sorted(chosen))})" if chosen else "")
@@ -327,6 +384,9 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--logs", type=Path, help="a folder of *.log files of other systems")
     parser.add_argument("--machine-code", action="store_true", help="languages under /usr")
+    parser.add_argument(
+        "--machine-bytes", action="store_true", help="byte streams of 9 formats under /usr"
+    )
     parser.add_argument(
         "--debian-code", type=Path, help="a folder fetch_debian_code.sh filled (24 languages)"
     )
@@ -361,6 +421,9 @@ def main() -> None:
     if args.machine_code:
         code.append(lambda: frozen("machine", lambda: code_origins(MACHINE_CODE), args.files))
         sets.append(("this machine's code", code[-1], 20, None))
+    if args.machine_bytes:
+        code.append(lambda: frozen("bytes", machine_bytes, args.files, read_head))
+        sets.append(("this machine's byte streams", code[-1], 20, 2))
     if args.debian_code:
         patterns = debian_code(args.debian_code)
         code.append(lambda: frozen("debian", lambda: code_origins(patterns), args.files))
