@@ -995,6 +995,34 @@ def test_the_output_estimates_the_share_of_a_missing_origin_refused() -> None:
     assert "without a stated rate (too few origins to estimate it)" in two.guarantee
 
 
+def test_the_output_names_the_origin_hardest_to_tell_and_its_kin() -> None:
+    # Origins 0 and 1 are kin (their items score on each other's origin about as on their own);
+    # the other six are far apart. Left out, a kin is refused least, taken for the other; the
+    # per-origin shares average to the estimate, and the words name the pair.
+    rng = np.random.default_rng(3)
+    gap = np.full((8, 8), 0.4)
+    gap[0, 1] = gap[1, 0] = 0.02
+    reference, codes = np.arange(8), np.repeat(np.arange(8), 30)
+    held = _exchangeable_scores(rng, gap, codes, reference)
+    names = [f"o{k}" for k in range(8)]
+    abstention = _abstention(Conformity.of(held, codes, names, 0.05), 3)
+    assert [origin for origin, _, _ in abstention.left_out] == names
+    shares = [share for _, share, _ in abstention.left_out]
+    assert np.mean(shares) == pytest.approx(abstention.missing_refused)
+    assert abstention.hardest is not None
+    origin, share, kin = abstention.hardest
+    assert {origin, kin} == {"o0", "o1"} and share < 0.5 and share == min(shares)
+    assert all(s == 1.0 and k is None for o, s, k in abstention.left_out if o not in ("o0", "o1"))
+    words = f"Left out, {origin} was refused least ({share:.0%}; most of its items were taken"
+    assert f"{words} for {kin})" in abstention.guarantee
+    found = abstention.as_json()["left_out"]
+    assert found[0] == {
+        "origin": "o0",
+        "refused": shares[0],
+        "taken_for": abstention.left_out[0][2],
+    }
+
+
 def test_novelty_detection_is_the_share_of_left_out_items_refused() -> None:
     # Recomputed by hand for one left-out origin from the public pieces: the others' held-out
     # items calibrate the fit test, the left-out origin's items are tested on their best origin.

@@ -6,7 +6,7 @@ from __future__ import annotations
 
 import warnings
 from collections.abc import Iterator, Sequence
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -124,13 +124,16 @@ def _auc(positive: np.ndarray, values: np.ndarray) -> float:
 class _LeftOut:
     """The held-out scores with one origin left out of the reference: `known` rows are the
     other origins' items, `reduced` the scores on the kept origins, `relabel` the known rows'
-    origins among those, `centre` and `scale` the kept origins' profile (see _profile)."""
+    origins among those, `centre` and `scale` the kept origins' profile (see _profile),
+    `missing` the origin left out and `keep` the kept ones."""
 
     known: np.ndarray
     reduced: np.ndarray
     relabel: np.ndarray
     centre: np.ndarray
     scale: np.ndarray
+    missing: int
+    keep: np.ndarray
 
 
 def _leave_each_origin_out(scores: np.ndarray, codes: np.ndarray) -> Iterator[_LeftOut]:
@@ -144,7 +147,7 @@ def _leave_each_origin_out(scores: np.ndarray, codes: np.ndarray) -> Iterator[_L
         reduced = scores[:, keep]
         relabel = np.searchsorted(keep, codes[known])
         centre, scale = _profile(reduced[known], relabel)
-        yield _LeftOut(known, reduced, relabel, centre, scale)
+        yield _LeftOut(known, reduced, relabel, centre, scale, missing, keep)
 
 
 def novelty_aucs(scores: np.ndarray, codes: np.ndarray) -> tuple[float, float]:
@@ -183,18 +186,24 @@ def _features(
 class _Round:
     """One origin left out: the test statistics (see _features) of the other origins' held-out
     items for their own origin (`known`) and of the left-out origin's items for their best
-    kept origin (`strangers`)."""
+    kept origin (`strangers`); `missing` is the left-out origin and `taken` each of its items'
+    best kept origin (as an index of all origins)."""
 
     known: np.ndarray
     strangers: np.ndarray
+    missing: int = -1
+    taken: np.ndarray = field(default_factory=lambda: np.empty(0, dtype=int))
 
 
 def _round(out: _LeftOut) -> _Round:
     """One left-out origin's round, as Mix learns from it."""
     known, strangers = out.reduced[out.known], out.reduced[~out.known]
+    best = combined(strangers).argmin(axis=1)
     return _Round(
         _features(known, out.centre, out.scale, out.relabel),
-        _features(strangers, out.centre, out.scale, combined(strangers).argmin(axis=1)),
+        _features(strangers, out.centre, out.scale, best),
+        out.missing,
+        out.keep[best],
     )
 
 
@@ -272,18 +281,33 @@ def _logistic(x: np.ndarray, y: np.ndarray, steps: int = 50) -> tuple[np.ndarray
     return beta[:-1].copy(), float(beta[-1])
 
 
-def _mix_detection(rounds: Sequence[_Round], significance: float) -> float:
+LeftOutShare = tuple[int, float, int]
+"""One origin left out of the reference: the origin, the share of its held-out items a test
+refused, and the kept origin most of the others were taken for (-1 when all were refused)."""
+
+
+def _left_out_share(missing: int, refused: np.ndarray, taken: np.ndarray) -> LeftOutShare:
+    """A LeftOutShare from the left-out items' refusals and best kept origins."""
+    kept = taken[~refused]
+    kin = int(np.bincount(kept).argmax()) if kept.size else -1
+    return missing, float(np.mean(refused)), kin
+
+
+def _mix_detection(
+    rounds: Sequence[_Round], significance: float
+) -> tuple[float, list[LeftOutShare]]:
     """The share of a left-out origin's held-out items the mix refuses at `significance`, each
     round's mix learnt on the other rounds only (an honest figure, comparable with the single
-    tests'); NaN with fewer than three rounds."""
-    refused = []
+    tests'), NaN with fewer than three rounds; and each round's LeftOutShare."""
+    shares = []
     for k, round_ in enumerate(rounds if len(rounds) >= 3 else ()):
         mix = Mix.learn([r for j, r in enumerate(rounds) if j != k])
         if mix is None or not len(round_.known) or not len(round_.strangers):
             continue
         p = conformal_p_values(mix(round_.known), mix(round_.strangers))
-        refused.append(float(np.mean(p <= significance)))
-    return float(np.mean(refused)) if refused else float("nan")
+        shares.append(_left_out_share(round_.missing, p <= significance, round_.taken))
+    mean = float(np.mean([share for _, share, _ in shares])) if shares else float("nan")
+    return mean, shares
 
 
 def novelty_detection(
@@ -299,22 +323,27 @@ def novelty_detection(
 
 def _detection(
     scores: np.ndarray, codes: np.ndarray, significance: float
-) -> tuple[dict[str, float], list[_Round]]:
-    """novelty_detection's shares and the rounds the mix learns from, from one pass over the
-    left-out origins (no rounds with fewer than three origins)."""
-    refused: dict[str, list[float]] = {test: [] for test in TESTS}
+) -> tuple[dict[str, float], list[_Round], dict[str, list[LeftOutShare]]]:
+    """novelty_detection's shares, the rounds the mix learns from and, per deciding statistic,
+    each left-out origin's LeftOutShare, from one pass over the left-out origins (no rounds with
+    fewer than three origins)."""
+    shares: dict[str, list[LeftOutShare]] = {test: [] for test in TESTS}
     rounds = []
     for out in _leave_each_origin_out(scores, codes) if scores.shape[1] >= 3 else ():
         known, strangers = out.reduced[out.known], out.reduced[~out.known]
+        best = combined(strangers).argmin(axis=1)
         calibration = _statistics(known, out.centre, out.scale, out.relabel)
-        strange = _statistics(strangers, out.centre, out.scale, combined(strangers).argmin(axis=1))
+        strange = _statistics(strangers, out.centre, out.scale, best)
         for test in TESTS:
             p = conformal_p_values(calibration[test], strange[test])
-            refused[test].append(float(np.mean(p <= significance)))
+            shares[test].append(_left_out_share(out.missing, p <= significance, out.keep[best]))
         rounds.append(_round(out))
-    found = {test: float(np.mean(v)) if v else float("nan") for test, v in refused.items()}
-    found[MIX] = _mix_detection(rounds, significance)
-    return found, rounds
+    found = {
+        test: float(np.mean([share for _, share, _ in v])) if v else float("nan")
+        for test, v in shares.items()
+    }
+    found[MIX], shares[MIX] = _mix_detection(rounds, significance)
+    return found, rounds, shares
 
 
 def test_words(test: str | None) -> str:
@@ -382,7 +411,8 @@ class Conformity:
     every view weighed together by a logistic regression learnt on the reference, see Mix),
     chosen on the reference: the one that refuses most held-out items of an origin left out of
     it at the significance (`detection`, see novelty_detection; the mix only by a margin, single
-    tests on ties in TIE_ORDER).
+    tests on ties in TIE_ORDER); `left_out` gives the chosen test's share per left-out origin,
+    with the kept origin most of its other items were taken for (None: all refused).
     Scores of two views (an (items, origins, views) stack: content and shape, see Scoring) pick
     b by their geometric mean, and each test's statistic is the more typical of the two views',
     each view with its own centre and scale ((origins, views) arrays): a later item of a known
@@ -414,6 +444,7 @@ class Conformity:
     significance: float
     detection: tuple[tuple[str, float], ...]
     mix: Mix | None = None
+    left_out: tuple[tuple[str, float, str | None], ...] = ()
 
     @classmethod
     def of(
@@ -430,8 +461,9 @@ class Conformity:
         if test is not None and test not in DECIDERS:
             raise ValueError(f"unknown test {test!r}: use one of {', '.join(DECIDERS)}")
         centre, scale = _profile(scores, codes)
+        shares: dict[str, list[LeftOutShare]] = {}
         if test is None:  # the rounds the choice was made on are those the mix learns from
-            detection, rounds = _detection(scores, codes, significance)
+            detection, rounds, shares = _detection(scores, codes, significance)
             test = _choose_test(detection, sum(len(r.strangers) for r in rounds))
         else:
             detection, rounds = {}, _rounds(scores, codes) if test == MIX else []
@@ -448,6 +480,10 @@ class Conformity:
             significance=significance,
             detection=tuple(detection.items()),
             mix=mix,
+            left_out=tuple(
+                (origins[missing], share, origins[kin] if kin >= 0 else None)
+                for missing, share, kin in shares.get(test, [])
+            ),
         )
         return replace(found, test_calibration=found.statistic(scores, codes))
 
@@ -488,7 +524,8 @@ class Abstention:
     is the deciding test and `detection` why it was chosen: each test's share of held-out items
     of a left-out origin refused at the significance (see Conformity); the deciding test's share
     is `missing_refused`, what the output gives as an estimate for an origin missing from the
-    reference.
+    reference; `left_out` the same per left-out origin, with the kept origin most of its other
+    items were taken for (see Conformity), and `hardest` the origin least refused.
     """
 
     significance: float | None
@@ -499,6 +536,13 @@ class Abstention:
     blocks: int = DEFAULT_BLOCKS
     test: str | None = None
     detection: tuple[tuple[str, float], ...] = ()
+    left_out: tuple[tuple[str, float, str | None], ...] = ()
+
+    @property
+    def hardest(self) -> tuple[str, float, str | None] | None:
+        """The left-out origin the deciding test refused least (the first of equals), with its
+        share and the origin most of its items were taken for; None without a measure."""
+        return min(self.left_out, key=lambda found: found[1]) if self.left_out else None
 
     @property
     def test_words(self) -> str | None:
@@ -567,6 +611,11 @@ class Abstention:
                 " in the reference); the rest are named as the known origin they resemble most,"
                 " or ambiguous"
             )
+            hardest = self.hardest
+            if hardest is not None and hardest[1] < missing:
+                origin, share, kin = hardest
+                text += f". Left out, {origin} was refused least ({share:.0%}"
+                text += f"; most of its items were taken for {kin})" if kin is not None else ")"
         return text
 
     def as_json(self) -> dict[str, object]:
@@ -581,6 +630,10 @@ class Abstention:
                     "test_words": self.test_words,
                     "detection": dict(self.detection),
                     "missing_refused": self.missing_refused,
+                    "left_out": [
+                        {"origin": origin, "refused": share, "taken_for": kin}
+                        for origin, share, kin in self.left_out
+                    ],
                     "calibration_scores": self.calibration_scores,
                     "label_conditional": self.label_conditional,
                     "smallest_rate": self.smallest_rate,
@@ -617,4 +670,5 @@ def _abstention(conformity: Conformity, blocks: int) -> Abstention:
         blocks=blocks,
         test=conformity.test,
         detection=conformity.detection,
+        left_out=conformity.left_out,
     )
