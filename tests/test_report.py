@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import json
 import random
+import re
 import shutil
 import subprocess
 import tomllib
@@ -316,6 +317,17 @@ def test_report_command_classifies_with_a_reference(tmp_path: Path) -> None:
 
     words = c["abstention"]["test_words"]
     assert words.startswith("the ") and f"conformal p-value of {escape(words)}" in page.read_text()
+    # each origin left out in turn: the JSON's shares, and on the page a row per origin, hardest
+    # first, with the share refused and the kin the rest were taken for
+    left_out = c["abstention"]["left_out"]
+    assert [x["origin"] for x in left_out] == c["origins"]
+    html = page.read_text()
+    table = html[html.index('<table id="left-out">') :]
+    table = table[: table.index("</table>")]
+    rows = re.findall(r'<tr><td class="mono">([^<]+)</td><td class="num">(\d+)%</td>', table)
+    hardest_first = sorted(left_out, key=lambda x: x["refused"])
+    assert [o for o, _ in rows] == [x["origin"] for x in hardest_first]
+    assert [int(v) for _, v in rows] == [round(100 * x["refused"]) for x in hardest_first]
 
 
 # A real browser
