@@ -167,19 +167,24 @@ def code_origins(patterns: dict[str, str], per: int = 40) -> dict[str, list[Item
             data = Path(p).read_bytes()
             if b"\0" not in data:
                 datas.setdefault(data, p)
-        files = list(datas.items())
-        if len(files) < 30:
-            continue
-        step = len(files) / min(per, len(files))
-        chosen = [files[int(k * step)] for k in range(min(per, len(files)))]
-        out[language] = [Item(p, d, p, label=language) for d, p in chosen]
+        if len(datas) >= 30:
+            out[language] = spread(language, datas, per)
     return out
 
 
+def spread(label: str, datas: dict[bytes, str], per: int) -> list[Item]:
+    """`per` of the files (bytes to path, in name order) spread evenly over that order, as
+    items labelled `label`."""
+    files = list(datas.items())
+    step = len(files) / min(per, len(files))
+    chosen = [files[int(k * step)] for k in range(min(per, len(files)))]
+    return [Item(p, d, p, label=label) for d, p in chosen]
+
+
 def machine_bytes(per: int = 40) -> dict[str, list[Item]]:
-    """Per format of MACHINE_BYTES, `per` files of 2 KB or more spread over the name order (ELF
-    programs only), each item its first HEAD bytes. Folders are walked without following links
-    (a recursive glob through /usr/lib's links ran for half an hour)."""
+    """Per format of MACHINE_BYTES, `per` files of 2 KB or more spread over the name order (of
+    /usr/bin, ELF programs only), each item its first HEAD bytes. Folders are walked without
+    following links (a recursive glob through /usr/lib's links ran for half an hour)."""
     out = {}
     for kind, (top, pattern, below) in MACHINE_BYTES.items():
         paths = []
@@ -194,12 +199,8 @@ def machine_bytes(per: int = 40) -> dict[str, list[Item]]:
             data = read_head(p)
             if kind != "elf-program" or data.startswith(b"\x7fELF"):
                 datas.setdefault(data, p)
-        files = list(datas.items())
-        if len(files) < 30:
-            continue
-        step = len(files) / min(per, len(files))
-        chosen = [files[int(k * step)] for k in range(min(per, len(files)))]
-        out[kind] = [Item(p, d, p, label=kind) for d, p in chosen]
+        if len(datas) >= 30:
+            out[kind] = spread(kind, datas, per)
     return out
 
 
@@ -299,14 +300,10 @@ def fresh_choice(reference: list[Item], later: list[Item], cache_path: str) -> s
         return choose_for_job(reference, "classify", targets=later, cache=cache).spec
 
 
-def gzip_1nn(reference: list[Item], later: list[Item]) -> list[str]:
-    """Jiang et al. 2023 as written in their paper (k = 1; their k = 2 ties count either)."""
-    return [label for label, _ in gzip_1nn_margins(reference, later)]
-
-
-def gzip_1nn_margins(reference: list[Item], later: list[Item]) -> list[tuple[str, float]]:
-    """gzip_1nn's label of each item, with its margin: how much nearer its nearest reference
-    item is than the nearest of any other label (0: a tie), what it would refuse by first."""
+def gzip_1nn(reference: list[Item], later: list[Item]) -> list[tuple[str, float]]:
+    """Jiang et al. 2023 as written in their paper (k = 1; their k = 2 ties count either): each
+    item's label, with its margin: how much nearer its nearest reference item is than the
+    nearest of any other label (0: a tie), what it would leave unnamed first."""
 
     def size(data: bytes) -> int:
         return len(gzip.compress(data))
@@ -342,18 +339,16 @@ def run(name: str, origins: dict[str, list[Item]], reference: int, settings: lis
         started = time.perf_counter()
         chosen = set()
         per_round = []
-        for ref, later, missing in plan:
+        for index, (ref, later, missing) in enumerate(plan):
             known_items = [i for i in later if i.label not in missing]
             if setting == "gzip 1-NN":
-                guesses = gzip_1nn_margins(ref, known_items)
+                guesses = gzip_1nn(ref, known_items)
                 hits = [g == i.label for (g, _), i in zip(guesses, known_items, strict=True)]
                 right += sum(hits)
                 known += len(known_items)
                 if len(auto_refused) == len(plan):
                     order = np.argsort([m for _, m in guesses], kind="stable")
-                    kept = order[auto_refused[len(per_round)] :]
-                    matched += sum(hits[k] for k in kept)
-                    per_round.append("")
+                    matched += sum(hits[k] for k in order[auto_refused[index] :])
                 continue
             spec = setting
             if setting == "auto":
@@ -397,7 +392,7 @@ def run(name: str, origins: dict[str, list[Item]], reference: int, settings: lis
         )
         print(f"  {label[:60]:28s} {figures}      {missing_rate:>6s}        {seconds:6.0f}",
               flush=True)  # fmt: skip
-        if setting == "gzip 1-NN" and per_round:
+        if setting == "gzip 1-NN" and len(auto_refused) == len(plan):
             print(
                 "    gzip 1-NN leaving as many known items unnamed as auto did"
                 f" (least margin first): right {matched / known:.3f}",
