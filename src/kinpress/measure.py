@@ -15,7 +15,7 @@ import hashlib
 import time
 import warnings
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Protocol
 
 import numpy as np
@@ -41,6 +41,20 @@ class Progress(Protocol):
     """
 
     def __call__(self, phase: str, done: int, total: int, /) -> None: ...
+
+
+def staged(progress: Progress | None, stage: str) -> Progress | None:
+    """`progress` with each phase told as part of `stage`: ``"pairs (held-out reference,
+    content)"``, so that a person sees which of a command's measurements is under way and the
+    counts of one do not seem to start over in the next."""
+    if progress is None:
+        return None
+    told = progress
+
+    def report(phase: str, done: int, total: int, /) -> None:
+        told(f"{phase} ({stage})", done, total)
+
+    return report
 
 
 class MeasurementWarning(UserWarning):
@@ -109,6 +123,10 @@ class Measurement:
         if strand not in STRANDS:
             raise SpecError(f"unknown strand {strand!r}; use {' or '.join(STRANDS)}")
         return cls(built, conditional, strand, engine or LocalEngine(), cache, progress)
+
+    def staged(self, stage: str) -> Measurement:
+        """This measurement with its progress told as part of `stage` (see `staged`)."""
+        return replace(self, progress=staged(self.progress, stage))
 
     @property
     def job(self) -> SizeJob:

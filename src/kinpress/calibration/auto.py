@@ -12,6 +12,7 @@ from ..cache import SizeCache
 from ..compressors import AUTO_CANDIDATES, compressor
 from ..engine import Engine
 from ..items import Item
+from ..measure import Progress
 from ..origins.scores import DEFAULT_SIGNIFICANCE
 from .choose import DEFAULT_BUDGET_SECONDS, calibrate, choose_compressor, holds
 from .controls import DEFAULT_SEED
@@ -38,12 +39,13 @@ def resolve_auto(
     replicates: int = 0,
     null_pairs: int = 0,
     significance: float = DEFAULT_SIGNIFICANCE,
+    progress: Progress | None = None,
 ) -> str:
     """The spec ``-c auto`` uses for ``job`` on ``items`` (see :func:`auto_choice`)."""
     return auto_choice(
         items, job, targets=targets, budget_seconds=budget_seconds, strand=strand,
         engine=engine, cache=cache, say=say, replicates=replicates, null_pairs=null_pairs,
-        significance=significance,
+        significance=significance, progress=progress,
     )[0]  # fmt: skip
 
 
@@ -60,13 +62,14 @@ def auto_choice(
     replicates: int = 0,
     null_pairs: int = 0,
     significance: float = DEFAULT_SIGNIFICANCE,
+    progress: Progress | None = None,
 ) -> tuple[str, CalibrationReport | None]:
     """The spec ``-c auto`` uses for ``job`` on ``items``, and the calibration table behind it
     (None for a choice kept by an earlier version, which did not keep its table):
     :func:`choose_for_job`'s choice
     (classify: ``items`` is the labelled reference, ``targets`` the unknowns, ``significance``
     the rate its abstention refuses at; ``replicates`` and ``null_pairs`` the job's work beyond
-    its matrix), said through ``say``, with a
+    its matrix), said through ``say``, the measuring told to ``progress``, with a
     MeasurementWarning when even it cannot hold the largest pair of items.
 
     The choice is kept in ``cache``, keyed by the items' contents (and labels for a labelled
@@ -89,7 +92,7 @@ def auto_choice(
         choice = choose_for_job(items, job, targets=targets, budget_seconds=budget_seconds,
                                 strand=strand, engine=engine, cache=cache,
                                 replicates=replicates, null_pairs=null_pairs,
-                                significance=significance)  # fmt: skip
+                                significance=significance, progress=progress)  # fmt: skip
         stored = _choice_json(choice, items, job in LABELLED_JOBS)
         table = choice.report
         if cache is not None:

@@ -20,6 +20,7 @@ from dataclasses import dataclass, replace
 
 from ..compressors import AUTO_CANDIDATES, Compressor
 from ..items import Item
+from ..measure import Progress
 from ..units import duration_text, size_text
 from .controls import (
     DEFAULT_NORMALITY_BYTES,
@@ -168,10 +169,11 @@ def calibrate(
     sample_bytes: int = DEFAULT_SAMPLE_BYTES,
     normality_bytes: int = DEFAULT_NORMALITY_BYTES,
     sweep_seconds: float = DEFAULT_SWEEP_SECONDS,
+    progress: Progress | None = None,
 ) -> CalibrationReport:
     """Calibrate ``candidates`` (default: the registry's unlabelled ``AUTO_CANDIDATES``) on
     controls made from ``items`` (or generic ones) and recommend one by quality (module rules),
-    speed breaking ties.
+    speed breaking ties; ``progress`` is told as each candidate is done.
 
     >>> report = calibrate(load_items(["genomes/"]))  # doctest: +SKIP
     >>> report.recommended, report.as_json()["reasons"]  # doctest: +SKIP
@@ -183,10 +185,15 @@ def calibrate(
         sample_bytes=sample_bytes,
         normality_bytes=normality_bytes,
     )
-    results = tuple(
-        calibrate_compressor(spec, controls, max_bytes=max_bytes, sweep_seconds=sweep_seconds)
-        for spec in candidates or AUTO_CANDIDATES["unlabelled"]
-    )
+    specs = list(candidates or AUTO_CANDIDATES["unlabelled"])
+    measured = []
+    for spec in specs:
+        measured.append(
+            calibrate_compressor(spec, controls, max_bytes=max_bytes, sweep_seconds=sweep_seconds)
+        )
+        if progress is not None:
+            progress("compressors (auto: on controls)", len(measured), len(specs))
+    results = tuple(measured)
     inputs = {**controls.inputs, "max_bytes": max_bytes}
     recommended, reasons = _recommend(results, _need(inputs))
     return CalibrationReport(seed, inputs, results, recommended, reasons)
@@ -203,15 +210,16 @@ def choose_compressor(
     max_bytes: int = DEFAULT_MAX_BYTES,
     replicates: int = 0,
     null_pairs: int = 0,
+    progress: Progress | None = None,
 ) -> tuple[str, CalibrationReport]:
     """The compressor for ``-c auto``: the best one (as :func:`calibrate` ranks them) among those
     whose estimated whole-job time (:func:`estimate_job_seconds`, with ``replicates`` bootstrap
     matrices and ``null_pairs`` of derived's null) is within ``budget_seconds``;
     quality is worth paying for only inside the budget. If none fits the budget, the fastest
     reliable one; the reasons say which and why. ``cores`` is the cores the estimate assumes
-    (default: every core this process may use).
+    (default: every core this process may use); ``progress`` goes to :func:`calibrate`.
     """
-    report = calibrate(items, candidates, seed=seed, max_bytes=max_bytes)
+    report = calibrate(items, candidates, seed=seed, max_bytes=max_bytes, progress=progress)
     lengths = [len(item.data) for item in items]
     cores = cores or _cores()
 

@@ -16,6 +16,7 @@ from ..cache import SizeCache
 from ..compressors import AUTO_CANDIDATES, Compressor, compressor
 from ..engine import Engine, LocalEngine
 from ..items import Item
+from ..measure import Progress, staged
 from ..origins.scores import DEFAULT_BLOCKS, DEFAULT_SIGNIFICANCE
 from ..units import duration_text, size_text
 from .choose import (
@@ -149,6 +150,7 @@ def _labelled_figures(
     engine: Engine | None,
     cache: SizeCache | None,
     significance: float,
+    progress: Progress | None = None,
 ) -> TaskFigures:
     from ..origins import fold_scores, novelty_aucs, novelty_detection
     from ..origins.classification import _both_measured, _calibration
@@ -157,12 +159,12 @@ def _labelled_figures(
 
     started = time.perf_counter()
 
-    def held_out(given: Sequence[Item]) -> FoldScores:
-        return fold_scores(
-            given, spec, folds=MEASURED_FOLDS, longest=longest, engine=engine, cache=cache
-        )
+    def held_out(given: Sequence[Item], view: str) -> FoldScores:
+        told = staged(progress, f"auto trying {spec}: held-out reference, {view}")
+        return fold_scores(given, spec, folds=MEASURED_FOLDS, longest=longest, engine=engine,
+                           cache=cache, progress=told)  # fmt: skip
 
-    folds, shaped = held_out(items), held_out(shaped_items(items))
+    folds, shaped = held_out(items, "content"), held_out(shaped_items(items), "shape")
     # the scoring and decision scores the classification's calibration would make of them
     way, scores, codes = _calibration(folds, shaped, choose=True)
     measured = folds.scores[_both_measured(folds, shaped)]
@@ -199,6 +201,7 @@ def _choose_labelled(
     engine: Engine | None,
     cache: SizeCache | None,
     significance: float,
+    progress: Progress | None = None,
 ) -> tuple[str, tuple[TaskFigures, ...], list[str]]:
     """The labelled choice in three steps: the candidates that hold the largest item and whose
     job fits the budget (:func:`_within_budget`), their held-out figures within the measuring
@@ -212,8 +215,9 @@ def _choose_labelled(
         reasons.insert(0, f"{fastest.spec}: chosen although over the budget: the fastest")
         return fastest.spec, (), reasons
     figures = _measure_labelled(
-        items, len(targets), timed, budget_seconds, longest, engine, cache, significance, reasons
-    )
+        items, len(targets), timed, budget_seconds, longest, engine, cache, significance, reasons,
+        progress,
+    )  # fmt: skip
     best = _pick_labelled(figures, len({item.label for item in items}), reasons)
     return best.spec, tuple(figures), reasons
 
@@ -292,6 +296,7 @@ def _measure_labelled(
     cache: SizeCache | None,
     significance: float,
     reasons: list[str],
+    progress: Progress | None = None,
 ) -> list[TaskFigures]:
     """Held-out figures of the ``timed`` candidates, quickest first, while the job's worst case
     still fits the budget (the first is always measured); those left out go to ``reasons``.
@@ -319,7 +324,9 @@ def _measure_labelled(
             )
             continue
         spent, rest = spent + share, max(rest, seconds - share)
-        figures.append(_labelled_figures(items, spec, longest, engine, cache, significance))
+        figures.append(
+            _labelled_figures(items, spec, longest, engine, cache, significance, progress)
+        )
     return figures
 
 
@@ -381,7 +388,12 @@ def _tie_broken(passed: TaskFigures, best: TaskFigures) -> str:
 
 
 def _real_pair_figures(
-    items: Sequence[Item], spec: str, seed: int, engine: Engine | None, cache: SizeCache | None
+    items: Sequence[Item],
+    spec: str,
+    seed: int,
+    engine: Engine | None,
+    cache: SizeCache | None,
+    progress: Progress | None = None,
 ) -> TaskFigures:
     from ..distance import distance_matrix
 
@@ -392,7 +404,8 @@ def _real_pair_figures(
     sample = [distinct[k] for k in chosen]
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        matrix = distance_matrix(sample, spec, engine=engine, cache=cache)
+        told = staged(progress, f"auto trying {spec}: a sample of real pairs")
+        matrix = distance_matrix(sample, spec, engine=engine, cache=cache, progress=told)
     d = np.array(matrix.raw)
     n = len(sample)
     off = ~np.eye(n, dtype=bool)
@@ -415,13 +428,14 @@ def _check_real_pairs(
     engine: Engine | None,
     cache: SizeCache | None,
     quick: Callable[[CompressorCalibration], bool],
+    progress: Progress | None = None,
 ) -> tuple[str, tuple[TaskFigures, ...], list[str]]:
     """The controls' choice, unless a sample of real pairs shows it finds nothing shared
     (more than SATURATED_SHARE of distances at or above 1) where the next candidates by quality
     do not: then the best of those by contrast."""
     if len({item.data for item in items}) < 3:
         return spec, (), []
-    chosen = _real_pair_figures(items, spec, seed, engine, cache)
+    chosen = _real_pair_figures(items, spec, seed, engine, cache, progress)
     figures = [chosen]
     reasons = [f"{spec}: {chosen.summary()}"]
     if (chosen.saturation or 0.0) <= SATURATED_SHARE:
@@ -433,7 +447,7 @@ def _check_real_pairs(
         key=lambda r: r.quality,
     )[:2]  # fmt: skip
     for other in others:
-        figures.append(_real_pair_figures(items, other.spec, seed, engine, cache))
+        figures.append(_real_pair_figures(items, other.spec, seed, engine, cache, progress))
     better = [f for f in figures[1:] if (f.saturation or 0.0) <= SATURATED_SHARE]
     if not better:
         return spec, tuple(figures), reasons
@@ -460,6 +474,7 @@ def choose_for_job(
     replicates: int = 0,
     null_pairs: int = 0,
     significance: float = DEFAULT_SIGNIFICANCE,
+    progress: Progress | None = None,
 ) -> Choice:
     """The compressor ``-c auto`` uses for a job of kind ``job`` (one of JOBS) on ``items``.
 
@@ -479,7 +494,9 @@ def choose_for_job(
     large set that favours the quicker compressors, as a large set needs. The job's time is
     estimated on the ``engine``'s workers (default: a `LocalEngine` on every core), where the
     measuring runs too, and counts ``replicates`` bootstrap matrices (tree --bootstrap) and
-    ``null_pairs`` of derived's null beside the matrix.
+    ``null_pairs`` of derived's null beside the matrix. ``progress`` is told how the measuring
+    goes, each phase named by the candidate and what it measures ("pairs (auto trying lzma:
+    held-out reference, content)").
     """
     if job not in JOBS:
         raise ValueError(f"unknown job {job!r}; use one of {', '.join(JOBS)}")
@@ -492,15 +509,16 @@ def choose_for_job(
             seed=seed,
             samples=2,
             sweep_seconds=1.0,
+            progress=progress,
         )
         spec, figures, reasons = _choose_labelled(
-            items, targets, report, budget_seconds, cores, engine, cache, significance
+            items, targets, report, budget_seconds, cores, engine, cache, significance, progress
         )
         return Choice(spec, job, replace(report, recommended=spec, reasons=tuple(reasons)),
                       figures, tuple(reasons))  # fmt: skip
     spec, report = choose_compressor(
         items, budget_seconds=budget_seconds, candidates=candidates, seed=seed, cores=cores,
-        strand=strand, replicates=replicates, null_pairs=null_pairs,
+        strand=strand, replicates=replicates, null_pairs=null_pairs, progress=progress,
     )  # fmt: skip
     lengths = [len(item.data) for item in items]
 
@@ -509,7 +527,9 @@ def choose_for_job(
                                        null_pairs=null_pairs)  # fmt: skip
         return seconds <= budget_seconds
 
-    chosen, figures, extra = _check_real_pairs(items, spec, report, seed, engine, cache, quick)
+    chosen, figures, extra = _check_real_pairs(
+        items, spec, report, seed, engine, cache, quick, progress
+    )
     kept = (*extra, *report.reasons) if chosen == spec else (*extra, *report.reasons[1:])
     return Choice(chosen, job, replace(report, recommended=chosen, reasons=kept), figures,
                   kept)  # fmt: skip

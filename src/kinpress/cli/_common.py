@@ -169,12 +169,12 @@ def resolve_choice(
         null_pairs = default_null_pairs(getattr(args, "max_fpr", None) or 0.01)
     # classify's abstention refuses at --significance; auto ranks by what is refused at it
     given = getattr(args, "significance", None)
-    with opened_cache(args) as cache:
+    with opened_cache(args) as cache, console.progress() as progress:
         args.compressor, table = auto_choice(
             items, job, targets=targets, budget_seconds=budget_seconds(args),
             strand=args.strand, engine=args.engine, cache=cache, say=console.say,
             replicates=getattr(args, "bootstrap", 0) or 0, null_pairs=null_pairs,
-            significance=DEFAULT_SIGNIFICANCE if given is None else given,
+            significance=DEFAULT_SIGNIFICANCE if given is None else given, progress=progress,
         )  # fmt: skip
     return str(args.compressor), table
 

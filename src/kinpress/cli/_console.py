@@ -35,13 +35,20 @@ class Console:
         self.interactive = not quiet and self.stream.isatty()
         self.line_seconds = line_seconds
         self.clock = clock
+        self._live: Any = None  # the bar while one is shown: messages go above it
 
     @property
     def interval(self) -> float:
         return self.LINE_SECONDS if self.line_seconds is None else self.line_seconds
 
     def say(self, message: str) -> None:
-        if not self.quiet:
+        if self.quiet:
+            return
+        if self._live is not None:
+            self._live.console.print(
+                f"kinpress: {message}", markup=False, highlight=False, soft_wrap=True
+            )
+        else:
             print(f"kinpress: {message}", file=self.stream)
 
     @contextmanager
@@ -129,4 +136,8 @@ class Console:
             bar.update(tasks[phase], completed=done)
 
         with bar:
-            yield update
+            self._live = bar
+            try:
+                yield update
+            finally:
+                self._live = None

@@ -414,10 +414,14 @@ def _both_views(
     reference: _Reference, measurement: Measurement, method: str, blocks: int, longest: int
 ) -> tuple[FoldScores, FoldScores | None]:
     """Held-out scores of the content and, for the conditional method, of the shape view."""
-    folds = _fold_scores(reference, measurement, method, blocks, longest)
+    content = measurement.staged(
+        "held-out reference" + (", content" if method == "conditional" else "")
+    )
+    folds = _fold_scores(reference, content, method, blocks, longest)
     if method != "conditional":
         return folds, None
-    return folds, _fold_scores(reference.shaped(), measurement, method, blocks, longest)
+    shape = measurement.staged("held-out reference, shape")
+    return folds, _fold_scores(reference.shaped(), shape, method, blocks, longest)
 
 
 def _decision_scores(
@@ -432,16 +436,16 @@ def _decision_scores(
     """The targets' scores as the decision uses them (see Scoring): the scores an origin is
     picked by (the lowest is best), and what the decision tests, the content's on its footing
     or, where the scoring uses the shape view, the stack of both views."""
-    measured = _score(targets, reference, measurement, method, k, longest)
+    view = ", content" if scoring.uses_shape else ""
+    measured = _score(targets, reference, measurement.staged(f"items{view}"), method, k, longest)
     if not scoring.content.divided and not scoring.uses_shape:
         return measured, measured.scores
     shaped = None
     if scoring.uses_shape:
         from .views import shaped_items
 
-        shaped = _score(
-            shaped_items(targets), reference.shaped(), measurement, method, k, longest
-        ).scores
+        shape = measurement.staged("items, shape")
+        shaped = _score(shaped_items(targets), reference.shaped(), shape, method, k, longest).scores
     stack = scoring.stack(measured.scores, shaped)
     common = combined(stack)
     return replace(measured, scores=common, picked=common.argmin(axis=1)), stack
@@ -485,7 +489,8 @@ def classify(
     measured, stack = _decision_scores(
         unknowns, ref, measurement, method, k, longest, fitted.scoring
     )
-    scores = _with_nearest(measured, unknowns, ref, measurement, exclude_self=False)
+    nearest = measurement.staged("nearest reference items")
+    scores = _with_nearest(measured, unknowns, ref, nearest, exclude_self=False)
     decided = fitted.decide(stack)
     return Classification(
         predictions=tuple(_decide(scores, decided, ref, unknowns)),
@@ -528,7 +533,8 @@ def evaluate(
     if threshold is None:
         folds, shaped = _both_views(ref, measurement, method, blocks, longest)
     else:  # a given cut: scores as measured, no shape view to choose
-        folds, shaped = _fold_scores(ref, measurement, method, blocks, longest), None
+        held = measurement.staged("held-out reference")
+        folds, shaped = _fold_scores(ref, held, method, blocks, longest), None
     rate = DEFAULT_SIGNIFICANCE if significance is None else significance
     choose = method == "conditional"
     report = fold_report(folds, rate, threshold, shaped, choose)
