@@ -15,6 +15,7 @@ from kinpress import calibration, cli
 from kinpress.calibration import CompressorCalibration, Normality, estimate_job_seconds
 from kinpress.calibration.choose import choose_compressor
 from kinpress.cli import Console
+from kinpress.cli._console import _Pace
 from kinpress.derived import default_null_pairs
 from kinpress.items import Item
 
@@ -308,3 +309,40 @@ def test_candidates_are_measured_while_the_jobs_worst_case_fits_the_budget(
     measured.clear()
     job._measure_labelled(items, targets, [(900.0, "slow")], 600.0, 1, None, None, 0.05, [])
     assert measured == ["slow"]
+
+
+def test_steady_reports_are_not_crowded_out_by_the_watch() -> None:
+    # The watch wakes every interval; while reports keep coming it stays quiet, so the lines
+    # are the reports' own, which say how long is left.
+    pace = _Pace(5.0, 0.0)
+    assert not pace.report(1.0, True)  # under the interval since the start
+    assert not pace.silence(5.0)  # a report came 4 s ago
+    assert pace.report(6.0, True)  # a line, with the time left
+    assert not pace.silence(10.0)  # 4 s after that line
+    assert not pace.report(10.5, True)
+    assert not pace.silence(15.0)  # a line 9 s ago, but a report 4.5 s ago
+    assert pace.report(15.5, True)
+    # a long tile: no report for over an interval, so the watch says work goes on
+    assert pace.silence(21.0)
+    assert not pace.silence(23.0)  # at most one line an interval
+    # a phase's start or end (nothing countable) does not keep the watch quiet
+    assert not pace.report(26.5, False)
+    assert pace.silence(27.0)
+
+
+def test_the_time_left_is_reckoned_from_the_rate_since_a_phase_began() -> None:
+    # Sizes found in the cache count as done at once: 40 of 100 at the first report is not
+    # 40 done in no time (which would say "about 0 s left").
+    clock, stream = _FakeClock(), io.StringIO()
+    console = Console(quiet=False, stream=stream, line_seconds=2.0, clock=clock)
+    with console.progress() as update:
+        assert update is not None
+        clock.now = 3.0
+        update("pairs (items)", 40, 100)  # the phase's first report: no rate yet
+        clock.now = 6.0
+        update("pairs (items)", 50, 100)  # 10 in 3 s: 50 more take 15 s
+    lines = stream.getvalue().splitlines()
+    assert lines == [
+        "kinpress: pairs (items): 40 of 100 done (40%)",
+        "kinpress: pairs (items): 50 of 100 done (50%), about 15 s left",
+    ]

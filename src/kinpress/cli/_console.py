@@ -65,33 +65,34 @@ class Console:
     @contextmanager
     def _lines(self) -> Iterator[Progress]:
         """A progress callback that writes at most one line every ``interval`` seconds, the
-        first after that, and a watch thread that writes one when no report has for as long."""
+        first after that, and a watch thread that writes one when no report has come for as
+        long (see _Pace)."""
         lock = threading.Lock()
         begun = self.clock()
-        last = [begun]
+        pace = _Pace(self.interval, begun)
         state: dict[str, Any] = {}
-        started: dict[str, float] = {}
+        # each phase's first report: the time left is reckoned from the rate since then, not
+        # from the count then (a measurement's cached sizes count as done at once)
+        started: dict[str, tuple[float, int]] = {}
 
         def update(phase: str, done: int, total: int) -> None:
             now = self.clock()
             with lock:
-                started.setdefault(phase, now)
+                since, first = started.setdefault(phase, (now, done))
                 state.update(phase=phase, done=done, total=total)
-                if now - last[0] < self.interval or not 0 < done < total:
+                if not pace.report(now, 0 < done < total):
                     return
-                last[0] = now
-            left = (now - started[phase]) * (total - done) / done
-            self.say(
-                f"{phase}: {done:,} of {total:,} done ({done / total:.0%}), about"
-                f" {duration_text(left)} left"
-            )
+            line = f"{phase}: {done:,} of {total:,} done ({done / total:.0%})"
+            if done > first and now > since:
+                left = (now - since) * (total - done) / (done - first)
+                line += f", about {duration_text(left)} left"
+            self.say(line)
 
         def still_working() -> None:
             now = self.clock()
             with lock:
-                if now - last[0] < self.interval:
+                if not pace.silence(now):
                     return
-                last[0] = now
                 where = (
                     f"{state['phase']}: {state['done']:,} of {state['total']:,} done, "
                     if state and state["done"] < state["total"]
@@ -141,3 +142,33 @@ class Console:
                 yield update
             finally:
                 self._live = None
+
+
+class _Pace:
+    """When a progress line is due, off a terminal: at most one every `interval` seconds; from
+    a report (which can say how long is left) when one comes, and from the watch only after
+    `interval` seconds without any report (a long tile, a replicate), so that steady reports
+    are never crowded out by the watch's "still working"."""
+
+    def __init__(self, interval: float, now: float) -> None:
+        self.interval = interval
+        self.line = now  # the last line written (or the start)
+        self.heard = now  # the last report
+
+    def report(self, now: float, countable: bool) -> bool:
+        """A report came at `now`; whether to write it (`countable`: some, not all, done; a
+        phase's start or end alone does not keep the watch quiet)."""
+        if not countable:
+            return False
+        self.heard = now
+        if now - self.line < self.interval:
+            return False
+        self.line = now
+        return True
+
+    def silence(self, now: float) -> bool:
+        """The watch woke at `now`; whether to write that work goes on."""
+        if now - self.line < self.interval or now - self.heard < self.interval:
+            return False
+        self.line = now
+        return True
