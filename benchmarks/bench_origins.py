@@ -22,13 +22,15 @@ of other systems; machine_logs.sh fills one with 8 logs of this machine's progra
 files of many languages under /usr (--machine-code); byte streams of 9 formats under /usr
 (--machine-bytes: ELF libraries and programs, Python bytecode, gettext catalogues, gzip streams,
 PNG images, time-zone files, static libraries, Java archives; each the first 32 KB of a file,
-2 formats missing at a time); and 24
+2 formats missing at a time); Python files of 10 projects installed beside kinpress
+(--machine-projects: one language, so every origin is kin of every other, 2 missing at a time);
+and 24
 programming languages never used while developing (--debian-code DIR, fetched from Debian's
 package registry by fetch_debian_code.sh), the same code protocol with 4 languages missing at a
 time, as issue 10 states it.
 
     python benchmarks/bench_origins.py [--logs DIR] [--machine-code] [--machine-bytes]
-        [--debian-code DIR]
+        [--machine-projects] [--debian-code DIR]
         [--draws N] [--cache PATH] [--files PATH]
 
 --files PATH keeps the file lists of the machine's code and byte sets: the first run writes
@@ -91,6 +93,13 @@ MACHINE_CODE = {
     "fortran": f"{PURELIB}/**/*.f90",
     "python-stub": f"{PURELIB}/**/*.pyi",
 }
+MACHINE_PROJECTS = {
+    project: f"{PURELIB}/{project}/**/*.py"
+    for project in ("Bio", "dask", "fontTools", "hypothesis", "matplotlib", "mypy", "numpy",
+                    "pandas", "pygments", "sklearn")
+}  # fmt: skip
+"""Python files of 10 projects installed beside kinpress: one language, origins that are all
+kin, a missing project's files a hard negative."""
 MACHINE_BYTES = {
     "elf-shared": ("/usr/lib/x86_64-linux-gnu", "*.so*", False),
     "elf-program": ("/usr/bin", "*", False),
@@ -412,6 +421,10 @@ def main() -> None:
         "--machine-bytes", action="store_true", help="byte streams of 9 formats under /usr"
     )
     parser.add_argument(
+        "--machine-projects", action="store_true",
+        help="Python files of 10 projects installed beside kinpress",
+    )  # fmt: skip
+    parser.add_argument(
         "--debian-code", type=Path, help="a folder fetch_debian_code.sh filled (24 languages)"
     )
     parser.add_argument("--only-machine", action="store_true", help="skip ../shared")
@@ -448,6 +461,9 @@ def main() -> None:
     if args.machine_bytes:
         code.append(lambda: frozen("bytes", machine_bytes, args.files, read_head))
         sets.append(("this machine's byte streams", code[-1], 20, 2))
+    if args.machine_projects:
+        code.append(lambda: frozen("projects", lambda: code_origins(MACHINE_PROJECTS), args.files))
+        sets.append(("Python files of 10 projects", code[-1], 20, 2))
     if args.debian_code:
         patterns = debian_code(args.debian_code)
         code.append(lambda: frozen("debian", lambda: code_origins(patterns), args.files))
