@@ -113,3 +113,18 @@ def test_a_message_during_progress_reaches_the_stream(interactive: bool) -> None
         update("pairs (items)", 1, 4)
         console.say("auto: chose zlib:level=9")
     assert "kinpress: auto: chose zlib:level=9" in stream.getvalue()
+
+
+def test_a_finished_stage_leaves_the_bar() -> None:
+    # On a terminal each stage has its bar; one finished goes, so -c auto's many stages do not
+    # stack up as full bars.
+    console = Console(quiet=False, stream=io.StringIO())
+    console.interactive = True
+    with console.progress() as update:
+        assert update is not None
+        update("pairs (auto trying zlib:level=9: held-out reference, content)", 5, 10)
+        update("pairs (auto trying zlib:level=9: held-out reference, content)", 10, 10)
+        update("pairs (items)", 10, 10)  # all from the cache: never shown
+        update("pairs (nearest reference items)", 1, 10)
+        shown = [task.description for task in console._live.tasks]
+    assert shown == ["pairs (nearest reference items)"]

@@ -132,9 +132,16 @@ class Console:
         tasks: dict[str, Any] = {}
 
         def update(phase: str, done: int, total: int) -> None:
+            # a finished phase leaves the screen: a command's many stages (-c auto measures
+            # every candidate) would otherwise stack up as full bars
             if phase not in tasks:
+                if done >= total:
+                    return
                 tasks[phase] = bar.add_task(phase, total=total)
-            bar.update(tasks[phase], completed=done)
+            if done >= total:
+                bar.remove_task(tasks.pop(phase))
+            else:
+                bar.update(tasks[phase], completed=done)
 
         with bar:
             self._live = bar
