@@ -149,3 +149,24 @@ def test_a_reference_that_is_not_a_folder_is_an_error(
 ) -> None:
     assert cli.main(["classify", "--reference", str(tmp_path / "none"), "x.log", *FAST]) == 2
     assert "reference must be a folder" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("estimate", [0.93, 0.12])
+def test_the_summary_line_says_how_a_missing_origin_would_fare(
+    reference: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str],
+    monkeypatch: pytest.MonkeyPatch, estimate: float,
+) -> None:  # fmt: skip
+    # The one line on the terminal carries the reference's estimate of the share of a missing
+    # origin's items refused, and where it is low, that most would be named as a known origin.
+    from kinpress.origins.conformal import Abstention
+
+    monkeypatch.setattr(Abstention, "missing_refused", property(lambda self: estimate))
+    unknowns = [_odd_blocks("brisquet", tmp_path)]
+    argv = ["classify", "--reference", str(reference), *map(str, unknowns), "-c", "zstd:level=19",
+            "--no-cache", "--split", "lines:100"]  # fmt: skip
+    assert cli.main(argv) == 0
+    summary = [ln for ln in capsys.readouterr().err.splitlines() if "kinpress: classify:" in ln]
+    assert len(summary) == 1 and len(summary[0]) < 250
+    assert "at most 0.05 of known origins' items" in summary[0]
+    assert f"about {estimate:.0%} of a missing origin's (estimated" in summary[0]
+    assert ("most named as a known one" in summary[0]) == (estimate < 0.5)

@@ -136,10 +136,12 @@ def run(args: argparse.Namespace, console: Console) -> int:
         rule = f"a given cut at {abstention.threshold:g} (no stated error rate)"
     else:
         test = "the mix of tests" if abstention.test == "mix" else f"the {abstention.test} test"
-        rule = (
-            f"items of known origins refused at a rate of at most {abstention.significance:g}"
-            f" by {test}, as the output explains"
-        )
+        rule = f"refused: at most {abstention.significance:g} of known origins' items ({test})"
+        missing = abstention.missing_refused
+        if missing is not None:  # the one line many read: how an absent origin would fare
+            named = "; most named as a known one" if missing < 0.5 else ""
+            rule += f", about {missing:.0%} of a missing origin's (estimated{named})"
+        rule += ", as the output explains"
     console.say(
         f"classify: {found.method} with {found.compressor}; {counts['named']} named,"
         f" {counts['ambiguous']} ambiguous, {counts['unknown']} unknown; {rule}"
