@@ -170,3 +170,21 @@ def test_the_summary_line_says_how_a_missing_origin_would_fare(
     assert "at most 0.05 of known origins' items" in summary[0]
     assert f"about {estimate:.0%} of a missing origin's (estimated" in summary[0]
     assert ("most named as a known one" in summary[0]) == (estimate < 0.5)
+
+
+def test_a_reference_that_cannot_serve_is_refused_before_auto_measures(
+    reference: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # An origin of one item cannot be held out: said at once, not after -c auto has measured.
+    (reference / "lonely").mkdir()
+    (reference / "lonely" / "only.log").write_text(_blocks("siltcache", 0)[:2000])
+    unknown = reference / "brisquet" / "even.log"
+    argv = ["classify", "--reference", str(reference), str(unknown), "--no-cache", "--split",
+            "lines:100"]  # fmt: skip
+    assert cli.main(argv) == 2
+    err = capsys.readouterr().err
+    assert "auto: calibrating" not in err
+    assert "lonely has one (give a threshold and a compressor to classify without it)" in err
+    # with a compressor and a threshold nothing is held out, and the origin of one item serves
+    argv += ["-c", "zstd:level=19", "--threshold", "0.9", "--quiet"]
+    assert cli.main(argv) == 0

@@ -503,6 +503,9 @@ def choose_for_job(
     engine = engine or LocalEngine()
     cores = engine.jobs
     if job in LABELLED_JOBS:
+        from ..origins import check_reference
+
+        check_reference(items, auto=True)  # before anything is measured
         report = calibrate(
             items,
             candidates or AUTO_CANDIDATES["labelled"],

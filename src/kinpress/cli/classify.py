@@ -108,6 +108,12 @@ def run(args: argparse.Namespace, console: Console) -> int:
         named = ", ".join(str(path) for path in args.inputs[:3])
         more = f" (and {len(args.inputs) - 3} more)" if len(args.inputs) > 3 else ""
         raise InputError(f"no items to classify in {named}{more}")
+    from ..origins import check_reference
+
+    # before -c auto measures the reference: what it cannot serve is said first
+    check_reference(
+        reference, calibrate=args.threshold is None or args.evaluate, auto=args.compressor == "auto"
+    )
     spec = resolve_spec(args, reference, console, targets=unknowns)
     options: dict[str, Any] = {
         "method": args.method,
@@ -137,10 +143,10 @@ def run(args: argparse.Namespace, console: Console) -> int:
     else:
         test = "the mix of tests" if abstention.test == "mix" else f"the {abstention.test} test"
         rule = f"refused: at most {abstention.significance:g} of known origins' items ({test})"
-        missing = abstention.missing_refused
-        if missing is not None:  # the one line many read: how an absent origin would fare
-            named = "; most named as a known one" if missing < 0.5 else ""
-            rule += f", about {missing:.0%} of a missing origin's (estimated{named})"
+        absent = abstention.missing_refused
+        if absent is not None:  # the one line many read: how an absent origin would fare
+            named = "; most named as a known one" if absent < 0.5 else ""
+            rule += f", about {absent:.0%} of a missing origin's (estimated{named})"
         rule += ", as the output explains"
     console.say(
         f"classify: {found.method} with {found.compressor}; {counts['named']} named,"

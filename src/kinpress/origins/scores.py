@@ -51,17 +51,28 @@ class _Reference:
     def members(self, origin: int) -> np.ndarray:
         return np.flatnonzero(self.codes == origin)
 
-    def check(self, *, calibrate: bool) -> None:
+    def check(self, *, calibrate: bool, auto: bool = False) -> None:
         if len(self.origins) < 2:
             raise InputError(f"need at least two origins in the reference, got {len(self.origins)}")
         if calibrate:
             counts = np.bincount(self.codes, minlength=len(self.origins))
             thin = [o for o, n in zip(self.origins, counts, strict=True) if n < 2]
             if thin:
+                way = "a threshold and a compressor" if auto else "a threshold"
                 raise InputError(
                     "calibrating the abstention needs two reference items per origin; "
-                    f"{', '.join(thin)} has one (give a threshold to classify without it)"
+                    f"{', '.join(thin)} {'has' if len(thin) == 1 else 'have'} one (give {way}"
+                    " to classify without it)"
                 )
+
+
+def check_reference(
+    reference: Sequence[ItemLike], *, calibrate: bool = True, auto: bool = False
+) -> None:
+    """Raise InputError where the reference cannot serve, before any measuring: items without
+    an origin label, fewer than two origins, or (`calibrate`: held-out items calibrate the
+    abstention, or `auto`: -c auto measures held-out items to choose) an origin of one item."""
+    _Reference.of(reference).check(calibrate=calibrate or auto, auto=auto)
 
 
 # -- scores: per item, one number per origin, lower is better ----------------------------------
