@@ -586,3 +586,27 @@ def test_plot_legends_are_titled_by_the_label_column(
                        "--labels", f"{family_table}:system")  # fmt: skip
     assert code == 0, err
     assert drawn["legend_title"] == "system"
+
+
+@pytest.mark.parametrize("command", ["matrix", "derived"])
+def test_one_item_is_refused_before_auto_calibrates(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], command: str
+) -> None:
+    one = tmp_path / "only.txt"
+    one.write_bytes(generated_text(3))
+    assert main([command, str(one), "--no-cache"]) == 2
+    err = capsys.readouterr().err
+    assert "need at least two items to compare, got 1" in err
+    assert "auto:" not in err  # nothing was calibrated first
+
+
+def test_a_tree_of_two_leaves_says_its_fit_is_not_measured(
+    text_folder: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # The fit is a correlation over pairs of leaves: two leaves make one pair, no correlation.
+    files = sorted(text_folder.glob("*.txt"))[:2]
+    argv = ["tree", *map(str, files), "-c", "zlib:level=9", "--no-cache", "-o",
+            str(tmp_path / "t.nwk")]  # fmt: skip
+    assert main(argv) == 0
+    err = capsys.readouterr().err
+    assert "fit: not measured (fewer than three leaves" in err and "nan" not in err

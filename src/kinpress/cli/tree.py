@@ -144,10 +144,12 @@ def run(args: argparse.Namespace, console: Console) -> int:
     outgroup = _outgroup(args.outgroup, dm.labels)
     tree, support = _tree(args, console, dm, items, outgroup)
     result = TreeResult.of_matrix(tree, args.method, dm, outgroup, support)
-    console.say(
-        f"tree: {args.method}, {result.leaves} leaves, rooted {result.rooting}; fit: path"
-        f" lengths correlate with distances at r = {result.fit:.3f}"
+    fit = (
+        f"path lengths correlate with distances at r = {result.fit:.3f}"
+        if result.fit == result.fit
+        else "not measured (fewer than three leaves, or all distances equal)"
     )
+    console.say(f"tree: {args.method}, {result.leaves} leaves, rooted {result.rooting}; fit: {fit}")
     if args.plot:
         from ..plots import plot_tree
 
