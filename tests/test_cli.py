@@ -610,3 +610,14 @@ def test_a_tree_of_two_leaves_says_its_fit_is_not_measured(
     assert main(argv) == 0
     err = capsys.readouterr().err
     assert "fit: not measured (fewer than three leaves" in err and "nan" not in err
+
+
+def test_one_group_says_it_has_no_silhouette(
+    text_folder: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # A silhouette compares an item's own group with the next one (Rousseeuw 1987): one group
+    # has none, and the line says so rather than "nan".
+    argv = ["groups", str(text_folder), "-c", "zlib:level=9", "--no-cache", "--k", "1"]
+    assert main(argv) == 0
+    err = capsys.readouterr().err
+    assert "groups: 1 by" in err and "no silhouette (one group)" in err and "nan" not in err

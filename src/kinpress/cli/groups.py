@@ -161,8 +161,15 @@ def run(args: argparse.Namespace, console: Console) -> int:
         )
     grouping = result.grouping
     outliers = int(sum(grouping.is_outlier))
+    silhouette = (
+        f"mean silhouette {grouping.silhouette:.3f}"
+        if grouping.silhouette == grouping.silhouette
+        else "no silhouette (one group)"
+        if grouping.k < 2
+        else "no silhouette measured"
+    )
     console.say(
-        f"groups: {grouping.k} by {grouping.method}; mean silhouette {grouping.silhouette:.3f};"
+        f"groups: {grouping.k} by {grouping.method}; {silhouette};"
         f" {outliers} outliers {'reported' if args.outliers else 'joined their nearest group'}"
     )
     scores = result.agreement
