@@ -143,3 +143,16 @@ def test_the_demo_share_gives_its_truth_with_default_options(
     kin = [f for f in listed if f["relation"] == "same_source"]
     assert kin and all(_pair(f) not in truth for f in kin)
     assert {_pair(f) for f in listed if f["relation"] != "same_source"} == truth
+
+
+def test_the_summary_counts_pairs_with_thousands_separated(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # 46 files make 1,035 pairs: the counts read as the progress lines write them.
+    folder = tmp_path / "many"
+    folder.mkdir()
+    for k in range(46):
+        (folder / f"doc{k}.txt").write_text(_text(k, lines=20))
+    assert cli.main(["derived", str(folder), "-c", "zstd:level=3", "--no-cache"]) == 0
+    summary = [ln for ln in capsys.readouterr().err.splitlines() if "findings among" in ln]
+    assert len(summary) == 1 and "among 1,035 pairs" in summary[0]

@@ -97,8 +97,8 @@ def run(args: argparse.Namespace, console: Console) -> int:
         )
     c = report.counts
     console.say(
-        f"derived: {len(report.findings)} findings among {c.possible} pairs; {c.candidates}"
-        f" candidates checked, {c.pruned} pruned by the prefilter"
+        f"derived: {len(report.findings):,} findings among {c.possible:,} pairs; {c.candidates:,}"
+        f" candidates checked, {c.pruned:,} pruned by the prefilter"
         + (" (exhaustive)" if report.exhaustive else "")
         + f"; related where the false-positive rate is at most {report.max_fpr:g}"
     )
@@ -106,7 +106,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
     if kin:
         pairs = "pair shares" if kin == 1 else "pairs share"
         console.say(
-            f"derived: {kin} more related {pairs} no long stretch in order: files of one"
+            f"derived: {kin:,} more related {pairs} no long stretch in order: files of one"
             " source, nothing copied" + ("" if args.same_source else " (--same-source lists them)")
         )
     shown = report.findings + (report.same_source if args.same_source else ())
