@@ -621,3 +621,15 @@ def test_one_group_says_it_has_no_silhouette(
     assert main(argv) == 0
     err = capsys.readouterr().err
     assert "groups: 1 by" in err and "no silhouette (one group)" in err and "nan" not in err
+
+
+def test_the_matrix_summary_separates_thousands(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    folder = tmp_path / "many"
+    folder.mkdir()
+    for k in range(46):  # 1,035 pairs
+        (folder / f"t{k}.txt").write_bytes(generated_text(k, lines=10))
+    argv = ["matrix", str(folder), "-c", "zstd:level=3", "--no-cache", "-o", str(tmp_path / "m")]
+    assert main(argv) == 0
+    assert ": 1,035 pairs computed, 0 from cache" in capsys.readouterr().err

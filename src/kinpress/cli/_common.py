@@ -262,8 +262,9 @@ def summary(dm: DistanceMatrix, engine: Engine | None = None) -> str:
     tail = "; " + "; ".join(extra) if extra else ""
     how = dm.conditional + (", both strands" if dm.strand == "both" else "")
     return (
-        f"{len(dm)} items, {dm.compressor} ({how}): {s.pairs_computed} pairs computed, "
-        f"{s.pairs_from_cache} from cache; {mb:.1f} MB compressed in {s.seconds:.1f} s{rate}{tail}"
+        f"{len(dm):,} items, {dm.compressor} ({how}): {s.pairs_computed:,} pairs computed, "
+        f"{s.pairs_from_cache:,} from cache; {mb:.1f} MB compressed in {s.seconds:.1f} s"
+        f"{rate}{tail}"
     )
 
 
