@@ -188,3 +188,44 @@ def test_a_reference_that_cannot_serve_is_refused_before_auto_measures(
     # with a compressor and a threshold nothing is held out, and the origin of one item serves
     argv += ["-c", "zstd:level=19", "--threshold", "0.9", "--quiet"]
     assert cli.main(argv) == 0
+
+
+def test_decide_by_forces_the_deciding_test(
+    reference: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # A user whose later data drifts may prefer the separation test to the reference's choice;
+    # the rate still holds, but no missing origin's share is estimated for a test not chosen.
+    unknowns = [_odd_blocks(n, tmp_path) for n in ("tarnwheel", "siltcache")]
+    argv = ["classify", "--reference", str(reference), *map(str, unknowns), "-c", "zstd:level=19",
+            "--no-cache", "--split", "lines:100", "--json"]  # fmt: skip
+    assert cli.main([*argv, "--decide-by", "separation"]) == 0
+    out, err = capsys.readouterr()
+    assert "(the separation test)" in err and "missing origin's" not in err
+    found = json.loads(out)
+    assert sum(p["predicted"] == "tarnwheel" for p in found) >= 8
+    evaluate = ["classify", "--reference", str(reference), "--evaluate", "--json", *FAST]
+    assert cli.main([*evaluate, "--decide-by", "fit"]) == 0
+    assert json.loads(capsys.readouterr().out)["abstention"]["test"] == "fit"
+    assert cli.main([*argv, "--decide-by", "fit", "--threshold", "0.9"]) == 2
+    assert "give --decide-by or --threshold, not both" in capsys.readouterr().err
+    with pytest.raises(SystemExit) as stop:  # not a test: argparse refuses it
+        cli.main([*argv, "--decide-by", "vote"])
+    assert stop.value.code == 2
+
+
+def test_classify_in_python_takes_a_test() -> None:
+    from kinpress import Item, classify
+
+    def text(origin: int, seed: int) -> bytes:
+        log = _blocks(("brisquet", "tarnwheel", "fenmeter")[origin], 0)
+        return log[seed * 3000 : seed * 3000 + 3000].encode()
+
+    reference = [Item(f"r{o}-{s}", text(o, s), "demo", label=str(o)) for o in range(3)
+                 for s in range(4)]  # fmt: skip
+    unknowns = [Item("u", text(1, 5), "demo")]
+    result = classify(unknowns, reference, "zstd:level=19", test="contrast", significance=0.1)
+    assert result.abstention.test == "contrast" and result.abstention.missing_refused is None
+    with pytest.raises(ValueError, match="unknown test"):
+        classify(unknowns, reference, "zstd:level=19", test="vote")
+    with pytest.raises(ValueError, match="not both"):
+        classify(unknowns, reference, "zstd:level=19", test="fit", threshold=0.9)

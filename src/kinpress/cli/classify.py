@@ -73,6 +73,13 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
     decide.add_argument("--threshold", type=float, metavar="SCORE",
                         help="instead of p-values, accept an origin when the item's score for "
                         "it is at most SCORE (no stated error rate)")  # fmt: skip
+    decide.add_argument("--decide-by", choices=("fit", "separation", "contrast", "mix"),
+                        metavar="TEST",
+                        help="the test that accepts or refuses an item: fit, separation, "
+                        "contrast or mix (default: the one that refuses most held-out items "
+                        "of an origin left out of the reference; separation keeps more later "
+                        "items whose content drifted while their form held, the mix finds "
+                        "more strangers); the rate still holds")  # fmt: skip
     decide.add_argument("--evaluate", action="store_true",
                         help="test the reference on itself, block by block, instead")  # fmt: skip
     _options.output(parser, "the result", "a JSON list of predictions")
@@ -83,6 +90,8 @@ def run(args: argparse.Namespace, console: Console) -> int:
 
     if args.significance is not None and args.threshold is not None:
         raise UsageError("give --significance or --threshold, not both")
+    if args.decide_by is not None and args.threshold is not None:
+        raise UsageError("give --decide-by or --threshold, not both")
     if args.evaluate and args.inputs:
         raise UsageError("give unknown inputs to classify or --evaluate, not both")
     if args.evaluate or args.method != "knn":
@@ -119,6 +128,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
         "method": args.method,
         "significance": args.significance,
         "threshold": args.threshold,
+        "test": args.decide_by,
         "conditional": args.conditional,
         "engine": args.engine,
     }

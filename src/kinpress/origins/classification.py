@@ -265,18 +265,21 @@ def fold_report(
     threshold: float | None = None,
     shaped: FoldScores | None = None,
     choose: bool = True,
+    test: str | None = None,
 ) -> FoldReport:
     """Decide every measured held-out reference item as a new one would be (see FoldReport).
 
     With `choose` (the conditional method's scores) each decision also chooses the scoring (each
     view's footing, and whether the shape view's scores in `shaped` join in; see Scoring) from
-    the items it calibrates on."""
+    the items it calibrates on; `test` (one of DECIDERS) decides instead of the one each
+    calibration would choose."""
     keep = _both_measured(folds, shaped)
     scores, codes, fold_of = folds.scores[keep], folds.codes[keep], folds.folds[keep]
     shapes = None if shaped is None else shaped.scores[keep]
     n, m = scores.shape
     origins = [folds.origins[o] for o in range(m)]
     choose = choose and threshold is None
+    decider = test  # `test` below names the rows decided
 
     def decide(train: np.ndarray, test: np.ndarray, columns: list[int]) -> _Decisions:
         """Calibrate on rows `train`, decide rows `test`, on the origins in `columns`."""
@@ -290,7 +293,7 @@ def fold_report(
         conformity = None
         if threshold is None:
             calibration = way.stack(content[train], None if shape is None else shape[train])
-            conformity = Conformity.of(calibration, relabel, names, significance)
+            conformity = Conformity.of(calibration, relabel, names, significance, decider)
         decided = way.stack(content[test], None if shape is None else shape[test])
         return _decisions(decided, conformity, threshold)
 
@@ -394,6 +397,7 @@ def _calibrate(
     threshold: float | None,
     blocks: int,
     longest: int,
+    test: str | None = None,
 ) -> _Calibrated:
     if threshold is not None:
         if significance is not None:
@@ -406,7 +410,7 @@ def _calibrate(
     reference.check(calibrate=True)
     folds, shaped = _both_views(reference, measurement, method, blocks, longest)
     way, calibration, codes = _calibration(folds, shaped, method == "conditional")
-    conformity = Conformity.of(calibration, codes, reference.origins, significance)
+    conformity = Conformity.of(calibration, codes, reference.origins, significance, test)
     return _Calibrated(_abstention(conformity, blocks), conformity, way)
 
 
@@ -465,6 +469,7 @@ def classify(
     engine: Engine | None = None,
     cache: SizeCache | None = None,
     progress: Progress | None = None,
+    test: str | None = None,
 ) -> Classification:
     """The origin of each unknown item among the reference's labels, or unknown / ambiguous.
 
@@ -475,7 +480,12 @@ def classify(
     a given `threshold` replaces that test by score <= threshold (float("inf") accepts all).
     `conditional` "auto" primes where the compressor can for the conditional method and
     concatenates otherwise. The nearest reference item is searched among the best origin's.
+    `test` (one of DECIDERS: "fit", "separation", "contrast", "mix") decides instead of the test
+    the reference chooses; the rate still holds, but no share of a missing origin's items refused
+    is estimated (Abstention.missing_refused is None).
     """
+    if test is not None and threshold is not None:
+        raise ValueError("give a test or a threshold, not both")
     unknowns = as_items(unknowns)
     if not unknowns:
         raise InputError("no items to classify")
@@ -485,7 +495,7 @@ def classify(
         _check_k(k, ref)
     measurement = _measurement(comp, method, conditional, engine, cache, progress)
     longest = max(len(i.data) for i in [*unknowns, *ref.items])
-    fitted = _calibrate(ref, measurement, method, significance, threshold, blocks, longest)
+    fitted = _calibrate(ref, measurement, method, significance, threshold, blocks, longest, test)
     measured, stack = _decision_scores(
         unknowns, ref, measurement, method, k, longest, fitted.scoring
     )
@@ -518,6 +528,7 @@ def evaluate(
     engine: Engine | None = None,
     cache: SizeCache | None = None,
     progress: Progress | None = None,
+    test: str | None = None,
 ) -> Evaluation:
     """The reference's own test (see FoldReport): each block of every origin held out in turn,
     scored against the rest and decided with p-values from the other blocks; then each origin in
@@ -526,6 +537,8 @@ def evaluate(
     """
     if threshold is not None and significance is not None:
         raise ValueError("give a significance or a threshold, not both")
+    if test is not None and threshold is not None:
+        raise ValueError("give a test or a threshold, not both")
     ref = _Reference.of(reference)
     ref.check(calibrate=True)
     measurement = _measurement(comp, method, conditional, engine, cache, progress)
@@ -537,12 +550,12 @@ def evaluate(
         folds, shaped = _fold_scores(ref, held, method, blocks, longest), None
     rate = DEFAULT_SIGNIFICANCE if significance is None else significance
     choose = method == "conditional"
-    report = fold_report(folds, rate, threshold, shaped, choose)
+    report = fold_report(folds, rate, threshold, shaped, choose, test)
     way, calibration, codes = _calibration(folds, shaped, choose and threshold is None)
     abstention = (
         Abstention(None, float(threshold), blocks=blocks)
         if threshold is not None
-        else _abstention(Conformity.of(calibration, codes, ref.origins, rate), blocks)
+        else _abstention(Conformity.of(calibration, codes, ref.origins, rate, test), blocks)
     )
     return Evaluation(
         accuracy=report.accuracy,
