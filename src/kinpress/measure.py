@@ -49,10 +49,9 @@ def staged(progress: Progress | None, stage: str) -> Progress | None:
     counts of one do not seem to start over in the next."""
     if progress is None:
         return None
-    told = progress
 
     def report(phase: str, done: int, total: int, /) -> None:
-        told(f"{phase} ({stage})", done, total)
+        progress(f"{phase} ({stage})", done, total)
 
     return report
 
@@ -230,6 +229,11 @@ def _check_items(measurement: Measurement, items: Sequence[Item]) -> None:
             raise InputError(
                 f"{other.source}: --strand both needs nucleotide sequences; {other.name} is not one"
             )
+    check_pair_count(items)
+
+
+def check_pair_count(items: Sequence[object]) -> None:
+    """Raise InputError with fewer than two items: nothing to compare."""
     if len(items) < 2:
         raise InputError(f"need at least two items to compare, got {len(items)}")
 

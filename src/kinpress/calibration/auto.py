@@ -16,7 +16,7 @@ from ..measure import Progress
 from ..origins.scores import DEFAULT_SIGNIFICANCE
 from .choose import DEFAULT_BUDGET_SECONDS, calibrate, choose_compressor, holds
 from .controls import DEFAULT_SEED
-from .job import LABELLED_JOBS, Choice, choose_for_job
+from .job import LABELLED_JOBS, Choice, check_job_inputs, choose_for_job
 from .measure import (
     DEFAULT_MAX_BYTES,
     BlindSpot,
@@ -81,6 +81,7 @@ def auto_choice(
 
     from ..measure import MeasurementWarning
 
+    check_job_inputs(items, job)  # said before "calibrating", not after it
     cores = engine.jobs
     key = _auto_key(
         items, job, targets, budget_seconds, cores, strand, replicates, null_pairs, significance

@@ -16,7 +16,7 @@ from ..cache import SizeCache
 from ..compressors import AUTO_CANDIDATES, Compressor, compressor
 from ..engine import Engine, LocalEngine
 from ..items import Item
-from ..measure import Progress, staged
+from ..measure import Progress, check_pair_count, staged
 from ..origins.scores import DEFAULT_BLOCKS, DEFAULT_SIGNIFICANCE
 from ..units import duration_text, size_text
 from .choose import (
@@ -460,6 +460,18 @@ def _check_real_pairs(
     return best.spec, tuple(figures), reasons
 
 
+def check_job_inputs(items: Sequence[Item], job: str) -> None:
+    """Raise InputError where ``items`` cannot serve a job of kind ``job``, before anything is
+    measured: a labelled reference that cannot be held out (origins.check_reference), or fewer
+    than two items to compare."""
+    if job in LABELLED_JOBS:
+        from ..origins import check_reference
+
+        check_reference(items, auto=True)
+    else:
+        check_pair_count(items)
+
+
 def choose_for_job(
     items: Sequence[Item],
     job: str = "matrix",
@@ -502,10 +514,8 @@ def choose_for_job(
         raise ValueError(f"unknown job {job!r}; use one of {', '.join(JOBS)}")
     engine = engine or LocalEngine()
     cores = engine.jobs
+    check_job_inputs(items, job)  # before anything is measured
     if job in LABELLED_JOBS:
-        from ..origins import check_reference
-
-        check_reference(items, auto=True)  # before anything is measured
         report = calibrate(
             items,
             candidates or AUTO_CANDIDATES["labelled"],

@@ -158,8 +158,6 @@ def resolve_choice(
     given compressor, or a choice an earlier version kept without its table)."""
     if args.compressor != "auto":
         return str(args.compressor), None
-    if len(items) < 2:  # said before -c auto calibrates, as the measuring would say it after
-        raise InputError(f"need at least two items to compare, got {len(items)}")
     from ..calibration import auto_choice
     from ..origins import DEFAULT_SIGNIFICANCE
 

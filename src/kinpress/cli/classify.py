@@ -117,12 +117,6 @@ def run(args: argparse.Namespace, console: Console) -> int:
         named = ", ".join(str(path) for path in args.inputs[:3])
         more = f" (and {len(args.inputs) - 3} more)" if len(args.inputs) > 3 else ""
         raise InputError(f"no items to classify in {named}{more}")
-    from ..origins import check_reference
-
-    # before -c auto measures the reference: what it cannot serve is said first
-    check_reference(
-        reference, calibrate=args.threshold is None or args.evaluate, auto=args.compressor == "auto"
-    )
     spec = resolve_spec(args, reference, console, targets=unknowns)
     options: dict[str, Any] = {
         "method": args.method,

@@ -279,10 +279,9 @@ def fold_report(
     n, m = scores.shape
     origins = [folds.origins[o] for o in range(m)]
     choose = choose and threshold is None
-    decider = test  # `test` below names the rows decided
 
-    def decide(train: np.ndarray, test: np.ndarray, columns: list[int]) -> _Decisions:
-        """Calibrate on rows `train`, decide rows `test`, on the origins in `columns`."""
+    def decide(train: np.ndarray, rows: np.ndarray, columns: list[int]) -> _Decisions:
+        """Calibrate on rows `train`, decide rows `rows`, on the origins in `columns`."""
         names = [origins[o] for o in columns]
         content = scores[:, columns]
         shape = None if shapes is None else shapes[:, columns]
@@ -293,8 +292,8 @@ def fold_report(
         conformity = None
         if threshold is None:
             calibration = way.stack(content[train], None if shape is None else shape[train])
-            conformity = Conformity.of(calibration, relabel, names, significance, decider)
-        decided = way.stack(content[test], None if shape is None else shape[test])
+            conformity = Conformity.of(calibration, relabel, names, significance, test)
+        decided = way.stack(content[rows], None if shape is None else shape[rows])
         return _decisions(decided, conformity, threshold)
 
     confusion = np.zeros((m, m + 2), dtype=np.int64)
