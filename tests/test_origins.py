@@ -560,6 +560,21 @@ def test_estimator_fits_predicts_and_refuses(method: str, tmp_path: Path) -> Non
     assert p[0, 2] > 0.05 and (p[0, :2] <= 0.05).all() and (p[1] <= 0.05).all()
 
 
+def test_estimator_decides_by_the_test_it_is_given(tmp_path: Path) -> None:
+    texts = [origin_text(o, s) for o in range(3) for s in range(8)]
+    labels = [o for o in range(3) for _ in range(8)]
+    cache = str(tmp_path / "t.db")
+    for test in ("fit", "separation", "contrast", "mix"):
+        model = CompressionClassifier("zstd:level=19", test=test, unknown_label=-1, cache=cache)
+        model.fit(texts, labels)
+        assert model.calibrated_.abstention.test == test
+        assert list(model.predict([origin_text(2, 40), origin_text(8, 1)])) == [2, -1]
+    with pytest.raises(ValueError, match="not both"):
+        CompressionClassifier("zstd:level=19", test="fit", threshold=0.9).fit(texts, labels)
+    with pytest.raises(ValueError, match="unknown test 'vote'"):
+        CompressionClassifier("zstd:level=19", test="vote").fit(texts, labels)
+
+
 def test_estimator_chooses_the_compressor_by_the_task_by_default(tmp_path: Path) -> None:
     texts = [origin_text(o, s) for o in range(3) for s in range(8)]
     labels = [o for o in range(3) for _ in range(8)]

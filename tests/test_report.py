@@ -330,6 +330,33 @@ def test_report_command_classifies_with_a_reference(tmp_path: Path) -> None:
     assert [int(v) for _, v in rows] == [round(100 * x["refused"]) for x in hardest_first]
 
 
+def test_report_decides_origins_as_classify_is_told(tmp_path: Path) -> None:
+    # The report's origins come from the same classify call as the command's: a user who chose
+    # a deciding test or a rate there gets the same on the page, and without a reference the
+    # two options have nothing to decide.
+    reference, unknown = tmp_path / "known", tmp_path / "new"
+    unknown.mkdir()
+    for item in _family_items():
+        origin = reference / item.label  # type: ignore[operator]
+        origin.mkdir(parents=True, exist_ok=True)
+        (origin / item.name).write_bytes(item.data)
+    (reference / "family1" / "f1m2.txt").rename(unknown / "f1m2.txt")
+    data = tmp_path / "o.json"
+    argv = ["report", "--reference", str(reference), str(unknown), "-c", "zlib:level=9",
+            "--no-cache", "--quiet", "--json", "-o", str(data)]  # fmt: skip
+    assert main([*argv, "--decide-by", "separation", "--significance", "0.2"]) == 0
+    abstention = json.loads(data.read_text())["classification"]["abstention"]
+    assert abstention["test"] == "separation" and abstention["significance"] == 0.2
+    assert main(argv) == 0
+    assert json.loads(data.read_text())["classification"]["abstention"]["significance"] == 0.05
+    plain = ["report", str(reference), "-c", "zlib:level=9", "--no-cache", "--quiet", "--json",
+             "-o", str(data)]  # fmt: skip
+    with pytest.raises(SystemExit):  # not a test: argparse refuses it
+        main([*argv, "--decide-by", "vote"])
+    assert main([*plain, "--decide-by", "fit"]) == 2
+    assert main([*plain, "--significance", "0.1"]) == 2
+
+
 # A real browser
 
 

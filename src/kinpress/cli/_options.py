@@ -173,6 +173,27 @@ def tree_shape(group: Group) -> None:
     )
 
 
+def abstention(group: Group) -> None:
+    """How an item is accepted or refused by origin: --significance and --decide-by (classify
+    and report; classify adds --threshold instead of both)."""
+    group.add_argument(
+        "--significance",
+        type=float,
+        metavar="RATE",
+        help="refuse an origin when the item's p-value for it is at most RATE: the rate at "
+        "which items of known origins may be refused (default 0.05)",
+    )
+    group.add_argument(
+        "--decide-by",
+        choices=("fit", "separation", "contrast", "mix"),
+        metavar="TEST",
+        help="the test that accepts or refuses an item: fit, separation, contrast or mix "
+        "(default: the one that refuses most held-out items of an origin left out of the "
+        "reference; separation keeps more later items whose content drifted while their form "
+        "held, the mix finds more strangers); the rate still holds",
+    )
+
+
 def running(parser: argparse.ArgumentParser) -> None:
     """Where the work runs (--jobs, --cluster) and the size cache."""
     group = parser.add_argument_group("running")

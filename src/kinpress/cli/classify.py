@@ -66,20 +66,10 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
     decide.add_argument("--method", choices=("conditional", "knn"), default="conditional",
                         help="conditional (default) or knn")  # fmt: skip
     decide.add_argument("--k", type=int, default=1, metavar="N", help="neighbours for knn")
-    decide.add_argument("--significance", type=float, metavar="RATE",
-                        help="refuse an origin when the item's p-value for it is at most RATE: "
-                        "the rate at which items of known origins may be refused "
-                        "(default 0.05)")  # fmt: skip
+    _options.abstention(decide)
     decide.add_argument("--threshold", type=float, metavar="SCORE",
                         help="instead of p-values, accept an origin when the item's score for "
                         "it is at most SCORE (no stated error rate)")  # fmt: skip
-    decide.add_argument("--decide-by", choices=("fit", "separation", "contrast", "mix"),
-                        metavar="TEST",
-                        help="the test that accepts or refuses an item: fit, separation, "
-                        "contrast or mix (default: the one that refuses most held-out items "
-                        "of an origin left out of the reference; separation keeps more later "
-                        "items whose content drifted while their form held, the mix finds "
-                        "more strangers); the rate still holds")  # fmt: skip
     decide.add_argument("--evaluate", action="store_true",
                         help="test the reference on itself, block by block, instead")  # fmt: skip
     _options.output(parser, "the result", "a JSON list of predictions")

@@ -76,6 +76,7 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
         default=1,
         help="seed of the bootstrap and of --derived's null and sketches (default 1)",
     )
+    _options.abstention(parser.add_argument_group("origins (with --reference)"))
     _options.output(parser, "the HTML page", "the report's data as JSON instead of the page")
 
 
@@ -138,6 +139,9 @@ def _checks(args: argparse.Namespace) -> None:
     if args.neighbours < 1:
         raise UsageError(f"--neighbours {args.neighbours}: give at least 1")
     _options.refuse_budget_without_auto(args)
+    if args.reference is None:
+        _options.refuse_given(args, ("significance", "decide_by"), "decides origins; give "
+                              "--reference FOLDER of known origins")  # fmt: skip
 
 
 def _items(
@@ -252,7 +256,8 @@ def run(args: argparse.Namespace, console: Console) -> int:
         with opened_cache(args) as cache:
             classification = _with_progress(console, lambda progress: classify(
                 unknowns, reference, spec, conditional=conditional, engine=args.engine,
-                cache=cache, progress=progress,
+                cache=cache, progress=progress, significance=args.significance,
+                test=args.decide_by,
             ))  # fmt: skip
     roles = {item.name: "reference" for item in reference}
     roles.update({item.name: "unknown" for item in unknowns} if reference else {})

@@ -15,6 +15,7 @@ from ..engine import Engine
 from ..items import ItemLike, as_items
 from ..measure import Measurement
 from .classification import _calibrate, _decision_scores
+from .conformal import DECIDERS
 from .scores import DEFAULT_BLOCKS, DEFAULT_SIGNIFICANCE, _measurement, _Reference
 
 
@@ -24,12 +25,14 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
     Parameters are stored as given. `fit` keeps the training items as the reference, chooses the
     compressor when `compressor` is "auto" (as the command line does for classify, within
     `budget` seconds; kept in `compressor_`) and calibrates the conformal abstention at
-    `significance` (unless a `threshold` is given). `predict` returns the class, or
-    `unknown_label` for an item no class accepts or several do; `p_values(X)` gives each item's
-    conformal p-value for every class (columns in `classes_` order), the estimator's counterpart
-    of `predict_proba`. `engine` runs the compressions (default: a `LocalEngine` on every core of
-    this machine; a `DaskEngine` spreads them over a cluster). `cache` is a path to a size cache
-    file, opened for each fit and predict, so that the estimator can be cloned and pickled.
+    `significance` (unless a `threshold` is given), deciding by `test` (one of "fit",
+    "separation", "contrast", "mix"; default: the one the reference chooses). `predict`
+    returns the class, or `unknown_label` for an item no class accepts or several do;
+    `p_values(X)` gives each item's conformal p-value for every class (columns in `classes_`
+    order), the estimator's counterpart of `predict_proba`. `engine` runs the compressions
+    (default: a `LocalEngine` on every core of this machine; a `DaskEngine` spreads them over a
+    cluster). `cache` is a path to a size cache file, opened for each fit and predict, so that
+    the estimator can be cloned and pickled.
     """
 
     def __init__(
@@ -40,6 +43,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         conditional: str = "auto",
         significance: float | None = None,
         threshold: float | None = None,
+        test: str | None = None,
         unknown_label: Any = None,
         budget: float = 600.0,
         engine: Engine | None = None,
@@ -51,6 +55,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         self.conditional = conditional
         self.significance = significance
         self.threshold = threshold
+        self.test = test
         self.unknown_label = unknown_label
         self.budget = budget
         self.engine = engine
@@ -69,6 +74,10 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         items = as_items(X, "ref")
         if len(items) != len(y):
             raise ValueError(f"X has {len(items)} items but y has {len(y)} labels")
+        if self.test is not None and self.threshold is not None:
+            raise ValueError("give a test or a threshold, not both")
+        if self.test is not None and self.test not in DECIDERS:
+            raise ValueError(f"unknown test {self.test!r}: use one of {', '.join(DECIDERS)}")
         classes, codes = np.unique(np.asarray(y), return_inverse=True)
         self.classes_ = classes
         names = tuple(str(k) for k in range(len(classes)))
@@ -94,7 +103,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
             self.longest_ = max(len(i.data) for i in labelled)
             self.calibrated_ = _calibrate(
                 self.reference_, self._measurement(cache), self.method, self.significance,
-                self.threshold, DEFAULT_BLOCKS, self.longest_,
+                self.threshold, DEFAULT_BLOCKS, self.longest_, self.test,
             )  # fmt: skip
         finally:
             if cache is not None:
