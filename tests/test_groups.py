@@ -181,6 +181,40 @@ def test_tiny_matrices() -> None:
     assert find_groups(two, cut=2.0).assignment == (0, 0)
 
 
+def test_one_tight_group_among_items_that_share_nothing_is_found() -> None:
+    # The NCDs (zstd level 19, two decimals) of 9 real source files, 3 Ada, 3 Go, 3 Rust: the
+    # Ada ones 0.23-0.60 apart, every other pair 0.89-1.0. No split of the density hierarchy
+    # leaves two groups (each stray file leaves it alone), yet the Ada trio is one.
+    d = np.array([
+        [0.00, 0.23, 0.60, 0.98, 0.99, 0.91, 0.93, 0.95, 0.93],
+        [0.23, 0.00, 0.60, 0.99, 0.99, 0.92, 0.94, 0.95, 0.93],
+        [0.60, 0.60, 0.00, 0.98, 0.99, 0.96, 0.96, 0.97, 0.96],
+        [0.98, 0.99, 0.98, 0.00, 1.00, 0.97, 0.99, 0.99, 0.98],
+        [0.99, 0.99, 0.99, 1.00, 0.00, 0.99, 0.99, 0.99, 0.99],
+        [0.91, 0.92, 0.96, 0.97, 0.99, 0.00, 0.92, 0.94, 0.92],
+        [0.93, 0.94, 0.96, 0.99, 0.99, 0.92, 0.00, 0.89, 0.90],
+        [0.95, 0.95, 0.97, 0.99, 0.99, 0.94, 0.89, 0.00, 0.92],
+        [0.93, 0.93, 0.96, 0.98, 0.99, 0.92, 0.90, 0.92, 0.00],
+    ])  # fmt: skip
+    rng = np.random.default_rng(3)
+    shown = find_groups(d, report_outliers=True)
+    assert shown.assignment == (0, 0, 0, *[OUTLIER] * 6)
+    assert shown.method == "density"
+    joined = find_groups(d)
+    assert joined.assignment == (0,) * 9 and joined.is_outlier == (False,) * 3 + (True,) * 6
+    # two groups asked for: the Ada trio and the rest, not the trio split in two
+    assert find_groups(d, k=2, report_outliers=True).assignment == (0, 0, 0, *[1] * 6)
+    # Without such a group (every pair as unalike) there is still one group and no outliers: a
+    # dense core of two or three among equals is not a group (its silhouette against the rest,
+    # Rousseeuw 1987, stays under 0.25, Kaufman & Rousseeuw 1990's "no substantial structure",
+    # recalled from memory)
+    flat = rng.uniform(0.95, 1.0, size=(9, 9))
+    flat = (flat + flat.T) / 2
+    np.fill_diagonal(flat, 0.0)
+    none = find_groups(flat, report_outliers=True)
+    assert none.assignment == (0,) * 9 and none.method == "one-group"
+
+
 def test_agreement_against_hand_computed_values() -> None:
     groups = [0, 0, 0, 1, 1, 1, 2, 2]
     known = ["a", "a", "b", "b", "b", "b", "c", None]  # the last item is left out

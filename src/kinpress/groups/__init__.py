@@ -13,11 +13,15 @@ estimates", PAKDD), where stray items fall out of a group instead of founding on
 - automatic count: HDBSCAN* (excess-of-mass selection) is run over a grid of minimum group
   sizes, each result's outliers are attached, and the candidate with the highest mean silhouette
   wins (Rousseeuw 1987, "Silhouettes", J. Comput. Appl. Math. 20:53-65, proposes the average
-  silhouette width for choosing the number of groups). Scoring density candidates rather than
-  dendrogram cuts is what matters: the silhouette-best average-linkage cut of the logs above
-  reaches only 0.84. A fixed size (or the size range over which a count persists) was rejected
-  because groups of very different sizes then fall into noise: with 3 to 20 chunks per log the
-  persistence rule kept 3 groups (ARI 0.49) where the silhouette rule keeps 9 (0.95);
+  silhouette width for choosing the number of groups). Where no split leaves two groups (a few alike
+  items among items that share nothing: each stray item leaves the hierarchy alone), the one dense
+  group HDBSCAN* keeps when it may keep the root is taken, the rest outliers, if its members'
+  silhouette against the rest is above 0.25 (Kaufman & Rousseeuw 1990's bound of "no substantial
+  structure"); otherwise all items are one group. Scoring density candidates rather than dendrogram
+  cuts is what matters: the silhouette-best average-linkage cut of the logs above reaches only 0.84.
+  A fixed size (or the size range over which a count persists) was rejected because groups of very
+  different sizes then fall into noise: with 3 to 20 chunks per log the persistence rule kept 3
+  groups (ARI 0.49) where the silhouette rule keeps 9 (0.95);
 - ``k=N``: the silhouette-best candidate with exactly N groups if the scan has one, since forcing
   a count by merging or splitting loses density information; otherwise the candidates with the
   fewest groups above N are merged by average linkage between groups (UPGMA, Sokal & Michener

@@ -22,6 +22,11 @@ _CORE_NEIGHBOURS = 3
 # A geometric grid keeps the scan at a few seconds for a thousand items while still trying every
 # small size, where counts change fastest.
 _SIZE_GRID = 40
+# A lone dense group counts only when its members' mean silhouette against the rest is above
+# this: Kaufman & Rousseeuw (1990, "Finding Groups in Data", ch. 2) read an average silhouette
+# of 0.25 or less as no substantial structure (recalled from memory). The two or three items
+# that persist longest in a set of equally unrelated items score near 0.
+CORE_SILHOUETTE = 0.25
 _TINY = 1e-12
 _MAX_ROUNDS = 100
 
@@ -48,7 +53,8 @@ def find_groups(
     """Flat groups of the items of a distance matrix (methods in the kinpress.groups docstring).
 
     With neither ``k`` nor ``cut`` the number of groups is chosen from the data (at least two
-    whenever the density step finds any structure, otherwise one group of everything). ``k``
+    whenever the density step finds a split; otherwise one dense group that stands clearly
+    apart, the rest its outliers, where there is one; otherwise one group of everything). ``k``
     gives exactly that many groups (1 <= k <= n). ``cut`` cuts the density hierarchy at that
     height: items linked at mutual-reachability distances strictly below it form a group, items
     left alone are outliers, and every item stands alone when no two are linked. Outliers join their
@@ -72,9 +78,13 @@ def find_groups(
         labels = _cut(d, cut, neighbours)
         return _summarise(d, labels, "density-cut", None, neighbours, cut, None, report_outliers)
 
-    candidates = _candidates(d, neighbours) or [
-        _Candidate(None, np.zeros(n, dtype=np.intp), 1, math.nan)
-    ]
+    candidates = _candidates(d, neighbours)
+    if not candidates:
+        candidates = _one_core(d, neighbours)
+        if k is not None:  # a count splits or merges the lone group and the rest, as two
+            candidates = [_scored(d, c.min_size, (c.labels == OUTLIER).astype(np.intp))
+                          for c in candidates]  # fmt: skip
+    candidates = candidates or [_Candidate(None, np.zeros(n, dtype=np.intp), 1, math.nan)]
     best, step = (_best(candidates), "") if k is None else _with_count(d, candidates, k)
     method = ("one-group" if best.min_size is None else "density") + step
     return _summarise(d, best.labels, method, best.min_size, neighbours, None, k, report_outliers)
@@ -143,6 +153,32 @@ def _candidates(d: FloatArray, neighbours: int) -> list[_Candidate]:
         if labels.max() >= 0 and labels.tobytes() not in found:
             found[labels.tobytes()] = _scored(d, size, labels)
     return list(found.values())
+
+
+def _one_core(d: FloatArray, neighbours: int) -> list[_Candidate]:
+    """Where no split of the hierarchy leaves two groups: the one dense group HDBSCAN* finds when
+    it may keep the root, the rest outliers, if its members lie clearly nearer each other than
+    the rest (their mean silhouette against the rest above CORE_SILHOUETTE); the clearest over
+    the grid of minimum sizes, the smaller size on ties. Three files of one language among six
+    that share nothing with anything form no split (each stray file leaves the hierarchy alone),
+    so without this they vanished into one group of all nine."""
+    n = d.shape[0]
+    largest = n // 2
+    if largest < 2:
+        return []
+    best: tuple[float, _Candidate] | None = None
+    for size in np.unique(np.round(np.geomspace(2, largest, _SIZE_GRID)).astype(int)).tolist():
+        model = HDBSCAN(metric="precomputed", min_cluster_size=size, min_samples=neighbours,
+                        allow_single_cluster=True, copy=True)  # fmt: skip
+        labels = np.asarray(model.fit(d).labels_, dtype=np.intp)
+        core = labels != OUTLIER
+        if core.sum() < 2 or core.all():
+            continue
+        against_rest = silhouette_samples(d, np.where(core, 0, 1), metric="precomputed")
+        clear = float(np.mean(against_rest[core]))
+        if clear > CORE_SILHOUETTE and (best is None or clear > best[0]):
+            best = (clear, _Candidate(size, np.where(core, 0, OUTLIER), 1, math.nan))
+    return [] if best is None else [best[1]]
 
 
 def _cut(d: FloatArray, cut: float, neighbours: int) -> IntArray:

@@ -37,11 +37,11 @@ class Grouping:
     ``is_outlier[i]`` says whether the density step left item i out (it is still in a group unless
     outliers were reported); ``silhouette`` is the mean silhouette (Rousseeuw 1987) over grouped
     items, NaN when undefined (fewer than two groups, or as many groups as items). ``method`` is
-    "density" (or "one-group" when the density step found no structure), followed by "+merge" or
-    "+split" when reaching ``k`` needed that step, or "density-cut" for a cut; ``min_size`` is the
-    HDBSCAN* minimum group size used (None when no density grouping was used), ``core_neighbours``
-    its density estimate's neighbour count, ``cut`` the height of a cut, ``requested_k`` the
-    asked-for number of groups.
+    "density" (or "one-group" when the density step found no group standing apart), followed by
+    "+merge" or "+split" when reaching ``k`` needed that step, or "density-cut" for a cut;
+    ``min_size`` is the HDBSCAN* minimum group size used (None when no density grouping was used),
+    ``core_neighbours`` its density estimate's neighbour count, ``cut`` the height of a cut,
+    ``requested_k`` the asked-for number of groups.
     """
 
     assignment: tuple[int, ...]
