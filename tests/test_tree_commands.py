@@ -170,6 +170,40 @@ def test_groups_say_what_the_silhouette_and_agreement_scores_mean(
     assert "adjusted Rand index: how the groups agree" in err and "purity: the share" in err
 
 
+def test_groups_show_a_lone_group_among_files_that_share_nothing(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # The matrix of 9 real source files (zstd level 19, two decimals; as in test_groups): three
+    # Ada files alike, three Go and three Rust files that share nothing with anything. No split
+    # leaves two groups; the Ada files are one and the rest outliers (group -1 with --outliers).
+    names = ["a1.adb", "a2.adb", "a3.adb", "g1.go", "g2.go", "g3.go", "r1.rs", "r2.rs", "r3.rs"]
+    rows = [
+        [0.00, 0.23, 0.60, 0.98, 0.99, 0.91, 0.93, 0.95, 0.93],
+        [0.23, 0.00, 0.60, 0.99, 0.99, 0.92, 0.94, 0.95, 0.93],
+        [0.60, 0.60, 0.00, 0.98, 0.99, 0.96, 0.96, 0.97, 0.96],
+        [0.98, 0.99, 0.98, 0.00, 1.00, 0.97, 0.99, 0.99, 0.98],
+        [0.99, 0.99, 0.99, 1.00, 0.00, 0.99, 0.99, 0.99, 0.99],
+        [0.91, 0.92, 0.96, 0.97, 0.99, 0.00, 0.92, 0.94, 0.92],
+        [0.93, 0.94, 0.96, 0.99, 0.99, 0.92, 0.00, 0.89, 0.90],
+        [0.95, 0.95, 0.97, 0.99, 0.99, 0.94, 0.89, 0.00, 0.92],
+        [0.93, 0.93, 0.96, 0.98, 0.99, 0.92, 0.90, 0.92, 0.00],
+    ]
+    matrix = tmp_path / "m.tsv"
+    matrix.write_text(
+        "\t".join(["", *names])
+        + "\n"
+        + "".join("\t".join([n, *map(str, r)]) + "\n" for n, r in zip(names, rows, strict=True))
+    )
+    code, out, err = run(["groups", "--matrix", str(matrix), "--outliers"], capsys)
+    assert code == 0, err
+    groups = dict(line.split("\t")[:2] for line in out.splitlines()[1:])
+    assert groups == {n: "0" if n.endswith(".adb") else "-1" for n in names}
+    assert "groups: 1 by density; no silhouette (one group); 6 outliers reported" in err
+    code, out, err = run(["groups", "--matrix", str(matrix)], capsys)
+    assert {line.split("\t")[1] for line in out.splitlines()[1:]} == {"0"}
+    assert "6 outliers joined their nearest group" in err
+
+
 def test_groups_refuse_k_and_cut_together(capsys: pytest.CaptureFixture[str]) -> None:
     code, _, err = run(["groups", str(LOGS / "logs"), "--k", "2", "--cut", "0.5", *FAST], capsys)
     assert code == 2 and "not both" in err

@@ -170,7 +170,8 @@ def run(args: argparse.Namespace, console: Console) -> int:
     )
     console.say(
         f"groups: {grouping.k} by {grouping.method}; {silhouette};"
-        f" {outliers} outliers {'reported' if args.outliers else 'joined their nearest group'}"
+        f" {outliers:,} outlier{'' if outliers == 1 else 's'}"
+        f" {'reported' if args.outliers else 'joined their nearest group'}"
     )
     scores = result.agreement
     if scores is not None:
