@@ -3,13 +3,15 @@
 from __future__ import annotations
 
 import json
+import random
 import re
+import warnings
 from pathlib import Path
 
 import pytest
 
 from conftest import DATASETS
-from kinpress import cli
+from kinpress import Item, cli
 
 LOGS = DATASETS / "quendle-logs" / "logs"
 FAST = ["-c", "zstd:level=19", "--no-cache", "--quiet", "--split", "lines:100"]
@@ -229,3 +231,77 @@ def test_classify_in_python_takes_a_test() -> None:
         classify(unknowns, reference, "zstd:level=19", test="vote")
     with pytest.raises(ValueError, match="not both"):
         classify(unknowns, reference, "zstd:level=19", test="fit", threshold=0.9)
+
+
+def _drifting_logs(root: Path, drift: bool) -> tuple[Path, Path]:
+    """Invented logs of three systems, 9 reference chunks each and 10 others drawn alike, each
+    between two reference ones; with `drift` the kiln's others name valves and crews the
+    reference never did, in the same form (as a package manager's log names new packages)."""
+
+    def words(seed: int) -> list[str]:
+        r = random.Random(seed)
+        return ["".join(r.choice("bcdfghklmnprstvz") + r.choice("aeiou") for _ in range(3))
+                for _ in range(200)]  # fmt: skip
+
+    def chunk(system: str, vocabulary: list[str], k: int) -> str:
+        r = random.Random(k * 1000 + len(system))
+        w = lambda: r.choice(vocabulary)  # noqa: E731
+        lines = {
+            "kiln": lambda: f"kiln[{400 + k}]: valve {w()} opened by {w()} for {w()} {w()}",
+            "sluice": lambda: f"[sluice] level={r.randrange(100)} gate={w()} state=OPEN",
+            "ferry": lambda: f'{{"svc": "ferry", "msg": "docked {w()}", "n": {r.randrange(999)}}}',
+        }[system]
+        return "".join(lines() + "\n" for _ in range(60))
+
+    known, later = root / "known", root / "later"
+    later.mkdir(parents=True)
+    for seed, system in enumerate(("kiln", "sluice", "ferry")):
+        (known / system).mkdir(parents=True)
+        for k in range(0, 18, 2):
+            (known / system / f"{k:02d}.log").write_text(chunk(system, words(seed), k))
+        vocabulary = words(99) if drift and system == "kiln" else words(seed)
+        for k in range(1, 21, 2):
+            (later / f"{system}-{k:02d}.log").write_text(chunk(system, vocabulary, k))
+    return known, later
+
+
+def test_refusals_concentrated_on_one_origin_are_called_out(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # The mix weighs the content view apart, so it refuses later kiln chunks whose words are all
+    # new though their form is the kiln's; 10 of 10 refused is far beyond a rate of 0.05
+    # (binomial tail 0.05^10). The output says so and names the way to keep them.
+    from kinpress.origins import RefusalWarning, classify, reference_items
+
+    known, later = _drifting_logs(tmp_path / "drift", drift=True)
+    reference = reference_items(known)
+    items = sorted(later.iterdir())
+    unknowns = [Item(p.name, p.read_bytes(), str(p)) for p in items]
+    with pytest.warns(RefusalWarning, match=r"kiln: 10 of the 10 items it fits best"):
+        found = classify(unknowns, reference, "zstd:level=19", test="mix")
+    assert [(c.origin, c.refused, c.fitting) for c in found.concentrated] == [("kiln", 10, 10)]
+    assert found.concentrated[0].p == pytest.approx(0.05**10)
+    kept = classify(unknowns, reference, "zstd:level=19", test="separation")
+    assert all(p.decision == "named" for p in kept.predictions) and kept.concentrated == ()
+    argv = ["classify", "--reference", str(known), str(later), "-c", "zstd:level=19",
+            "--no-cache", "--decide-by", "mix"]  # fmt: skip
+    assert cli.main(argv) == 0
+    err = capsys.readouterr().err
+    assert "kinpress: warning: kiln: 10 of the 10 items it fits best were refused" in err
+    assert "--decide-by separation keeps such items" in err
+    # the report says it too, in its data and on the page
+    data, page = tmp_path / "r.json", tmp_path / "r.html"
+    report = ["report", "--reference", str(known), str(later), "-c", "zstd:level=19",
+              "--no-cache", "--quiet", "--decide-by", "mix"]  # fmt: skip
+    assert cli.main([*report, "--json", "-o", str(data)]) == 0
+    noted = json.loads(data.read_text())["classification"]["concentrated"]
+    assert [(n["origin"], n["refused"], n["fitting"]) for n in noted] == [("kiln", 10, 10)]
+    assert cli.main([*report, "-o", str(page)]) == 0
+    assert "Warning: kiln: 10 of the 10 items it fits best were refused" in page.read_text()
+    # without the drift nothing is called out
+    known, later = _drifting_logs(tmp_path / "steady", drift=False)
+    steady = [Item(p.name, p.read_bytes(), str(p)) for p in sorted(later.iterdir())]
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", RefusalWarning)
+        quiet = classify(steady, reference_items(known), "zstd:level=19", test="mix")
+    assert quiet.concentrated == ()

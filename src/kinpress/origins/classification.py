@@ -3,6 +3,7 @@ and `evaluate` the reference by its own held-out folds."""
 
 from __future__ import annotations
 
+import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass, replace
 from typing import Any
@@ -160,6 +161,32 @@ def _decide(
     return out
 
 
+class RefusalWarning(UserWarning):
+    """The items one origin fits best were refused far beyond the rate (see Concentrated)."""
+
+
+@dataclass(frozen=True)
+class Concentrated:
+    """Refusals of the items one origin fits best, more than the rate allows (see
+    `_concentrated`): `refused` of the `fitting` items whose best origin is `origin` were refused
+    though the separation test takes them for it; `p` is the binomial chance of at least as
+    many refusals at the significance."""
+
+    origin: str
+    refused: int
+    fitting: int
+    p: float
+
+    def words(self, significance: float) -> str:
+        return (
+            f"{self.origin}: {self.refused} of the {self.fitting} items it fits best were refused,"
+            f" more than a rate of {significance:g} allows (binomial p = {self.p:.1g}), though"
+            f" the separation test takes them for {self.origin}: its new data may have drifted"
+            " from the reference, or an origin like it is missing; --decide-by separation keeps"
+            " such items"
+        )
+
+
 @dataclass(frozen=True)
 class Classification:
     """Predictions for unknown items, the abstention behind them and the measurement.
@@ -168,6 +195,9 @@ class Classification:
     origin's nearest reference item for knn, C(x | corpus) / C(x) for conditional, made
     comparable across origins as `scoring` says (see Scoring); `p_values` the
     deciding test's p-value of each (None with a given threshold; see Conformity).
+    `concentrated` names origins whose best-fitting items were refused far beyond the rate
+    while the separation test would take them (see Concentrated); empty when none were, when
+    separation decides, or with a threshold.
     """
 
     predictions: tuple[Prediction, ...]
@@ -180,6 +210,7 @@ class Classification:
     k: int
     compressor: str
     conditional: str
+    concentrated: tuple[Concentrated, ...] = ()
 
     def as_json(self) -> list[dict[str, object]]:
         """One object per item (see Prediction.as_json)."""
@@ -382,6 +413,7 @@ class _Calibrated:
     abstention: Abstention
     conformity: Conformity | None
     scoring: Scoring
+    separation: Conformity | None = None
 
     def decide(self, scores: np.ndarray) -> _Decisions:
         """Decide items by what the decision tests (`scoring.stack`)."""
@@ -410,7 +442,41 @@ def _calibrate(
     folds, shaped = _both_views(reference, measurement, method, blocks, longest)
     way, calibration, codes = _calibration(folds, shaped, method == "conditional")
     conformity = Conformity.of(calibration, codes, reference.origins, significance, test)
-    return _Calibrated(_abstention(conformity, blocks), conformity, way)
+    separation = (
+        None
+        if conformity.test == "separation"
+        else Conformity.of(calibration, codes, reference.origins, significance, "separation")
+    )
+    return _Calibrated(_abstention(conformity, blocks), conformity, way, separation)
+
+
+def _concentrated(
+    decided: _Decisions, stack: np.ndarray, fitted: _Calibrated, origins: Sequence[str]
+) -> tuple[Concentrated, ...]:
+    """Origins whose best-fitting items the deciding test refused far beyond its rate while the
+    separation test takes them. Were the items of known origins as exchangeable with the
+    held-out reference as the guarantee asks, the refused among n items that fit an origin best
+    would be at most Binomial(n, significance); a tail chance at or under the significance
+    shared among the origins (Bonferroni: at most one false alarm in 1 / significance runs;
+    scipy.stats.binom.sf) says they are not: either that origin's new data drifted (a log's
+    later chunks name things its first ones never did, in the same form: the separation test
+    still finds them far nearer it than any other origin) or they come from an origin missing
+    from the reference that resembles it. Only the user can tell which; the check says so."""
+    if fitted.separation is None or decided.test_p is None:
+        return ()
+    from scipy.stats import binom
+
+    rate = fitted.separation.significance
+    _, best, kept = fitted.separation.p_values(stack)
+    refused = np.array([d != "named" for d in decided.decisions]) & (kept > rate)
+    found = []
+    for origin in range(len(origins)):
+        fitting = best == origin
+        k, n = int(refused[fitting].sum()), int(fitting.sum())
+        p = float(binom.sf(k - 1, n, rate)) if k else 1.0
+        if k and p <= rate / len(origins):
+            found.append(Concentrated(origins[origin], k, n, p))
+    return tuple(found)
 
 
 def _both_views(
@@ -501,7 +567,12 @@ def classify(
     nearest = measurement.staged("nearest reference items")
     scores = _with_nearest(measured, unknowns, ref, nearest, exclude_self=False)
     decided = fitted.decide(stack)
+    concentrated = _concentrated(decided, stack, fitted, ref.origins)
+    for note in concentrated:
+        warnings.warn(note.words(fitted.abstention.significance or 0.0), RefusalWarning,
+                      stacklevel=2)  # fmt: skip
     return Classification(
+        concentrated=concentrated,
         predictions=tuple(_decide(scores, decided, ref, unknowns)),
         origins=ref.origins,
         scores=scores.scores,

@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import platform
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import asdict, dataclass
 from typing import TYPE_CHECKING
 
 from .._version import __version__
@@ -175,6 +175,10 @@ class Report:
                 "abstention": c.abstention,
                 "scoring": c.scoring,
                 "counts": c.counts(),
+                "concentrated": [
+                    {**asdict(n), "words": n.words(c.abstention.significance or 0.0)}
+                    for n in c.concentrated
+                ],
                 "predictions": c.as_json(),
             }
         return dict(
