@@ -288,7 +288,7 @@ def test_refusals_concentrated_on_one_origin_are_called_out(
     assert cli.main(argv) == 0
     err = capsys.readouterr().err
     assert "kinpress: warning: kiln: 10 of the 10 items it fits best were refused" in err
-    assert "--decide-by separation keeps such items" in err
+    assert "deciding by the separation test keeps such items (--decide-by separation;" in err
     # the report says it too, in its data and on the page
     data, page = tmp_path / "r.json", tmp_path / "r.html"
     report = ["report", "--reference", str(known), str(later), "-c", "zstd:level=19",
@@ -298,6 +298,14 @@ def test_refusals_concentrated_on_one_origin_are_called_out(
     assert [(n["origin"], n["refused"], n["fitting"]) for n in noted] == [("kiln", 10, 10)]
     assert cli.main([*report, "-o", str(page)]) == 0
     assert "Warning: kiln: 10 of the 10 items it fits best were refused" in page.read_text()
+    # the estimator's predict warns alike
+    from kinpress.origins import CompressionClassifier
+
+    model = CompressionClassifier("zstd:level=19", test="mix", unknown_label="?")
+    model.fit([i.data for i in reference], [i.label for i in reference])
+    with pytest.warns(RefusalWarning, match=r"kiln: 10 of the 10 items it fits best"):
+        guessed = model.predict([i.data for i in unknowns])
+    assert sum(g == "?" for g in guessed) >= 10
     # without the drift nothing is called out
     known, later = _drifting_logs(tmp_path / "steady", drift=False)
     steady = [Item(p.name, p.read_bytes(), str(p)) for p in sorted(later.iterdir())]

@@ -190,7 +190,8 @@ def abstention(group: Group) -> None:
         help="the test that accepts or refuses an item: fit, separation, contrast or mix "
         "(default: the one that refuses most held-out items of an origin left out of the "
         "reference; separation keeps more later items whose content drifted while their form "
-        "held, the mix finds more strangers); the rate still holds",
+        "held, the mix finds more strangers); the rate still holds. A warning says when the "
+        "items one origin fits best are refused far beyond the rate",
     )
 
 

@@ -182,8 +182,8 @@ class Concentrated:
             f"{self.origin}: {self.refused} of the {self.fitting} items it fits best were refused,"
             f" more than a rate of {significance:g} allows (binomial p = {self.p:.1g}), though"
             f" the separation test takes them for {self.origin}: its new data may have drifted"
-            " from the reference, or an origin like it is missing; --decide-by separation keeps"
-            " such items"
+            " from the reference, or an origin like it is missing; deciding by the separation"
+            ' test keeps such items (--decide-by separation; test="separation" in Python)'
         )
 
 
