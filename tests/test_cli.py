@@ -286,13 +286,15 @@ def test_summary_counts_pairs_and_a_rerun_takes_all_from_the_cache(
     assert SUMMARY.search(err).groups() == ("5", "4", "6")  # type: ignore[union-attr]
 
 
-@pytest.mark.parametrize("where", ["after", "before"])
+@pytest.mark.parametrize("where", ["after", "before", "short"])
 def test_quiet_prints_nothing_on_stderr(
     capsys: pytest.CaptureFixture[str], text_folder: Path, where: str
 ) -> None:
     argv = ["matrix", str(text_folder), *FAST, "--quiet"]
     if where == "before":  # the global option, given before the command
         argv = ["--quiet", *argv[:-1]]
+    if where == "short":
+        argv = [*argv[:-1], "-q"]
     code, out, err = run(capsys, *argv)
     assert code == 0
     assert err == ""

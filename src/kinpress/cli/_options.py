@@ -51,7 +51,7 @@ def command(
 def common(parser: argparse.ArgumentParser) -> None:
     # SUPPRESS: a command's copy, when not given, must not reset the global option to False.
     quiet = "no progress bar or summary"
-    parser.add_argument("--quiet", action="store_true", default=argparse.SUPPRESS, help=quiet)
+    parser.add_argument("-q", "--quiet", action="store_true", default=argparse.SUPPRESS, help=quiet)
     debug = "show a traceback on errors"
     parser.add_argument("--debug", action="store_true", default=argparse.SUPPRESS, help=debug)
 
