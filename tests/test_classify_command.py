@@ -289,6 +289,9 @@ def test_refusals_concentrated_on_one_origin_are_called_out(
     err = capsys.readouterr().err
     assert "kinpress: warning: kiln: 10 of the 10 items it fits best were refused" in err
     assert "deciding by the separation test keeps such items (--decide-by separation;" in err
+    saved = tmp_path / "found.tsv"  # a saved result carries it too
+    assert cli.main([*argv, "--quiet", "-o", str(saved)]) == 0
+    assert "\nWarning: kiln: 10 of the 10 items it fits best were refused" in saved.read_text()
     # the report says it too, in its data and on the page
     data, page = tmp_path / "r.json", tmp_path / "r.html"
     report = ["report", "--reference", str(known), str(later), "-c", "zstd:level=19",

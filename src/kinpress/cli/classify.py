@@ -179,6 +179,7 @@ def _classification_text(found: Any) -> str:
         " line says.",
         f"Scores: {found.scoring.description}.",
         f"Abstention: {found.abstention.guarantee}.",
+        *(f"Warning: {note.words(found.abstention.significance)}." for note in found.concentrated),
         ORIGIN_CAUTION,
     ]
     return "\n".join(lines) + "\n"
