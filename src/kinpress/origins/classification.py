@@ -454,14 +454,14 @@ def _concentrated(
     decided: _Decisions, stack: np.ndarray, fitted: _Calibrated, origins: Sequence[str]
 ) -> tuple[Concentrated, ...]:
     """Origins whose best-fitting items the deciding test refused far beyond its rate while the
-    separation test takes them. Were the items of known origins as exchangeable with the
-    held-out reference as the guarantee asks, the refused among n items that fit an origin best
-    would be at most Binomial(n, significance); a tail chance at or under the significance
-    shared among the origins (Bonferroni: at most one false alarm in 1 / significance runs;
-    scipy.stats.binom.sf) says they are not: either that origin's new data drifted (a log's
-    later chunks name things its first ones never did, in the same form: the separation test
-    still finds them far nearer it than any other origin) or they come from an origin missing
-    from the reference that resembles it. Only the user can tell which; the check says so."""
+    separation test takes them. Were the items of known origins as exchangeable with the held-out
+    reference as the guarantee asks, the refused among n items that fit an origin best would be at
+    most Binomial(n, significance); a tail chance at or under the significance shared among the
+    origins (Bonferroni: a run's chance of any false alarm is then at most the significance;
+    scipy.stats.binom.sf) says they are not: either that origin's new data drifted (a log's later
+    chunks name things its first ones never did, in the same form: the separation test still finds
+    them far nearer it than any other origin) or they come from an origin missing from the reference
+    that resembles it. Only the user can tell which; the check says so."""
     if fitted.separation is None or decided.test_p is None:
         return ()
     from scipy.stats import binom
