@@ -16,7 +16,8 @@ of it), and the run time; gzip 1-NN (Jiang et al.
 coverage as the default: each round, as many known items left unnamed as auto left, those whose
 nearest reference item is least nearer than any of another label first. "auto" is
 the default (-c auto, chosen on each round's reference; under its row, each round's choice and
-figures, which hang on the choice). Data: ../shared/datasets-real (logs,
+figures, which hang on the choice, and the refusal warnings it gave, each with how many of the
+refused items were of known and of missing origins). Data: ../shared/datasets-real (logs,
 code, texts) and, where present, this machine's own material: --logs DIR (a folder of *.log files
 of other systems; machine_logs.sh fills one with 8 logs of this machine's programs) and source
 files of many languages under /usr (--machine-code); byte streams of 9 formats under /usr
@@ -58,7 +59,7 @@ import numpy as np
 
 from kinpress import Item, SizeCache
 from kinpress.calibration import choose_for_job
-from kinpress.origins import classify
+from kinpress.origins import Classification, classify
 
 SHARED = Path(__file__).resolve().parents[2] / "shared" / "datasets-real"
 FIXED = ("zstd:level=3", "zstd:level=19", "lzma:level=9", "ppmd:order=32", "bz2:level=9",
@@ -329,6 +330,20 @@ def gzip_1nn(reference: list[Item], later: list[Item]) -> list[tuple[str, float]
     return out
 
 
+def warned(result: Classification, later: list[Item], missing: set[str]) -> str:
+    """The refusal warnings of a round, each with how many of the refused items it counts were
+    of a known origin (drift) and how many of a missing one (an origin like it absent)."""
+    notes = []
+    for note in result.concentrated:
+        refused = [i.label for p, i in zip(result.predictions, later, strict=True)
+                   if p.best == note.origin and p.decision != "named"]  # fmt: skip
+        strangers = sum(label in missing for label in refused)
+        known = len(refused) - strangers
+        notes.append(f"{note.origin} {note.refused} of {note.fitting} (refused among them:"
+                     f" {known} known, {strangers} missing)")  # fmt: skip
+    return f"; warned: {'; '.join(notes)}" if notes else ""
+
+
 def run(name: str, origins: dict[str, list[Item]], reference: int, settings: list[str],
         cache: SizeCache, missing_at_once: int | None = None, draws: int = 0,
         baseline: bool = True) -> None:  # fmt: skip
@@ -390,6 +405,7 @@ def run(name: str, origins: dict[str, list[Item]], reference: int, settings: lis
                     f"    {', '.join(sorted(missing))} missing: {spec}; right {r / k:.3f},"
                     f" refused {f / k:.3f}, unknown {u / n:.3f}"
                     + ("" if estimate is None else f" (estimated {estimate:.3f})")
+                    + warned(result, later, missing)
                 )
         seconds = time.perf_counter() - started
         label = setting + (f" ({', '.join(sorted(chosen))})" if chosen else "")
