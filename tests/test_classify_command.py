@@ -52,8 +52,8 @@ def test_known_systems_are_named_and_a_stranger_is_unknown(
     assert code == 0
     found = json.loads(capsys.readouterr().out)
     assert {tuple(sorted(p)) for p in found} == {
-        ("best", "candidates", "confidence", "credibility", "decision", "distance", "hash",
-         "item", "nearest", "p_values", "path", "predicted", "scores")
+        ("best", "beyond_rate", "candidates", "confidence", "credibility", "decision",
+         "distance", "hash", "item", "nearest", "p_values", "path", "predicted", "scores")
     }  # fmt: skip
     assert {p["decision"] for p in found} <= {"named", "ambiguous", "unknown"}
     assert all(set(p["p_values"]) == {"brisquet", "fenmeter", "tarnwheel"} for p in found)
@@ -280,6 +280,8 @@ def test_refusals_concentrated_on_one_origin_are_called_out(
     with pytest.warns(RefusalWarning, match=r"kiln: 10 of the 10 items it fits best"):
         found = classify(unknowns, reference, "zstd:level=19", test="mix")
     assert [(c.origin, c.refused, c.fitting) for c in found.concentrated] == [("kiln", 10, 10)]
+    marked = {p.item for p in found.predictions if p.beyond_rate}
+    assert marked == {f"kiln-{k:02d}.log" for k in range(1, 21, 2)}
     assert found.concentrated[0].p == pytest.approx(0.05**10)
     kept = classify(unknowns, reference, "zstd:level=19", test="separation")
     assert all(p.decision == "named" for p in kept.predictions) and kept.concentrated == ()
@@ -289,6 +291,10 @@ def test_refusals_concentrated_on_one_origin_are_called_out(
     err = capsys.readouterr().err
     assert "kinpress: warning: kiln: 10 of the 10 items it fits best were refused" in err
     assert "deciding by the separation test keeps such items (--decide-by separation;" in err
+    assert cli.main([*argv, "--quiet", "--json"]) == 0  # JSON marks the items counted
+    rows = json.loads(capsys.readouterr().out)
+    assert sum(r["beyond_rate"] for r in rows) == 10
+    assert all(r["beyond_rate"] == r["item"].startswith("kiln") for r in rows)
     saved = tmp_path / "found.tsv"  # a saved result carries it too
     assert cli.main([*argv, "--quiet", "-o", str(saved)]) == 0
     assert "\nWarning: kiln: 10 of the 10 items it fits best were refused" in saved.read_text()

@@ -203,6 +203,7 @@ def test_json_rows_have_the_documented_keys(cache: SizeCache) -> None:
         "distance": p.distance,
         "scores": {"o0": result.scores[0, 0], "o1": result.scores[0, 1]},
         "p_values": {"o0": result.p_values[0, 0], "o1": result.p_values[0, 1]},  # type: ignore[index]
+        "beyond_rate": False,
         "path": "generated",
         # reference: hashlib's BLAKE2b (RFC 7693) at 16 bytes, the digest the cache keys on
         "hash": hashlib.blake2b(origin_text(0, 15).encode(), digest_size=16).hexdigest(),

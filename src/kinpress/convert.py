@@ -67,7 +67,7 @@ def grouping_frame(result: GroupingResult) -> Any:
 
 _PREDICTION_COLUMNS = (
     "item", "predicted", "decision", "candidates", "best", "confidence", "credibility",
-    "nearest", "distance", "path", "hash",
+    "beyond_rate", "nearest", "distance", "path", "hash",
 )  # fmt: skip
 
 
@@ -85,6 +85,7 @@ def classification_frame(found: Classification) -> Any:
             "best": p.best,
             "confidence": p.confidence,
             "credibility": p.credibility,
+            "beyond_rate": p.beyond_rate,
             "nearest": p.nearest,
             "distance": p.distance,
             "path": p.path,

@@ -47,7 +47,9 @@ class Prediction:
     that test, the item taken as that origin's
     (see Conformity). `path` is where the item came from (`Item.source`: its file, '-' for
     standard input) and `hash` the hex BLAKE2b-128 of its bytes (`content_digest`, as the cache
-    keys them), so a reviewer can find and check the very bytes classified.
+    keys them), so a reviewer can find and check the very bytes classified. `beyond_rate` marks
+    a refused item a refusal warning counts (see Classification.concentrated): its best origin
+    fits it by the separation test, and that origin's items were refused far beyond the rate.
     """
 
     item: str
@@ -63,6 +65,7 @@ class Prediction:
     p_values: tuple[tuple[str, float], ...] | None
     path: str
     hash: str
+    beyond_rate: bool = False
 
     def as_json(self) -> dict[str, object]:
         """The fields by name; `predicted` says what the text does: the origin when one is
@@ -83,6 +86,7 @@ class Prediction:
                     "distance": self.distance,
                     "scores": dict(self.scores),
                     "p_values": None if self.p_values is None else dict(self.p_values),
+                    "beyond_rate": self.beyond_rate,
                     "path": self.path,
                     "hash": self.hash,
                 }
@@ -128,7 +132,11 @@ def _decisions(
 
 
 def _decide(
-    scores: _Scores, decided: _Decisions, reference: _Reference, targets: Sequence[Item]
+    scores: _Scores,
+    decided: _Decisions,
+    reference: _Reference,
+    targets: Sequence[Item],
+    beyond_rate: np.ndarray | None = None,
 ) -> list[Prediction]:
     if scores.nearest is None or scores.distance is None:
         raise ValueError("scores lack the nearest reference items")
@@ -156,6 +164,7 @@ def _decide(
                 else tuple((o, float(p)) for o, p in zip(origins, origin_p[t], strict=True)),
                 path=target.source,
                 hash=content_digest(target.data).hex(),
+                beyond_rate=bool(beyond_rate is not None and beyond_rate[t]),
             )
         )
     return out
@@ -452,7 +461,7 @@ def _calibrate(
 
 def _concentrated(
     decided: _Decisions, stack: np.ndarray, fitted: _Calibrated, origins: Sequence[str]
-) -> tuple[Concentrated, ...]:
+) -> tuple[tuple[Concentrated, ...], np.ndarray]:
     """Origins whose best-fitting items the deciding test refused far beyond its rate while the
     separation test takes them. Were the items of known origins as exchangeable with the held-out
     reference as the guarantee asks, the refused among n items that fit an origin best would be at
@@ -461,9 +470,11 @@ def _concentrated(
     scipy.stats.binom.sf) says they are not: either that origin's new data drifted (a log's later
     chunks name things its first ones never did, in the same form: the separation test still finds
     them far nearer it than any other origin) or they come from an origin missing from the reference
-    that resembles it. Only the user can tell which; the check says so."""
+    that resembles it. Only the user can tell which; the check says so. Returns the notes and
+    which items they count."""
+    counted = np.zeros(len(decided.decisions), dtype=bool)
     if fitted.separation is None or decided.test_p is None:
-        return ()
+        return (), counted
     from scipy.stats import binom
 
     rate = fitted.separation.significance
@@ -476,7 +487,8 @@ def _concentrated(
         p = float(binom.sf(k - 1, n, rate)) if k else 1.0
         if k and p <= rate / len(origins):
             found.append(Concentrated(origins[origin], k, n, p))
-    return tuple(found)
+            counted |= fitting & refused
+    return tuple(found), counted
 
 
 def _both_views(
@@ -567,13 +579,13 @@ def classify(
     nearest = measurement.staged("nearest reference items")
     scores = _with_nearest(measured, unknowns, ref, nearest, exclude_self=False)
     decided = fitted.decide(stack)
-    concentrated = _concentrated(decided, stack, fitted, ref.origins)
+    concentrated, counted = _concentrated(decided, stack, fitted, ref.origins)
     for note in concentrated:
         warnings.warn(note.words(fitted.abstention.significance or 0.0), RefusalWarning,
                       stacklevel=2)  # fmt: skip
     return Classification(
         concentrated=concentrated,
-        predictions=tuple(_decide(scores, decided, ref, unknowns)),
+        predictions=tuple(_decide(scores, decided, ref, unknowns, counted)),
         origins=ref.origins,
         scores=scores.scores,
         p_values=decided.origin_p,

@@ -141,7 +141,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         scores = self._scores(X)
         decided = self.calibrated_.decide(scores)
         classes = [str(c) for c in self.classes_]
-        for note in _concentrated(decided, scores, self.calibrated_, classes):
+        for note in _concentrated(decided, scores, self.calibrated_, classes)[0]:
             significance = self.calibrated_.abstention.significance or 0.0
             warnings.warn(note.words(significance), RefusalWarning, stacklevel=2)
         named = np.array([d == "named" for d in decided.decisions], dtype=bool)
