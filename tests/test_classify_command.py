@@ -233,35 +233,37 @@ def test_classify_in_python_takes_a_test() -> None:
         classify(unknowns, reference, "zstd:level=19", test="fit", threshold=0.9)
 
 
+def _words(seed: int) -> list[str]:
+    r = random.Random(seed)
+    return ["".join(r.choice("bcdfghklmnprstvz") + r.choice("aeiou") for _ in range(3))
+            for _ in range(200)]  # fmt: skip
+
+
+def _chunk(system: str, vocabulary: list[str], k: int) -> str:
+    """60 lines an invented system writes, with words from `vocabulary`."""
+    r = random.Random(k * 1000 + len(system))
+    w = lambda: r.choice(vocabulary)  # noqa: E731
+    lines = {
+        "kiln": lambda: f"kiln[{400 + k}]: valve {w()} opened by {w()} for {w()} {w()}",
+        "sluice": lambda: f"[sluice] level={r.randrange(100)} gate={w()} state=OPEN",
+        "ferry": lambda: f'{{"svc": "ferry", "msg": "docked {w()}", "n": {r.randrange(999)}}}',
+    }[system]
+    return "".join(lines() + "\n" for _ in range(60))
+
+
 def _drifting_logs(root: Path, drift: bool) -> tuple[Path, Path]:
     """Invented logs of three systems, 9 reference chunks each and 10 others drawn alike, each
     between two reference ones; with `drift` the kiln's others name valves and crews the
     reference never did, in the same form (as a package manager's log names new packages)."""
-
-    def words(seed: int) -> list[str]:
-        r = random.Random(seed)
-        return ["".join(r.choice("bcdfghklmnprstvz") + r.choice("aeiou") for _ in range(3))
-                for _ in range(200)]  # fmt: skip
-
-    def chunk(system: str, vocabulary: list[str], k: int) -> str:
-        r = random.Random(k * 1000 + len(system))
-        w = lambda: r.choice(vocabulary)  # noqa: E731
-        lines = {
-            "kiln": lambda: f"kiln[{400 + k}]: valve {w()} opened by {w()} for {w()} {w()}",
-            "sluice": lambda: f"[sluice] level={r.randrange(100)} gate={w()} state=OPEN",
-            "ferry": lambda: f'{{"svc": "ferry", "msg": "docked {w()}", "n": {r.randrange(999)}}}',
-        }[system]
-        return "".join(lines() + "\n" for _ in range(60))
-
     known, later = root / "known", root / "later"
     later.mkdir(parents=True)
     for seed, system in enumerate(("kiln", "sluice", "ferry")):
         (known / system).mkdir(parents=True)
         for k in range(0, 18, 2):
-            (known / system / f"{k:02d}.log").write_text(chunk(system, words(seed), k))
-        vocabulary = words(99) if drift and system == "kiln" else words(seed)
+            (known / system / f"{k:02d}.log").write_text(_chunk(system, _words(seed), k))
+        vocabulary = _words(99) if drift and system == "kiln" else _words(seed)
         for k in range(1, 21, 2):
-            (later / f"{system}-{k:02d}.log").write_text(chunk(system, vocabulary, k))
+            (later / f"{system}-{k:02d}.log").write_text(_chunk(system, vocabulary, k))
     return known, later
 
 
@@ -322,3 +324,30 @@ def test_refusals_concentrated_on_one_origin_are_called_out(
         warnings.simplefilter("error", RefusalWarning)
         quiet = classify(steady, reference_items(known), "zstd:level=19", test="mix")
     assert quiet.concentrated == ()
+
+
+def test_evaluate_names_an_origin_whose_blocks_are_refused_beyond_the_rate(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # The kiln's reference changes its words two thirds of the way through (its last block is
+    # held out against the first two): the mix refuses that block far beyond a rate of 0.05.
+    from kinpress.origins import evaluate, reference_items
+
+    for drift in (True, False):
+        known = tmp_path / f"known-{drift}"
+        for seed, system in enumerate(("kiln", "sluice", "ferry")):
+            (known / system).mkdir(parents=True)
+            for k in range(12):
+                vocabulary = _words(99) if drift and system == "kiln" and k >= 8 else _words(seed)
+                (known / system / f"{k:02d}.log").write_text(_chunk(system, vocabulary, k))
+        result = evaluate(reference_items(known), "zstd:level=19", test="mix")
+        names = [origin for origin, *_ in result.drifting]
+        assert names == (["kiln"] if drift else []), result.drifting
+    argv = ["classify", "--reference", str(tmp_path / "known-True"), "--evaluate", "-c",
+            "zstd:level=19", "--no-cache", "--quiet", "--decide-by", "mix"]  # fmt: skip
+    assert cli.main(argv) == 0
+    out = capsys.readouterr().out
+    assert re.search(r"warning: kiln: \d+ of its 12 held-out items were refused", out)
+    assert cli.main([*argv, "--json"]) == 0
+    noted = json.loads(capsys.readouterr().out)["drifting"]
+    assert [n["origin"] for n in noted] == ["kiln"] and noted[0]["items"] == 12

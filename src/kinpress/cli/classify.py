@@ -197,6 +197,13 @@ def _evaluation_text(result: Any) -> str:
         f" {result.left_out_unknown_rate:.3f} ({missing})",
         f"abstention: {result.abstention.guarantee}",
         f"scores: {result.scoring.description}",
+        *(
+            f"warning: {origin}: {k} of its {n} held-out items were refused, more than a rate of"
+            f" {result.abstention.significance:g} allows (binomial p = {p:.1g}): its blocks"
+            " differ from each other more than the rate was set for; more reference items of"
+            " it, or deciding by the separation test (--decide-by separation), may keep more"
+            for origin, k, n, p in result.drifting
+        ),
         "",
     ]
     rows = [("true \\ predicted", *result.origins, "ambiguous", "unknown")]

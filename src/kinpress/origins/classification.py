@@ -388,6 +388,27 @@ class Evaluation:
     abstention: Abstention
     scoring: Scoring
 
+    @property
+    def drifting(self) -> tuple[tuple[str, int, int, float], ...]:
+        """Origins whose own held-out items were refused (unknown or ambiguous) far beyond the
+        rate: (origin, refused, items, p), p the binomial chance of at least as many at the
+        significance (scipy.stats.binom.sf), kept where it is at most the significance shared
+        among the origins (Bonferroni), as classify's refusal warning does (see Concentrated).
+        Such an origin's blocks differ from each other more than the rate was set for (which
+        need not say how its later items will fare). Empty with a given threshold."""
+        rate = self.abstention.significance
+        if rate is None:
+            return ()
+        from scipy.stats import binom
+
+        found = []
+        for origin, row in zip(self.origins, self.confusion, strict=True):
+            k, n = int(row[-2:].sum()), int(row.sum())
+            p = float(binom.sf(k - 1, n, rate)) if k else 1.0
+            if k and p <= rate / len(self.origins):
+                found.append((origin, k, n, p))
+        return tuple(found)
+
     def as_json(self) -> dict[str, object]:
         """The rates, per origin its missing-origin refusal rate, the confusion table (rows:
         true origins; columns: origins named, then ambiguous and unknown), the abstention and
@@ -409,6 +430,10 @@ class Evaluation:
                     },
                     "abstention": self.abstention,
                     "scoring": self.scoring,
+                    "drifting": [
+                        {"origin": o, "refused": k, "items": n, "p": p}
+                        for o, k, n, p in self.drifting
+                    ],
                 }
             )
         )
