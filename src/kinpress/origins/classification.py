@@ -170,6 +170,20 @@ def _decide(
     return out
 
 
+def _beyond_rate(refused: int, items: int, rate: float, origins: int) -> float | None:
+    """The binomial chance of at least `refused` of `items` refused at `rate`
+    (scipy.stats.binom.sf) where it is at most the rate shared among `origins` (Bonferroni: a
+    run's chance of any false alarm is then at most the rate), else None: were the items as
+    exchangeable with the held-out reference as the guarantee asks, the refused would be at most
+    Binomial(items, rate)."""
+    if not refused:
+        return None
+    from scipy.stats import binom
+
+    p = float(binom.sf(refused - 1, items, rate))
+    return p if p <= rate / origins else None
+
+
 class RefusalWarning(UserWarning):
     """The items one origin fits best were refused far beyond the rate (see Concentrated)."""
 
@@ -391,21 +405,18 @@ class Evaluation:
     @property
     def drifting(self) -> tuple[tuple[str, int, int, float], ...]:
         """Origins whose own held-out items were refused (unknown or ambiguous) far beyond the
-        rate: (origin, refused, items, p), p the binomial chance of at least as many at the
-        significance (scipy.stats.binom.sf), kept where it is at most the significance shared
-        among the origins (Bonferroni), as classify's refusal warning does (see Concentrated).
+        rate: (origin, refused, items, p), by the same binomial check as classify's refusal
+        warning (_beyond_rate, see Concentrated).
         Such an origin's blocks differ from each other more than the rate was set for (which
         need not say how its later items will fare). Empty with a given threshold."""
         rate = self.abstention.significance
         if rate is None:
             return ()
-        from scipy.stats import binom
-
         found = []
         for origin, row in zip(self.origins, self.confusion, strict=True):
             k, n = int(row[-2:].sum()), int(row.sum())
-            p = float(binom.sf(k - 1, n, rate)) if k else 1.0
-            if k and p <= rate / len(self.origins):
+            p = _beyond_rate(k, n, rate, len(self.origins))
+            if p is not None:
                 found.append((origin, k, n, p))
         return tuple(found)
 
@@ -488,20 +499,14 @@ def _concentrated(
     decided: _Decisions, stack: np.ndarray, fitted: _Calibrated, origins: Sequence[str]
 ) -> tuple[tuple[Concentrated, ...], np.ndarray]:
     """Origins whose best-fitting items the deciding test refused far beyond its rate while the
-    separation test takes them. Were the items of known origins as exchangeable with the held-out
-    reference as the guarantee asks, the refused among n items that fit an origin best would be at
-    most Binomial(n, significance); a tail chance at or under the significance shared among the
-    origins (Bonferroni: a run's chance of any false alarm is then at most the significance;
-    scipy.stats.binom.sf) says they are not: either that origin's new data drifted (a log's later
-    chunks name things its first ones never did, in the same form: the separation test still finds
-    them far nearer it than any other origin) or they come from an origin missing from the reference
-    that resembles it. Only the user can tell which; the check says so. Returns the notes and
-    which items they count."""
+    separation test takes them (_beyond_rate): either that origin's new data drifted (a log's
+    later chunks name things its first ones never did, in the same form: the separation test
+    still finds them far nearer it than any other origin) or they come from an origin missing
+    from the reference that resembles it. Only the user can tell which; the check says so.
+    Returns the notes and which items they count."""
     counted = np.zeros(len(decided.decisions), dtype=bool)
     if fitted.separation is None or decided.test_p is None:
         return (), counted
-    from scipy.stats import binom
-
     rate = fitted.separation.significance
     _, best, kept = fitted.separation.p_values(stack)
     refused = np.array([d != "named" for d in decided.decisions]) & (kept > rate)
@@ -509,8 +514,8 @@ def _concentrated(
     for origin in range(len(origins)):
         fitting = best == origin
         k, n = int(refused[fitting].sum()), int(fitting.sum())
-        p = float(binom.sf(k - 1, n, rate)) if k else 1.0
-        if k and p <= rate / len(origins):
+        p = _beyond_rate(k, n, rate, len(origins))
+        if p is not None:
             found.append(Concentrated(origins[origin], k, n, p))
             counted |= fitting & refused
     return tuple(found), counted
