@@ -100,11 +100,20 @@ class _Candidate:
     silhouette: float
 
 
-def _density(d: FloatArray, min_size: int, neighbours: int) -> HDBSCAN:
-    model = HDBSCAN(
-        metric="precomputed", min_cluster_size=min_size, min_samples=neighbours, copy=True
-    )
+def _density(d: FloatArray, min_size: int, neighbours: int, root: bool = False) -> HDBSCAN:
+    """HDBSCAN* on the matrix; with `root`, the whole hierarchy may be kept as one group."""
+    model = HDBSCAN(metric="precomputed", min_cluster_size=min_size, min_samples=neighbours,
+                    allow_single_cluster=root, copy=True)  # fmt: skip
     return model.fit(d)
+
+
+def _size_grid(n: int) -> list[int]:
+    """The minimum group sizes tried for n items: a geometric grid from 2 to n // 2 (a split
+    needs two groups of at least the minimum size); none below 4 items."""
+    largest = n // 2
+    if largest < 2:
+        return []
+    return [int(s) for s in np.unique(np.round(np.geomspace(2, largest, _SIZE_GRID)).astype(int))]
 
 
 def _scored(d: FloatArray, min_size: int | None, labels: IntArray) -> _Candidate:
@@ -144,11 +153,8 @@ def _with_count(d: FloatArray, candidates: list[_Candidate], k: int) -> tuple[_C
 
 def _candidates(d: FloatArray, neighbours: int) -> list[_Candidate]:
     """Distinct non-empty HDBSCAN* groupings over a geometric grid of minimum group sizes."""
-    largest = d.shape[0] // 2  # a split needs two groups of at least the minimum size
-    if largest < 2:
-        return []
     found: dict[bytes, _Candidate] = {}
-    for size in np.unique(np.round(np.geomspace(2, largest, _SIZE_GRID)).astype(int)).tolist():
+    for size in _size_grid(d.shape[0]):
         labels = np.asarray(_density(d, size, neighbours).labels_, dtype=np.intp)
         if labels.max() >= 0 and labels.tobytes() not in found:
             found[labels.tobytes()] = _scored(d, size, labels)
@@ -162,15 +168,9 @@ def _one_core(d: FloatArray, neighbours: int) -> list[_Candidate]:
     the grid of minimum sizes, the smaller size on ties. Three files of one language among six
     that share nothing with anything form no split (each stray file leaves the hierarchy alone),
     so without this they vanished into one group of all nine."""
-    n = d.shape[0]
-    largest = n // 2
-    if largest < 2:
-        return []
     best: tuple[float, _Candidate] | None = None
-    for size in np.unique(np.round(np.geomspace(2, largest, _SIZE_GRID)).astype(int)).tolist():
-        model = HDBSCAN(metric="precomputed", min_cluster_size=size, min_samples=neighbours,
-                        allow_single_cluster=True, copy=True)  # fmt: skip
-        labels = np.asarray(model.fit(d).labels_, dtype=np.intp)
+    for size in _size_grid(d.shape[0]):
+        labels = np.asarray(_density(d, size, neighbours, root=True).labels_, dtype=np.intp)
         core = labels != OUTLIER
         if core.sum() < 2 or core.all():
             continue

@@ -12,7 +12,6 @@ from sklearn.cluster import HDBSCAN
 from ..distance import check_distances
 from .dense import (
     _CORE_NEIGHBOURS,
-    _SIZE_GRID,
     _TINY,
     _best,
     _Candidate,
@@ -20,6 +19,7 @@ from .dense import (
     _grouping,
     _renumber,
     _silhouettes,
+    _size_grid,
 )
 from .result import OUTLIER, FloatArray, Grouping, IntArray
 
@@ -105,9 +105,7 @@ def find_groups_sparse(
         return scorer.summary(idx, distances, labels, "density-cut", None, neighbours, cut, None,
                               report_outliers)  # fmt: skip
     found: dict[bytes, _Candidate] = {}
-    largest = n // 2
-    sizes = np.unique(np.round(np.geomspace(2, max(largest, 2), _SIZE_GRID)).astype(int))
-    for size in sizes.tolist() if largest >= 2 else []:
+    for size in _size_grid(n):
         labels = np.asarray(_sparse_density(graph, size, neighbours).labels_, dtype=np.intp)
         if labels.max() >= 0 and labels.tobytes() not in found:
             found[labels.tobytes()] = scorer.candidate(size, labels)
