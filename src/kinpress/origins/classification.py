@@ -502,8 +502,9 @@ def _concentrated(
     separation test takes them (_beyond_rate): either that origin's new data drifted (a log's
     later chunks name things its first ones never did, in the same form: the separation test
     still finds them far nearer it than any other origin) or they come from an origin missing
-    from the reference that resembles it. Only the user can tell which; the check says so.
-    Returns the notes and which items they count."""
+    from the reference that resembles it. Only the user can tell which; the check says so, a
+    RefusalWarning per origin to the caller of classify or predict. Returns the notes and which
+    items they count."""
     counted = np.zeros(len(decided.decisions), dtype=bool)
     if fitted.separation is None or decided.test_p is None:
         return (), counted
@@ -518,6 +519,7 @@ def _concentrated(
         if p is not None:
             found.append(Concentrated(origins[origin], k, n, p))
             counted |= fitting & refused
+            warnings.warn(found[-1].words(rate), RefusalWarning, stacklevel=3)
     return tuple(found), counted
 
 
@@ -610,9 +612,6 @@ def classify(
     scores = _with_nearest(measured, unknowns, ref, nearest, exclude_self=False)
     decided = fitted.decide(stack)
     concentrated, counted = _concentrated(decided, stack, fitted, ref.origins)
-    for note in concentrated:
-        warnings.warn(note.words(fitted.abstention.significance or 0.0), RefusalWarning,
-                      stacklevel=2)  # fmt: skip
     return Classification(
         concentrated=concentrated,
         predictions=tuple(_decide(scores, decided, ref, unknowns, counted)),

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import warnings
 from collections.abc import Sequence
 from dataclasses import replace
 from typing import Any, Self
@@ -15,7 +14,7 @@ from ..cache import SizeCache
 from ..engine import Engine
 from ..items import ItemLike, as_items
 from ..measure import Measurement
-from .classification import RefusalWarning, _calibrate, _concentrated, _decision_scores
+from .classification import _calibrate, _concentrated, _decision_scores
 from .conformal import DECIDERS
 from .scores import DEFAULT_BLOCKS, DEFAULT_SIGNIFICANCE, _measurement, _Reference
 
@@ -140,10 +139,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         (see kinpress.origins.Concentrated)."""
         scores = self._scores(X)
         decided = self.calibrated_.decide(scores)
-        classes = [str(c) for c in self.classes_]
-        for note in _concentrated(decided, scores, self.calibrated_, classes)[0]:
-            significance = self.calibrated_.abstention.significance or 0.0
-            warnings.warn(note.words(significance), RefusalWarning, stacklevel=2)
+        _concentrated(decided, scores, self.calibrated_, [str(c) for c in self.classes_])
         named = np.array([d == "named" for d in decided.decisions], dtype=bool)
         picked = np.array([c[0] if d == "named" else 0 for d, c in
                            zip(decided.decisions, decided.candidates, strict=True)])  # fmt: skip
