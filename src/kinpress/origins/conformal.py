@@ -28,6 +28,12 @@ CLIP = 20.0
 every held-out one (an item nothing explains) would otherwise set the mix's scales."""
 
 
+def check_test(test: str | None) -> None:
+    """Raise ValueError unless `test` is None (the reference chooses) or one of DECIDERS."""
+    if test is not None and test not in DECIDERS:
+        raise ValueError(f"unknown test {test!r}: use one of {', '.join(DECIDERS)}")
+
+
 def conformal_p_values(sample: np.ndarray, values: np.ndarray) -> np.ndarray:
     """(1 + #{sample >= v}) / (len(sample) + 1) for each v: larger statistics are stranger
     (Vovk, Gammerman & Shafer 2005, ch. 2)."""
@@ -458,8 +464,7 @@ class Conformity:
         """Calibrate on held-out scores (one row per held-out item, `codes` their origins);
         `test` (one of DECIDERS) overrides the reference's choice of the deciding statistic,
         and then nothing is chosen (`detection` is empty)."""
-        if test is not None and test not in DECIDERS:
-            raise ValueError(f"unknown test {test!r}: use one of {', '.join(DECIDERS)}")
+        check_test(test)
         centre, scale = _profile(scores, codes)
         shares: dict[str, list[LeftOutShare]] = {}
         if test is None:  # the rounds the choice was made on are those the mix learns from

@@ -15,7 +15,7 @@ from ..engine import Engine
 from ..items import ItemLike, as_items
 from ..measure import Measurement
 from .classification import _calibrate, _concentrated, _decision_scores
-from .conformal import DECIDERS
+from .conformal import check_test
 from .scores import DEFAULT_BLOCKS, DEFAULT_SIGNIFICANCE, _measurement, _Reference
 
 
@@ -76,8 +76,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
             raise ValueError(f"X has {len(items)} items but y has {len(y)} labels")
         if self.test is not None and self.threshold is not None:
             raise ValueError("give a test or a threshold, not both")
-        if self.test is not None and self.test not in DECIDERS:
-            raise ValueError(f"unknown test {self.test!r}: use one of {', '.join(DECIDERS)}")
+        check_test(self.test)  # before -c auto measures anything
         classes, codes = np.unique(np.asarray(y), return_inverse=True)
         self.classes_ = classes
         names = tuple(str(k) for k in range(len(classes)))
