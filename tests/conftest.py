@@ -13,6 +13,21 @@ import pytest
 SHARED_DATA = Path(__file__).resolve().parents[2] / "shared" / "datasets-real"
 DATASETS = Path(__file__).resolve().parents[1] / "datasets"
 
+# The NCDs (zstd level 19, two decimals) of 9 real source files from Debian's source packages,
+# 3 Ada, 3 Go, 3 Rust: the Ada ones 0.23-0.60 apart, every other pair 0.89-1.0 (one tight
+# group among files that share nothing; tests of groups).
+ADA_GO_RUST_NCD = (
+    (0.00, 0.23, 0.60, 0.98, 0.99, 0.91, 0.93, 0.95, 0.93),
+    (0.23, 0.00, 0.60, 0.99, 0.99, 0.92, 0.94, 0.95, 0.93),
+    (0.60, 0.60, 0.00, 0.98, 0.99, 0.96, 0.96, 0.97, 0.96),
+    (0.98, 0.99, 0.98, 0.00, 1.00, 0.97, 0.99, 0.99, 0.98),
+    (0.99, 0.99, 0.99, 1.00, 0.00, 0.99, 0.99, 0.99, 0.99),
+    (0.91, 0.92, 0.96, 0.97, 0.99, 0.00, 0.92, 0.94, 0.92),
+    (0.93, 0.94, 0.96, 0.99, 0.99, 0.92, 0.00, 0.89, 0.90),
+    (0.95, 0.95, 0.97, 0.99, 0.99, 0.94, 0.89, 0.00, 0.92),
+    (0.93, 0.93, 0.96, 0.98, 0.99, 0.92, 0.90, 0.92, 0.00),
+)
+
 
 @pytest.fixture(autouse=True, scope="session")
 def _private_cache_home(tmp_path_factory: pytest.TempPathFactory) -> None:

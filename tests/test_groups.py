@@ -15,6 +15,7 @@ from scipy.spatial.distance import cdist, squareform
 from sklearn.metrics import adjusted_rand_score, silhouette_samples, silhouette_score
 
 import kinpress
+from conftest import ADA_GO_RUST_NCD
 from kinpress.formats import group_lines
 from kinpress.groups import OUTLIER, GroupingResult, agreement, find_groups, medoid
 
@@ -182,20 +183,9 @@ def test_tiny_matrices() -> None:
 
 
 def test_one_tight_group_among_items_that_share_nothing_is_found() -> None:
-    # The NCDs (zstd level 19, two decimals) of 9 real source files, 3 Ada, 3 Go, 3 Rust: the
-    # Ada ones 0.23-0.60 apart, every other pair 0.89-1.0. No split of the density hierarchy
-    # leaves two groups (each stray file leaves it alone), yet the Ada trio is one.
-    d = np.array([
-        [0.00, 0.23, 0.60, 0.98, 0.99, 0.91, 0.93, 0.95, 0.93],
-        [0.23, 0.00, 0.60, 0.99, 0.99, 0.92, 0.94, 0.95, 0.93],
-        [0.60, 0.60, 0.00, 0.98, 0.99, 0.96, 0.96, 0.97, 0.96],
-        [0.98, 0.99, 0.98, 0.00, 1.00, 0.97, 0.99, 0.99, 0.98],
-        [0.99, 0.99, 0.99, 1.00, 0.00, 0.99, 0.99, 0.99, 0.99],
-        [0.91, 0.92, 0.96, 0.97, 0.99, 0.00, 0.92, 0.94, 0.92],
-        [0.93, 0.94, 0.96, 0.99, 0.99, 0.92, 0.00, 0.89, 0.90],
-        [0.95, 0.95, 0.97, 0.99, 0.99, 0.94, 0.89, 0.00, 0.92],
-        [0.93, 0.93, 0.96, 0.98, 0.99, 0.92, 0.90, 0.92, 0.00],
-    ])  # fmt: skip
+    # 9 real source files (conftest.ADA_GO_RUST_NCD): no split of the density hierarchy leaves
+    # two groups (each stray file leaves it alone), yet the Ada trio is one.
+    d = np.array(ADA_GO_RUST_NCD)
     rng = np.random.default_rng(3)
     shown = find_groups(d, report_outliers=True)
     assert shown.assignment == (0, 0, 0, *[OUTLIER] * 6)

@@ -9,6 +9,7 @@ import re
 import shutil
 import subprocess
 import tomllib
+from collections.abc import Sequence
 from html.parser import HTMLParser
 from importlib import resources
 from pathlib import Path
@@ -288,16 +289,22 @@ def test_report_with_auto_shows_the_table_behind_the_choice_without_calibrating_
     assert cache.exists()
 
 
-def test_report_command_classifies_with_a_reference(tmp_path: Path) -> None:
+def _reference_and_unknowns(tmp_path: Path, families: Sequence[int]) -> tuple[Path, Path]:
+    """known/<family>/ of the family items, with each given family's third item moved to new/."""
     reference, unknown = tmp_path / "known", tmp_path / "new"
     unknown.mkdir()
     for item in _family_items():
         origin = reference / item.label  # type: ignore[operator]
         origin.mkdir(parents=True, exist_ok=True)
         (origin / item.name).write_bytes(item.data)
-    for family in range(3):
+    for family in families:
         moved = reference / f"family{family}" / f"f{family}m2.txt"
         moved.rename(unknown / f"f{family}m2.txt")
+    return reference, unknown
+
+
+def test_report_command_classifies_with_a_reference(tmp_path: Path) -> None:
+    reference, unknown = _reference_and_unknowns(tmp_path, range(3))
     data = tmp_path / "o.json"
     argv = ["report", "--reference", str(reference), str(unknown), "-c", "zlib:level=9",
             "--no-cache", "--quiet", "--json", "-o", str(data)]  # fmt: skip
@@ -334,13 +341,7 @@ def test_report_decides_origins_as_classify_is_told(tmp_path: Path) -> None:
     # The report's origins come from the same classify call as the command's: a user who chose
     # a deciding test or a rate there gets the same on the page, and without a reference the
     # two options have nothing to decide.
-    reference, unknown = tmp_path / "known", tmp_path / "new"
-    unknown.mkdir()
-    for item in _family_items():
-        origin = reference / item.label  # type: ignore[operator]
-        origin.mkdir(parents=True, exist_ok=True)
-        (origin / item.name).write_bytes(item.data)
-    (reference / "family1" / "f1m2.txt").rename(unknown / "f1m2.txt")
+    reference, unknown = _reference_and_unknowns(tmp_path, [1])
     data = tmp_path / "o.json"
     argv = ["report", "--reference", str(reference), str(unknown), "-c", "zlib:level=9",
             "--no-cache", "--quiet", "--json", "-o", str(data)]  # fmt: skip

@@ -10,7 +10,7 @@ from pathlib import Path
 import pytest
 from Bio import Phylo
 
-from conftest import DATASETS
+from conftest import ADA_GO_RUST_NCD, DATASETS
 from kinpress import LocalEngine, cli, distance_matrix, load_items
 from kinpress.support import replicate_items, resample_blocks
 from kinpress.trees import build_tree, leaf_order, parse_newick, splits
@@ -173,21 +173,11 @@ def test_groups_say_what_the_silhouette_and_agreement_scores_mean(
 def test_groups_show_a_lone_group_among_files_that_share_nothing(
     tmp_path: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:
-    # The matrix of 9 real source files (zstd level 19, two decimals; as in test_groups): three
-    # Ada files alike, three Go and three Rust files that share nothing with anything. No split
-    # leaves two groups; the Ada files are one and the rest outliers (group -1 with --outliers).
+    # 9 real source files (conftest.ADA_GO_RUST_NCD): three Ada files alike, three Go and three
+    # Rust files that share nothing with anything. No split leaves two groups; the Ada files
+    # are one and the rest outliers (group -1 with --outliers).
     names = ["a1.adb", "a2.adb", "a3.adb", "g1.go", "g2.go", "g3.go", "r1.rs", "r2.rs", "r3.rs"]
-    rows = [
-        [0.00, 0.23, 0.60, 0.98, 0.99, 0.91, 0.93, 0.95, 0.93],
-        [0.23, 0.00, 0.60, 0.99, 0.99, 0.92, 0.94, 0.95, 0.93],
-        [0.60, 0.60, 0.00, 0.98, 0.99, 0.96, 0.96, 0.97, 0.96],
-        [0.98, 0.99, 0.98, 0.00, 1.00, 0.97, 0.99, 0.99, 0.98],
-        [0.99, 0.99, 0.99, 1.00, 0.00, 0.99, 0.99, 0.99, 0.99],
-        [0.91, 0.92, 0.96, 0.97, 0.99, 0.00, 0.92, 0.94, 0.92],
-        [0.93, 0.94, 0.96, 0.99, 0.99, 0.92, 0.00, 0.89, 0.90],
-        [0.95, 0.95, 0.97, 0.99, 0.99, 0.94, 0.89, 0.00, 0.92],
-        [0.93, 0.93, 0.96, 0.98, 0.99, 0.92, 0.90, 0.92, 0.00],
-    ]
+    rows = ADA_GO_RUST_NCD
     matrix = tmp_path / "m.tsv"
     matrix.write_text(
         "\t".join(["", *names])
