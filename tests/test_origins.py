@@ -165,6 +165,33 @@ def test_a_corpus_beyond_the_window_is_cut_with_a_warning() -> None:
     assert result.predictions[0].best == "o1"
 
 
+def test_corpora_cut_to_the_window_are_named_once() -> None:
+    # Every origin's corpus is cut, in the content and in the shape view: one line says so
+    # under Python's default filter (as the command line shows warnings), not one per origin
+    # and view (24 origins gave 48 lines).
+    forms = ("{n:03d} {w}", "[{n}] <{w}> ({n:x})", "{w}={n}; {w}")
+
+    def written(origin: int, seed: int) -> bytes:  # each origin's lines in a form of its own
+        rows = origin_text(origin, seed).splitlines()
+        return "".join(
+            forms[origin].format(n=k + seed, w=r[4:]) + "\n" for k, r in enumerate(rows)
+        ).encode()
+
+    reference = [
+        Item(f"r{o}-{s}", written(o, s), "generated", label=f"o{o}")
+        for o in range(3)
+        for s in range(30)
+    ]
+    unknown = [Item("u", written(1, 99), "generated")]
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("default")
+        result = classify(unknown, reference, "zlib:level=9")
+    said = [str(w.message) for w in caught if "compressor's window" in str(w.message)]
+    assert result.scoring.uses_shape
+    assert len(said) == 1, said
+    assert said[0].startswith("the corpora of 3 of 3 origins (o0, o1, o2) were cut to at most")
+
+
 # -- both decision rules, abstention and evaluation ---------------------------------------------
 
 

@@ -185,31 +185,31 @@ def corpus_bytes(datas: Sequence[bytes], budget: int | None) -> bytes:
     return b"".join(d[:share] for d in datas)
 
 
-def _corpus(
-    name: str, datas: Sequence[bytes], budget: int | None, origin: str, warn: bool = True
-) -> Item:
-    data = corpus_bytes(datas, budget)
-    if warn and budget is not None and len(data) < sum(len(d) for d in datas):
-        warnings.warn(
-            f"corpus of {origin} cut from {sum(len(d) for d in datas):,} to {len(data):,} bytes"
-            f" to fit the compressor's window (every item keeps its first bytes)",
-            MeasurementWarning,
-            stacklevel=4,
-        )
-    return Item(name, data, "origin corpus", label=origin)
-
-
 def _origin_corpora(
     reference: _Reference, budget: int | None, held_out: np.ndarray | None = None
 ) -> list[Item]:
-    """One synthetic item per origin: its reference items joined, less those marked `held_out`."""
-    corpora = []
+    """One synthetic item per origin: its reference items joined, less those marked `held_out`.
+    Whole corpora cut to fit the compressor's window are named in one warning (the held-out
+    ones are smaller and not named again); its words do not depend on the view, so the
+    content's and the shape's cuts are said once."""
+    corpora, cut = [], []
     for origin, name in enumerate(reference.origins):
         members = [int(m) for m in reference.members(origin)]
         if held_out is not None:
             members = [m for m in members if not held_out[m]]
         datas = [reference.items[m].data for m in members]
-        corpora.append(_corpus(f"corpus {name}", datas, budget, name, warn=held_out is None))
+        corpora.append(Item(f"corpus {name}", corpus_bytes(datas, budget), "origin corpus", name))
+        if len(corpora[-1].data) < sum(len(d) for d in datas):
+            cut.append(name)
+    if cut and held_out is None:
+        names = ", ".join(cut) if len(cut) <= 3 else f"{', '.join(cut[:3])} and {len(cut) - 3} more"
+        warnings.warn(
+            f"the corpora of {len(cut)} of {len(corpora)} origins ({names}) were cut to at most"
+            f" {budget:,} bytes to fit the compressor's window (every reference item keeps its"
+            " first bytes): their scores see only that part of the reference",
+            MeasurementWarning,
+            stacklevel=1,  # one place, so Python's default filter says it once for both views
+        )
     return corpora
 
 
