@@ -28,10 +28,13 @@ PNG images, time-zone files, static libraries, Java archives; each the first 32 
 and 24
 programming languages never used while developing (--debian-code DIR, fetched from Debian's
 package registry by fetch_debian_code.sh), the same code protocol with 4 languages missing at a
-time, as issue 10 states it.
+time, as issue 10 states it (--any-size: files of 64 B to 256 KB, not 1-32 KB, as a user's
+folders hold them); and manual pages translated into 20 languages (--debian-man DIR, fetched by
+fetch_debian_man.sh: a kind of text never used while developing, the same commands' pages in
+every language, with close kin among the languages), the code protocol with 5 missing at a time.
 
     python benchmarks/bench_origins.py [--logs DIR] [--machine-code] [--machine-bytes]
-        [--machine-projects] [--debian-code DIR]
+        [--machine-projects] [--debian-code DIR [--any-size]] [--debian-man DIR]
         [--draws N] [--cache PATH] [--files PATH]
 
 --files PATH keeps the file lists of the machine's code and byte sets: the first run writes
@@ -167,11 +170,20 @@ def text_origins(folder: Path, lines: int = 6) -> dict[str, list[Item]]:
     return out
 
 
-def code_origins(patterns: dict[str, str], per: int = 40) -> dict[str, list[Item]]:
+CODE_SIZES = (1024, 32768)
+"""The sizes of file the code sets take (bytes, both ends included)."""
+ANY_SIZE = (64, 262144)
+"""The sizes --any-size takes instead: nearly every file, as a user's folders hold them."""
+
+
+def code_origins(
+    patterns: dict[str, str], per: int = 40, sizes: tuple[int, int] = CODE_SIZES
+) -> dict[str, list[Item]]:
     out = {}
     for language, pattern in patterns.items():
+        low, high = sizes
         paths = sorted(p for p in glob.glob(pattern, recursive=True)
-                       if os.path.isfile(p) and 1024 <= os.path.getsize(p) <= 32768)  # fmt: skip
+                       if os.path.isfile(p) and low <= os.path.getsize(p) <= high)  # fmt: skip
         datas: dict[bytes, str] = {}
         for p in paths:
             data = Path(p).read_bytes()
@@ -180,6 +192,33 @@ def code_origins(patterns: dict[str, str], per: int = 40) -> dict[str, list[Item
         if len(datas) >= 30:
             out[language] = spread(language, datas, per)
     return out
+
+
+MAN_SIZES = (1024, 65536)
+"""The sizes of manual page the man set takes (bytes after decompression)."""
+
+
+def man_pages(root: Path, per: int = 40) -> dict[str, list[Item]]:
+    """Per language folder fetch_debian_man.sh unpacked under `root`, `per` of its manual pages
+    (decompressed, MAN_SIZES, no links and no `.so` pages that only point at another) spread
+    over the path order."""
+    out = {}
+    for folder in sorted(p for p in root.iterdir() if p.is_dir() and p.name != "debs"):
+        datas: dict[bytes, str] = {}
+        for path in sorted(glob.glob(f"{folder}/usr/share/man/**/*.gz", recursive=True)):
+            if os.path.islink(path):
+                continue
+            data = gunzipped(path)
+            if MAN_SIZES[0] <= len(data) <= MAN_SIZES[1] and not data.startswith(b".so "):
+                datas.setdefault(data, path)
+        if len(datas) >= 30:
+            out[folder.name] = spread(folder.name, datas, per)
+    return out
+
+
+def gunzipped(path: str) -> bytes:
+    with gzip.open(path) as f:
+        return f.read()
 
 
 def spread(label: str, datas: dict[bytes, str], per: int) -> list[Item]:
@@ -443,6 +482,14 @@ def main() -> None:
     parser.add_argument(
         "--debian-code", type=Path, help="a folder fetch_debian_code.sh filled (24 languages)"
     )
+    parser.add_argument(
+        "--any-size", action="store_true",
+        help=f"--debian-code with files of {ANY_SIZE[0]} B to {ANY_SIZE[1] >> 10} KB (default"
+        f" {CODE_SIZES[0] >> 10}-{CODE_SIZES[1] >> 10} KB)",
+    )  # fmt: skip
+    parser.add_argument(
+        "--debian-man", type=Path, help="a folder fetch_debian_man.sh filled (20 languages)"
+    )
     parser.add_argument("--only-machine", action="store_true", help="skip ../shared")
     parser.add_argument("--fixed", nargs="*", default=list(FIXED), help="fixed compressors")
     parser.add_argument(
@@ -482,8 +529,14 @@ def main() -> None:
         sets.append(("Python files of 10 projects", code[-1], 20, 2))
     if args.debian_code:
         patterns = debian_code(args.debian_code)
-        code.append(lambda: frozen("debian", lambda: code_origins(patterns), args.files))
-        sets.append(("code of 24 languages (Debian)", code[-1], 20, 4))
+        sizes, named = (ANY_SIZE, "debian-any") if args.any_size else (CODE_SIZES, "debian")
+        code.append(lambda: frozen(named, lambda: code_origins(patterns, sizes=sizes), args.files))
+        title = "code of 24 languages (Debian)" + (", files of any size" if args.any_size else "")
+        sets.append((title, code[-1], 20, 4))
+    if args.debian_man:
+        root = args.debian_man
+        code.append(lambda: frozen("man", lambda: man_pages(root), args.files, gunzipped))
+        sets.append(("manual pages in 20 languages (Debian)", code[-1], 20, None))
     baseline = not args.no_gzip
     with SizeCache(args.cache) as cache:
         for name, load, reference, missing_at_once in sets:
