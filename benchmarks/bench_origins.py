@@ -17,7 +17,7 @@ coverage as the default: each round, as many known items left unnamed as auto le
 nearest reference item is least nearer than any of another label first. "auto" is
 the default (-c auto, chosen on each round's reference; under its row, each round's choice and
 figures, which hang on the choice, and the refusal warnings it gave, each with how many of the
-refused items were of known and of missing origins). Data: ../shared/datasets-real (logs,
+refused items it counts were of known and of missing origins). Data: ../shared/datasets-real (logs,
 code, texts) and, where present, this machine's own material: --logs DIR (a folder of *.log files
 of other systems; machine_logs.sh fills one with 8 logs of this machine's programs) and source
 files of many languages under /usr (--machine-code); byte streams of 9 formats under /usr
@@ -370,16 +370,17 @@ def gzip_1nn(reference: list[Item], later: list[Item]) -> list[tuple[str, float]
 
 
 def warned(result: Classification, later: list[Item], missing: set[str]) -> str:
-    """The refusal warnings of a round, each with how many of the refused items it counts were
-    of a known origin (drift) and how many of a missing one (an origin like it absent)."""
+    """The refusal warnings of a round, each with how many of the refused items it counts
+    (`beyond_rate`) were of a known origin (drift) and how many of a missing one (an origin like
+    it absent)."""
     notes = []
     for note in result.concentrated:
-        refused = [i.label for p, i in zip(result.predictions, later, strict=True)
-                   if p.best == note.origin and p.decision != "named"]  # fmt: skip
-        strangers = sum(label in missing for label in refused)
-        known = len(refused) - strangers
-        notes.append(f"{note.origin} {note.refused} of {note.fitting} (refused among them:"
-                     f" {known} known, {strangers} missing)")  # fmt: skip
+        counted = [i.label for p, i in zip(result.predictions, later, strict=True)
+                   if p.best == note.origin and p.beyond_rate]  # fmt: skip
+        strangers = sum(label in missing for label in counted)
+        known = len(counted) - strangers
+        notes.append(f"{note.origin} {note.refused} of {note.fitting} (counted: {known} known,"
+                     f" {strangers} missing)")  # fmt: skip
     return f"; warned: {'; '.join(notes)}" if notes else ""
 
 
