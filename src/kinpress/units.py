@@ -1,8 +1,11 @@
-"""Sizes and durations as every message, reason and figure of kinpress writes them."""
+"""Sizes, durations and lists of names as every message, reason and figure of kinpress writes
+them."""
 
 from __future__ import annotations
 
-__all__ = ["duration_text", "size_text"]
+from collections.abc import Sequence
+
+__all__ = ["duration_text", "few_text", "size_text"]
 
 _BINARY = (("GiB", 1 << 30), ("MiB", 1 << 20), ("KiB", 1 << 10))
 _DECIMAL = (("TB", 10**12), ("GB", 10**9), ("MB", 10**6), ("kB", 10**3))
@@ -41,3 +44,13 @@ def duration_text(seconds: float) -> str:
     if seconds < 5400:
         return f"{seconds / 60:.0f} min"
     return f"{seconds / 3600:.1f} h"
+
+
+def few_text(names: Sequence[str], shown: int = 3) -> str:
+    """The first `shown` names, and how many more there are.
+
+    >>> few_text(["a", "b"]), few_text(["a", "b", "c", "d", "e"])
+    ('a, b', 'a, b, c and 2 more')
+    """
+    more = f" and {len(names) - shown} more" if len(names) > shown else ""
+    return ", ".join(names[:shown]) + more

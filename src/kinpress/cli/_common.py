@@ -26,6 +26,7 @@ from ..items import (
     load_items,
     read_label_table,
 )
+from ..units import few_text
 from ._console import Console
 from ._options import UsageError, budget_seconds
 
@@ -67,10 +68,9 @@ def warn_unlabelled(labels: Labels, names: Sequence[str], total: int) -> None:
     first few: they are left out of any scoring against the labels."""
     if not names:
         return
-    shown = ", ".join(escape_name(name) for name in names[:3])
-    more = f" and {len(names) - 3} more" if len(names) > 3 else ""
+    shown = few_text([escape_name(name) for name in names])
     warnings.warn(
-        f"{labels.source}: no {labels.column} for {len(names)} of {total} items: {shown}{more}",
+        f"{labels.source}: no {labels.column} for {len(names)} of {total} items: {shown}",
         InputWarning,
         stacklevel=2,
     )

@@ -16,6 +16,7 @@ from ..distance import cross_distances, measure_matrix, pair_distances
 from ..engine import Engine
 from ..items import InputError, Item, ItemLike, as_items
 from ..measure import Measurement, MeasurementWarning, Progress, measure_conditional, ncd
+from ..units import few_text
 
 METHODS = ("conditional", "knn")
 _VOTE_EPSILON = 1e-9
@@ -202,11 +203,10 @@ def _origin_corpora(
         if len(corpora[-1].data) < sum(len(d) for d in datas):
             cut.append(name)
     if cut and held_out is None:
-        names = ", ".join(cut) if len(cut) <= 3 else f"{', '.join(cut[:3])} and {len(cut) - 3} more"
         warnings.warn(
-            f"the corpora of {len(cut)} of {len(corpora)} origins ({names}) were cut to at most"
-            f" {budget:,} bytes to fit the compressor's window (every reference item keeps its"
-            " first bytes): their scores see only that part of the reference",
+            f"the corpora of {len(cut)} of {len(corpora)} origins ({few_text(cut)}) were cut to"
+            f" at most {budget:,} bytes to fit the compressor's window (every reference item keeps"
+            " its first bytes): their scores see only that part of the reference",
             MeasurementWarning,
             stacklevel=1,  # one place, so Python's default filter says it once for both views
         )
