@@ -184,13 +184,9 @@ def code_origins(
         low, high = sizes
         paths = sorted(p for p in glob.glob(pattern, recursive=True)
                        if os.path.isfile(p) and low <= os.path.getsize(p) <= high)  # fmt: skip
-        datas: dict[bytes, str] = {}
-        for p in paths:
-            data = Path(p).read_bytes()
-            if b"\0" not in data:
-                datas.setdefault(data, p)
-        if len(datas) >= 30:
-            out[language] = spread(language, datas, per)
+        found = spread_files(language, paths, per, read_bytes, lambda data: b"\0" not in data)
+        if found:
+            out[language] = found
     return out
 
 
@@ -202,23 +198,45 @@ def man_pages(root: Path, per: int = 40) -> dict[str, list[Item]]:
     """Per language folder fetch_debian_man.sh unpacked under `root`, `per` of its manual pages
     (decompressed, MAN_SIZES, no links and no `.so` pages that only point at another) spread
     over the path order."""
+
+    def page(data: bytes) -> bool:
+        return MAN_SIZES[0] <= len(data) <= MAN_SIZES[1] and not data.startswith(b".so ")
+
     out = {}
     for folder in sorted(p for p in root.iterdir() if p.is_dir() and p.name != "debs"):
-        datas: dict[bytes, str] = {}
-        for path in sorted(glob.glob(f"{folder}/usr/share/man/**/*.gz", recursive=True)):
-            if os.path.islink(path):
-                continue
-            data = gunzipped(path)
-            if MAN_SIZES[0] <= len(data) <= MAN_SIZES[1] and not data.startswith(b".so "):
-                datas.setdefault(data, path)
-        if len(datas) >= 30:
-            out[folder.name] = spread(folder.name, datas, per)
+        paths = [p for p in sorted(glob.glob(f"{folder}/usr/share/man/**/*.gz", recursive=True))
+                 if not os.path.islink(p)]  # fmt: skip
+        found = spread_files(folder.name, paths, per, gunzipped, page)
+        if found:
+            out[folder.name] = found
     return out
 
 
 def gunzipped(path: str) -> bytes:
     with gzip.open(path) as f:
         return f.read()
+
+
+def read_bytes(path: str) -> bytes:
+    return Path(path).read_bytes()
+
+
+def spread_files(
+    label: str,
+    paths: list[str],
+    per: int,
+    read: Callable[[str], bytes],
+    keep: Callable[[bytes], bool],
+) -> list[Item] | None:
+    """The files at `paths` (in that order) read by `read`, those `keep` takes, one path per
+    distinct content, `per` of them spread over the order (see spread); None with fewer than 30
+    to choose from."""
+    datas: dict[bytes, str] = {}
+    for path in paths:
+        data = read(path)
+        if keep(data):
+            datas.setdefault(data, path)
+    return spread(label, datas, per) if len(datas) >= 30 else None
 
 
 def spread(label: str, datas: dict[bytes, str], per: int) -> list[Item]:
@@ -241,16 +259,17 @@ def machine_bytes(per: int = 40) -> dict[str, list[Item]]:
             paths += [os.path.join(folder, n) for n in names if fnmatch.fnmatch(n, pattern)]
             if not below:
                 break
-        datas: dict[bytes, str] = {}
-        for p in sorted(paths):
-            if os.path.islink(p) or not os.path.isfile(p) or os.path.getsize(p) < 2048:
-                continue
-            data = read_head(p)
-            if kind != "elf-program" or data.startswith(b"\x7fELF"):
-                datas.setdefault(data, p)
-        if len(datas) >= 30:
-            out[kind] = spread(kind, datas, per)
+        files = [p for p in sorted(paths) if not os.path.islink(p) and os.path.isfile(p)
+                 and os.path.getsize(p) >= 2048]  # fmt: skip
+        keep = is_elf if kind == "elf-program" else lambda data: True
+        found = spread_files(kind, files, per, read_head, keep)
+        if found:
+            out[kind] = found
     return out
+
+
+def is_elf(data: bytes) -> bool:
+    return data.startswith(b"\x7fELF")
 
 
 def read_head(path: str) -> bytes:
@@ -262,7 +281,7 @@ def frozen(
     name: str,
     find: Callable[[], dict[str, list[Item]]],
     path: Path | None,
-    read: Callable[[str], bytes] = lambda p: Path(p).read_bytes(),
+    read: Callable[[str], bytes] = read_bytes,
 ) -> dict[str, list[Item]]:
     """The set `name` as `path` (a JSON file of each set's file paths by origin) lists it, read
     again from those files; or, where `path` does not list it yet, the origins `find` finds
@@ -506,6 +525,8 @@ def main() -> None:
         help="a JSON file of the code sets' file lists: read where it lists a set, else written",
     )
     args = parser.parse_args()
+    if args.any_size and not args.debian_code:
+        parser.error("--any-size takes the files of --debian-code: give that too")
     warnings.simplefilter("ignore")
     settings = ["auto", *args.fixed]
     sets: list[tuple[str, Callable[[], dict[str, list[Item]]], int, int | None]] = []
