@@ -16,11 +16,13 @@ of it), and the run time; gzip 1-NN (Jiang et al.
 coverage as the default: each round, as many known items left unnamed as auto left, those whose
 nearest reference item is least nearer than any of another label first. "auto" is
 the default (-c auto, chosen on each round's reference; under its row, each round's choice and
-figures, which hang on the choice, and the refusal warnings it gave, each with how many of the
-refused items it counts were of known and of missing origins). Data: ../shared/datasets-real (logs,
-code, texts) and, where present, this machine's own material: --logs DIR (a folder of *.log files
-of other systems; machine_logs.sh fills one with 8 logs of this machine's programs) and source
-files of many languages under /usr (--machine-code); byte streams of 9 formats under /usr
+figures, which hang on the choice, the refusal warnings it gave, each with how many of the
+refused items it counts were of known and of missing origins, and how the round's unknown items
+grouped by their own NCD agree with their true origins: adjusted Rand index). Data:
+../shared/datasets-real (logs, code, texts) and, where present, this machine's own material:
+--logs DIR (a folder of *.log files of other systems; machine_logs.sh fills one with 8 logs of
+this machine's programs) and source files of many languages under /usr (--machine-code); byte
+streams of 9 formats under /usr
 (--machine-bytes: ELF libraries and programs, Python bytecode, gettext catalogues, gzip streams,
 PNG images, time-zone files, static libraries, Java archives; each the first 32 KB of a file,
 2 formats missing at a time); Python files of 10 projects installed beside kinpress
@@ -62,7 +64,7 @@ import numpy as np
 
 from kinpress import Item, SizeCache
 from kinpress.calibration import choose_for_job
-from kinpress.origins import Classification, classify
+from kinpress.origins import Classification, classify, group_unknowns
 
 SHARED = Path(__file__).resolve().parents[2] / "shared" / "datasets-real"
 FIXED = ("zstd:level=3", "zstd:level=19", "lzma:level=9", "ppmd:order=32", "bz2:level=9",
@@ -403,6 +405,21 @@ def warned(result: Classification, later: list[Item], missing: set[str]) -> str:
     return f"; warned: {'; '.join(notes)}" if notes else ""
 
 
+def grouped(result: Classification, later: list[Item], cache: SizeCache) -> str:
+    """How the round's unknown items grouped by their own NCD (origins.group_unknowns) agree
+    with their true origins: scikit-learn's adjusted Rand index, a lone item its own group."""
+    from sklearn.metrics import adjusted_rand_score
+
+    found = group_unknowns(result, later, cache=cache)
+    if found.skipped is not None:
+        return f"; unknown not grouped ({found.skipped})"
+    chosen = [i for i, p in enumerate(result.predictions) if p.decision == "unknown"]
+    numbers = [found.group_of(i) or 0 for i in chosen]
+    numbers = [n if n != -1 else -1 - k for k, n in enumerate(numbers)]
+    score = adjusted_rand_score([str(later[i].label) for i in chosen], numbers)
+    return f"; unknown in {len(found.groups)} groups, {len(found.alone)} alone, ARI {score:.2f}"
+
+
 def run(name: str, origins: dict[str, list[Item]], reference: int, settings: list[str],
         cache: SizeCache, missing_at_once: int | None = None, draws: int = 0,
         baseline: bool = True) -> None:  # fmt: skip
@@ -465,6 +482,7 @@ def run(name: str, origins: dict[str, list[Item]], reference: int, settings: lis
                     f" refused {f / k:.3f}, unknown {u / n:.3f}"
                     + ("" if estimate is None else f" (estimated {estimate:.3f})")
                     + warned(result, later, missing)
+                    + grouped(result, later, cache)
                 )
         seconds = time.perf_counter() - started
         label = setting + (f" ({', '.join(sorted(chosen))})" if chosen else "")

@@ -53,8 +53,16 @@ def test_known_systems_are_named_and_a_stranger_is_unknown(
     found = json.loads(capsys.readouterr().out)
     assert {tuple(sorted(p)) for p in found} == {
         ("best", "beyond_rate", "candidates", "confidence", "credibility", "decision",
-         "distance", "hash", "item", "nearest", "p_values", "path", "predicted", "scores")
+         "distance", "hash", "item", "nearest", "p_values", "path", "predicted", "scores",
+         "unknown_group")
     }  # fmt: skip
+    # The unknown chunks grouped by their own NCD, numbered from 1: the stranger's by its two
+    # phases (datasets/quendle-logs/phases.tsv: serving to line 1200, then resharding; its odd
+    # blocks give chunks 1-6 of serving and 7-10 of resharding)
+    assert all((p["unknown_group"] is None) == (p["decision"] != "unknown") for p in found)
+    stranger = [p["unknown_group"] for p in found if p["item"].startswith("siltcache-later")]
+    assert stranger == [stranger[0]] * 6 + [stranger[6]] * 4 and stranger[0] != stranger[6]
+    assert {stranger[0], stranger[6]} == {1, 2}
     assert {p["decision"] for p in found} <= {"named", "ambiguous", "unknown"}
     assert all(set(p["p_values"]) == {"brisquet", "fenmeter", "tarnwheel"} for p in found)
     for name, expected in (
@@ -86,6 +94,10 @@ def test_text_output_states_the_guarantee_and_the_caution(
     assert out.splitlines()[0].split() == ["item", "origin", "p-value", "confidence", "nearest",
                                            "distance"]  # fmt: skip
     assert re.search(r"^siltcache-later\.log#1 +unknown ", out, re.MULTILINE)
+    # the unknown chunks grouped, in the output and counted on the summary line
+    assert re.search(r"^The \d+ unknown items, grouped by their own NCD", out, re.MULTILINE)
+    assert re.search(r"^  group 1: \d+ items \(siltcache-later\.log#", out, re.MULTILINE)
+    assert re.search(r"10 unknown \(in 2 groups\)", err)  # the stranger's two phases
 
 
 def test_significance_and_threshold_together_are_a_usage_error(

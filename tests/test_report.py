@@ -335,6 +335,8 @@ def test_report_command_classifies_with_a_reference(tmp_path: Path) -> None:
     hardest_first = sorted(left_out, key=lambda x: x["refused"])
     assert [o for o, _ in rows] == [x["origin"] for x in hardest_first]
     assert [int(v) for _, v in rows] == [round(100 * x["refused"]) for x in hardest_first]
+    # every input named: no unknown items to group, and no section saying so
+    assert c["unknown_groups"]["unknown"] == 0 and "Unknown items, grouped" not in html
 
 
 def test_report_decides_origins_as_classify_is_told(tmp_path: Path) -> None:
@@ -468,3 +470,34 @@ def test_rerun_command_names_what_auto_chose_and_drops_the_budget_it_weighed() -
     assert again.compressor == "lzma:level=9,extreme=0"
     named = parser.parse_args(["report", "x", "-c", "zlib:level=9"])
     assert "--compressor zlib:level=9" in rerun_command(named, "zlib:level=9,window=15")
+
+
+def test_report_groups_the_unknown_items_from_its_own_matrix(tmp_path: Path) -> None:
+    # Family 2 is missing from the reference: its three texts come back unknown and, by their
+    # distances in the report's own matrix (nothing more measured), form one group that the
+    # JSON and the page show with the origin they fit best. Six reference items support rates
+    # from 1/7, so the test asks for 0.2.
+    reference, unknown = _reference_and_unknowns(tmp_path, [0])
+    for member in range(3):
+        moved = reference / "family2" / f"f2m{member}.txt"
+        moved.rename(unknown / moved.name)
+    (reference / "family2").rmdir()
+    data = tmp_path / "u.json"
+    argv = ["report", "--reference", str(reference), str(unknown), "-c", "zlib:level=9",
+            "--significance", "0.2", "--no-cache", "--quiet", "--json", "-o",
+            str(data)]  # fmt: skip
+    assert main(argv) == 0
+    c = json.loads(data.read_text())["classification"]
+    decided = {p["item"]: p["decision"] for p in c["predictions"]}
+    assert decided == {"f0m2.txt": "named", **{f"f2m{m}.txt": "unknown" for m in range(3)}}
+    grouped = c["unknown_groups"]
+    assert grouped["skipped"] is None and grouped["unknown"] == 3 and grouped["alone"] == []
+    (group,) = grouped["groups"]
+    assert sorted(group["members"]) == ["f2m0.txt", "f2m1.txt", "f2m2.txt"]
+    assert sum(group["fits"].values()) == 3 and 0 < group["spread"] < 0.5  # near copies
+    page = tmp_path / "u.html"
+    assert main([*argv[:-3], "-o", str(page)]) == 0
+    html = page.read_text()
+    table = html[html.index('<table id="unknown-groups">') :]
+    table = table[: table.index("</table>")]
+    assert "f2m0.txt, f2m1.txt, f2m2.txt" in table and "evidence to review" in html

@@ -46,7 +46,9 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
         "ambiguous when several do, unknown when none does; items of known origins are refused "
         "at a rate of at most --significance while new data drifts no more than the held-out "
         "blocks do. With -c auto the compressor is the one that separates the reference's own "
-        "origins best. An origin is evidence to review, not proof.",
+        "origins best. The unknown items are then grouped by their own NCD: a group may be an "
+        "origin missing from the reference, or a known one's data that moved on. An origin is "
+        "evidence to review, not proof.",
         example=[
             "kinpress classify --reference known/ unknown1.bin unknown2.log --json",
             "kinpress classify --reference known/ --evaluate",
@@ -76,7 +78,7 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
 
 
 def run(args: argparse.Namespace, console: Console) -> int:
-    from ..origins import classify, evaluate, reference_items
+    from ..origins import classify, evaluate, group_unknowns, reference_items
 
     if args.significance is not None and args.threshold is not None:
         raise UsageError("give --significance or --threshold, not both")
@@ -122,6 +124,8 @@ def run(args: argparse.Namespace, console: Console) -> int:
         else:
             found = classify(unknowns, reference, spec, k=args.k, cache=cache,
                              progress=progress, **options)  # fmt: skip
+            grouped = group_unknowns(found, unknowns, engine=args.engine, cache=cache,
+                                     progress=progress)  # fmt: skip
     if args.evaluate:
         if args.json:
             write_json(args, result.as_json())
@@ -142,18 +146,22 @@ def run(args: argparse.Namespace, console: Console) -> int:
             named = "; most named as a known one" if absent < 0.5 else ""
             rule += f", about {absent:.0%} of a missing origin's (estimated{named})"
         rule += ", as the output explains"
+    together = "" if grouped.skipped else f" ({grouped.count_words})"
     console.say(
         f"classify: {found.method} with {found.compressor}; {counts['named']} named,"
-        f" {counts['ambiguous']} ambiguous, {counts['unknown']} unknown; {rule}"
+        f" {counts['ambiguous']} ambiguous, {counts['unknown']} unknown{together}; {rule}"
     )
     if args.json:
-        write_json(args, found.as_json())
+        rows = found.as_json()
+        for index, row in enumerate(rows):
+            row["unknown_group"] = grouped.group_of(index)
+        write_json(args, rows)
     else:
-        emit(_classification_text(found), args.output)
+        emit(_classification_text(found, grouped), args.output)
     return 0
 
 
-def _classification_text(found: Any) -> str:
+def _classification_text(found: Any, grouped: Any) -> str:
     from ..origins.conformal import test_words  # not at start-up: origins loads scikit-learn
 
     rows = [("item", "origin", "p-value", "confidence", "nearest", "distance")]
@@ -180,6 +188,7 @@ def _classification_text(found: Any) -> str:
         f"Scores: {found.scoring.description}.",
         f"Abstention: {found.abstention.guarantee}.",
         *(f"Warning: {note.words(found.abstention.significance)}." for note in found.concentrated),
+        *([grouped.words] if grouped.words else []),
         ORIGIN_CAUTION,
     ]
     return "\n".join(lines) + "\n"

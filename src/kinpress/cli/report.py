@@ -248,9 +248,9 @@ def run(args: argparse.Namespace, console: Console) -> int:
             derived = _with_progress(console, lambda progress: find_derived(
                 items, spec, seed=args.seed, engine=args.engine, cache=cache, progress=progress,
             ))  # fmt: skip
-    classification = None
+    classification = grouped = None
     if reference and unknowns:
-        from ..origins import classify
+        from ..origins import classify, group_unknowns
 
         conditional = args.conditional if _options.given(args, "conditional") else "auto"
         with opened_cache(args) as cache:
@@ -259,6 +259,9 @@ def run(args: argparse.Namespace, console: Console) -> int:
                 cache=cache, progress=progress, significance=args.significance,
                 test=args.decide_by,
             ))  # fmt: skip
+        # the unknown items' own distances are in the matrix already: nothing more to measure
+        own = dm.distances[len(reference) :, len(reference) :]
+        grouped = group_unknowns(classification, unknowns, distances=own)
     roles = {item.name: "reference" for item in reference}
     roles.update({item.name: "unknown" for item in unknowns} if reference else {})
     column = labels.column if labels is not None else ("origin" if reference else None)
@@ -270,7 +273,8 @@ def run(args: argparse.Namespace, console: Console) -> int:
         report = build_report(
             items, dm, choice, title=args.title or "kinpress report", tree=tree_result,
             k=args.k, neighbours=args.neighbours, left_out=left_out, derived=derived,
-            passages=args.passages, classification=classification, roles=roles,
+            passages=args.passages, classification=classification, unknown_groups=grouped,
+            roles=roles,
             label_column=column, command=command, seed=args.seed,
         )  # fmt: skip
     if args.json:

@@ -83,6 +83,7 @@ from .scores import (
     fold_scores,
     reference_folds,
 )
+from .unknowns import UnknownGroup, UnknownGroups, group_unknowns
 from .views import Scoring, shape
 
 __all__ = [
@@ -106,6 +107,8 @@ __all__ = [
     "Prediction",
     "RefusalWarning",
     "Scoring",
+    "UnknownGroup",
+    "UnknownGroups",
     "_auc",
     "_statistics",
     "backgrounds",
@@ -116,6 +119,7 @@ __all__ = [
     "evaluate",
     "fold_report",
     "fold_scores",
+    "group_unknowns",
     "novelty_aucs",
     "novelty_detection",
     "reference_folds",

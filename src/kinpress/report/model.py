@@ -20,7 +20,7 @@ from ..trees import TreeResult, build_tree
 if TYPE_CHECKING:
     from ..calibration import CalibrationReport
     from ..derived import DerivedReport
-    from ..origins import Classification
+    from ..origins import Classification, UnknownGroups
 
 SIMILARITY_CAUTION = (
     "Similarity is evidence for a person to review, not proof: items share content through"
@@ -149,12 +149,13 @@ class Report:
     derived: DerivedReport | None = None
     passages: tuple[SharedPassage, ...] = ()
     classification: Classification | None = None
+    unknown_groups: UnknownGroups | None = None
 
     def as_json(self) -> dict[str, object]:
         """title, items, left_out, compressor (spec, conditional, strand, given, reasons,
         warnings, calibration), matrix, tree, groups, map, nearest, provenance, cautions,
-        label_column, and derived (findings and same_source), passages and classification when
-        present (null otherwise)."""
+        label_column, and derived (findings and same_source), passages and classification (with
+        its unknown_groups) when present (null otherwise)."""
         derived = None
         if self.derived is not None:
             derived = {
@@ -180,6 +181,7 @@ class Report:
                     for n in c.concentrated
                 ],
                 "predictions": c.as_json(),
+                "unknown_groups": self.unknown_groups,
             }
         return dict(
             json_ready(
@@ -258,6 +260,7 @@ def build_report(
     derived: DerivedReport | None = None,
     passages: bool = False,
     classification: Classification | None = None,
+    unknown_groups: UnknownGroups | None = None,
     roles: dict[str, str] | None = None,
     label_column: str | None = None,
     command: str = "",
@@ -267,7 +270,8 @@ def build_report(
     rooted at the midpoint, `trees.build_tree`), the groups (`grouping`, else
     `groups.find_groups` with `k`), the map (`maps.classical_scaling`), each item's
     `neighbours` nearest (`neighbours.exact_neighbours`), and the derived findings with their
-    longest shared passage (`passages`) and the classification when given. `roles` names items
+    longest shared passage (`passages`) and the classification when given, with its unknown
+    items grouped (`unknown_groups`, origins.group_unknowns). `roles` names items
     that are not simply compared (reference, unknown)."""
     if len(items) != len(dm) or any(
         item.name != label for item, label in zip(items, dm.labels, strict=True)
@@ -315,4 +319,5 @@ def build_report(
         derived=derived,
         passages=tuple(shown),
         classification=classification,
+        unknown_groups=unknown_groups,
     )
