@@ -15,8 +15,11 @@ On the later chunks of the eight systems' logs in ../shared (10 reference chunks
 two missing in turn; bench_origins.py's rounds, -c auto), the unknown chunks grouped by system
 with adjusted Rand index 0.72-1.00 by round (the two missing systems each one group, a stray
 chunk of a known one apart or with them); on this machine's two sets of eight programs' logs
-0.82-1.00, on UDHR texts 0.55-1.00 (Portuguese and Spanish one group in one round); on Rosetta
-Code programs 0.10-0.69, which group by the task they solve as much as by their language.
+0.82-1.00, on UDHR texts 0.55-1.00 (Portuguese and Spanish one group in one round); on source
+files of 24 languages (four missing, path order) 0.35-0.82 and manual pages of 20 languages (five
+missing) 0.32-0.82, where a missing language's files split into several groups or share one
+with a kin's; on Rosetta Code programs 0.10-0.69, which group by the task they solve as much as
+by their language.
 """
 
 from __future__ import annotations
