@@ -67,7 +67,7 @@ from kinpress.origins import (
     reference_folds,
 )
 from kinpress.origins.conformal import _abstention, combined
-from kinpress.origins.unknowns import pair_allowance
+from kinpress.origins.unknowns import UnknownGroup, UnknownGroups, pair_allowance
 from kinpress.origins.views import Scoring, shaped_items
 
 SHARED_DATA = Path(__file__).resolve().parents[2] / "shared" / "datasets-real"
@@ -1167,6 +1167,7 @@ def test_unknown_items_are_not_grouped_beyond_the_allowance_or_below_three(
     over = group_unknowns(found, unknowns, allowance=65, cache=cache)
     assert over.groups == () and over.group_of(10) is None
     assert over.skipped is not None and "66 pairs, more than the 65" in over.skipped
+    assert "run 'kinpress groups' on them" in over.skipped
     named = classify(unknowns[:9], origin_items(range(3), range(8)), "zstd:level=19", cache=cache)
     few = group_unknowns(named, unknowns[:9], cache=cache)
     assert few.unknown == 0 and few.skipped == "0 unknown, fewer than 3"
@@ -1203,3 +1204,13 @@ def test_real_logs_unknown_chunks_group_by_system(
             assert max(held.count(n) for n in held) >= 0.6 * len(held), (system, numbers)
     print(f"logs: unknown chunks grouped by system, ARI by round {np.round(scores, 2)}")
     assert np.mean(scores) >= 0.75
+
+
+def test_unknown_group_words_escape_the_names_they_show() -> None:
+    # a file name holding a line feed must not break the text output's lines (items.escape_name)
+    group = UnknownGroup(("odd\nname.log", "b.log", "c.log"), "b.log", (("sys\tlog", 3),), 0.4, 0.2)
+    words = group.words()
+    assert "\n" not in words and "odd\\nname.log" in words and "all fit sys\\tlog best" in words
+    found = UnknownGroups((group,), ("lone\rone",), 4, "zstd:level=19", 100, method="density")
+    assert found.words.splitlines()[-1] == "  alone: lone\\rone"
+    assert "\r" not in found.words and found.count_words == "in one group, 1 alone"

@@ -35,7 +35,7 @@ import numpy.typing as npt
 from ..cache import SizeCache
 from ..engine import Engine
 from ..formats import json_ready
-from ..items import ItemLike, as_items
+from ..items import ItemLike, as_items, escape_name
 from ..measure import Progress, staged
 from ..units import few_text
 from .classification import Classification
@@ -60,13 +60,14 @@ class UnknownGroup:
 
     def words(self) -> str:
         origin, count = self.fits[0]
+        origin = escape_name(origin)
         fit = (
             f"all fit {origin} best" if count == len(self.members)
             else f"{count} of them fit {origin} best"
         )  # fmt: skip
+        shown = few_text([escape_name(name) for name in self.members])
         return (
-            f"{len(self.members)} items ({few_text(list(self.members))}), median NCD"
-            f" {self.spread:.3f} between two; {fit}"
+            f"{len(self.members)} items ({shown}), median NCD {self.spread:.3f} between two; {fit}"
         )
 
 
@@ -120,7 +121,7 @@ class UnknownGroups:
         lines = [head]
         lines += [f"  group {n}: {group.words()}" for n, group in enumerate(self.groups, 1)]
         if self.alone:
-            lines.append(f"  alone: {few_text(list(self.alone))}")
+            lines.append(f"  alone: {few_text([escape_name(name) for name in self.alone])}")
         return "\n".join(lines)
 
     @property
@@ -133,7 +134,8 @@ class UnknownGroups:
         return text + (f", {len(self.alone)} alone" if self.alone else "")
 
     def as_json(self) -> dict[str, object]:
-        """The groups (members, medoid, fits, silhouette), alone, counts and why skipped."""
+        """The groups (number, members, medoid, fits, spread, silhouette), alone, counts, the
+        grouping's method and why it was skipped; NaN written as null."""
         return dict(
             json_ready(
                 {
@@ -149,7 +151,7 @@ class UnknownGroups:
                             "medoid": g.medoid,
                             "fits": dict(g.fits),
                             "spread": g.spread,
-                            "silhouette": None if math.isnan(g.silhouette) else g.silhouette,
+                            "silhouette": g.silhouette,
                         }
                         for n, g in enumerate(self.groups, 1)
                     ],
@@ -194,13 +196,13 @@ def group_unknowns(
     base = UnknownGroups((), (), len(chosen), classification.compressor, allowed)
     pairs = len(chosen) * (len(chosen) - 1) // 2
     if len(chosen) < SMALLEST:
-        return _skipped(base, f"{len(chosen)} unknown, fewer than {SMALLEST}")
+        return replace(base, skipped=f"{len(chosen)} unknown, fewer than {SMALLEST}")
     if distances is None and pairs > allowed:
-        return _skipped(
-            base,
+        why = (
             f"{len(chosen)} unknown items make {pairs:,} pairs, more than the {allowed:,} sizes"
-            " the classification measured; 'kinpress groups' on them groups them",
+            " the classification measured; run 'kinpress groups' on them to group them"
         )
+        return replace(base, skipped=why)
     if distances is None:
         told = staged(progress, "unknown items")
         measured = distance_matrix([items[i] for i in chosen], classification.compressor,
@@ -228,7 +230,3 @@ def group_unknowns(
     return UnknownGroups(tuple(groups), tuple(names[k] for k in lone), len(chosen),
                          classification.compressor, allowed, tuple(sorted(assignment)),
                          method=grouping.method)  # fmt: skip
-
-
-def _skipped(base: UnknownGroups, why: str) -> UnknownGroups:
-    return replace(base, skipped=why)
