@@ -406,18 +406,17 @@ def warned(result: Classification, later: list[Item], missing: set[str]) -> str:
 
 
 def grouped(result: Classification, later: list[Item], cache: SizeCache) -> str:
-    """How the round's unknown items grouped by their own NCD (origins.group_unknowns) agree
-    with their true origins: scikit-learn's adjusted Rand index, a lone item its own group."""
+    """How the round's unknown items grouped by their own NCD (origins.group_unknowns, as
+    classify groups them) agree with their true origins: scikit-learn's adjusted Rand index."""
     from sklearn.metrics import adjusted_rand_score
 
     found = group_unknowns(result, later, cache=cache)
     if found.skipped is not None:
         return f"; unknown not grouped ({found.skipped})"
     chosen = [i for i, p in enumerate(result.predictions) if p.decision == "unknown"]
-    numbers = [found.group_of(i) or 0 for i in chosen]
-    numbers = [n if n != -1 else -1 - k for k, n in enumerate(numbers)]
+    numbers = [found.group_of(i) for i in chosen]
     score = adjusted_rand_score([str(later[i].label) for i in chosen], numbers)
-    return f"; unknown in {len(found.groups)} groups, {len(found.alone)} alone, ARI {score:.2f}"
+    return f"; unknown in {len(found.groups)} groups, ARI {score:.2f}"
 
 
 def run(name: str, origins: dict[str, list[Item]], reference: int, settings: list[str],
