@@ -1185,8 +1185,8 @@ def test_real_logs_unknown_chunks_group_by_system(
     # them. Agreement by the adjusted Rand index of scikit-learn (Hubert & Arabie 1985). Items
     # that fit no group join their nearest group by default; kept alone on request, each is a
     # group of its own here. Measured when written, with the first round's choice for all four:
-    # joined 0.90, 0.90, 1.00, 0.72 by round (Zookeeper's chunks in two groups), alone 0.90,
-    # 0.90, 0.90, 0.76 (two chunks alone); each missing system's chunks at
+    # joined 0.90, 0.90, 1.00, 0.72 by round (Zookeeper's chunks in two groups), alone 1.00,
+    # 1.00, 0.90, 0.76 (four chunks alone); each missing system's chunks at
     # least 6 of 10 in one group.
     from sklearn.metrics import adjusted_rand_score
 
@@ -1222,3 +1222,53 @@ def test_unknown_group_words_escape_the_names_they_show() -> None:
     found = UnknownGroups((group,), ("lone\rone",), 4, "zstd:level=19", 100, method="density")
     assert found.words.splitlines()[-1] == "  alone: lone\\rone"
     assert "\r" not in found.words and found.count_words == "in one group, 1 alone"
+
+
+def _punctuated_items(origins: range, seeds: range, prefix: str) -> list[Item]:
+    """Lines of words from one vocabulary shared by every origin, each origin writing them in a
+    form of its own (its punctuation): the shape view tells the origins apart, the words do
+    not."""
+    forms = ["{}={};", "[{}] ({})", "{}: {},", "<{}/{}>", "{} -> {} |", "#{}%{}&", "{}::{}",
+             "'{}' `{}`"]  # fmt: skip
+    vocabulary = [f"{a}{b}" for a in ("ka", "lo", "mi", "nu", "pe", "ro") for b in "aeiou"]
+    items = []
+    for o in origins:
+        for s in seeds:
+            rng = random.Random(100 * o + s)
+            rows = [f"{n:03d} " + " ".join(forms[o].format(rng.choice(vocabulary),
+                    rng.choice(vocabulary)) for _ in range(rng.randint(3, 6)))
+                    for n in range(30)]  # fmt: skip
+            items.append(Item(f"{prefix}{o}-{s}", ("\n".join(rows) + "\n").encode(), "generated",
+                              label=f"o{o}"))  # fmt: skip
+    return items
+
+
+def test_unknown_groups_combine_the_views_the_classification_scored(cache: SizeCache) -> None:
+    # Origins that share their words and differ in form: the reference takes the shape view into
+    # the scores, and the unknown items' groups use both views' NCD combined as the scores are
+    # (geometric mean); two missing origins come back as two groups.
+    reference = _punctuated_items(range(4), range(8), "r")
+    unknowns = [*_punctuated_items(range(4), range(20, 22), "k"),
+                *_punctuated_items(range(6, 8), range(30, 35), "s")]  # fmt: skip
+    found = classify(unknowns, reference, "zstd:level=19", cache=cache)
+    assert found.scoring.uses_shape
+    grouped = group_unknowns(found, unknowns, cache=cache)
+    assert grouped.shape and "(content and shape views, as the scores)" in grouped.words
+    assert json.loads(json.dumps(grouped.as_json()))["shape"] is True
+    unknown = [
+        u for u, p in zip(unknowns, found.predictions, strict=True) if p.decision == "unknown"
+    ]
+    assert {u.label for u in unknown} == {"o6", "o7"}
+    members = sorted(sorted(name[:3] for name in g.members) for g in grouped.groups)
+    assert members == [["s6-"] * 5, ["s7-"] * 5]
+    content = matrix_of(unknown, "zstd:level=19", cache=cache).distances
+    shaped = matrix_of(shaped_items(unknown), "zstd:level=19", cache=cache).distances
+    both = np.sqrt(content * shaped)
+    names = [u.name for u in unknown]
+    for group in grouped.groups:
+        at = [names.index(m) for m in group.members]
+        inner = both[np.ix_(at, at)][np.triu_indices(len(at), 1)]
+        assert group.spread == pytest.approx(float(np.median(inner)))
+    # the report's matrix is the content's: the shape view's pairs are measured beside it
+    every = matrix_of(unknowns, "zstd:level=19", cache=cache).distances
+    assert group_unknowns(found, unknowns, distances=every, cache=cache) == grouped

@@ -259,9 +259,13 @@ def run(args: argparse.Namespace, console: Console) -> int:
                 cache=cache, progress=progress, significance=args.significance,
                 test=args.decide_by,
             ))  # fmt: skip
-        # the unknown items' own distances are in the matrix already: nothing more to measure
-        own = dm.distances[len(reference) :, len(reference) :]
-        grouped = group_unknowns(classification, unknowns, distances=own)
+            # the unknown items' content distances are in the matrix already; where the scores
+            # took the shape view, its pairs are measured beside them
+            own = dm.distances[len(reference) :, len(reference) :]
+            grouped = _with_progress(console, lambda progress: group_unknowns(
+                classification, unknowns, distances=own, engine=args.engine, cache=cache,
+                progress=progress,
+            ))  # fmt: skip
     roles = {item.name: "reference" for item in reference}
     roles.update({item.name: "unknown" for item in unknowns} if reference else {})
     column = labels.column if labels is not None else ("origin" if reference else None)

@@ -2,25 +2,28 @@
 
 An item comes back unknown when no origin of the reference accepts it. Unknown items seldom come
 alone: the chunks of a system missing from the reference, or the later files of an origin whose
-data moved on, come back unknown together, and often resemble each other more than anything
-in the reference. :func:`group_unknowns` measures the NCD of every pair of unknown items with the
-classification's compressor and groups them as ``kinpress groups`` does (HDBSCAN* with the
-count chosen by silhouette, see kinpress.groups); an item that fits no group joins the group of
-its nearest grouped item, as there (kept alone on request: `outliers`). Each group
-names the known origin its members fit best (Prediction.best), which tells the two readings
-apart only for a person who knows the data: a group that fits one origin best may be that
-origin's data moved on, or an origin like it missing from the reference. A group is evidence to
-review, not a new origin found.
+data moved on, come back unknown together, and often resemble each other more than anything in
+the reference. :func:`group_unknowns` measures the NCD of every pair of unknown items with the
+classification's compressor, in the views its scores took (content, or content and shape
+combined by their geometric mean as the scores are), and groups them as ``kinpress groups`` does
+(HDBSCAN* with the count chosen by silhouette, see kinpress.groups); an item that fits no group
+joins the group of its nearest grouped item, as there (kept alone on request: `outliers`). Each
+group names the known origin its members fit best (Prediction.best), which tells the two
+readings apart only for a person who knows the data: a group that fits one origin best may be
+that origin's data moved on, or an origin like it missing from the reference. A group is
+evidence to review, not a new origin found.
 
 On the later chunks of the eight systems' logs in ../shared (10 reference chunks of six of them,
 two missing in turn; bench_origins.py's rounds, -c auto), the unknown chunks grouped by system
-with adjusted Rand index 0.72-1.00 by round (the two missing systems each one group, or
-Zookeeper's two); on this machine's two sets of eight programs' logs
-0.82-1.00, on UDHR texts 0.55-1.00 (Portuguese and Spanish one group in one round); on source
-files of 24 languages (four missing, path order) 0.35-0.82 and manual pages of 20 languages (five
-missing) 0.32-0.82, where a missing language's files split into several groups or share one
-with a kin's; on Rosetta Code programs 0.10-0.69, which group by the task they solve as much as
-by their language.
+with adjusted Rand index 0.66-1.00 by round (the two missing systems each one group, or
+Zookeeper's two); on this machine's two sets of eight programs' logs 0.82-1.00, on UDHR texts
+0.55-1.00 (Portuguese and Spanish one group in one round); on source files of 24 languages
+(four missing, path order) 0.54-0.79 and manual pages of 20 languages (five missing)
+0.32-0.82, where a missing language's files split into several groups or share one with a
+kin's; on Rosetta Code programs 0.10-0.84, which group by the task they solve as much as by
+their language. The shape view, where the scores took it, raised the 24 languages from a mean
+of 0.60 to 0.66 and Rosetta Code's rounds from 0.62-0.69 to 0.68-0.84, and cost Loghub's
+Spark and Zookeeper round 0.72 to 0.66.
 """
 
 from __future__ import annotations
@@ -36,10 +39,11 @@ import numpy.typing as npt
 from ..cache import SizeCache
 from ..engine import Engine
 from ..formats import json_ready
-from ..items import ItemLike, as_items, escape_name
+from ..items import Item, ItemLike, as_items, escape_name
 from ..measure import Progress, staged
 from ..units import few_text
 from .classification import Classification
+from .views import shaped_items
 
 SMALLEST = 3
 """Fewest unknown items worth grouping: two are one pair, whose distance the table shows."""
@@ -82,7 +86,9 @@ class UnknownGroups:
     grouping was made (fewer than SMALLEST unknown items, or more pairs than `allowance`), else
     None;
     `method` the grouping's (kinpress.groups.Grouping.method: "one-group" when no split was
-    found, whether the items are alike or share little: each group's `spread` tells).
+    found, whether the items are alike or share little: each group's `spread` tells); `shape`
+    whether the distances are the geometric mean of the content's and the shape view's NCD, as
+    where the classification scored both views (Classification.scoring).
     `assignment` maps each grouped item's index among the classified items to its group's
     number (1 for the largest), and each lone one to -1.
     """
@@ -95,6 +101,7 @@ class UnknownGroups:
     assignment: tuple[tuple[int, int], ...] = ()
     skipped: str | None = None
     method: str = ""
+    shape: bool = False
 
     def group_of(self, index: int) -> int | None:
         """The group number of the classified item at `index` (-1 alone), None if it was not
@@ -113,8 +120,10 @@ class UnknownGroups:
         found = f" {count} groups" if count > 1 else " one group"
         if count == 1 and self.method.startswith("one-group"):
             found += ", no split found (the median NCD says how alike they are)"
+        views = " (content and shape views, as the scores)" if self.shape else ""
         head = (
-            f"The {self.unknown} unknown items, grouped by their own NCD with {self.compressor}:"
+            f"The {self.unknown} unknown items, grouped by their own NCD with {self.compressor}"
+            f"{views}:"
             + found
             + (f", {len(self.alone)} alone" if self.alone else "")
             + ". A group may be an origin missing from the reference, or a known origin's data"
@@ -147,6 +156,7 @@ class UnknownGroups:
                     "allowance": self.allowance,
                     "skipped": self.skipped,
                     "method": self.method,
+                    "shape": self.shape,
                     "groups": [
                         {
                             "group": n,
@@ -185,7 +195,9 @@ def group_unknowns(
 ) -> UnknownGroups:
     """The unknown items of `classification` (of the items `unknowns`, in its order) grouped by
     their own NCD, measured with its compressor by concatenation, or taken from `distances`, a
-    matrix of all the classified items in order (the report's, already measured). No more than
+    matrix of all the classified items in order (the report's, already measured). Where the
+    classification scored the shape view too, the shape view's NCD is measured and the two
+    combined by their geometric mean, as the scores are. No more than
     `allowance` pairs are measured (default pair_allowance); with more, or with fewer than
     SMALLEST unknown items, nothing is grouped and `skipped` says why. Items that fit no group
     join their nearest group as in ``kinpress groups``, or with `outliers` stay alone: on the
@@ -205,22 +217,29 @@ def group_unknowns(
     pairs = len(chosen) * (len(chosen) - 1) // 2
     if len(chosen) < SMALLEST:
         return replace(base, skipped=f"{len(chosen)} unknown, fewer than {SMALLEST}")
-    if distances is None and pairs > allowed:
+    shape = classification.scoring.uses_shape
+    if (distances is None or shape) and pairs > allowed:
         why = (
             f"{len(chosen)} unknown items make {pairs:,} pairs, more than the {allowed:,} sizes"
             " the classification measured; run 'kinpress groups' on them to group them"
         )
         return replace(base, skipped=why)
+    picked = [items[i] for i in chosen]
+
+    def measured(view: list[Item], name: str) -> np.ndarray:
+        told = staged(progress, f"unknown items, {name}")
+        return distance_matrix(view, classification.compressor, engine=engine, cache=cache,
+                               progress=told).distances  # fmt: skip
+
     if distances is None:
-        told = staged(progress, "unknown items")
-        measured = distance_matrix([items[i] for i in chosen], classification.compressor,
-                                   engine=engine, cache=cache, progress=told)  # fmt: skip
-        d = measured.distances
+        d = measured(picked, "content")
     else:
         every = check_distances(distances, strict_diagonal=True)
         if every.shape[0] != len(items):
             raise ValueError(f"distances of {every.shape[0]} items for {len(items)} classified")
         d = every[np.ix_(chosen, chosen)]
+    if shape:  # the views combined as the classification combines its scores
+        d = np.sqrt(d * measured(shaped_items(picked), "shape"))
     grouping = find_groups(d, report_outliers=outliers)
     names = [predictions[i].item for i in chosen]
     groups, assignment = [], []
@@ -239,4 +258,4 @@ def group_unknowns(
     assignment += [(chosen[k], -1) for k in lone]
     return UnknownGroups(tuple(groups), tuple(names[k] for k in lone), len(chosen),
                          classification.compressor, allowed, tuple(sorted(assignment)),
-                         method=grouping.method)  # fmt: skip
+                         method=grouping.method, shape=shape)  # fmt: skip
