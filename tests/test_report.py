@@ -324,6 +324,10 @@ def test_report_command_classifies_with_a_reference(tmp_path: Path) -> None:
 
     words = c["abstention"]["test_words"]
     assert words.startswith("the ") and f"conformal p-value of {escape(words)}" in page.read_text()
+    # the guarantee and the scores' footing each an item of their own, not one block of text
+    assert f"<li><strong>Abstention:</strong> {escape(c['abstention']['guarantee'])}.</li>" in (
+        page.read_text()
+    )
     # each origin left out in turn: the JSON's shares, and on the page a row per origin, hardest
     # first, with the share refused and the kin the rest were taken for
     left_out = c["abstention"]["left_out"]
