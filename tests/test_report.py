@@ -505,7 +505,7 @@ def test_report_groups_the_unknown_items_from_its_own_matrix(tmp_path: Path) -> 
     table = html[html.index('<table id="unknown-groups">') :]
     table = table[: table.index("</table>")]
     assert group["members"][0] == group["medoid"]  # the most typical first
-    assert ("in the content and shape views" in html) == grouped["shape"]
+    assert ("(content and shape views, as the scores)" in html) == grouped["shape"]
     assert all(f"f2m{m}.txt" in table for m in range(3)) and "evidence to review" in html
     # the summary before the details: the groups come before the table of every item
     assert html.index('<table id="unknown-groups">') < html.index('<table id="origin-items">')

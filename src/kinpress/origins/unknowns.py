@@ -110,10 +110,20 @@ class UnknownGroups:
 
     @property
     def words(self) -> str:
-        """The grouping in a paragraph, with what a group may mean; empty with fewer than
-        SMALLEST unknown items (nothing to say)."""
+        """The grouping in a paragraph: the summary, then a line per group; empty with fewer
+        than SMALLEST unknown items (nothing to say)."""
         if self.unknown < SMALLEST:
             return ""
+        lines = [self.summary]
+        lines += [f"  group {n}: {group.words()}" for n, group in enumerate(self.groups, 1)]
+        if self.alone:
+            lines.append(f"  alone: {few_text([escape_name(name) for name in self.alone])}")
+        return "\n".join(lines)
+
+    @property
+    def summary(self) -> str:
+        """What was grouped, how, and what a group may mean, in one sentence or two (no item
+        names: the text and the report each show those their own way)."""
         if self.skipped is not None:
             return f"Unknown items not grouped: {self.skipped}."
         count = len(self.groups)
@@ -121,7 +131,7 @@ class UnknownGroups:
         if count == 1 and self.method.startswith("one-group"):
             found += ", no split found (the median NCD says how alike they are)"
         views = " (content and shape views, as the scores)" if self.shape else ""
-        head = (
+        return (
             f"The {self.unknown} unknown items, grouped by their own NCD with {self.compressor}"
             f"{views}:"
             + found
@@ -130,11 +140,6 @@ class UnknownGroups:
             " that moved on from its reference (the origin its items fit best), for a person"
             " who knows the data to tell; evidence to review, not a new origin found."
         )
-        lines = [head]
-        lines += [f"  group {n}: {group.words()}" for n, group in enumerate(self.groups, 1)]
-        if self.alone:
-            lines.append(f"  alone: {few_text([escape_name(name) for name in self.alone])}")
-        return "\n".join(lines)
 
     @property
     def count_words(self) -> str:
