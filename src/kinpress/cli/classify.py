@@ -146,7 +146,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
             named = "; most named as a known one" if absent < 0.5 else ""
             rule += f", about {absent:.0%} of a missing origin's (estimated{named})"
         rule += ", as the output explains"
-    together = "" if grouped.skipped else f" ({grouped.count_words})"
+    together = f" ({grouped.count_words})" if grouped.count_words else ""
     console.say(
         f"classify: {found.method} with {found.compressor}; {counts['named']} named,"
         f" {counts['ambiguous']} ambiguous, {counts['unknown']} unknown{together}; {rule}"

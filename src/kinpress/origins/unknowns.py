@@ -32,6 +32,7 @@ import math
 from collections import Counter
 from collections.abc import Sequence
 from dataclasses import dataclass, replace
+from functools import cached_property
 
 import numpy as np
 import numpy.typing as npt
@@ -103,10 +104,14 @@ class UnknownGroups:
     method: str = ""
     shape: bool = False
 
+    @cached_property
+    def _numbers(self) -> dict[int, int]:
+        return dict(self.assignment)
+
     def group_of(self, index: int) -> int | None:
         """The group number of the classified item at `index` (-1 alone), None if it was not
         unknown or not grouped."""
-        return dict(self.assignment).get(index)
+        return self._numbers.get(index)
 
     @property
     def words(self) -> str:
@@ -143,10 +148,11 @@ class UnknownGroups:
 
     @property
     def count_words(self) -> str:
-        """'in 2 groups, 1 alone', 'in one group' or 'not grouped', for a summary line."""
+        """'in 2 groups, 1 alone' or 'in one group' for a summary line; empty when not
+        grouped."""
         count = len(self.groups)
         if self.skipped is not None:
-            return "not grouped"
+            return ""
         text = "in one group" if count == 1 else f"in {count} groups"
         return text + (f", {len(self.alone)} alone" if self.alone else "")
 
