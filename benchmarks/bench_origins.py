@@ -413,9 +413,8 @@ def grouped(result: Classification, later: list[Item], cache: SizeCache) -> str:
     found = group_unknowns(result, later, cache=cache)
     if found.skipped is not None:
         return f"; unknown not grouped ({found.skipped})"
-    chosen = [i for i, p in enumerate(result.predictions) if p.decision == "unknown"]
-    numbers = [found.group_of(i) for i in chosen]
-    score = adjusted_rand_score([str(later[i].label) for i in chosen], numbers)
+    truth = [str(later[i].label) for i, _ in found.assignment]  # every unknown item, grouped
+    score = adjusted_rand_score(truth, [number for _, number in found.assignment])
     return f"; unknown in {len(found.groups)} groups, ARI {score:.2f}"
 
 
