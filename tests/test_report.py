@@ -507,5 +507,9 @@ def test_report_groups_the_unknown_items_from_its_own_matrix(tmp_path: Path) -> 
     assert group["members"][0] == group["medoid"]  # the most typical first
     assert ("(content and shape views, as the scores)" in html) == grouped["shape"]
     assert all(f"f2m{m}.txt" in table for m in range(3)) and "evidence to review" in html
+    # the origins a group fits best, one to a line that does not wrap: a long list of them
+    # read as a narrow column of broken names
+    fits = [f"{origin} ({n})" for origin, n in group["fits"].items()]
+    assert f'<td class="mono nowrap">{"<br>".join(fits)}</td>' in table
     # the summary before the details: the groups come before the table of every item
     assert html.index('<table id="unknown-groups">') < html.index('<table id="origin-items">')
