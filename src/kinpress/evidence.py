@@ -26,7 +26,7 @@ of either file counts twice.
 from __future__ import annotations
 
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -278,6 +278,23 @@ def names_aside(data: bytes) -> tuple[bytes, np.ndarray, np.ndarray]:
     pieces.append(data[position:])
     spans.append((position, len(data), len(data) - position))
     return b"".join(pieces), *_piece_maps(np.array(spans, dtype=np.int64).reshape(-1, 3))
+
+
+def pattern_print(text: bytes) -> Fingerprint:
+    """The fingerprint of a `names_aside` text that `evidence` expects: `seed_print`'s, keeping
+    only the k-grams that hold a name met before (a back-reference code). A renamed copy is
+    recognised by the pattern in which its names recur; a stretch of names each met for the
+    first time carries no such pattern: two generated tables of distinct names (one constant per
+    line, numbered in order) read alike with names aside though nothing was copied."""
+    found = seed_print(text)
+    norm = np.frombuffer(found.norm, dtype=np.uint8)
+    starts = (norm[:-1] == ord("@")) & (norm[1:] >= 0x80)  # a code's first byte
+    code = np.zeros(len(norm) + 1, dtype=np.int64)  # code[i]: codes starting before i
+    code[1 : len(starts) + 1] = np.cumsum(starts)
+    code[len(starts) + 1 :] = code[len(starts)]
+    # a k-gram at p holds a code whose two bytes both lie in it: one starting in [p, p + k - 2]
+    keep = code[found.positions + found.noise - 1] > code[found.positions]
+    return replace(found, hashes=found.hashes[keep], positions=found.positions[keep])
 
 
 def _piece_maps(spans: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

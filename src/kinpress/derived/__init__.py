@@ -19,7 +19,8 @@ material of items of the same kind at matching sizes (see `find_derived`).
 Compression says how much two files share, not how. A related pair is derived only when the two
 share stretches in the same order that span SPANNED of the smaller file and hold FOUND_IN_ORDER of
 its own fingerprints (see `evidence`), as written or with names aside (`names_aside`: a copy
-with consistently renamed identifiers); derived pairs get a relation (see `relation`). Related
+with consistently renamed identifiers; `pattern_print`: only fingerprints holding a name met
+before); derived pairs get a relation (see `relation`). Related
 pairs without such stretches are SAME_SOURCE: logs of one system, modules of one project,
 documents of one template share vocabulary, templates and repeated lines scattered over both
 files, which compresses well together but is not copying.

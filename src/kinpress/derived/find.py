@@ -19,6 +19,7 @@ from ..evidence import (
     Evidence,
     evidence,
     names_aside,
+    pattern_print,
     remapped,
     seed_print,
 )
@@ -121,7 +122,7 @@ def _view(items: Sequence[Item], wanted: set[int], common: int, names: bool) -> 
             text, starts, ends = names_aside(item.data)
             if k in wanted:
                 maps[k] = (starts, ends)
-        found = seed_print(text if names else item.data)
+        found = pattern_print(text) if names else seed_print(item.data)
         distinct.append(np.unique(found.hashes))
         if k in wanted:
             kept[k] = found
