@@ -212,6 +212,34 @@ def test_gzipped_fasta_loads_like_the_plain_file(tmp_path: Path) -> None:
 
 
 @pytest.mark.parametrize(
+    ("suffix", "damaged"),
+    [
+        (".gz", b"not gzip at all"),
+        (".gz", gzip.compress(random.Random(1).randbytes(4000))[:2000]),  # cut short
+        (".bz2", b"BZh91AY&SY" + b"\x00" * 40),  # a bzip2 header, then no valid block
+        (".xz", lzma.compress(random.Random(2).randbytes(4000))[:2000]),
+        (".zst", b"\x28\xb5\x2f\xfd" + b"\xff" * 20),  # a zstd magic number, then noise
+    ],
+    ids=["gz-not-gzip", "gz-cut", "bz2", "xz-cut", "zst"],
+)
+def test_a_damaged_compressed_file_below_a_folder_is_left_out_with_a_warning(
+    tmp_path: Path, suffix: str, damaged: bytes
+) -> None:
+    # A code tree's test data holds deliberately damaged archives (seen in a real tree): one of
+    # them must not stop the reading of the thousands of other files. Named on its own, the
+    # file is what the user asked for, and it stays an error naming it.
+    tree = tmp_path / "tree"
+    (tree / "testdata").mkdir(parents=True)
+    (tree / "main.go").write_bytes(b"package main\n")
+    (tree / "testdata" / f"broken{suffix}").write_bytes(damaged)
+    with pytest.warns(InputWarning, match=rf"broken\{suffix}: cannot decompress: .*; left out"):
+        items = load_items([tree])
+    assert [i.name for i in items] == ["main.go"]
+    with pytest.raises(InputError, match=rf"broken\{suffix}: cannot decompress"):
+        load_items([tree / "testdata" / f"broken{suffix}"])
+
+
+@pytest.mark.parametrize(
     ("suffix", "pack"),
     [
         (".bz2", bz2.compress),

@@ -39,6 +39,11 @@ class InputError(ValueError):
     """An input cannot be read: the message names the file, and the line for parse errors."""
 
 
+class DamagedInput(InputError):
+    """A compressed input (by its suffix) whose decompressor fails: not that format, or cut
+    short. Below a folder such a file is left out with a warning (load_items)."""
+
+
 class InputWarning(UserWarning):
     """An input was left out or changed on the way in (empty file, empty record, ...)."""
 
@@ -145,8 +150,13 @@ def _read(path: str, stdin: BinaryIO | None, limit: int = DEFAULT_MAX_FILE_BYTES
     try:
         opener = _DECOMPRESSORS.get(os.path.splitext(path.lower())[1])
         if opener is not None:
-            with opener(path) as handle:
-                return _read_capped(handle, path, limit)
+            try:
+                with opener(path) as handle:
+                    return _read_capped(handle, path, limit)
+            except (FileNotFoundError, PermissionError, InputError):
+                raise
+            except (OSError, EOFError, zlib.error, lzma.LZMAError, zstandard.ZstdError) as error:
+                raise DamagedInput(f"{path}: cannot decompress: {error}") from None
         with open(path, "rb") as handle:
             info = os.fstat(handle.fileno())
             if stat.S_ISREG(info.st_mode) and info.st_size > limit:
@@ -464,14 +474,23 @@ def load_items(
     """Read paths (files, folders, '-' for stdin) into uniquely named items.
 
     No input may hold more than `max_file_bytes` (after decompression): a larger one is an
-    InputError, found while reading it and never held whole. `follow_links`: see `expand_paths`.
+    InputError, found while reading it and never held whole. A compressed file (by its suffix)
+    that does not decompress is a DamagedInput error where it is named, and left out with an
+    InputWarning naming it where a folder holds it. `follow_links`: see `expand_paths`.
 
     >>> items = load_items(["genomes/"], split="records")  # doctest: +SKIP
     """
     mode = split if isinstance(split, Split) else Split.parse(split)
+    given = [os.fspath(p) for p in paths]
     items: list[Item] = []
-    for path in expand_paths(paths, exclude, follow_links=follow_links):
-        items.extend(_file_items(path, mode, stdin, max_file_bytes))
+    for path in expand_paths(given, exclude, follow_links=follow_links):
+        try:
+            items.extend(_file_items(path, mode, stdin, max_file_bytes))
+        except DamagedInput as error:
+            if path in given:  # named on its own: the user meant this file
+                raise
+            # one damaged file among a folder's many (a tree's test data): the rest is read
+            warnings.warn(f"{error}; left out", InputWarning, stacklevel=2)
     items = unique_names(items)
     _warn_mixed(items)
     if labels is not None:
