@@ -64,15 +64,42 @@ class Sketch:
     size: int
 
 
+BOILERPLATE_SAMPLE = 1000
+"""Files whose shingles are counted to find the set's boilerplate (all of them, if fewer)."""
+
+
+def boilerplate(items: Sequence[Item], prefilter: Prefilter, seed: int) -> np.ndarray:
+    """Sorted shingle hashes found in at least COMMON_FILES files or COMMON_SHARE of them (the
+    judge's boilerplate: a licence header, a template, a log line every chunk has), counted on
+    BOILERPLATE_SAMPLE files drawn at random (`seed`) when there are more."""
+    from .result import COMMON_FILES, COMMON_SHARE
+
+    rng = np.random.default_rng(seed)
+    chosen: list[int] = list(range(len(items)))
+    if len(items) > BOILERPLATE_SAMPLE:
+        chosen = sorted(rng.choice(len(items), BOILERPLATE_SAMPLE, replace=False).tolist())
+    least = max(COMMON_FILES, math.ceil(COMMON_SHARE * len(chosen)))
+    distinct = [shingle_hashes(items[k].data, prefilter.shingle) for k in chosen]
+    if not distinct:
+        return np.zeros(0, dtype=np.uint32)
+    values, counts = np.unique(np.concatenate(distinct), return_counts=True)
+    return values[counts >= least]
+
+
 def sketches(items: Sequence[Item], prefilter: Prefilter, seed: int) -> list[Sketch]:
-    """The MinHash of every item's shingle set (see `Prefilter`), permutations drawn from seed."""
+    """The MinHash of every item's shingle set (see `Prefilter`), permutations drawn from seed,
+    the set's boilerplate (`boilerplate`) left out: on a real code tree every file opens with
+    the same licence lines, and small files sharing little else were all proposed together."""
     rng = np.random.default_rng(seed)
     multiply = rng.integers(0, 1 << 32, prefilter.num_perm, dtype=np.uint64).astype(np.uint32)
     multiply |= np.uint32(1)
     add = rng.integers(0, 1 << 32, prefilter.num_perm, dtype=np.uint64).astype(np.uint32)
+    common = boilerplate(items, prefilter, seed)
     out = []
     for item in items:
         hashes = shingle_hashes(item.data, prefilter.shingle)
+        if len(common):
+            hashes = hashes[~np.isin(hashes, common, assume_unique=True)]
         values = np.full(prefilter.num_perm, np.iinfo(np.uint32).max, dtype=np.uint32)
         for start in range(0, len(hashes), _BATCH):
             chunk = hashes[start : start + _BATCH, None] * multiply + add
@@ -103,19 +130,23 @@ def candidate_pairs(
     estimated overlap |S ∩ T| / min(|S|, |T|) is at least half the containment threshold (the
     margin absorbs the estimate's error), which drops most of the banding's chance collisions.
     """
-    ensemble = MinHashLSHEnsemble(
-        threshold=prefilter.containment,
-        num_perm=prefilter.num_perm,
-        num_part=prefilter.num_part,
-        m=prefilter.rows,
-    )
-    ensemble.index([(k, s.minhash, _rounded(s.size)) for k, s in enumerate(sketched)])
-    proposed = {
-        (min(k, j), max(k, j))
-        for k, s in enumerate(sketched)
-        for j in ensemble.query(s.minhash, _rounded(s.size))
-        if j != k
-    }
+    # an item with no shingle but the set's boilerplate is proposed only with its same bytes
+    kept = [(k, s) for k, s in enumerate(sketched) if s.size]
+    proposed: set[tuple[int, int]] = set()
+    if kept:
+        ensemble = MinHashLSHEnsemble(
+            threshold=prefilter.containment,
+            num_perm=prefilter.num_perm,
+            num_part=prefilter.num_part,
+            m=prefilter.rows,
+        )
+        ensemble.index([(k, s.minhash, _rounded(s.size)) for k, s in kept])
+        proposed = {
+            (min(k, j), max(k, j))
+            for k, s in kept
+            for j in ensemble.query(s.minhash, _rounded(s.size))
+            if j != k
+        }
     pairs = {
         (i, j)
         for i, j in proposed
