@@ -12,6 +12,8 @@ Data are read at run time, never stored in the repository:
   Code solutions in 8 languages); see SOURCES.md there.
 - `code_tree_corpus`: Python sources installed on this machine (the running interpreter's standard
   library and site-packages, which came from the package registries).
+- `go_tree_corpus`: a Go source tree given by path (Debian's golang-1.19-src, fetched from the
+  package registry by fetch_debian_code.sh), never used while developing the derived findings.
 
 Truth labels are by construction: a derived file is made from its original by a stated
 transformation; every other pair is unrelated by construction (disjoint log line ranges, distinct
@@ -763,8 +765,8 @@ class _Chosen:
             if self.module[name] != module and w
         )
 
-    def add(self, name: str, data: bytes, project: str, module: str) -> str:
-        self.corpus.add(name, data, f"py:{project}")
+    def add(self, name: str, data: bytes, project: str, module: str, kind: str = "py") -> str:
+        self.corpus.add(name, data, f"{kind}:{project}")
         self.windows[name] = line_windows(data)
         self.module[name] = module
         return name
@@ -967,4 +969,108 @@ def rosetta_language_corpus(
             other = corpus.add(f"vendor/{language}/{path.name}", copy, f"code:{language}")
             how = "copy" if copy == data else "vendor_renamed"
             corpus.derive(name, other, Derivation(how, EXPECTED.get(how, "near_copy")))
+    return corpus.mark_shared_passages().shuffled(seed + 1)
+
+
+# --------------------------------------------------------------------------------------------
+# (g) a code tree never seen while developing: Go's standard library and commands
+
+GO_TRANSFORMS = ("vendor", "vendor_renamed", "vendor_version", "excerpt", "extension")
+
+
+def go_source_files(root: Path) -> list[tuple[Path, str, str]]:
+    """(path, path below root, package: its folder) of every .go file below `root`
+    (a Go source tree's src/), MIN_BYTES to MAX_BYTES, tests and test data left out."""
+    out = []
+    for path in sorted(root.rglob("*.go")):
+        rel = path.relative_to(root)
+        if "testdata" in rel.parts or path.name.endswith("_test.go"):
+            continue
+        if MIN_BYTES <= path.stat().st_size <= MAX_BYTES:
+            out.append((path, str(rel), str(rel.parent)))
+    return out
+
+
+def go_version_apart(rng: random.Random, data: bytes) -> bytes:
+    """Two stretches of 20-60 lines with 5 % of their tokens edited, and a tenth of the lines
+    removed at one place: a copy a version apart."""
+    lines = data.splitlines(keepends=True)
+    donor = _vocabulary(lines)
+    for _ in range(2):
+        first = rng.randrange(len(lines))
+        last = min(len(lines), first + rng.randint(20, 60))
+        lines[first:last] = [edited(rng, b"".join(lines[first:last]), 0.05, donor)]
+    first = rng.randrange(len(lines))
+    del lines[first : first + max(1, len(lines) // 10)]
+    return b"".join(lines)
+
+
+def go_tree_corpus(root: Path, seed: int, *, synthetic: int = 20, files: int = 220) -> RealCorpus:
+    """Files of a Go source tree (`root`: go-1.19/src of Debian's golang-1.19-src, fetched by
+    fetch_debian_code.sh): `synthetic` of them with a derived copy (vendored to
+    third_party/example.com/vendored/... with import paths rewritten, also with 3-5 identifiers
+    renamed, also a version apart; an excerpt; an extension by other files of its package, 0.6-1.5
+    times its length), the rest
+    siblings of the same packages (the hard negatives: licence lines, imports, idioms; many
+    architecture variants copied and edited from one another, and generated tables). As in
+    `code_tree_corpus`, a file sharing SIBLING_LINES of its line windows with a chosen one is not
+    chosen, and pairs sharing a quarter of them are left out of scoring
+    (`mark_shared_passages`)."""
+    rng = random.Random(seed)
+    pool = go_source_files(root)
+    rng.shuffle(pool)
+    corpus = RealCorpus()
+    chosen = _Chosen(corpus)
+    plan = _plan(rng, GO_TRANSFORMS, synthetic)
+    packages = set()
+    consumed: set[str] = set()
+    for path, rel, package in pool:
+        if not plan:
+            break
+        if rel in consumed:
+            continue
+        data = path.read_bytes()
+        if len(re.findall(rb"^func ", data, re.M)) < 4 or chosen.overlaps(data, rel, SIBLING_LINES):
+            continue
+        how = plan.pop()
+        original = chosen.add(rel, data, package, rel, "go")
+        packages.add(package)
+        if how.startswith("vendor"):
+            copy = rewritten_go_imports(data)
+            if how != "vendor":
+                copy = renamed_identifiers(rng, copy, rng.randint(3, 5))
+            if how == "vendor_version":
+                copy = go_version_apart(rng, copy)
+            derived = chosen.add(
+                f"third_party/example.com/vendored/{rel}", copy, package, rel, "go"
+            )
+            corpus.derive(original, derived, Derivation(how, "near_copy"))
+        elif how == "excerpt":
+            derived = chosen.add(f"snippets/{rel}", excerpt(rng, data), package, rel, "go")
+            corpus.derive(original, derived, Derivation(how, CONTAINMENT, original))
+        else:
+            # 0.6-1.5 times its length of other files of the package, as mixed_corpus extends
+            want = round(len(data) * rng.uniform(0.6, 1.5))
+            extra = b""
+            for _, donor, _ in (t for t in pool if t[2] == package and t[1] != rel):
+                if len(extra) >= want:
+                    break
+                if donor not in chosen.module and donor not in consumed:
+                    consumed.add(donor)  # never chosen after: it is inside the extension
+                    extra += (root / donor).read_bytes()
+            grown = extended(rng, data, extra[:want].rsplit(b"\n", 1)[0] + b"\n")
+            derived = chosen.add(f"extended/{rel}", grown, package, rel, "go")
+            corpus.derive(original, derived, Derivation(how, CONTAINMENT, derived))
+    if plan:
+        corpus.notes.append(f"{len(plan)} derived copies not made (no file)")
+    per_package: Counter[str] = Counter()
+    for path, rel, package in sorted(pool, key=lambda t: t[2] not in packages):
+        if len(corpus.items) >= files:
+            break
+        if rel in chosen.module or rel in consumed or per_package[package] >= 12:
+            continue
+        data = path.read_bytes()
+        if not chosen.overlaps(data, rel, SIBLING_LINES):
+            chosen.add(rel, data, package, rel, "go")
+            per_package[package] += 1
     return corpus.mark_shared_passages().shuffled(seed + 1)
