@@ -5,6 +5,7 @@ from __future__ import annotations
 import csv
 import io
 import json
+import os
 import random
 from pathlib import Path
 
@@ -68,6 +69,32 @@ def test_text_output_groups_families_and_carries_the_caution(
     assert out.startswith("family 1: ")
     assert "report-copy.txt" in out.splitlines()[0]
     assert "evidence for a person to review, not proof of copying" in out
+
+
+def test_text_output_says_where_files_of_one_name_lie(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # A code tree holds many files of one name (dirent.go in every system's folder): the
+    # second is named dirent.go~2, and the text must say which file that is, below the folder
+    # the inputs share, without --json.
+    tree = tmp_path / "tree"
+    for folder in ("alpha/util", "beta/util", "gamma"):
+        (tree / folder).mkdir(parents=True)
+    original = _text(7)
+    (tree / "alpha" / "util" / "notes.txt").write_text(original)
+    (tree / "beta" / "util" / "notes.txt").write_text(original.replace("w3 ", "w4 ", 2))
+    (tree / "gamma" / "readme.txt").write_text(original[: len(original) // 2])
+    for k in range(4):
+        (tree / "gamma" / f"other{k}.txt").write_text(_text(20 + k))
+    assert cli.main(["derived", str(tree), "--exhaustive", *FAST]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    assert lines[0] == "family 1: notes.txt, notes.txt~2, readme.txt"
+    where = "notes.txt = alpha/util/notes.txt; notes.txt~2 = beta/util/notes.txt"
+    assert lines[1] == f"  where: {where}".replace("/", os.sep)  # readme.txt: one of its name
+    # a set with no name twice says nothing of where
+    assert cli.main(["derived", str(tree / "gamma"), str(tree / "alpha"), *FAST]) == 0
+    out = capsys.readouterr().out
+    assert out.startswith("family 1: notes.txt, readme.txt\n") and "where:" not in out
 
 
 def test_text_output_says_what_each_number_means(
