@@ -8,6 +8,7 @@ pairs made from an original by a known transformation, which is the ground truth
 from __future__ import annotations
 
 import hashlib
+import math
 import random
 import re
 import textwrap
@@ -19,10 +20,13 @@ import pytest
 
 from kinpress import SizeCache
 from kinpress.derived import (
+    COMMON_MOST,
+    COMMON_SHARE,
     COVERED,
     RELATIONS,
     DerivedFinding,
     DerivedReport,
+    boilerplate_files,
     families,
     find_derived,
     line_blocks,
@@ -499,36 +503,71 @@ def test_two_generated_tables_of_distinct_names_are_not_derived() -> None:
     assert {(f.a, f.b) for f in found.findings} == {("table0.go", "vendored.go")}
 
 
+class _MadeUpCode:
+    """Small source files of made-up names: a package of two to `most` one-line functions."""
+
+    def __init__(self, seed: int) -> None:
+        self.rng = random.Random(seed)
+
+    def word(self) -> str:
+        return "".join(
+            self.rng.choice("bdfgklmnprstvz") + self.rng.choice("aeiou") for _ in range(4)
+        )
+
+    def function(self) -> str:  # one to three arguments, a mixed expression
+        rng = self.rng
+        args = [self.word()[:4] for _ in range(rng.randint(1, 3))]
+        terms = [rng.choice([*args, str(rng.randrange(99))]) for _ in range(rng.randint(2, 4))]
+        expression = "".join(t + rng.choice([" + ", " * ", " - ", " / "]) for t in terms)[:-3]
+        return f"func {self.word()}({', '.join(args)} int) int {{ return {expression} }}"
+
+    def file(self, most: int = 5) -> bytes:
+        lines = [self.function() for _ in range(self.rng.randint(2, most))]
+        return ("package " + self.word() + "\n\n" + "\n".join(lines) + "\n").encode()
+
+
 def test_a_licence_header_every_file_opens_with_proposes_no_pairs() -> None:
     # On a real code tree every file opens with the same licence lines; in small files they
     # are most of the shingles, so the prefilter proposed nearly every pair of them (17 million
     # of Go's source tree's 33 million: hours of measuring). Shingles in 5 files or 2 % of them
     # are the set's boilerplate, left out of the sketches as the judge leaves them out, so only
     # the copy is proposed.
-    rng = random.Random(3)
     header = textwrap.dedent("""\
         // Copyright 2031 The Quendle Authors. All rights reserved.
         // Use of this source code is governed by a permissive licence
         // that can be found in the LICENCE file of the repository.
 
         """).encode()
-
-    def word() -> str:
-        return "".join(rng.choice("bdfgklmnprstvz") + rng.choice("aeiou") for _ in range(4))
-
-    def function() -> str:  # made-up names, one to three arguments, a mixed expression
-        args = [word()[:4] for _ in range(rng.randint(1, 3))]
-        terms = [rng.choice([*args, str(rng.randrange(99))]) for _ in range(rng.randint(2, 4))]
-        expression = "".join(t + rng.choice([" + ", " * ", " - ", " / "]) for t in terms)[:-3]
-        return f"func {word()}({', '.join(args)} int) int {{ return {expression} }}"
-
-    def body() -> bytes:
-        lines = [function() for _ in range(rng.randint(2, 5))]
-        return ("package " + word() + "\n\n" + "\n".join(lines) + "\n").encode()
-
-    files = [header + body() for _ in range(60)]
+    code = _MadeUpCode(3)
+    files = [header + code.file() for _ in range(60)]
     files.append(files[7].replace(b"return ", b"return  "))  # a copy, spaces added
     items = [Item(f"f{k}.go", data, f"f{k}.go") for k, data in enumerate(files)]
     found = find_derived(items, "zlib:level=9")
     assert found.counts.candidates <= 5  # of 1,830 pairs
     assert {(f.a, f.b) for f in found.findings} == {("f7.go", "f60.go")}
+
+
+def test_a_licence_in_a_few_dozen_files_of_a_large_set_is_boilerplate() -> None:
+    # In Go's source tree one licence heads 70 of 8,146 files: under 2 % of them, so it was not
+    # boilerplate, and 949 findings were pairs of those files sharing nothing else. A passage
+    # in COMMON_MOST files is boilerplate whatever the set's size. Here 30 of 2,600 files open
+    # with one licence longer than their code (2 % of 2,600 is 52); the prefilter, counting on
+    # 1,000 of the files, proposes their pairs, and the judge tells they share only it.
+    licence = textwrap.dedent("""\
+        // Copyright (c) 2029 Ferrow Systems and the Tallis contributors.
+        // Permission is granted, free of charge, to any person obtaining a copy of this
+        // software, to deal in it without restriction, including the rights to use, copy,
+        // modify, merge, publish and distribute it, subject to the following conditions:
+        // the above notice and this permission notice shall be included in all copies.
+        // THE SOFTWARE IS PROVIDED "AS IS", WITHOUT WARRANTY OF ANY KIND, EXPRESS OR
+        // IMPLIED. IN NO EVENT SHALL THE AUTHORS BE LIABLE FOR ANY CLAIM OR DAMAGES.
+
+        """).encode()
+    assert boilerplate_files(2600) == COMMON_MOST < 30 < math.ceil(COMMON_SHARE * 2600)
+    code = _MadeUpCode(5)
+    files = [(licence if k < 30 else b"") + code.file(most=12) for k in range(2600)]
+    files.append(files[100] + code.file())  # an extension of one file, to show the rest works
+    items = [Item(f"m{k}.go", data, f"m{k}.go") for k, data in enumerate(files)]
+    found = find_derived(items, "zlib:level=9")
+    assert {(f.a, f.b) for f in found.findings} == {("m100.go", "m2600.go")}
+    assert found.counts.candidates >= 30 * 29 // 2  # the licence's pairs were judged

@@ -453,3 +453,29 @@ def test_coverage_is_the_union_of_intervals_over_normalised_bytes() -> None:
     assert coverage([first, second], fp, "b") == pytest.approx(4 / 6)
     assert coverage([second], fp, "b") == pytest.approx(2 / 6)
     assert coverage([first, second, first], fp, "a") == pytest.approx(4 / 6)
+
+
+def test_common_kgrams_counts_a_block_in_every_file_winnowing_picks_or_not() -> None:
+    # Six files open with one licence block, then text of their own. Winnowing picks a k-gram
+    # by the window around it, so k-grams at the block's end are picked in some files only:
+    # counted by picks (common_among) some fall below 5 files and would seed stretches that
+    # run through the block; counted where they occur (common_kgrams), every picked k-gram of
+    # the block is in all six.
+    from kinpress.passages import common_among, common_kgrams
+
+    rng = random.Random(4)
+    block = " ".join(rng.choice(["grant", "licence", "notice", "copy", "terms"]) for _ in range(80))
+
+    def own() -> str:  # words of random letters: no file shares them
+        return " ".join("".join(rng.choices("abcdefghijklmnopqrstuvwxyz", k=7)) for _ in range(90))
+
+    files = [(block + "\n" + own()).encode() for _ in range(6)]
+    prints = [fingerprint(f, 16, 48) for f in files]
+    picked = [np.unique(p.hashes) for p in prints]
+    inside = set(kgram_hashes(normalise(block.encode())[0], 16).tolist())
+    by_picks = set(common_among(picked, 5).tolist())
+    by_kgrams = set(common_kgrams([p.norm for p in prints], picked, 16, 5).tolist())
+    picked_inside = inside & set(np.concatenate(picked).tolist())
+    assert picked_inside <= by_kgrams and by_picks <= by_kgrams
+    assert picked_inside - by_picks  # some of the block's k-grams were undercounted by picks
+    assert not (by_kgrams - inside)  # the files' own text is never boilerplate

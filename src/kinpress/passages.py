@@ -643,3 +643,25 @@ def common_among(distinct: Sequence[np.ndarray], min_files: int) -> np.ndarray:
         return np.zeros(0, dtype=np.uint64)
     values, counts = np.unique(np.concatenate(distinct), return_counts=True)
     return values[counts >= min_files].astype(np.uint64)
+
+
+def common_kgrams(
+    norms: Sequence[bytes], selected: Sequence[np.ndarray], noise: int, min_files: int
+) -> np.ndarray:
+    """Sorted hashes selected (winnowed) in some file that occur as k-grams, selected or not,
+    in at least min_files of the normalised texts `norms` (`selected[i]`: file i's selected
+    hashes). Winnowing picks a k-gram by the window around it, so a k-gram at the edge of a
+    licence block is picked in some of the files holding it and not in others: counting picks
+    (`common_among`) undercounts it, and it seeded stretches that then ran through the whole
+    block."""
+    if not selected:
+        return np.zeros(0, dtype=np.uint64)
+    union = np.unique(np.concatenate(selected))
+    counts = np.zeros(len(union), dtype=np.int64)
+    for norm in norms:
+        present = np.unique(kgram_hashes(norm, noise))
+        at = np.searchsorted(union, present)
+        inside = at < len(union)
+        at, present = at[inside], present[inside]
+        counts[at[union[at] == present]] += 1
+    return union[counts >= min_files]

@@ -44,6 +44,7 @@ from .null import (
 from .prefilter import Prefilter, Sketch, candidate_pairs, shingle_hashes, sketches
 from .result import (
     COMMON_FILES,
+    COMMON_MOST,
     COMMON_SHARE,
     COVERED,
     FOUND_IN_ORDER,
@@ -57,6 +58,7 @@ from .result import (
     Family,
     NullSummary,
     PairCounts,
+    boilerplate_files,
     families,
     relation,
 )
@@ -64,6 +66,7 @@ from .result import (
 __all__ = [
     "BLOCK_BYTES",
     "COMMON_FILES",
+    "COMMON_MOST",
     "COMMON_SHARE",
     "COVERED",
     "DONOR_OVERLAP",
@@ -83,6 +86,7 @@ __all__ = [
     "Sketch",
     "_donor_pools",
     "_null_material",
+    "boilerplate_files",
     "candidate_pairs",
     "default_null_pairs",
     "families",

@@ -3,7 +3,6 @@ then read the verdict from the stretches shared in order."""
 
 from __future__ import annotations
 
-import math
 import random
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
@@ -16,6 +15,7 @@ from ..compressors import Compressor
 from ..engine import Engine
 from ..evidence import (
     NO_EVIDENCE,
+    NOISE,
     Evidence,
     evidence,
     names_aside,
@@ -32,12 +32,10 @@ from ..measure import (
     measure_conditional,
     ncd,
 )
-from ..passages import Fingerprint, common_among
+from ..passages import Fingerprint, common_kgrams
 from .null import _fpr, _NullPlan, _plan_null, _summary, default_null_pairs
 from .prefilter import Prefilter, _all_pairs, candidate_pairs, sketches
 from .result import (
-    COMMON_FILES,
-    COMMON_SHARE,
     FOUND_IN_ORDER,
     SAME_SOURCE,
     SPANNED,
@@ -45,6 +43,7 @@ from .result import (
     DerivedReport,
     EvidenceCuts,
     PairCounts,
+    boilerplate_files,
     relation,
 )
 
@@ -116,7 +115,7 @@ def _view(items: Sequence[Item], wanted: set[int], common: int, names: bool) -> 
     only the wanted ones are kept."""
     kept: dict[int, Fingerprint] = {}
     maps: dict[int, tuple[np.ndarray, np.ndarray]] = {}
-    distinct = []
+    distinct, norms = [], []
     for k, item in enumerate(items):
         if names:
             text, starts, ends = names_aside(item.data)
@@ -124,9 +123,11 @@ def _view(items: Sequence[Item], wanted: set[int], common: int, names: bool) -> 
                 maps[k] = (starts, ends)
         found = pattern_print(text) if names else seed_print(item.data)
         distinct.append(np.unique(found.hashes))
+        norms.append(found.norm)
         if k in wanted:
             kept[k] = found
-    return _View(kept, common_among(distinct, common), maps if names else None)
+    ignore = common_kgrams(norms, distinct, NOISE, common)
+    return _View(kept, ignore, maps if names else None)
 
 
 def _is_derived(found: Evidence, a_smaller: bool, cuts: EvidenceCuts) -> bool:
@@ -151,7 +152,7 @@ class _Judge:
         """The judge of the pairs in `sought`: their items' fingerprints in both views, with
         the set's boilerplate left out."""
         related = {k for pair in sought for k in pair}
-        common = max(COMMON_FILES, math.ceil(COMMON_SHARE * len(items)))
+        common = boilerplate_files(len(items))
         written = _view(items, related, common, names=False)
         renamed = _view(items, related, common, names=True)
         cuts = EvidenceCuts(spanned=SPANNED, found=FOUND_IN_ORDER, common_files=common)
@@ -250,7 +251,7 @@ def find_derived(
        breaks every run longer than a block, which is what copying leaves.
     4. A candidate with fpr(score) <= max_fpr is related. The stretches shared in order of
        every related pair and every pair the prefilter proposes are found (`evidence`,
-       boilerplate of COMMON_FILES or COMMON_SHARE of the files left out): a pair whose
+       boilerplate (`boilerplate_files`) left out): a pair whose
        stretches reach the cuts (`EvidenceCuts`) in the files as written or with names aside
        (`names_aside`) is derived, with the relation of `relation`, even where the compression
        test did not relate it (a copy edited in one word in ten loses explained fraction faster

@@ -69,16 +69,16 @@ BOILERPLATE_SAMPLE = 1000
 
 
 def boilerplate(items: Sequence[Item], prefilter: Prefilter, seed: int) -> np.ndarray:
-    """Sorted shingle hashes found in at least COMMON_FILES files or COMMON_SHARE of them (the
+    """Sorted shingle hashes found in at least `boilerplate_files` of the files (the
     judge's boilerplate: a licence header, a template, a log line every chunk has), counted on
     BOILERPLATE_SAMPLE files drawn at random (`seed`) when there are more."""
-    from .result import COMMON_FILES, COMMON_SHARE
+    from .result import boilerplate_files
 
     rng = np.random.default_rng(seed)
     chosen: list[int] = list(range(len(items)))
     if len(items) > BOILERPLATE_SAMPLE:
         chosen = sorted(rng.choice(len(items), BOILERPLATE_SAMPLE, replace=False).tolist())
-    least = max(COMMON_FILES, math.ceil(COMMON_SHARE * len(chosen)))
+    least = boilerplate_files(len(chosen))
     distinct = [shingle_hashes(items[k].data, prefilter.shingle) for k in chosen]
     if not distinct:
         return np.zeros(0, dtype=np.uint32)
