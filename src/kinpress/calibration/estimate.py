@@ -46,7 +46,12 @@ def estimate_job_seconds(
 
 
 def _job_words(replicates: int, null_pairs: int) -> str:
-    """What the estimate counts beyond the matrix, in words ("" when nothing)."""
+    """What the estimate counts beyond the matrix, in words ("" when nothing). Derived's job
+    (null pairs, no replicates) measures only the pairs its prefilter proposes, which auto does
+    not know yet: the words say the estimate counts every pair (on Go's source tree it said
+    30.9 h where the run took 19 min)."""
+    if null_pairs and not replicates:
+        return f" (every pair, as if the prefilter pruned none, and {null_pairs:,} null pairs)"
     extra = [f"{replicates:,} bootstrap replicates"] if replicates else []
     extra += [f"{null_pairs:,} null pairs"] if null_pairs else []
     return f" (the matrix and {' and '.join(extra)})" if extra else ""
