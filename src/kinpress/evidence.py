@@ -10,7 +10,7 @@ Both files are normalised (every ASCII whitespace byte dropped, see `passages.fi
 re-wrapping, line endings and indentation change nothing. Seeds are the winnowed k-gram
 fingerprints (Schleimer, Wilkerson & Aiken 2003) the two files have in common, except
 
-- hashes in `ignore` (boilerplate common to many files of the set, `passages.common_hashes`), and
+- hashes in `ignore` (boilerplate common to many files of the set, `passages.common_kgrams`), and
 - hashes a file holds more than SEED_REPEATS times (its own repeats, which match anywhere).
 
 A stretch chains seeds in increasing order in both files, each at most GAP normalised bytes past the

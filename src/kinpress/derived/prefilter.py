@@ -72,18 +72,15 @@ def boilerplate(items: Sequence[Item], prefilter: Prefilter, seed: int) -> np.nd
     """Sorted shingle hashes found in at least `boilerplate_files` of the files (the
     judge's boilerplate: a licence header, a template, a log line every chunk has), counted on
     BOILERPLATE_SAMPLE files drawn at random (`seed`) when there are more."""
+    from ..passages import common_among
     from .result import boilerplate_files
 
     rng = np.random.default_rng(seed)
     chosen: list[int] = list(range(len(items)))
     if len(items) > BOILERPLATE_SAMPLE:
         chosen = sorted(rng.choice(len(items), BOILERPLATE_SAMPLE, replace=False).tolist())
-    least = boilerplate_files(len(chosen))
     distinct = [shingle_hashes(items[k].data, prefilter.shingle) for k in chosen]
-    if not distinct:
-        return np.zeros(0, dtype=np.uint32)
-    values, counts = np.unique(np.concatenate(distinct), return_counts=True)
-    return values[counts >= least]
+    return common_among(distinct, boilerplate_files(len(chosen)))
 
 
 def sketches(items: Sequence[Item], prefilter: Prefilter, seed: int) -> list[Sketch]:
