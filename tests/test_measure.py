@@ -214,3 +214,18 @@ def test_the_estimator_measures_on_the_engine_it_is_given() -> None:
     assert fitted > 0
     assert list(model.predict([origin_text(2, 40), origin_text(0, 41)])) == [2, 0]
     assert len(engine.pairs) > fitted
+
+
+@pytest.mark.parametrize("jobs", [1, 2])
+def test_both_directions_of_two_identical_items_are_measured(jobs: int) -> None:
+    # Two items of the same bytes are one content: the pairs (a, b) and (b, a) both ask for
+    # C(u|u). Each must come back as that size, not as the "not measured" -1 (a derived
+    # finding then read "explained: a by b 2.00").
+    data = random.Random(5).randbytes(3000)
+    items = [Item("a", data, "test"), Item("b", data, "test"), Item("c", data[::-1], "test")]
+    engine = LocalEngine(jobs)
+    found = conditional_sizes(items, [(0, 1), (1, 0), (0, 2), (2, 0)], "zlib", engine=engine)
+    assert (found.conditional >= 0).all()
+    assert found.conditional[0] == found.conditional[1]
+    comp = compressor("zlib")
+    assert found.conditional[0] == comp.size(data + data) - comp.size(data)

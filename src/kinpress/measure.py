@@ -174,11 +174,18 @@ class Sizes:
         stored = self.cache.get_many(self.comp.cache_key, method, keys) if self.cache else {}
         out = np.array([stored.get(k, -1) for k in keys], dtype=np.int64)
         cached = out >= 0
-        todo = np.flatnonzero(~cached)
+        missing = np.flatnonzero(~cached)
+        # A key asked twice (the pairs (a, b) and (b, a) of two identical items both ask (u, u))
+        # is computed once: two equal tiles would be told apart by nothing but their order.
+        seen: dict[tuple[bytes, bytes], int] = {}
+        todo = np.array([seen.setdefault(keys[k], int(k)) for k in missing], dtype=np.int64)
+        todo = np.unique(todo) if todo.size else todo
         if todo.size:
             start = 0 if total is None else done + int(cached.sum())
             scale = int(todo.size) if total is None else total
             self._compute(phase, method, first, second, todo, keys, out, (start, scale))
+            for k in missing:
+                out[k] = out[seen[keys[k]]]
         return out, cached
 
     def _compute(
