@@ -410,6 +410,23 @@ def test_empty_file_warns_and_is_left_out(tmp_path: Path) -> None:
     assert [i.name for i in items] == ["full.txt"]
 
 
+def test_many_empty_files_get_one_warning_that_counts_them(tmp_path: Path) -> None:
+    # A Python tree holds many empty __init__.py files (34 in pip's wheel and the 23 projects
+    # it vendors): one warning counts them and names the first few, not a screen of lines.
+    for k in range(12):
+        (tmp_path / f"pkg{k:02d}").mkdir()
+        (tmp_path / f"pkg{k:02d}" / "__init__.py").write_bytes(b"")
+    (tmp_path / "full.txt").write_bytes(b"content\n")
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        items = load_items([tmp_path])
+    assert [i.name for i in items] == ["full.txt"]
+    said = [str(w.message) for w in caught if issubclass(w.category, InputWarning)]
+    assert len(said) == 1
+    assert said[0].startswith("12 empty files left out: ")
+    assert "pkg00/__init__.py" in said[0] and said[0].endswith("and 9 more")
+
+
 def test_missing_path_is_an_input_error_naming_it(tmp_path: Path) -> None:
     with pytest.raises(InputError, match=r"nowhere\.txt: no such file"):
         load_items([tmp_path / "nowhere.txt"])

@@ -29,7 +29,7 @@ from .sequences import is_nucleotide as is_nucleotide  # re-exported
 from .sequences import parse_fasta as parse_fasta  # re-exported
 from .sequences import reverse_complement as reverse_complement  # re-exported
 from .sequences import sequence_records as sequence_records  # re-exported
-from .units import size_text
+from .units import few_text, size_text
 
 if TYPE_CHECKING:
     from Bio.SeqRecord import SeqRecord
@@ -174,12 +174,21 @@ def _read(path: str, stdin: BinaryIO | None, limit: int = DEFAULT_MAX_FILE_BYTES
 
 
 def _file_items(
-    path: str, split: Split, stdin: BinaryIO | None, limit: int = DEFAULT_MAX_FILE_BYTES
+    path: str,
+    split: Split,
+    stdin: BinaryIO | None,
+    limit: int = DEFAULT_MAX_FILE_BYTES,
+    empty: list[str] | None = None,
 ) -> Iterator[Item]:
+    """The items of one file; an empty file gives none and is added to `empty` (warned of at
+    once without it)."""
     data = _read(path, stdin, limit)
     base = "stdin" if path == "-" else uncompressed_name(os.path.basename(path))
     if not data:
-        warnings.warn(f"{path}: empty file; left out", InputWarning, stacklevel=2)
+        if empty is None:
+            warnings.warn(f"{path}: empty file; left out", InputWarning, stacklevel=2)
+        else:
+            empty.append(path)
         return
     fmt = sequence_format(path)
     if fmt is None and path == "-" and split.mode in ("auto", "records"):
@@ -461,6 +470,23 @@ def as_items(values: Iterable[ItemLike], prefix: str = "x") -> list[Item]:
     return unique_names(out)
 
 
+EMPTY_NAMED = 3
+"""Up to this many empty files get a warning each; more get one warning that counts them."""
+
+
+def _warn_empty(paths: Sequence[str]) -> None:
+    """One warning for the empty files left out: each named where there are few, counted with
+    the first few named where there are many (a Python tree's empty __init__.py files would
+    otherwise fill the screen)."""
+    if len(paths) <= EMPTY_NAMED:
+        for path in paths:
+            warnings.warn(f"{path}: empty file; left out", InputWarning, stacklevel=3)
+        return
+    warnings.warn(
+        f"{len(paths)} empty files left out: {few_text(paths)}", InputWarning, stacklevel=3
+    )
+
+
 def load_items(
     paths: Iterable[str | os.PathLike[str]],
     split: str | Split = "auto",
@@ -483,14 +509,16 @@ def load_items(
     mode = split if isinstance(split, Split) else Split.parse(split)
     given = [os.fspath(p) for p in paths]
     items: list[Item] = []
+    empty: list[str] = []
     for path in expand_paths(given, exclude, follow_links=follow_links):
         try:
-            items.extend(_file_items(path, mode, stdin, max_file_bytes))
+            items.extend(_file_items(path, mode, stdin, max_file_bytes, empty))
         except DamagedInput as error:
             if path in given:  # named on its own: the user meant this file
                 raise
             # one damaged file among a folder's many (a tree's test data): the rest is read
             warnings.warn(f"{error}; left out", InputWarning, stacklevel=2)
+    _warn_empty(empty)
     items = unique_names(items)
     _warn_mixed(items)
     if labels is not None:
