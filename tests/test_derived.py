@@ -16,6 +16,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from kinpress import SizeCache
@@ -33,6 +34,7 @@ from kinpress.derived import (
     relation,
     shingle_hashes,
 )
+from kinpress.derived.prefilter import near_copy_groups
 from kinpress.items import Item, load_items
 
 _SYLLABLES = (
@@ -571,3 +573,54 @@ def test_a_licence_in_a_few_dozen_files_of_a_large_set_is_boilerplate() -> None:
     found = find_derived(items, "zlib:level=9")
     assert {(f.a, f.b) for f in found.findings} == {("m100.go", "m2600.go")}
     assert found.counts.candidates >= 30 * 29 // 2  # the licence's pairs were judged
+
+
+def test_a_file_copied_into_a_dozen_places_is_found_and_a_licence_is_not() -> None:
+    # One module vendored into every service of a repository: its k-grams are in a dozen files,
+    # as many as a licence's, and counted as boilerplate its copies were never proposed nor
+    # found (0 of 66 pairs). A common passage is boilerplate only where the files holding it
+    # hold other content besides (passages.boilerplate_among); here 30 other files open with one
+    # licence and share nothing else, and none of their pairs is found.
+    licence = textwrap.dedent("""\
+        // Copyright (c) 2033 Orrin Valley Cooperative. Redistribution and use in source and
+        // binary forms, with or without modification, are permitted provided that the notice
+        // above is kept. This software is provided as is, without warranty of any kind.
+
+        """).encode()
+    code = _MadeUpCode(11)
+    shared = code.file(most=40)
+    rng = random.Random(11)
+    copies = []
+    for _ in range(12):
+        lines = shared.split(b"\n")
+        k = rng.randrange(len(lines))
+        lines[k] += b" // local change"
+        copies.append(b"\n".join(lines))
+    others = [(licence if k < 30 else b"") + code.file(most=12) for k in range(140)]
+    files = copies + others
+    items = [Item(f"s{k}.go", data, f"s{k}.go") for k, data in enumerate(files)]
+    assert boilerplate_files(len(items)) <= 12  # the copies' k-grams are common enough
+    found = {tuple(sorted((f.a, f.b))) for f in find_derived(items, "zlib:level=9").findings}
+    copied = {tuple(sorted((f"s{i}.go", f"s{j}.go"))) for i in range(12) for j in range(i + 1, 12)}
+    assert found == copied
+
+
+def test_near_copies_are_grouped_and_files_sharing_a_licence_are_not() -> None:
+    # Four copies of one file with a word in fifty changed are one group (Jaccard near 0.9);
+    # files opening with one licence and holding code of their own, and an excerpt of a
+    # third of the copied file, are each their own.
+    rng = random.Random(4)
+    words = [f"w{rng.randrange(10**6)}" for _ in range(600)]
+    copies = []
+    for _ in range(4):
+        edited = [w if rng.random() > 0.02 else "edit" for w in words]
+        copies.append(np.unique(shingle_hashes(" ".join(edited).encode(), 16)))
+    licence = " ".join(f"l{k}" for k in range(40))
+    licensed = [
+        np.unique(shingle_hashes((licence + " ".join(rng.choices(words, k=60))).encode(), 16))
+        for _ in range(3)
+    ]
+    excerpt = np.unique(shingle_hashes(" ".join(words[:200]).encode(), 16))
+    groups = near_copy_groups([*copies, *licensed, excerpt, np.zeros(0, dtype=np.uint32)], 0)
+    assert len(set(groups[:4].tolist())) == 1
+    assert len(set(groups[3:].tolist())) == 6

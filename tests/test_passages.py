@@ -18,6 +18,7 @@ from kinpress.passages import (
     GUARANTEE,
     NOISE,
     Passage,
+    boilerplate_among,
     common_hashes,
     coverage,
     fingerprint,
@@ -479,3 +480,19 @@ def test_common_kgrams_counts_a_block_in_every_file_winnowing_picks_or_not() -> 
     assert picked_inside <= by_kgrams and by_picks <= by_kgrams
     assert picked_inside - by_picks  # some of the block's k-grams were undercounted by picks
     assert not (by_kgrams - inside)  # the files' own text is never boilerplate
+
+
+def test_boilerplate_is_in_many_files_that_are_not_copies_of_one_another() -> None:
+    # Hashes 0-9 head six files that hold 90 hashes of their own each (a licence); hashes
+    # 100-189 are all of six other files (one file copied six times: one group of near
+    # copies). Both are in six files; only the licence is in files of five groups or more.
+    licence = np.arange(10, dtype=np.uint64)
+    own = [np.arange(1000 + 100 * k, 1090 + 100 * k, dtype=np.uint64) for k in range(6)]
+    licensed = [np.concatenate([licence, mine]) for mine in own]
+    copies = [np.arange(100, 190, dtype=np.uint64) for _ in range(6)]
+    groups = np.array([0, 1, 2, 3, 4, 5, 6, 6, 6, 6, 6, 6])
+    found = boilerplate_among(licensed + copies, 5, groups, min_groups=5)
+    assert found.tolist() == licence.tolist()
+    assert len(boilerplate_among(licensed + copies, 5)) == 10 + 90  # by files alone, both
+    assert boilerplate_among(licensed + copies, 7, groups, min_groups=5).size == 0
+    assert boilerplate_among([], 2).size == 0

@@ -646,22 +646,61 @@ def common_among(distinct: Sequence[np.ndarray], min_files: int) -> np.ndarray:
 
 
 def common_kgrams(
-    norms: Sequence[bytes], selected: Sequence[np.ndarray], noise: int, min_files: int
+    norms: Sequence[bytes],
+    selected: Sequence[np.ndarray],
+    noise: int,
+    min_files: int,
+    groups: np.ndarray | None = None,
+    min_groups: int = 1,
 ) -> np.ndarray:
     """Sorted hashes selected (winnowed) in some file that occur as k-grams, selected or not,
     in at least min_files of the normalised texts `norms` (`selected[i]`: file i's selected
-    hashes). Winnowing picks a k-gram by the window around it, so a k-gram at the edge of a
-    licence block is picked in some of the files holding it and not in others: counting picks
-    (`common_among`) undercounts it, and it seeded stretches that then ran through the whole
-    block."""
+    hashes) that are in files of at least `min_groups` groups of near copies (`groups`, see
+    `boilerplate_among`). Winnowing picks a k-gram by the
+    window around it, so a k-gram at the edge of a licence block is picked in some of the files
+    holding it and not in others: counting picks (`common_among`) undercounts it, and it seeded
+    stretches that then ran through the whole block."""
     if not selected:
         return np.zeros(0, dtype=np.uint64)
     union = np.unique(np.concatenate(selected))
-    counts = np.zeros(len(union), dtype=np.int64)
+    held = []
     for norm in norms:
         present = np.unique(kgram_hashes(norm, noise))
         at = np.searchsorted(union, present)
         inside = at < len(union)
         at, present = at[inside], present[inside]
-        counts[at[union[at] == present]] += 1
-    return union[counts >= min_files]
+        held.append(present[union[at] == present])
+    return boilerplate_among(held, min_files, groups, min_groups)
+
+
+def boilerplate_among(
+    held: Sequence[np.ndarray],
+    min_files: int,
+    groups: np.ndarray | None = None,
+    min_groups: int = 1,
+) -> np.ndarray:
+    """Sorted hashes in at least min_files of the arrays (`held[i]`: file i's distinct hashes)
+    and, where `groups` gives each file's group of near copies (see
+    kinpress.derived.prefilter.near_copy_groups), in files of at least `min_groups` groups:
+    boilerplate is a passage of many files that are not copies of one another. A licence heads
+    files of other content, each its own group; a file copied into a dozen places (one module
+    vendored into every service of a repository) is one group, and counted by files its
+    content was boilerplate and its copies were never proposed nor found."""
+    held = list(held)
+    sizes = np.array([len(h) for h in held], dtype=np.int64)
+    if not sizes.sum():
+        return np.zeros(0, dtype=np.uint64)
+    values = np.concatenate(held).astype(np.uint64)
+    found, counts = np.unique(values, return_counts=True)
+    common = found[counts >= min_files]
+    if groups is None or min_groups <= 1 or not len(common):
+        return common
+    owner = np.repeat(np.asarray(groups, dtype=np.int64), sizes)
+    keep = np.isin(values, common)
+    values, owner = values[keep], owner[keep]
+    order = np.lexsort((owner, values))  # each (hash, group) once
+    values, owner = values[order], owner[order]
+    first = np.ones(len(values), dtype=bool)
+    first[1:] = (values[1:] != values[:-1]) | (owner[1:] != owner[:-1])
+    found, counts = np.unique(values[first], return_counts=True)
+    return found[counts >= min_groups]

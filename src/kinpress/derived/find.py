@@ -34,8 +34,9 @@ from ..measure import (
 )
 from ..passages import Fingerprint, common_kgrams
 from .null import _fpr, _NullPlan, _plan_null, _summary, default_null_pairs
-from .prefilter import Prefilter, _all_pairs, candidate_pairs, sketches
+from .prefilter import Prefilter, _all_pairs, candidate_pairs, near_copy_groups, sketches
 from .result import (
+    COMMON_FILES,
     FOUND_IN_ORDER,
     SAME_SOURCE,
     SPANNED,
@@ -126,7 +127,8 @@ def _view(items: Sequence[Item], wanted: set[int], common: int, names: bool) -> 
         norms.append(found.norm)
         if k in wanted:
             kept[k] = found
-    ignore = common_kgrams(norms, distinct, NOISE, common)
+    groups = near_copy_groups(distinct, seed=0)  # copies of one file are a family's content
+    ignore = common_kgrams(norms, distinct, NOISE, common, groups, COMMON_FILES)
     return _View(kept, ignore, maps if names else None)
 
 

@@ -8,7 +8,7 @@ from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 
 import numpy as np
-from datasketch import MinHash, MinHashLSHEnsemble
+from datasketch import MinHash, MinHashLSH, MinHashLSHEnsemble
 
 from ..items import Item
 
@@ -68,39 +68,92 @@ BOILERPLATE_SAMPLE = 1000
 """Files whose shingles are counted to find the set's boilerplate (all of them, if fewer)."""
 
 
+def _permutations(seed: int, count: int) -> tuple[np.ndarray, np.ndarray]:
+    """The (a_k, b_k) of `count` hash permutations h -> a_k h + b_k mod 2^32 (a_k odd)."""
+    rng = np.random.default_rng(seed)
+    multiply = rng.integers(0, 1 << 32, count, dtype=np.uint64).astype(np.uint32)
+    multiply |= np.uint32(1)
+    add = rng.integers(0, 1 << 32, count, dtype=np.uint64).astype(np.uint32)
+    return multiply, add
+
+
+def _minimums(hashes: np.ndarray, multiply: np.ndarray, add: np.ndarray) -> np.ndarray:
+    """The MinHash values of a set of 32-bit hashes under the permutations."""
+    values = np.full(len(multiply), np.iinfo(np.uint32).max, dtype=np.uint32)
+    for start in range(0, len(hashes), _BATCH):
+        chunk = hashes[start : start + _BATCH, None] * multiply + add
+        np.minimum(values, chunk.min(axis=0), out=values)
+    return values
+
+
+NEAR_COPY = 0.7
+"""Files whose hash sets have a Jaccard index of at least this are near copies of each other
+(`near_copy_groups`): copies with a word in fifty edited stay near 0.9; two files that share a
+licence are this alike only when it is over four fifths of each."""
+
+
+def near_copy_groups(
+    held: Sequence[np.ndarray], seed: int, threshold: float = NEAR_COPY
+) -> np.ndarray:
+    """Each file's group of near copies (`held[i]`: file i's distinct hashes): files joined
+    where their estimated Jaccard index (a 64-value MinHash, proposals of an LSH index checked
+    on it) is at least `threshold`, groups closed by transitivity. A passage is boilerplate only
+    in files of several groups (`passages.boilerplate_among`)."""
+    multiply, add = _permutations(seed, 64)
+    labels = np.arange(len(held))
+    sketched: dict[int, MinHash] = {}
+    index = MinHashLSH(threshold=threshold, num_perm=64)
+    for k, hashes in enumerate(held):
+        if len(hashes):
+            folded = (hashes ^ (hashes >> np.uint64(32))).astype(np.uint32)
+            values = _minimums(np.asarray(folded, dtype=np.uint32), multiply, add)
+            sketched[k] = MinHash(seed=seed, hashvalues=values, scheme="affine32")
+            index.insert(k, sketched[k])
+
+    def root(k: int) -> int:
+        while labels[k] != k:
+            labels[k] = labels[labels[k]]
+            k = int(labels[k])
+        return k
+
+    for k, sketch in sketched.items():
+        for j in index.query(sketch):
+            if j != k and sketch.jaccard(sketched[j]) >= threshold:
+                a, b = root(k), root(j)
+                labels[max(a, b)] = min(a, b)
+    return np.array([root(k) for k in range(len(held))])
+
+
 def boilerplate(items: Sequence[Item], prefilter: Prefilter, seed: int) -> np.ndarray:
     """Sorted shingle hashes found in at least `boilerplate_files` of the files (the
-    judge's boilerplate: a licence header, a template, a log line every chunk has), counted on
-    BOILERPLATE_SAMPLE files drawn at random (`seed`) when there are more."""
-    from ..passages import common_among
-    from .result import boilerplate_files
+    judge's boilerplate: a licence header, a template, a log line every chunk has) and in files
+    of COMMON_FILES groups of near copies or more (`near_copy_groups`; a file copied into many
+    places is a family, not boilerplate), counted on BOILERPLATE_SAMPLE files drawn at random
+    (`seed`) when there are more."""
+    from ..passages import boilerplate_among
+    from .result import COMMON_FILES, boilerplate_files
 
     rng = np.random.default_rng(seed)
     chosen: list[int] = list(range(len(items)))
     if len(items) > BOILERPLATE_SAMPLE:
         chosen = sorted(rng.choice(len(items), BOILERPLATE_SAMPLE, replace=False).tolist())
     distinct = [shingle_hashes(items[k].data, prefilter.shingle) for k in chosen]
-    return common_among(distinct, boilerplate_files(len(chosen)))
+    groups = near_copy_groups(distinct, seed)
+    return boilerplate_among(distinct, boilerplate_files(len(chosen)), groups, COMMON_FILES)
 
 
 def sketches(items: Sequence[Item], prefilter: Prefilter, seed: int) -> list[Sketch]:
     """The MinHash of every item's shingle set (see `Prefilter`), permutations drawn from seed,
     the set's boilerplate (`boilerplate`) left out: on a real code tree every file opens with
     the same licence lines, and small files sharing little else were all proposed together."""
-    rng = np.random.default_rng(seed)
-    multiply = rng.integers(0, 1 << 32, prefilter.num_perm, dtype=np.uint64).astype(np.uint32)
-    multiply |= np.uint32(1)
-    add = rng.integers(0, 1 << 32, prefilter.num_perm, dtype=np.uint64).astype(np.uint32)
+    multiply, add = _permutations(seed, prefilter.num_perm)
     common = boilerplate(items, prefilter, seed)
     out = []
     for item in items:
         hashes = shingle_hashes(item.data, prefilter.shingle)
         if len(common):
             hashes = hashes[~np.isin(hashes, common, assume_unique=True)]
-        values = np.full(prefilter.num_perm, np.iinfo(np.uint32).max, dtype=np.uint32)
-        for start in range(0, len(hashes), _BATCH):
-            chunk = hashes[start : start + _BATCH, None] * multiply + add
-            np.minimum(values, chunk.min(axis=0), out=values)
+        values = _minimums(hashes, multiply, add)
         minhash = MinHash(seed=seed, hashvalues=values, scheme="affine32")
         out.append(Sketch(minhash, len(hashes)))
     return out

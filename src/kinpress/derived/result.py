@@ -46,7 +46,9 @@ COMMON_FILES = 5
 """A k-gram in at least this many files (or COMMON_SHARE of them, if more, at most COMMON_MOST) is
 the set's boilerplate (a licence header, a template, a log line every chunk has) and never seeds
 a stretch; files are counted where the k-gram occurs, picked by winnowing or not
-(`passages.common_kgrams`)."""
+(`passages.common_kgrams`). The files must also fall in at least this many groups of near copies
+(`prefilter.near_copy_groups`): a module copied into a dozen services of a repository is all
+common content, and counted by files alone none of its 66 pairs was even proposed."""
 
 COMMON_SHARE = 0.02
 
