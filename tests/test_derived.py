@@ -323,6 +323,20 @@ def test_families_are_connected_components() -> None:
     assert len(found[0].findings) == 2
 
 
+def test_a_familys_links_are_its_maximum_spanning_tree_by_score() -> None:
+    def link(a: str, b: str, score: float) -> DerivedFinding:
+        return DerivedFinding(a, b, "near_copy", score, score, score, 0.001, a_path=a,
+                              b_path=b, a_hash="", b_hash="")  # fmt: skip
+
+    # four files, all six pairs: the strongest three that join them (Kruskal)
+    found = [link("a", "b", 0.9), link("a", "c", 0.5), link("a", "d", 0.6),
+             link("b", "c", 0.8), link("b", "d", 0.4), link("c", "d", 0.7)]  # fmt: skip
+    (family,) = families(found)
+    assert [(f.a, f.b) for f in family.links()] == [("a", "b"), ("b", "c"), ("c", "d")]
+    (chain,) = families(found[:1] + found[3:4])  # a tree already: all of it
+    assert chain.links() == chain.findings
+
+
 def test_line_blocks_cut_after_line_breaks_and_keep_every_byte() -> None:
     data = b"".join(b"line %d with some words\n" % k for k in range(40)) + b"tail"
     blocks = line_blocks(data, 64)

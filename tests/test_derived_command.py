@@ -97,6 +97,31 @@ def test_text_output_says_where_files_of_one_name_lie(
     assert out.startswith("family 1: notes.txt, readme.txt\n") and "where:" not in out
 
 
+def test_a_large_family_lists_how_each_file_joins_it_and_counts_the_rest(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # 24 generated files of one template made 276 findings, 552 lines of text: a family of more
+    # than LISTED_PAIRS findings lists its maximum spanning tree by score (each file with the
+    # one it is most like) and counts the rest; --json still gives every pair.
+    folder = tmp_path / "made"
+    folder.mkdir()
+    template = _text(3)
+    for k in range(8):
+        (folder / f"variant{k}.txt").write_text(template.replace("w1 ", f"v{k} ", 1 + k))
+    for k in range(4):
+        (folder / f"other{k}.txt").write_text(_text(40 + k))
+    assert cli.main(["derived", str(folder), "--exhaustive", *FAST]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    assert lines[0] == "family 1: " + ", ".join(f"variant{k}.txt" for k in range(8))
+    pairs = [line for line in lines if line.startswith("  variant")]
+    assert len(pairs) == 7  # one fewer than the files, every file in one of them
+    assert {f"variant{k}.txt" for k in range(8)} <= {w for line in pairs for w in line.split()}
+    more = "  ... and 21 more pairs among these 8 files: above, each file with the one it is"
+    assert any(line.startswith(more) for line in lines)
+    assert cli.main(["derived", str(folder), "--exhaustive", "--json", *FAST]) == 0
+    assert len(json.loads(capsys.readouterr().out)) == 28
+
+
 def test_text_output_says_what_each_number_means(
     share: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:

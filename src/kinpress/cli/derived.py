@@ -32,6 +32,11 @@ LEGEND = (
 )
 """What each number of the text listing means, printed under it."""
 
+LISTED_PAIRS = 10
+"""A family with more findings lists, in text, only those that join each of its files to it
+most strongly (`Family.links`, one fewer than its files): 24 generated files of one template
+made 276 findings, 552 lines of them."""
+
 
 def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     parser = _options.command(
@@ -127,7 +132,14 @@ def run(args: argparse.Namespace, console: Console) -> int:
         ]
         if found:
             lines.append(f"  where: {'; '.join(found)}")
-        lines += [f"  {line}" for f in family.findings for line in _finding_lines(f)]
+        shown = family.findings if len(family.findings) <= LISTED_PAIRS else family.links()
+        lines += [f"  {line}" for f in shown for line in _finding_lines(f)]
+        if len(shown) < len(family.findings):
+            lines.append(
+                f"  ... and {len(family.findings) - len(shown):,} more pairs among these"
+                f" {len(family.members)} files: above, each file with the one it is most like"
+                " (every pair: --format tsv or --json)"
+            )
     if args.same_source and report.same_source:
         lines += ["", "same source, nothing copied:"]
         lines += [f"  {line}" for f in report.same_source for line in _finding_lines(f)]

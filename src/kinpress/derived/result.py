@@ -204,6 +204,30 @@ class Family:
     members: tuple[str, ...]
     findings: tuple[DerivedFinding, ...]
 
+    def links(self) -> tuple[DerivedFinding, ...]:
+        """A maximum spanning tree of the family by score: the strongest findings that join
+        every member (Kruskal's algorithm, highest score first, ties by the pair's names),
+        len(members) - 1 of them, in the order of `findings`. A family of 24 generated files
+        of one template holds 276 findings; these 23 say how each file joins it."""
+        parent = {name: name for name in self.members}
+
+        def root(name: str) -> str:
+            while parent[name] != name:
+                parent[name] = parent[parent[name]]
+                name = parent[name]
+            return name
+
+        chosen = set()
+        for k in sorted(
+            range(len(self.findings)),
+            key=lambda k: (-self.findings[k].score, self.findings[k].a, self.findings[k].b),
+        ):
+            a, b = root(self.findings[k].a), root(self.findings[k].b)
+            if a != b:
+                parent[a] = b
+                chosen.add(k)
+        return tuple(f for k, f in enumerate(self.findings) if k in chosen)
+
 
 def relation(
     a_explained_by_b: float, b_explained_by_a: float, size_a: int, size_b: int, same: bool
