@@ -227,6 +227,44 @@ def test_derived_findings_show_their_shared_passage() -> None:
     assert doc["derived"]["findings"][0]["relation"]
 
 
+def test_a_large_derived_family_shows_how_each_file_joins_it() -> None:
+    # As the command's text does, the page lists a family of more than LISTED_PAIRS findings
+    # by its links (each file with the one it is most like) and counts the rest; the JSON keeps
+    # every finding and says which pairs were shown.
+    from kinpress.derived import LISTED_PAIRS, find_derived
+
+    rng = random.Random(8)
+    words = [f"word{i}" for i in range(300)]
+    template = " ".join(rng.choice(words) for _ in range(400))
+    items = [
+        Item(f"v{k}.txt", template.replace("word1 ", f"var{k} ", 1 + k).encode(), f"v{k}.txt")
+        for k in range(7)
+    ]
+    items += [
+        Item(f"o{k}.txt", " ".join(rng.choice(words) for _ in range(400)).encode(), f"o{k}.txt")
+        for k in range(3)
+    ]
+    spec = "zlib:level=9"
+    found = find_derived(items, spec, exhaustive=True)
+    assert len(found.findings) == 21 > LISTED_PAIRS
+    dm = distance_matrix(items, compressor(spec))
+    choice = CompressorChoice(spec, dm.conditional, dm.strand, given=True)
+    report = build_report(items, dm, choice, derived=found, passages=True)
+    assert len(report.passages) == 6  # the pairs shown, not all 21
+    page = render_html(report)
+    assert "family 1: 7 files, 21 findings" in page
+    assert "… and 15 more pairs among these 7 files" in page
+    table = page[
+        page.index('id="derived-findings"') : page.index("</table>", page.index("derived-findings"))
+    ]
+    assert table.count("<td>near_copy</td>") + table.count("<td>identical</td>") == 6
+    doc = report.as_json()
+    assert len(doc["derived"]["findings"]) == 21
+    (family,) = doc["derived"]["families"]
+    assert family["findings"] == 21 and len(family["shown"]) == 6
+    assert family["members"] == [f"v{k}.txt" for k in range(7)]
+
+
 # The command
 
 

@@ -32,11 +32,6 @@ LEGEND = (
 )
 """What each number of the text listing means, printed under it."""
 
-LISTED_PAIRS = 10
-"""A family with more findings lists, in text, only those that join each of its files to it
-most strongly (`Family.links`, one fewer than its files): 24 generated files of one template
-made 276 findings, 552 lines of them."""
-
 
 def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     parser = _options.command(
@@ -132,7 +127,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
         ]
         if found:
             lines.append(f"  where: {'; '.join(found)}")
-        shown = family.findings if len(family.findings) <= LISTED_PAIRS else family.links()
+        shown = family.shown()
         lines += [f"  {line}" for f in shown for line in _finding_lines(f)]
         if len(shown) < len(family.findings):
             lines.append(

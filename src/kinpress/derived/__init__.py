@@ -41,13 +41,21 @@ from .null import (
     kind_of,
     line_blocks,
 )
-from .prefilter import Prefilter, Sketch, candidate_pairs, shingle_hashes, sketches
+from .prefilter import (
+    Prefilter,
+    Sketch,
+    candidate_pairs,
+    near_copy_groups,
+    shingle_hashes,
+    sketches,
+)
 from .result import (
     COMMON_FILES,
     COMMON_MOST,
     COMMON_SHARE,
     COVERED,
     FOUND_IN_ORDER,
+    LISTED_PAIRS,
     RELATIONS,
     SAME_SOURCE,
     SIMILAR_SIZE,
@@ -71,6 +79,7 @@ __all__ = [
     "COVERED",
     "DONOR_OVERLAP",
     "FOUND_IN_ORDER",
+    "LISTED_PAIRS",
     "MIN_KIND_DONORS",
     "RELATIONS",
     "SAME_SOURCE",
@@ -93,6 +102,7 @@ __all__ = [
     "find_derived",
     "kind_of",
     "line_blocks",
+    "near_copy_groups",
     "relation",
     "shingle_hashes",
     "sketches",

@@ -19,7 +19,7 @@ from ..trees import TreeResult, build_tree
 
 if TYPE_CHECKING:
     from ..calibration import CalibrationReport
-    from ..derived import DerivedReport
+    from ..derived import DerivedReport, Family
     from ..origins import Classification, UnknownGroups
 
 SIMILARITY_CAUTION = (
@@ -151,15 +151,23 @@ class Report:
     classification: Classification | None = None
     unknown_groups: UnknownGroups | None = None
 
+    @property
+    def families(self) -> tuple[Family, ...]:
+        """The derived findings' families (kinpress.derived.families), none without them."""
+        from ..derived import families
+
+        return () if self.derived is None else families(self.derived.findings)
+
     def as_json(self) -> dict[str, object]:
         """title, items, left_out, compressor (spec, conditional, strand, given, reasons,
         warnings, calibration), matrix, tree, groups, map, nearest, provenance, cautions,
-        label_column, and derived (findings and same_source), passages and classification (with
-        its unknown_groups) when present (null otherwise)."""
+        label_column, and derived (findings, their families and same_source), passages and
+        classification (with its unknown_groups) when present (null otherwise)."""
         derived = None
         if self.derived is not None:
             derived = {
                 "findings": self.derived.findings,
+                "families": self.families,
                 "same_source": self.derived.same_source,
                 "counts": self.derived.counts,
                 "max_fpr": self.derived.max_fpr,
@@ -294,8 +302,11 @@ def build_report(
     )
     shown: list[SharedPassage] = []
     if derived is not None and passages:
+        from ..derived import families
+
         by_name = {item.name: item for item in items}
-        shown = [p for f in derived.findings if (p := _passage(f, by_name)) is not None]
+        listed = [f for family in families(derived.findings) for f in family.shown()]
+        shown = [p for f in listed if (p := _passage(f, by_name)) is not None]
     cautions = [SIMILARITY_CAUTION, NCD_CAUTION, TREE_CAUTION, MAP_CAUTION]
     if tree.support is not None:
         cautions.append(BOOTSTRAP_CAUTION)
