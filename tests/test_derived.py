@@ -31,6 +31,7 @@ from kinpress.derived import (
     families,
     find_derived,
     line_blocks,
+    propose,
     relation,
     shingle_hashes,
 )
@@ -638,3 +639,19 @@ def test_near_copies_are_grouped_and_files_sharing_a_licence_are_not() -> None:
     groups = near_copy_groups([*copies, *licensed, excerpt, np.zeros(0, dtype=np.uint32)], 0)
     assert len(set(groups[:4].tolist())) == 1
     assert len(set(groups[3:].tolist())) == 6
+
+
+def test_proposals_made_beforehand_give_the_same_findings() -> None:
+    # The command line proposes candidates before -c auto (whose estimate counts them) and
+    # hands them to find_derived, which then does not propose again.
+    code = _MadeUpCode(21)
+    files = [code.file(most=10) for _ in range(30)]
+    files.append(files[3] + code.file())
+    items = [Item(f"p{k}.go", data, f"p{k}.go") for k, data in enumerate(files)]
+    made = propose(items)
+    given = find_derived(items, "zlib:level=9", proposals=made)
+    own = find_derived(items, "zlib:level=9")
+    assert given.findings == own.findings and given.counts == own.counts
+    assert {(f.a, f.b) for f in given.findings} == {("p3.go", "p30.go")}
+    with pytest.raises(ValueError, match="proposals of 31 items given for 30 items"):
+        find_derived(items[:30], "zlib:level=9", proposals=made)

@@ -12,12 +12,17 @@ import pytest
 
 from conftest import DATASETS
 from kinpress import calibration, cli
-from kinpress.calibration import CompressorCalibration, Normality, estimate_job_seconds
+from kinpress.calibration import (
+    CompressorCalibration,
+    Normality,
+    ProposedPairs,
+    estimate_job_seconds,
+)
 from kinpress.calibration.choose import choose_compressor
 from kinpress.cli import Console
 from kinpress.cli._console import _Pace
-from kinpress.derived import default_null_pairs
-from kinpress.items import Item
+from kinpress.derived import default_null_pairs, propose
+from kinpress.items import Item, load_items
 
 GENOMES = DATASETS / "karsvell-frogs" / "genomes"
 
@@ -64,13 +69,27 @@ def test_a_budget_the_matrix_fits_but_its_replicates_do_not_is_said_so() -> None
     _, report = choose_compressor(items, candidates=["zlib:level=1"], budget_seconds=600,
                                   replicates=10, null_pairs=300)  # fmt: skip
     assert "(the matrix and 10 bootstrap replicates and 300 null pairs)" in report.reasons[-1]
-    # derived's job: its prefilter will check far fewer pairs than the whole matrix the
-    # estimate counts (Go's source tree: 30.9 h estimated, 19 min run), and the words say so
+    # derived's job: the pairs its prefilter proposes, both ways, in place of the matrix
+    proposed = ProposedPairs.of([(0, 2)], [len(item.data) for item in items])
     _, derived = choose_compressor(items, candidates=["zlib:level=1"], budget_seconds=600,
-                                   null_pairs=300)  # fmt: skip
-    assert (
-        "(every pair, as if the prefilter pruned none, and 300 null pairs)" in derived.reasons[-1]
-    )
+                                   null_pairs=300, proposed=proposed)  # fmt: skip
+    assert "(the 1 pair to check, both ways, and 300 null pairs)" in derived.reasons[-1]
+
+
+def test_derived_counts_the_pairs_its_prefilter_proposes_not_the_matrix() -> None:
+    # Go's source tree: every pair of 8,146 files put the job at 30.9 h; the prefilter proposed
+    # 60 thousand of the 33 million pairs and the run took 19 minutes. The estimate counts the
+    # proposed pairs, each both ways (C(ab) and C(ba): both items twice), in the matrix's place.
+    result = _calibrated(1.0)
+    lengths = [1000, 2000, 3000, 4000]
+    proposed = ProposedPairs.of([(0, 1), (2, 3)], lengths)
+    assert proposed == ProposedPairs(2, 2 * (1000 + 2000) + 2 * (3000 + 4000))
+    found = estimate_job_seconds(result, lengths, 1, proposed=proposed)
+    assert found == pytest.approx((10_000 + proposed.fed) / 1e6)
+    assert found < estimate_job_seconds(result, lengths, 1)
+    every = ProposedPairs.every(lengths)
+    all_pairs = [(i, j) for i in range(4) for j in range(i + 1, 4)]
+    assert every == ProposedPairs.of(all_pairs, lengths)
 
 
 def _fake_auto(calls: list[dict[str, object]]) -> object:
@@ -93,6 +112,11 @@ def test_auto_on_the_command_line_counts_bootstrap_and_null(
     assert [(c["job"], c["replicates"], c["null_pairs"]) for c in calls] == [
         ("tree", 2, 0), ("derived", 0, 60),
     ]  # fmt: skip
+    # derived's estimate counts the pairs its prefilter proposes (those it then checks)
+    items = load_items([GENOMES])
+    expected = ProposedPairs.of(propose(items).pairs, [len(item.data) for item in items])
+    assert calls[1]["proposed"] == expected
+    assert expected.pairs < len(items) * (len(items) - 1) // 2
 
 
 class _FakeClock:

@@ -51,6 +51,7 @@ from .controls import (
 )
 from .estimate import (
     ClassifyUnit,
+    ProposedPairs,
     estimate_classify_seconds,
     estimate_job_seconds,
     time_classify_unit,
@@ -101,6 +102,7 @@ __all__ = [
     "Controls",
     "KnownAnswer",
     "Normality",
+    "ProposedPairs",
     "SizeSweep",
     "TaskFigures",
     "auto_choice",

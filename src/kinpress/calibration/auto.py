@@ -16,6 +16,7 @@ from ..measure import Progress
 from ..origins.scores import DEFAULT_SIGNIFICANCE
 from .choose import DEFAULT_BUDGET_SECONDS, calibrate, choose_compressor, holds
 from .controls import DEFAULT_SEED
+from .estimate import ProposedPairs
 from .job import LABELLED_JOBS, Choice, check_job_inputs, choose_for_job
 from .measure import (
     DEFAULT_MAX_BYTES,
@@ -40,12 +41,13 @@ def resolve_auto(
     null_pairs: int = 0,
     significance: float = DEFAULT_SIGNIFICANCE,
     progress: Progress | None = None,
+    proposed: ProposedPairs | None = None,
 ) -> str:
     """The spec ``-c auto`` uses for ``job`` on ``items`` (see :func:`auto_choice`)."""
     return auto_choice(
         items, job, targets=targets, budget_seconds=budget_seconds, strand=strand,
         engine=engine, cache=cache, say=say, replicates=replicates, null_pairs=null_pairs,
-        significance=significance, progress=progress,
+        significance=significance, progress=progress, proposed=proposed,
     )[0]  # fmt: skip
 
 
@@ -63,13 +65,15 @@ def auto_choice(
     null_pairs: int = 0,
     significance: float = DEFAULT_SIGNIFICANCE,
     progress: Progress | None = None,
+    proposed: ProposedPairs | None = None,
 ) -> tuple[str, CalibrationReport | None]:
     """The spec ``-c auto`` uses for ``job`` on ``items``, and the calibration table behind it
     (None for a choice kept by an earlier version, which did not keep its table):
     :func:`choose_for_job`'s choice
     (classify: ``items`` is the labelled reference, ``targets`` the unknowns, ``significance``
     the rate its abstention refuses at; ``replicates`` and ``null_pairs`` the job's work beyond
-    its matrix), said through ``say``, the measuring told to ``progress``, with a
+    its matrix, ``proposed`` the pairs it measures in place of the matrix's), said through
+    ``say``, the measuring told to ``progress``, with a
     MeasurementWarning when even it cannot hold the largest pair of items.
 
     The choice is kept in ``cache``, keyed by the items' contents (and labels for a labelled
@@ -84,8 +88,9 @@ def auto_choice(
     check_job_inputs(items, job)  # said before "calibrating", not after it
     cores = engine.jobs
     key = _auto_key(
-        items, job, targets, budget_seconds, cores, strand, replicates, null_pairs, significance
-    )
+        items, job, targets, budget_seconds, cores, strand, replicates, null_pairs, significance,
+        proposed,
+    )  # fmt: skip
     stored = cache.get_choice(key) if cache is not None else None
     table: CalibrationReport | None = None
     if stored is None:
@@ -93,7 +98,8 @@ def auto_choice(
         choice = choose_for_job(items, job, targets=targets, budget_seconds=budget_seconds,
                                 strand=strand, engine=engine, cache=cache,
                                 replicates=replicates, null_pairs=null_pairs,
-                                significance=significance, progress=progress)  # fmt: skip
+                                significance=significance, progress=progress,
+                                proposed=proposed)  # fmt: skip
         stored = _choice_json(choice, items, job in LABELLED_JOBS)
         table = choice.report
         if cache is not None:
@@ -129,6 +135,7 @@ def _auto_key(
     replicates: int,
     null_pairs: int,
     significance: float = DEFAULT_SIGNIFICANCE,
+    proposed: ProposedPairs | None = None,
 ) -> str:
     """The size-cache key of :func:`resolve_auto`'s choice (what its docstring lists)."""
     import hashlib
@@ -144,7 +151,8 @@ def _auto_key(
         ),
         *(compressor(spec).cache_key for spec in candidates),
         f"seed={DEFAULT_SEED} budget={budget_seconds} cores={cores} strand={strand}"
-        + (f" replicates={replicates} null_pairs={null_pairs}" if replicates or null_pairs else ""),
+        + (f" replicates={replicates} null_pairs={null_pairs}" if replicates or null_pairs else "")
+        + ("" if proposed is None else f" proposed={proposed.pairs}:{proposed.fed}"),
         f"job={job} targets={len(targets)}:{sum(len(t.data) for t in targets)}"
         f" ranked=named-right+missing-refused significance={significance}"
         if labelled

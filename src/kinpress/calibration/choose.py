@@ -29,7 +29,7 @@ from .controls import (
     DEFAULT_SEED,
     make_controls,
 )
-from .estimate import _cores, _estimate, _job_words
+from .estimate import ProposedPairs, _cores, _estimate, _job_words
 from .estimate import estimate_classify_seconds as estimate_classify_seconds  # re-exported
 from .estimate import estimate_job_seconds as estimate_job_seconds  # re-exported
 from .measure import (
@@ -210,11 +210,13 @@ def choose_compressor(
     max_bytes: int = DEFAULT_MAX_BYTES,
     replicates: int = 0,
     null_pairs: int = 0,
+    proposed: ProposedPairs | None = None,
     progress: Progress | None = None,
 ) -> tuple[str, CalibrationReport]:
     """The compressor for ``-c auto``: the best one (as :func:`calibrate` ranks them) among those
     whose estimated whole-job time (:func:`estimate_job_seconds`, with ``replicates`` bootstrap
-    matrices and ``null_pairs`` of derived's null) is within ``budget_seconds``;
+    matrices, ``null_pairs`` of derived's null, and the ``proposed`` pairs in place of the
+    matrix's where the job measures fewer) is within ``budget_seconds``;
     quality is worth paying for only inside the budget. If none fits the budget, the fastest
     reliable one; the reasons say which and why. ``cores`` is the cores the estimate assumes
     (default: every core this process may use); ``progress`` goes to :func:`calibrate`.
@@ -223,11 +225,16 @@ def choose_compressor(
     lengths = [len(item.data) for item in items]
     cores = cores or _cores()
 
-    extra = {"replicates": replicates, "null_pairs": null_pairs}
-    words = _job_words(replicates, null_pairs)
+    words = _job_words(replicates, null_pairs, proposed)
+
+    def seconds_of(result: CompressorCalibration) -> float:
+        return estimate_job_seconds(
+            result, lengths, cores, strand, replicates=replicates, null_pairs=null_pairs,
+            proposed=proposed,
+        )  # fmt: skip
 
     def slow(result: CompressorCalibration) -> str | None:
-        seconds = estimate_job_seconds(result, lengths, cores, strand, **extra)
+        seconds = seconds_of(result)
         if seconds <= budget_seconds:
             return None
         return (
@@ -241,7 +248,7 @@ def choose_compressor(
     chosen = report.result(recommended)
     estimate = (
         f"estimated job time with {recommended}{words}: "
-        f"{_estimate(estimate_job_seconds(chosen, lengths, cores, strand, **extra))} on"
+        f"{_estimate(seconds_of(chosen))} on"
         f" {cores} cores "
         f"(budget {duration_text(budget_seconds)})"
     )

@@ -31,7 +31,7 @@ from .controls import (
     DEFAULT_SEED,
     _rng,
 )
-from .estimate import ClassifyUnit, _estimate, time_classify_unit
+from .estimate import ClassifyUnit, ProposedPairs, _estimate, time_classify_unit
 from .estimate import estimate_classify_seconds as estimate_classify_seconds  # re-exported
 from .estimate import estimate_job_seconds as estimate_job_seconds  # re-exported
 from .measure import (
@@ -487,6 +487,7 @@ def choose_for_job(
     null_pairs: int = 0,
     significance: float = DEFAULT_SIGNIFICANCE,
     progress: Progress | None = None,
+    proposed: ProposedPairs | None = None,
 ) -> Choice:
     """The compressor ``-c auto`` uses for a job of kind ``job`` (one of JOBS) on ``items``.
 
@@ -506,9 +507,10 @@ def choose_for_job(
     large set that favours the quicker compressors, as a large set needs. The job's time is
     estimated on the ``engine``'s workers (default: a `LocalEngine` on every core), where the
     measuring runs too, and counts ``replicates`` bootstrap matrices (tree --bootstrap) and
-    ``null_pairs`` of derived's null beside the matrix. ``progress`` is told how the measuring
-    goes, each phase named by the candidate and what it measures ("pairs (auto trying lzma:
-    held-out reference, content)").
+    ``null_pairs`` of derived's null beside the matrix, and ``proposed``, the pairs a job that
+    measures fewer than the matrix's measures in their place (derived). ``progress`` is told
+    how the measuring goes, each phase named by the candidate and what it measures ("pairs
+    (auto trying lzma: held-out reference, content)").
     """
     if job not in JOBS:
         raise ValueError(f"unknown job {job!r}; use one of {', '.join(JOBS)}")
@@ -531,13 +533,14 @@ def choose_for_job(
                       figures, tuple(reasons))  # fmt: skip
     spec, report = choose_compressor(
         items, budget_seconds=budget_seconds, candidates=candidates, seed=seed, cores=cores,
-        strand=strand, replicates=replicates, null_pairs=null_pairs, progress=progress,
+        strand=strand, replicates=replicates, null_pairs=null_pairs, proposed=proposed,
+        progress=progress,
     )  # fmt: skip
     lengths = [len(item.data) for item in items]
 
     def quick(result: CompressorCalibration) -> bool:
         seconds = estimate_job_seconds(result, lengths, cores, strand, replicates=replicates,
-                                       null_pairs=null_pairs)  # fmt: skip
+                                       null_pairs=null_pairs, proposed=proposed)  # fmt: skip
         return seconds <= budget_seconds
 
     chosen, figures, extra = _check_real_pairs(

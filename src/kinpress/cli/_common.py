@@ -31,6 +31,7 @@ from ._console import Console
 from ._options import UsageError, budget_seconds
 
 if TYPE_CHECKING:
+    from ..calibration.estimate import ProposedPairs
     from ..calibration.measure import CalibrationReport
 
 
@@ -140,11 +141,13 @@ def resolve_spec(
     console: Console,
     targets: Sequence[Item] = (),
     job: str | None = None,
+    proposed: ProposedPairs | None = None,
 ) -> str:
     """The compressor spec to use: as given, or with auto the one calibration chose for this
     command's job (`job`, default the command's name; see calibration.auto_choice), its time
-    counting --bootstrap replicates and derived's null."""
-    return resolve_choice(args, items, console, targets, job)[0]
+    counting --bootstrap replicates, derived's null and the `proposed` pairs a job measures in
+    place of the matrix's."""
+    return resolve_choice(args, items, console, targets, job, proposed)[0]
 
 
 def resolve_choice(
@@ -153,6 +156,7 @@ def resolve_choice(
     console: Console,
     targets: Sequence[Item] = (),
     job: str | None = None,
+    proposed: ProposedPairs | None = None,
 ) -> tuple[str, CalibrationReport | None]:
     """resolve_spec's spec, and with auto the calibration table behind the choice (None for a
     given compressor, or a choice an earlier version kept without its table)."""
@@ -175,6 +179,7 @@ def resolve_choice(
             strand=args.strand, engine=args.engine, cache=cache, say=console.say,
             replicates=getattr(args, "bootstrap", 0) or 0, null_pairs=null_pairs,
             significance=DEFAULT_SIGNIFICANCE if given is None else given, progress=progress,
+            proposed=proposed,
         )  # fmt: skip
     return str(args.compressor), table
 

@@ -87,7 +87,21 @@ def run(args: argparse.Namespace, console: Console) -> int:
         raise UsageError(f"--json and --format {args.format}: give one")
     _options.refuse_budget_without_auto(args)
     items = load(args, None)
-    spec = resolve_spec(args, items, console)
+    proposals, proposed = None, None
+    if args.compressor == "auto" and len(items) >= 2:
+        # auto weighs the job's time against --budget: the pairs the prefilter proposes, not
+        # every pair (on Go's source tree 60 thousand of 33 million, 19 minutes, not 30 hours)
+        from ..calibration import ProposedPairs
+        from ..derived import propose
+
+        proposals = propose(items, seed=args.seed)
+        lengths = [len(item.data) for item in items]
+        proposed = (
+            ProposedPairs.every(lengths)
+            if args.exhaustive
+            else ProposedPairs.of(proposals.pairs, lengths)
+        )
+    spec = resolve_spec(args, items, console, proposed=proposed)
     with as_usage_errors(), opened_cache(args) as cache, console.progress() as progress:
         report = find_derived(
             items,
@@ -98,6 +112,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
             engine=args.engine,
             cache=cache,
             progress=progress,
+            proposals=proposals,
         )
     c = report.counts
     console.say(

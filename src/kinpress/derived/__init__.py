@@ -43,9 +43,11 @@ from .null import (
 )
 from .prefilter import (
     Prefilter,
+    Proposals,
     Sketch,
     candidate_pairs,
     near_copy_groups,
+    propose,
     shingle_hashes,
     sketches,
 )
@@ -92,6 +94,7 @@ __all__ = [
     "NullSummary",
     "PairCounts",
     "Prefilter",
+    "Proposals",
     "Sketch",
     "_donor_pools",
     "_null_material",
@@ -103,6 +106,7 @@ __all__ = [
     "kind_of",
     "line_blocks",
     "near_copy_groups",
+    "propose",
     "relation",
     "shingle_hashes",
     "sketches",

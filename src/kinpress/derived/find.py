@@ -34,7 +34,7 @@ from ..measure import (
 )
 from ..passages import Fingerprint, common_kgrams
 from .null import _fpr, _NullPlan, _plan_null, _summary, default_null_pairs
-from .prefilter import Prefilter, _all_pairs, candidate_pairs, near_copy_groups, sketches
+from .prefilter import Prefilter, Proposals, _all_pairs, near_copy_groups, propose
 from .result import (
     COMMON_FILES,
     FOUND_IN_ORDER,
@@ -236,10 +236,13 @@ def find_derived(
     engine: Engine | None = None,
     cache: SizeCache | None = None,
     progress: Progress | None = None,
+    proposals: Proposals | None = None,
 ) -> DerivedReport:
     """Pairs of items where one is copied from, or derived from, the other.
 
-    1. Candidates: every pair with `exhaustive`, else the pairs the `Prefilter` proposes.
+    1. Candidates: every pair with `exhaustive`, else the pairs the `Prefilter` proposes
+       (`propose`; `proposals` made beforehand with the same prefilter and seed are used as
+       given).
     2. Each candidate is measured both ways, e(a|b) = 1 - C(a|b)/C(a) and e(b|a), through
        `conditional_sizes` (engine and cache as for a matrix).
     3. The null: N = `null_pairs` (default ceil(3 / max_fpr): enough to tell an fpr at max_fpr
@@ -271,11 +274,16 @@ def find_derived(
     if len(items) < 2:
         raise InputError(f"need at least two items to compare, got {len(items)}")
     measurement = Measurement.of(compressor, engine=engine, cache=cache, progress=progress)
-    prefilter = prefilter or Prefilter()
     digests = [content_digest(item.data) for item in items]
-    sketched = sketches(items, prefilter, seed)
+    if proposals is None:
+        proposals = propose(items, prefilter, seed)
+    elif len(proposals.sketches) != len(items):
+        raise ValueError(
+            f"proposals of {len(proposals.sketches)} items given for {len(items)} items"
+        )
+    sketched = list(proposals.sketches)
     n = len(items)
-    proposed = candidate_pairs(sketched, digests, prefilter)
+    proposed = set(proposals.pairs)
     pairs = sorted(_all_pairs(n) if exhaustive else proposed)
     count = (null_pairs if null_pairs is not None else default_null_pairs(max_fpr)) if pairs else 0
     plan = _plan_null(items, pairs, sketched, count, random.Random(seed))

@@ -210,5 +210,26 @@ def candidate_pairs(
     return pairs
 
 
+@dataclass(frozen=True)
+class Proposals:
+    """The prefilter's work on a set of items: each item's sketch (`sketches`), and the index
+    pairs it proposes (`pairs`, see `candidate_pairs`)."""
+
+    sketches: tuple[Sketch, ...]
+    pairs: frozenset[tuple[int, int]]
+
+
+def propose(items: Sequence[Item], prefilter: Prefilter | None = None, seed: int = 0) -> Proposals:
+    """The pairs of `items` the prefilter proposes, and the sketches it proposed them from:
+    what `find_derived` starts with, made beforehand where something must know the candidates
+    first (-c auto's estimate of the job's time counts them)."""
+    from ..measure import content_digest
+
+    prefilter = prefilter or Prefilter()
+    sketched = sketches(items, prefilter, seed)
+    digests = [content_digest(item.data) for item in items]
+    return Proposals(tuple(sketched), frozenset(candidate_pairs(sketched, digests, prefilter)))
+
+
 def _all_pairs(n: int) -> Iterator[tuple[int, int]]:
     return ((i, j) for i in range(n) for j in range(i + 1, n))
