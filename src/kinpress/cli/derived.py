@@ -76,7 +76,8 @@ def add_parser(subparsers: argparse._SubParsersAction[argparse.ArgumentParser]) 
     out.add_argument(
         "--same-source",
         action="store_true",
-        help="also list related pairs that share no long stretch (one source, nothing copied)",
+        help="also list related pairs that share too little in order to call either derived"
+        " (files of one source)",
     )
 
 
@@ -125,8 +126,8 @@ def run(args: argparse.Namespace, console: Console) -> int:
     if kin:
         pairs = "pair shares" if kin == 1 else "pairs share"
         console.say(
-            f"derived: {kin:,} more related {pairs} no long stretch in order: files of one"
-            " source, nothing copied" + ("" if args.same_source else " (--same-source lists them)")
+            f"derived: {kin:,} more related {pairs} too little in order to call either derived:"
+            " files of one source" + ("" if args.same_source else " (--same-source lists them)")
         )
     shown = report.findings + (report.same_source if args.same_source else ())
     fmt = "json" if args.json else args.format
@@ -151,7 +152,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
                 " (every pair: --format tsv or --json)"
             )
     if args.same_source and report.same_source:
-        lines += ["", "same source, nothing copied:"]
+        lines += ["", "same source, too little in order to call either derived:"]
         lines += [f"  {line}" for f in report.same_source for line in _finding_lines(f)]
     lines += [LEGEND] if lines else ["no derived pairs found"]
     lines += ["", DERIVED_CAUTION]

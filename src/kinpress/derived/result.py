@@ -19,8 +19,9 @@ RELATIONS = ("identical", "near_copy", "a_contains_b", "b_contains_a", "partial_
 """Relations of a derived pair: one file holds the other's content, in order."""
 
 SAME_SOURCE = "same_source"
-"""Relation of a pair that compresses well together but shares no long stretch in order: files of
-one source (a system's logs, a project's modules, a template's documents), not a derivation."""
+"""Relation of a pair that compresses well together but shares too little in order (stretches short
+of SPANNED and FOUND_IN_ORDER) to call either derived: files of one source (a system's logs, a
+project's modules, a template's documents), or a rewrite that kept less than half of a file."""
 
 SPANNED = 0.5
 """Derived only when stretches shared in order (see `evidence`) span at least this fraction of
