@@ -95,7 +95,9 @@ def run(args: argparse.Namespace, console: Console) -> int:
         from ..calibration import ProposedPairs
         from ..derived import propose
 
-        proposals = propose(items, seed=args.seed)
+        console.say("derived: the prefilter chooses the pairs to check ...")
+        with console.progress():  # a heartbeat: on Go's source tree this takes about 45 s
+            proposals = propose(items, seed=args.seed)
         lengths = [len(item.data) for item in items]
         proposed = (
             ProposedPairs.every(lengths)
