@@ -33,6 +33,7 @@ from kinpress.items import (
     parse_fasta,
     read_label_table,
     read_labels,
+    reference_items,
     reverse_complement,
     sequence_records,
 )
@@ -425,6 +426,21 @@ def test_many_empty_files_get_one_warning_that_counts_them(tmp_path: Path) -> No
     assert len(said) == 1
     assert said[0].startswith("12 empty files left out: ")
     assert "pkg00/__init__.py" in said[0] and said[0].endswith("and 9 more")
+
+
+def test_a_references_empty_files_get_one_warning_too(tmp_path: Path) -> None:
+    # A reference's origins are read folder by folder; their empty files are counted together.
+    for origin in ("alpha", "beta", "gamma"):
+        for k in range(2):
+            (tmp_path / origin / f"m{k}").mkdir(parents=True)
+            (tmp_path / origin / f"m{k}" / "__init__.py").write_bytes(b"")
+        (tmp_path / origin / "code.py").write_bytes(origin.encode() * 20)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        items = reference_items(tmp_path)
+    assert sorted(i.label for i in items) == ["alpha", "beta", "gamma"]
+    said = [str(w.message) for w in caught if issubclass(w.category, InputWarning)]
+    assert len(said) == 1 and said[0].startswith("6 empty files left out: ")
 
 
 def test_missing_path_is_an_input_error_naming_it(tmp_path: Path) -> None:

@@ -17,6 +17,8 @@ import sys
 import warnings
 import zlib
 from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
+from contextlib import contextmanager
+from contextvars import ContextVar
 from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, BinaryIO, TypeAlias
@@ -474,10 +476,31 @@ EMPTY_NAMED = 3
 """Up to this many empty files get a warning each; more get one warning that counts them."""
 
 
+_GATHERED: ContextVar[list[str] | None] = ContextVar("empty files gathered", default=None)
+"""Where `_warn_empty` adds empty files inside `_gathering_empty` (one warning for them all)."""
+
+
+@contextmanager
+def _gathering_empty() -> Iterator[None]:
+    """One warning, at the end, for the empty files of every `load_items` call inside (a
+    reference's origin subfolders are read one by one)."""
+    found: list[str] = []
+    token = _GATHERED.set(found)
+    try:
+        yield
+    finally:
+        _GATHERED.reset(token)
+    _warn_empty(found)
+
+
 def _warn_empty(paths: Sequence[str]) -> None:
     """One warning for the empty files left out: each named where there are few, counted with
     the first few named where there are many (a Python tree's empty __init__.py files would
     otherwise fill the screen)."""
+    gathered = _GATHERED.get()
+    if gathered is not None:
+        gathered.extend(paths)
+        return
     if len(paths) <= EMPTY_NAMED:
         for path in paths:
             warnings.warn(f"{path}: empty file; left out", InputWarning, stacklevel=3)
@@ -551,9 +574,10 @@ def reference_items(
             stacklevel=2,
         )
     items: list[Item] = []
-    for sub in (p for p in entries if p.is_dir()):
-        for item in load_items([sub], split, **reading):
-            items.append(replace(item, name=f"{sub.name}/{item.name}", label=sub.name))
+    with _gathering_empty():
+        for sub in (p for p in entries if p.is_dir()):
+            for item in load_items([sub], split, **reading):
+                items.append(replace(item, name=f"{sub.name}/{item.name}", label=sub.name))
     if not items:
         raise InputError(f"{root}: no origin subfolders with files")
     return items
