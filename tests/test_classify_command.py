@@ -198,7 +198,8 @@ def test_a_reference_that_cannot_serve_is_refused_before_auto_measures(
     assert cli.main(argv) == 2
     err = capsys.readouterr().err
     assert "auto: calibrating" not in err
-    assert "lonely has one (give a threshold and a compressor to classify without it)" in err
+    assert "lonely has one: add a file, cut files into parts (--split lines:N), or give" in err
+    assert "a threshold and a compressor to classify without it" in err
     # with a compressor and a threshold nothing is held out, and the origin of one item serves
     argv += ["-c", "zstd:level=19", "--threshold", "0.9", "--quiet"]
     assert cli.main(argv) == 0

@@ -62,8 +62,9 @@ class _Reference:
                 way = "a threshold and a compressor" if auto else "a threshold"
                 raise InputError(
                     "calibrating the abstention needs two reference items per origin; "
-                    f"{', '.join(thin)} {'has' if len(thin) == 1 else 'have'} one (give {way}"
-                    " to classify without it)"
+                    f"{', '.join(thin)} {'has' if len(thin) == 1 else 'have'} one: add a file,"
+                    " cut files into parts (--split lines:N), or give"
+                    f" {way} to classify without it"
                 )
 
 
