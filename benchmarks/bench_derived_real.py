@@ -114,8 +114,15 @@ from derived_corpora import (
 )
 
 from kinpress import Item, LocalEngine
-from kinpress.calibration import auto_choice
-from kinpress.derived import DerivedFinding, DerivedReport, default_null_pairs, find_derived
+from kinpress.calibration import ProposedPairs, auto_choice
+from kinpress.derived import (
+    DerivedFinding,
+    DerivedReport,
+    Proposals,
+    default_null_pairs,
+    find_derived,
+    propose,
+)
 
 DIRECTED = ("excerpt", "extension")
 """Transformations whose direction is scored (real vendored pairs a version apart are not)."""
@@ -220,20 +227,25 @@ COMPRESSOR = "auto"
 does by default (auto_choice for the derived job, with its null's pairs); a spec fixes it."""
 
 
-def chosen_spec(items: list[Item]) -> str:
-    """COMPRESSOR, or with auto the spec the command line's default would choose for derived."""
+def chosen_spec(items: list[Item], proposals: Proposals) -> str:
+    """COMPRESSOR, or with auto the spec the command line's default would choose for derived
+    (its job's time counting the pairs the prefilter proposes, as the command line does)."""
     if COMPRESSOR != "auto":
         return COMPRESSOR
     null = default_null_pairs(0.01)
-    spec, _ = auto_choice(items, "derived", engine=LocalEngine(), null_pairs=null)
+    proposed = ProposedPairs.of(proposals.pairs, [len(item.data) for item in items])
+    spec, _ = auto_choice(
+        items, "derived", engine=LocalEngine(), null_pairs=null, proposed=proposed
+    )
     return spec
 
 
 def evaluate(name: str, corpus: RealCorpus) -> Score:
     """Run find_derived with default options on the corpus and score it against the truth."""
     started = time.perf_counter()
-    spec = chosen_spec(list(corpus.items))
-    report: DerivedReport = find_derived(corpus.items, spec)
+    proposals = propose(corpus.items)
+    spec = chosen_spec(list(corpus.items), proposals)
+    report: DerivedReport = find_derived(corpus.items, spec, proposals=proposals)
     score = Score(name, files=len(corpus.items), truth=len(corpus.truth))
     score.spec = spec
     score.seconds = time.perf_counter() - started

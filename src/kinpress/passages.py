@@ -638,11 +638,8 @@ def common_hashes(fingerprints: Sequence[Fingerprint], min_files: int) -> np.nda
 def common_among(distinct: Sequence[np.ndarray], min_files: int) -> np.ndarray:
     """Sorted hashes found in at least min_files of the arrays, each array holding one file's
     distinct hashes (see `common_hashes`; this form needs only the hashes, not whole
-    fingerprints)."""
-    if not distinct:
-        return np.zeros(0, dtype=np.uint64)
-    values, counts = np.unique(np.concatenate(distinct), return_counts=True)
-    return values[counts >= min_files].astype(np.uint64)
+    fingerprints): `boilerplate_among` with every file its own group."""
+    return boilerplate_among(distinct, min_files)
 
 
 def common_kgrams(
@@ -656,10 +653,10 @@ def common_kgrams(
     """Sorted hashes selected (winnowed) in some file that occur as k-grams, selected or not,
     in at least min_files of the normalised texts `norms` (`selected[i]`: file i's selected
     hashes) that are in files of at least `min_groups` groups of near copies (`groups`, see
-    `boilerplate_among`). Winnowing picks a k-gram by the
-    window around it, so a k-gram at the edge of a licence block is picked in some of the files
-    holding it and not in others: counting picks (`common_among`) undercounts it, and it seeded
-    stretches that then ran through the whole block."""
+    `boilerplate_among`). Winnowing picks a k-gram by the window around it, so a k-gram at the
+    edge of a licence block is picked in some of the files holding it and not in others:
+    counting picks (`common_among`) undercounts it, and it seeded stretches that then ran
+    through the whole block."""
     if not selected:
         return np.zeros(0, dtype=np.uint64)
     union = np.unique(np.concatenate(selected))
