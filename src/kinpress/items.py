@@ -179,18 +179,15 @@ def _file_items(
     path: str,
     split: Split,
     stdin: BinaryIO | None,
-    limit: int = DEFAULT_MAX_FILE_BYTES,
-    empty: list[str] | None = None,
+    limit: int,
+    empty: list[str],
 ) -> Iterator[Item]:
-    """The items of one file; an empty file gives none and is added to `empty` (warned of at
-    once without it)."""
+    """The items of one file; an empty file gives none and is added to `empty` (load_items
+    warns of them together)."""
     data = _read(path, stdin, limit)
     base = "stdin" if path == "-" else uncompressed_name(os.path.basename(path))
     if not data:
-        if empty is None:
-            warnings.warn(f"{path}: empty file; left out", InputWarning, stacklevel=2)
-        else:
-            empty.append(path)
+        empty.append(path)
         return
     fmt = sequence_format(path)
     if fmt is None and path == "-" and split.mode in ("auto", "records"):

@@ -178,8 +178,9 @@ class Sizes:
         # A key asked twice (the pairs (a, b) and (b, a) of two identical items both ask (u, u))
         # is computed once: two equal tiles would be told apart by nothing but their order.
         seen: dict[tuple[bytes, bytes], int] = {}
-        todo = np.array([seen.setdefault(keys[k], int(k)) for k in missing], dtype=np.int64)
-        todo = np.unique(todo) if todo.size else todo
+        todo = np.unique(
+            np.array([seen.setdefault(keys[k], int(k)) for k in missing], dtype=np.int64)
+        )
         if todo.size:
             start = 0 if total is None else done + int(cached.sum())
             scale = int(todo.size) if total is None else total

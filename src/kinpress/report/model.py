@@ -150,13 +150,8 @@ class Report:
     passages: tuple[SharedPassage, ...] = ()
     classification: Classification | None = None
     unknown_groups: UnknownGroups | None = None
-
-    @property
-    def families(self) -> tuple[Family, ...]:
-        """The derived findings' families (kinpress.derived.families), none without them."""
-        from ..derived import families
-
-        return () if self.derived is None else families(self.derived.findings)
+    families: tuple[Family, ...] = ()
+    """The derived findings' families (kinpress.derived.families), none without them."""
 
     def as_json(self) -> dict[str, object]:
         """title, items, left_out, compressor (spec, conditional, strand, given, reasons,
@@ -301,11 +296,14 @@ def build_report(
         for i in items
     )
     shown: list[SharedPassage] = []
-    if derived is not None and passages:
+    grouped: tuple[Family, ...] = ()
+    if derived is not None:
         from ..derived import families
 
+        grouped = families(derived.findings)
+    if passages:
         by_name = {item.name: item for item in items}
-        listed = [f for family in families(derived.findings) for f in family.shown()]
+        listed = [f for family in grouped for f in family.shown()]
         shown = [p for f in listed if (p := _passage(f, by_name)) is not None]
     cautions = [SIMILARITY_CAUTION, NCD_CAUTION, TREE_CAUTION, MAP_CAUTION]
     if tree.support is not None:
@@ -331,4 +329,5 @@ def build_report(
         passages=tuple(shown),
         classification=classification,
         unknown_groups=unknown_groups,
+        families=grouped,
     )
