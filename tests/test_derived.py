@@ -336,6 +336,22 @@ def test_a_familys_links_are_its_maximum_spanning_tree_by_score() -> None:
     assert [(f.a, f.b) for f in family.links()] == [("a", "b"), ("b", "c"), ("c", "d")]
     (chain,) = families(found[:1] + found[3:4])  # a tree already: all of it
     assert chain.links() == chain.findings
+    # against a reference library: SciPy's minimum spanning tree of the negated scores
+    # (scipy.sparse.csgraph.minimum_spanning_tree) weighs the same as the links, on 9 files
+    from scipy.sparse import csr_matrix
+    from scipy.sparse.csgraph import minimum_spanning_tree
+
+    rng = random.Random(9)
+    names = [f"f{k}" for k in range(9)]
+    scored = [link(names[i], names[j], rng.uniform(0.3, 1.0))
+              for i in range(9) for j in range(i + 1, 9) if rng.random() < 0.6]  # fmt: skip
+    (family,) = families(scored)
+    weights = np.zeros((9, 9))
+    for f in scored:
+        weights[names.index(f.a), names.index(f.b)] = -f.score
+    tree = minimum_spanning_tree(csr_matrix(weights))
+    assert len(family.links()) == 8
+    assert sum(f.score for f in family.links()) == pytest.approx(-tree.sum())
 
 
 def test_line_blocks_cut_after_line_breaks_and_keep_every_byte() -> None:
