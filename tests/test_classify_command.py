@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import os
 import random
 import re
 import warnings
@@ -98,6 +99,40 @@ def test_text_output_states_the_guarantee_and_the_caution(
     assert re.search(r"^The \d+ unknown items, grouped by their own NCD", out, re.MULTILINE)
     assert re.search(r"^  group 1: \d+ items \(siltcache-later\.log#", out, re.MULTILINE)
     assert re.search(r"10 unknown \(in 2 groups\)", err)  # the stranger's two phases
+
+
+def test_text_output_shows_files_of_one_name_by_their_place(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # A code tree holds many __init__.py: the names made unique (__init__.py~2) tell a reader
+    # nothing, so the table shows those files by their path below their folder, the unknown
+    # ones and the nearest reference ones alike; a file of a name of its own keeps its name.
+    root = tmp_path / "known"
+    for name in ("brisquet", "tarnwheel", "fenmeter"):
+        lines = _blocks(name, 0).splitlines(keepends=True)
+        for k in range(6):  # known/<system>/<part>/chunk.log: six files of one name each
+            folder = root / name / f"part{k}"
+            folder.mkdir(parents=True)
+            (folder / "chunk.log").write_text("".join(lines[k * 100 : (k + 1) * 100]))
+    new = tmp_path / "new"
+    for folder, name in (("east", "tarnwheel"), ("west", "fenmeter")):
+        (new / folder).mkdir(parents=True)
+        (new / folder / "later.log").write_text("".join(_blocks(name, 1).splitlines(True)[:100]))
+    (new / "alone.log").write_text("".join(_blocks("brisquet", 1).splitlines(True)[:100]))
+    argv = ["classify", "--reference", str(root), str(new), "-c", "zstd:level=19",
+            "--no-cache", "--quiet"]  # fmt: skip
+    assert cli.main(argv) == 0
+    rows = {line.split()[0]: line.split() for line in capsys.readouterr().out.splitlines()[1:4]}
+    assert set(rows) == {os.path.join("east", "later.log"), os.path.join("west", "later.log"),
+                         "alone.log"}  # fmt: skip
+    for row in rows.values():
+        nearest = row[-2].split(os.sep)
+        assert len(nearest) == 3 and re.fullmatch(r"part\d", nearest[1]), row
+        assert nearest[2] == "chunk.log" and "~" not in row[-2]
+    # the same run as JSON keeps the unique names, beside each item's path
+    assert cli.main([*argv, "--json"]) == 0
+    found = json.loads(capsys.readouterr().out)
+    assert sorted(p["item"] for p in found) == ["alone.log", "later.log", "later.log~2"]
 
 
 def test_significance_and_threshold_together_are_a_usage_error(

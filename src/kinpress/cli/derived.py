@@ -3,21 +3,17 @@
 from __future__ import annotations
 
 import argparse
-import os
-from collections import Counter
-from collections.abc import Sequence
 from typing import TYPE_CHECKING
 
 from ..formats import FINDING_FORMATS, emit, write_findings
 from ..items import escape_name
 from . import _options
-from ._common import as_usage_errors, load, opened_cache, resolve_spec
+from ._common import as_usage_errors, load, opened_cache, places, resolve_spec
 from ._console import Console
 from ._options import UsageError
 
 if TYPE_CHECKING:
     from ..derived import DerivedFinding
-    from ..items import Item
 
 DERIVED_CAUTION = (
     "A finding is evidence for a person to review, not proof of copying: files can share content"
@@ -137,7 +133,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
         write_findings(shown, args.output, fmt)
         return 0
     lines = []
-    where = _places(items)
+    where = places(items)
     for number, family in enumerate(families(report.findings), start=1):
         lines.append(f"family {number}: {', '.join(map(escape_name, family.members))}")
         found = [
@@ -160,25 +156,6 @@ def run(args: argparse.Namespace, console: Console) -> int:
     lines += ["", DERIVED_CAUTION]
     emit("\n".join(lines) + "\n", args.output)
     return 0
-
-
-def _places(items: Sequence[Item]) -> dict[str, str]:
-    """Where the items whose file name another file of the inputs also has lie, by item name:
-    their paths below the folder all the inputs share (a tree holds many dirent.go; the second
-    is named dirent.go~2, and this says which is which)."""
-    sources = {i.source for i in items if i.source != "-"}
-    named = Counter(os.path.basename(s) for s in sources)
-    if max(named.values(), default=0) < 2:
-        return {}
-    try:
-        top = os.path.commonpath(sorted(sources))
-    except ValueError:  # absolute and relative paths mixed: keep them as given
-        top = ""
-    return {
-        i.name: os.path.relpath(i.source, top) if top else i.source
-        for i in items
-        if i.source != "-" and named[os.path.basename(i.source)] > 1
-    }
 
 
 def _finding_lines(f: DerivedFinding) -> list[str]:
