@@ -11,7 +11,11 @@ against its budget, the estimate from the unit of work timed on the job's own co
 (what auto uses) and from the calibrated throughput (what it used before), each over the
 classification measured uncached.
 
+With --given REFERENCE ITEMS, also a reference and items of the user's kind, whole (origins of
+very different sizes, as a project's vendored libraries are, weigh on the estimate).
+
     python benchmarks/bench_auto_estimate.py [--debian-code DIR] [--skip-matrix]
+        [--given REFERENCE ITEMS] [--specs SPEC ...]
 """
 
 from __future__ import annotations
@@ -20,7 +24,9 @@ import argparse
 import sys
 import time
 import warnings
+from collections.abc import Sequence
 from pathlib import Path
+from typing import Any
 
 from kinpress import distance_matrix, load_items
 from kinpress.calibration import choose_compressor, estimate_job_seconds
@@ -40,40 +46,57 @@ SETS = [
 LABELLED_SPECS = ("zstd:level=19", "bz2:level=9", "lzma:level=9", "ppmd:order=32,memory=256")
 
 
-def classify_rows(debian: Path | None) -> None:
-    """Estimate / measured for classifications (see the module)."""
+def classify_rows(
+    debian: Path | None,
+    given: tuple[Path, Path] | None = None,
+    specs: Sequence[str] = LABELLED_SPECS,
+) -> None:
+    """Estimate / measured for classifications (see the module); `given`, a reference folder
+    (one subfolder per origin) and a folder of items to classify, whole."""
     sys.path.insert(0, str(Path(__file__).resolve().parent))
     import bench_origins as bench
 
     from kinpress.calibration import calibrate, classify_unit, estimate_classify_seconds
     from kinpress.compressors import compressor
-    from kinpress.origins import classify
-    from kinpress.origins.views import shape_share
+    from kinpress.origins import classify, reference_items
+    from kinpress.origins.views import shape_share, shaped_items
 
-    sets = []
+    sets: list[tuple[str, Any, Any, int | None]] = []
     if (SHARED / "logs").exists():
         sets.append(("real logs", bench.log_origins(SHARED / "logs"), 10, None))
         sets.append(("real code", bench.shared_code(), 20, None))
     if debian is not None:
         sets.append(("24 languages", bench.code_origins(bench.debian_code(debian)), 20, 4))
+    if given is not None:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            ref, later = reference_items(given[0]), load_items([given[1]])
+        sets.append((given[0].name, ref, later, None))
     cores = available_cores()
     print(f"\n{'classify, round 1':22s} {'compressor':28s} {'unit':>9s} {'rate':>9s}"
           f" {'measured':>9s} {'unit/m':>6s} {'rate/m':>6s}")  # fmt: skip
     for name, origins, reference, missing in sets:
-        ref, later, _ = bench.rounds(origins, reference, missing)[0]
+        if isinstance(reference, int):
+            ref, later, _ = bench.rounds(origins, reference, missing)[0]
+        else:  # given: the reference and the items as they are
+            ref, later = origins, reference
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            report = calibrate(ref, candidates=list(LABELLED_SPECS))
+            report = calibrate(ref, candidates=list(specs))
         lengths, targets = [len(i.data) for i in ref], [len(t.data) for t in later]
         longest = max([*lengths, *targets])
         shape = shape_share([*ref, *later])
         labels = len({i.label for i in ref})
         for result in report.compressors:
             comp = compressor(result.spec)
-            common = dict(primed=comp.primable, cores=cores, shape=shape)
+            # as auto weighs it (calibration.job._within_budget)
+            common = dict(primed=comp.primable or comp.continues, cores=cores, shape=shape)
             rate = estimate_classify_seconds(result, lengths, labels, targets, **common)
             timed = classify_unit(comp, ref, later, longest)
-            unit = estimate_classify_seconds(result, lengths, labels, targets, **common, unit=timed)
+            shaped = shape and classify_unit(comp, shaped_items(ref), shaped_items(later), longest)
+            unit = estimate_classify_seconds(
+                result, lengths, labels, targets, **common, unit=timed, shape_unit=shaped or None
+            )
             started = time.perf_counter()
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
@@ -87,10 +110,15 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     parser.add_argument("--debian-code", type=Path, help="the folder fetch_debian_code.sh filled")
     parser.add_argument("--skip-matrix", action="store_true", help="only the classifications")
+    parser.add_argument(
+        "--given", nargs=2, type=Path, metavar=("REFERENCE", "ITEMS"),
+        help="also a reference folder (a subfolder per origin) and a folder of items to classify",
+    )  # fmt: skip
+    parser.add_argument("--specs", nargs="+", default=list(LABELLED_SPECS))
     args = parser.parse_args()
     if not args.skip_matrix:
         matrix_rows()
-    classify_rows(args.debian_code)
+    classify_rows(args.debian_code, args.given and tuple(args.given), args.specs)
 
 
 def matrix_rows() -> None:

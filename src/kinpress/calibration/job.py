@@ -278,9 +278,10 @@ def classify_unit(
     origins: the mean origin's, not the median's, times their number. pip's 20 vendored
     projects as a reference (34 KB to 4.2 MB each, median 179 KB, mean 520 KB): lzma 9 timed on
     the median origin put the content view at 99 s, on the mean one at 477 s; measuring it took
-    1,179 s (both views), and the run 22 minutes against a 10-minute budget. Still short there:
-    lzma's cost per item grows faster than its corpus (2.2 times the bytes, 6.5 times the time),
-    so the largest origins weigh more than the mean says, and lzma is still measured."""
+    1,179 s (both views), and the run 22 minutes against a 10-minute budget. lzma's cost per
+    item then grew faster than its corpus (2.2 times the bytes, 6.5 times the time): its kept
+    state had left most of a corpus of megabytes to be encoded again with each item, since fixed
+    (see compressors.lzma)."""
     from ..origins.scores import corpus_bytes, corpus_room
 
     by_origin: dict[object, list[bytes]] = {}
