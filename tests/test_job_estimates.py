@@ -342,6 +342,40 @@ def test_candidates_are_measured_while_the_jobs_worst_case_fits_the_budget(
     assert measured == ["slow"]
 
 
+def test_a_candidate_slower_than_its_estimate_counts_at_the_pace_measuring_showed(
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    # The estimate times a unit of work; the job adds what the unit does not hold (PPMd on
+    # pip's vendored projects took 1.6 times its estimate). Measuring a candidate is its share
+    # of the job, timed: where it took longer than estimated, its share and its rest count at
+    # that pace when the next candidate's worst case is weighed; never quicker (sizes the cache
+    # held cost nothing, the rest's will not be cached).
+    from kinpress.calibration import job
+
+    measured: list[str] = []
+    timed = [(150.0, "a"), (400.0, "b")]
+    pace = {"a": 3.0, "b": 1.0}
+
+    def figures(items: object, spec: str, *rest: object) -> job.TaskFigures:
+        measured.append(spec)
+        share = 0.4 * {s: t for t, s in timed}[spec]  # the reference: 40 of every 100 pairs
+        return job.TaskFigures(spec=spec, seconds=share * pace[spec])
+
+    monkeypatch.setattr(job, "_labelled_figures", figures)
+    items = [Item(f"r{k}", b"x", "", label=str(k % 4)) for k in range(40)]
+    reasons: list[str] = []
+    job._measure_labelled(items, 60, timed, 600.0, 1, None, None, 0.05, reasons)
+    # a: share 60, measured in 180, rest 90 * 3 = 270; b: 180 + 160 + max(270, 240) = 610 >
+    # 600, passed over, where as estimated 60 + 160 + 240 = 460 would have fitted
+    assert measured == ["a"] and reasons[0].startswith("b: passed over: measuring it too")
+    assert "at the pace measuring showed" in reasons[0]
+    # measured quicker than estimated (its sizes cached), a counts as estimated: b fits
+    pace["a"] = 0.0
+    measured.clear()
+    job._measure_labelled(items, 60, timed, 600.0, 1, None, None, 0.05, [])
+    assert measured == ["a", "b"]
+
+
 def test_steady_reports_are_not_crowded_out_by_the_watch() -> None:
     # The watch wakes every interval; while reports keep coming it stays quiet, so the lines
     # are the reports' own, which say how long is left.

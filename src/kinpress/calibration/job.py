@@ -310,6 +310,7 @@ def _measure_labelled(
 ) -> list[TaskFigures]:
     """Held-out figures of the ``timed`` candidates, quickest first, while the job's worst case
     still fits the budget (the first is always measured); those left out go to ``reasons``.
+    A candidate whose measuring took longer than its estimate counts at that pace, its rest too.
 
     Measuring a candidate runs the reference part of its job (its held-out folds); the winner's
     classification reuses those sizes (its calibration is then done) and adds the rest. So the
@@ -330,13 +331,18 @@ def _measure_labelled(
             reasons.append(
                 f"{spec}: passed over: measuring it too could bring the job to"
                 f" {_estimate(worst)}, over the {duration_text(budget_seconds)} budget (each"
-                " candidate measured, then the rest of the slowest one's classification)"
+                " candidate measured, then the rest of the slowest one's classification, at the"
+                " pace measuring showed where it was slower than estimated)"
             )
             continue
-        spent, rest = spent + share, max(rest, seconds - share)
-        figures.append(
-            _labelled_figures(items, spec, longest, engine, cache, significance, progress)
-        )
+        measured = _labelled_figures(items, spec, longest, engine, cache, significance, progress)
+        # What measuring took tells how far the estimate undershot this candidate's job: its
+        # rest is scaled as its share was (never down: sizes the cache held cost nothing here,
+        # but the rest's will be computed). PPMd order 32 on pip's 20 vendored projects: the
+        # job took 1.6 times its estimate, every part of it alike.
+        slower = max(1.0, measured.seconds / share) if share > 0 else 1.0
+        spent, rest = spent + share * slower, max(rest, (seconds - share) * slower)
+        figures.append(measured)
     return figures
 
 
