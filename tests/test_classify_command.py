@@ -101,12 +101,13 @@ def test_text_output_states_the_guarantee_and_the_caution(
     assert re.search(r"10 unknown \(in 2 groups\)", err)  # the stranger's two phases
 
 
-def test_text_output_shows_files_of_one_name_by_their_place(
+def test_files_of_one_name_are_shown_by_their_place(
     tmp_path: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:
-    # A code tree holds many __init__.py: the names made unique (__init__.py~2) tell a reader
-    # nothing, so the table shows those files by their path below their folder, the unknown
-    # ones and the nearest reference ones alike; a file of a name of its own keeps its name.
+    # A code tree holds many __init__.py: names made unique by number (__init__.py~2) tell a
+    # reader nothing, so files of one name are named by their path below their folder
+    # (load_items), the unknown ones and the nearest reference ones alike, in the text and the
+    # JSON; a file of a name of its own keeps its name.
     root = tmp_path / "known"
     for name in ("brisquet", "tarnwheel", "fenmeter"):
         lines = _blocks(name, 0).splitlines(keepends=True)
@@ -123,16 +124,15 @@ def test_text_output_shows_files_of_one_name_by_their_place(
             "--no-cache", "--quiet"]  # fmt: skip
     assert cli.main(argv) == 0
     rows = {line.split()[0]: line.split() for line in capsys.readouterr().out.splitlines()[1:4]}
-    assert set(rows) == {os.path.join("east", "later.log"), os.path.join("west", "later.log"),
-                         "alone.log"}  # fmt: skip
-    for row in rows.values():
-        nearest = row[-2].split(os.sep)
-        assert len(nearest) == 3 and re.fullmatch(r"part\d", nearest[1]), row
-        assert nearest[2] == "chunk.log" and "~" not in row[-2]
-    # the same run as JSON keeps the unique names, beside each item's path
+    names = {os.path.join("east", "later.log"), os.path.join("west", "later.log"), "alone.log"}
+    assert set(rows) == names
+    for row in rows.values():  # system/partK/chunk.log
+        nearest = row[-2].split("/", 1)
+        assert re.fullmatch(r"part\d", nearest[1].split(os.sep)[0]), row
+        assert nearest[1].endswith("chunk.log") and "~" not in row[-2]
     assert cli.main([*argv, "--json"]) == 0
     found = json.loads(capsys.readouterr().out)
-    assert sorted(p["item"] for p in found) == ["alone.log", "later.log", "later.log~2"]
+    assert {p["item"] for p in found} == names
 
 
 def test_significance_and_threshold_together_are_a_usage_error(

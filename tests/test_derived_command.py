@@ -74,9 +74,9 @@ def test_text_output_groups_families_and_carries_the_caution(
 def test_text_output_says_where_files_of_one_name_lie(
     tmp_path: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:
-    # A code tree holds many files of one name (dirent.go in every system's folder): the
-    # second is named dirent.go~2, and the text must say which file that is, below the folder
-    # the inputs share, without --json.
+    # A code tree holds many files of one name (dirent.go in every system's folder): they are
+    # named by their path below the folder the inputs share (load_items), so the text says
+    # which file each is, without --json.
     tree = tmp_path / "tree"
     for folder in ("alpha/util", "beta/util", "gamma"):
         (tree / folder).mkdir(parents=True)
@@ -88,13 +88,13 @@ def test_text_output_says_where_files_of_one_name_lie(
         (tree / "gamma" / f"other{k}.txt").write_text(_text(20 + k))
     assert cli.main(["derived", str(tree), "--exhaustive", *FAST]) == 0
     lines = capsys.readouterr().out.splitlines()
-    assert lines[0] == "family 1: notes.txt, notes.txt~2, readme.txt"
-    where = "notes.txt = alpha/util/notes.txt; notes.txt~2 = beta/util/notes.txt"
-    assert lines[1] == f"  where: {where}".replace("/", os.sep)  # readme.txt: one of its name
-    # a set with no name twice says nothing of where
+    family = "family 1: alpha/util/notes.txt, beta/util/notes.txt, readme.txt"
+    assert lines[0] == family.replace("/", os.sep)  # readme.txt: a name of its own
+    assert lines[1].startswith("  alpha/util/notes.txt  near_copy  beta".replace("/", os.sep))
+    # a set with no name twice keeps the file names
     assert cli.main(["derived", str(tree / "gamma"), str(tree / "alpha"), *FAST]) == 0
     out = capsys.readouterr().out
-    assert out.startswith("family 1: notes.txt, readme.txt\n") and "where:" not in out
+    assert out.startswith("family 1: notes.txt, readme.txt\n")
 
 
 def test_a_large_family_lists_how_each_file_joins_it_and_counts_the_rest(

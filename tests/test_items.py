@@ -457,18 +457,34 @@ def test_empty_folder_is_an_input_error(tmp_path: Path) -> None:
             load_items([tmp_path / folder])
 
 
-def test_colliding_names_get_numbered_suffixes_in_input_order(tmp_path: Path) -> None:
-    for folder in ("one", "two", "three"):
-        (tmp_path / folder).mkdir()
+def test_files_of_one_name_are_named_by_their_path_below_the_shared_folder(
+    tmp_path: Path,
+) -> None:
+    # A tree holds many files of one name (__init__.py): numbered, they read __init__.py~7 in
+    # every output; by their path below the folder the inputs share, they say which file.
+    for folder in ("one", "two", "three/deep"):
+        (tmp_path / folder).mkdir(parents=True)
         (tmp_path / folder / "x.txt").write_bytes(folder.encode())
-    (tmp_path / "three" / "x.txt~2").write_bytes(b"already suffixed")
+    (tmp_path / "two" / "x.txt~2").write_bytes(b"already suffixed")
+    (tmp_path / "two" / "log.gz").write_bytes(gzip.compress(b"alone"))
+    (tmp_path / "one" / "log").write_bytes(b"plain")
     items = load_items([tmp_path / "one", tmp_path / "two", tmp_path / "three"])
+    place = os.path.join
     assert [(i.name, i.data) for i in items] == [
-        ("x.txt", b"one"),
-        ("x.txt~3", b"two"),
-        ("x.txt~4", b"three"),
-        ("x.txt~2", b"already suffixed"),
+        (place("one", "log"), b"plain"),
+        (place("one", "x.txt"), b"one"),
+        (place("two", "log"), b"alone"),  # read through gzip: named without .gz, as alone
+        (place("two", "x.txt"), b"two"),
+        ("x.txt~2", b"already suffixed"),  # a name of its own
+        (place("three", "deep", "x.txt"), b"three/deep"),
     ]
+    # one file given twice is one path: the second gets a numbered suffix
+    twice = load_items([tmp_path / "one" / "x.txt", tmp_path / "one" / "x.txt"])
+    assert [i.name for i in twice] == ["x.txt", "x.txt~2"]
+    # chunks of files of one name carry the path too
+    chunks = load_items([tmp_path / "one" / "x.txt", tmp_path / "two" / "x.txt"], "bytes:2")
+    expected = [place(folder, f"x.txt#{k}") for folder in ("one", "two") for k in (1, 2)]
+    assert [i.name for i in chunks] == expected
     assert len({i.name for i in items}) == len(items)
 
 

@@ -16,6 +16,7 @@ import stat
 import sys
 import warnings
 import zlib
+from collections import Counter
 from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from contextlib import contextmanager
 from contextvars import ContextVar
@@ -181,11 +182,13 @@ def _file_items(
     stdin: BinaryIO | None,
     limit: int,
     empty: list[str],
+    base: str | None = None,
 ) -> Iterator[Item]:
-    """The items of one file; an empty file gives none and is added to `empty` (load_items
-    warns of them together)."""
+    """The items of one file, named from `base` (default: the file's name; see _file_names);
+    an empty file gives none and is added to `empty` (load_items warns of them together)."""
     data = _read(path, stdin, limit)
-    base = "stdin" if path == "-" else uncompressed_name(os.path.basename(path))
+    if base is None:
+        base = "stdin" if path == "-" else uncompressed_name(os.path.basename(path))
     if not data:
         empty.append(path)
         return
@@ -516,8 +519,12 @@ def load_items(
     stdin: BinaryIO | None = None,
     follow_links: bool = False,
     max_file_bytes: int = DEFAULT_MAX_FILE_BYTES,
+    names_below: str | os.PathLike[str] | None = None,
 ) -> list[Item]:
-    """Read paths (files, folders, '-' for stdin) into uniquely named items.
+    """Read paths (files, folders, '-' for stdin) into uniquely named items: named for their
+    file (and record or chunk), files of one name in several folders by their path below the
+    folder the inputs share (see _file_names), or every file by its path below `names_below`
+    when given (a reference's origin folder).
 
     No input may hold more than `max_file_bytes` (after decompression): a larger one is an
     InputError, found while reading it and never held whole. A compressed file (by its suffix)
@@ -530,9 +537,11 @@ def load_items(
     given = [os.fspath(p) for p in paths]
     items: list[Item] = []
     empty: list[str] = []
-    for path in expand_paths(given, exclude, follow_links=follow_links):
+    files = expand_paths(given, exclude, follow_links=follow_links)
+    names = _file_names(files, names_below)
+    for path in files:
         try:
-            items.extend(_file_items(path, mode, stdin, max_file_bytes, empty))
+            items.extend(_file_items(path, mode, stdin, max_file_bytes, empty, names.get(path)))
         except DamagedInput as error:
             if path in given:  # named on its own: the user meant this file
                 raise
@@ -549,12 +558,36 @@ def load_items(
     return items
 
 
+def _file_names(
+    files: Sequence[str], below: str | os.PathLike[str] | None = None
+) -> dict[str, str]:
+    """What the files whose name another input file also has are called instead: their paths
+    below the folder all the inputs share, so that a tree's many __init__.py read as
+    cachecontrol/__init__.py and idna/__init__.py rather than __init__.py~2 (a repeated name
+    then gets ~2 only where two inputs are one path, or records share an id). With `below`,
+    every file is called by its path below that folder."""
+    paths = sorted({f for f in files if f != "-"})
+    named = Counter(uncompressed_name(os.path.basename(f)) for f in paths)
+    if below is None and max(named.values(), default=0) < 2:
+        return {}
+    try:
+        top = os.fspath(below) if below is not None else os.path.commonpath(paths)
+    except ValueError:  # absolute and relative paths mixed: their paths as given
+        top = ""
+    return {
+        f: uncompressed_name(os.path.relpath(f, top) if top else f)
+        for f in paths
+        if below is not None or named[uncompressed_name(os.path.basename(f))] > 1
+    }
+
+
 def reference_items(
     folder: str | os.PathLike[str], split: str | Split = "auto", **reading: Any
 ) -> list[Item]:
     """Items of `folder/<origin>/<files>`, each labelled with its subfolder's name.
 
-    Names are `origin/item`, so equal file names in two origins stay apart. Files lying directly
+    Names are `origin/path` (the file's path below its origin's folder, with its record or chunk),
+    so equal file names in two origins or folders stay apart. Files lying directly
     in `folder` belong to no origin: they are left out with an InputWarning. `reading` passes
     on to `load_items` (follow_links, max_file_bytes).
     """
@@ -573,7 +606,7 @@ def reference_items(
     items: list[Item] = []
     with _gathering_empty():
         for sub in (p for p in entries if p.is_dir()):
-            for item in load_items([sub], split, **reading):
+            for item in load_items([sub], split, names_below=sub, **reading):
                 items.append(replace(item, name=f"{sub.name}/{item.name}", label=sub.name))
     if not items:
         raise InputError(f"{root}: no origin subfolders with files")

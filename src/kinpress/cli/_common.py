@@ -6,9 +6,7 @@ from __future__ import annotations
 import argparse
 import dataclasses
 import os
-import re
 import warnings
-from collections import Counter
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
 from typing import TYPE_CHECKING, Any
@@ -47,29 +45,6 @@ def table(rows: Sequence[Sequence[str]]) -> str:
         )
         + "\n"
     )
-
-
-def places(items: Sequence[Item]) -> dict[str, str]:
-    """Where the whole-file items whose file name another file of the inputs also has lie, by
-    item name: their paths below the folder all the inputs share (a tree holds many
-    __init__.py; the second is named __init__.py~2, and this says which is which). A
-    reference's items, named origin/file, are placed below the reference folder; parts of a
-    file (chunks, records) keep their names."""
-    sources = {i.source for i in items if i.source != "-"}
-    named = Counter(os.path.basename(s) for s in sources)
-    if max(named.values(), default=0) < 2:
-        return {}
-    try:
-        top = os.path.commonpath(sorted(sources))
-    except ValueError:  # absolute and relative paths mixed: keep them as given
-        top = ""
-    where = {}
-    for i in items:
-        base = os.path.basename(i.source)
-        whole = re.fullmatch(re.escape(base) + r"(~\d+)?", i.name.rsplit("/", 1)[-1])
-        if i.source != "-" and named[base] > 1 and whole:
-            where[i.name] = os.path.relpath(i.source, top) if top else i.source
-    return where
 
 
 def write_json(args: argparse.Namespace, value: object) -> None:

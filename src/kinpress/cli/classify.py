@@ -3,8 +3,7 @@
 from __future__ import annotations
 
 import argparse
-from collections.abc import Sequence
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 from ..formats import emit
 from ..items import InputError, escape_name, load_items
@@ -14,7 +13,6 @@ from ._common import (
     input_options,
     known_labels,
     opened_cache,
-    places,
     resolve_spec,
     table,
     write_json,
@@ -22,16 +20,12 @@ from ._common import (
 from ._console import Console
 from ._options import UsageError
 
-if TYPE_CHECKING:
-    from ..items import Item
-
 ORIGIN_CAUTION = (
     "An origin is evidence for a person to review, not proof of where an item came from."
 )
 
 LEGEND = (
-    "item, nearest: by name, or by path below their folder where files of one name are several;"
-    " origin: the one named, or ambiguous (the origins that fit) or unknown (none does);"
+    "origin: the one named, or ambiguous (the origins that fit) or unknown (none does);"
     " p-value: how well the best origin accepts the item (- with --threshold); confidence: how"
     " far the runner-up's score lies behind the best one's (0: a tie); nearest, distance: the"
     " closest reference item and its NCD"
@@ -163,25 +157,21 @@ def run(args: argparse.Namespace, console: Console) -> int:
             row["unknown_group"] = grouped.group_of(index)
         write_json(args, rows)
     else:
-        emit(_classification_text(found, grouped, unknowns, reference), args.output)
+        emit(_classification_text(found, grouped), args.output)
     return 0
 
 
-def _classification_text(
-    found: Any, grouped: Any, unknowns: Sequence[Item], reference: Sequence[Item]
-) -> str:
+def _classification_text(found: Any, grouped: Any) -> str:
     from ..origins.conformal import test_words  # not at start-up: origins loads scikit-learn
 
-    # a tree holds many files of one name: those are shown by their place below their folder
-    where, known = places(unknowns), places(reference)
     rows = [("item", "origin", "p-value", "confidence", "nearest", "distance")]
     for p in found.predictions:
         origin = p.predicted or p.decision
         if p.decision == "ambiguous":
             origin += f" ({' or '.join(p.candidates)})"
         credibility = "-" if p.credibility is None else f"{p.credibility:.3f}"
-        rows.append((escape_name(where.get(p.item, p.item)), escape_name(origin), credibility,
-                     f"{p.confidence:.3f}", escape_name(known.get(p.nearest, p.nearest or "-")),
+        rows.append((escape_name(p.item), escape_name(origin), credibility,
+                     f"{p.confidence:.3f}", escape_name(p.nearest or "-"),
                      f"{p.distance:.3f}"))  # fmt: skip
     lines = [
         table(rows).rstrip("\n"),

@@ -8,7 +8,7 @@ from typing import TYPE_CHECKING
 from ..formats import FINDING_FORMATS, emit, write_findings
 from ..items import escape_name
 from . import _options
-from ._common import as_usage_errors, load, opened_cache, places, resolve_spec
+from ._common import as_usage_errors, load, opened_cache, resolve_spec
 from ._console import Console
 from ._options import UsageError
 
@@ -133,14 +133,8 @@ def run(args: argparse.Namespace, console: Console) -> int:
         write_findings(shown, args.output, fmt)
         return 0
     lines = []
-    where = places(items)
     for number, family in enumerate(families(report.findings), start=1):
         lines.append(f"family {number}: {', '.join(map(escape_name, family.members))}")
-        found = [
-            f"{escape_name(m)} = {escape_name(where[m])}" for m in family.members if m in where
-        ]
-        if found:
-            lines.append(f"  where: {'; '.join(found)}")
         shown = family.shown()
         lines += [f"  {line}" for f in shown for line in _finding_lines(f)]
         if len(shown) < len(family.findings):
