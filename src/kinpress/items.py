@@ -567,18 +567,18 @@ def _file_names(
     then gets ~2 only where two inputs are one path, or records share an id). With `below`,
     every file is called by its path below that folder."""
     paths = sorted({f for f in files if f != "-"})
-    named = Counter(uncompressed_name(os.path.basename(f)) for f in paths)
-    if below is None and max(named.values(), default=0) < 2:
+    named = paths
+    if below is None:
+        base = {f: uncompressed_name(os.path.basename(f)) for f in paths}
+        count = Counter(base.values())
+        named = [f for f in paths if count[base[f]] > 1]
+    if not named:
         return {}
-    try:
+    try:  # below the folder all the inputs share, not only those of one name
         top = os.fspath(below) if below is not None else os.path.commonpath(paths)
     except ValueError:  # absolute and relative paths mixed: their paths as given
         top = ""
-    return {
-        f: uncompressed_name(os.path.relpath(f, top) if top else f)
-        for f in paths
-        if below is not None or named[uncompressed_name(os.path.basename(f))] > 1
-    }
+    return {f: uncompressed_name(os.path.relpath(f, top) if top else f) for f in named}
 
 
 def reference_items(
