@@ -92,3 +92,61 @@ def test_threads_and_serial_give_identical_sizes(text_corpus: bytes) -> None:
     threaded = dict(LocalEngine(2).run(items, job, tiles))
     serial = dict(LocalEngine(1).run(items, job, tiles))
     assert all(np.array_equal(threaded[t], serial[t]) for t in tiles)
+
+
+def _ppmd_tiles(items: list[bytes]) -> tuple[SizeJob, list[Tile]]:
+    return SizeJob("ppmd:order=6,memory=16"), [Tile((0, 1, 2), (3, 4, 5)), Tile((1,)), Tile((4,))]
+
+
+def test_a_local_engine_keeps_its_worker_processes_from_run_to_run(text_corpus: bytes) -> None:
+    # A classification runs about ten phases on one engine; starting the workers anew for each
+    # took a third of a second a phase (benchmarks/bench_engine_runs.py).
+    first = [text_corpus[k * 3000 : k * 3000 + 2000] for k in range(6)]
+    second = [text_corpus[k * 5000 + 7 : k * 5000 + 1500] for k in range(6)]
+    job, tiles = _ppmd_tiles(first)
+    with LocalEngine(2) as engine:
+        got = dict(engine.run(first, job, tiles))
+        assert engine._workers is not None
+        workers, pids = engine._workers, engine._workers.pids
+        again = dict(engine.run(second, job, tiles))  # other items, same workers
+        assert engine._workers is workers and workers.pids == pids
+    for tile in tiles:
+        assert np.array_equal(got[tile], run_tile(first, job, tile))
+        assert np.array_equal(again[tile], run_tile(second, job, tile))
+    assert all(proc.returncode is not None for proc in workers._procs)  # ended with the block
+
+
+def test_a_run_left_early_ends_the_kept_workers_and_the_next_starts_afresh(
+    text_corpus: bytes,
+) -> None:
+    items = [text_corpus[k * 3000 : k * 3000 + 2000] for k in range(6)]
+    job, tiles = _ppmd_tiles(items)
+    engine = LocalEngine(2)
+    run = engine.run(items, job, tiles)
+    next(run)  # answers of the other tiles still owed
+    workers = engine._workers
+    assert workers is not None
+    run.close()
+    assert engine._workers is None
+    assert all(proc.returncode is not None for proc in workers._procs)
+    got = dict(engine.run(items, job, tiles))
+    assert engine._workers is not None and engine._workers is not workers
+    assert all(np.array_equal(got[t], run_tile(items, job, t)) for t in tiles)
+    kept = engine._workers
+    del engine  # collected: its workers end too
+    assert all(proc.returncode is not None for proc in kept._procs)
+
+
+def test_a_dead_kept_worker_raises_then_is_replaced(text_corpus: bytes) -> None:
+    items = [text_corpus[k * 3000 : k * 3000 + 2000] for k in range(6)]
+    job, tiles = _ppmd_tiles(items)
+    with LocalEngine(2) as engine:
+        dict(engine.run(items, job, tiles))
+        assert engine._workers is not None
+        os.kill(engine._workers.pids[0], signal.SIGKILL)
+        engine._workers._procs[0].wait()
+        with pytest.raises(WorkerError):
+            dict(engine.run(items, job, tiles))
+        assert engine._workers is None
+        got = dict(engine.run(items, job, tiles))
+    assert all(np.array_equal(got[t], run_tile(items, job, t)) for t in tiles)

@@ -105,7 +105,8 @@ def opened_engine(args: argparse.Namespace) -> Iterator[Engine]:
     if jobs is not None and jobs < 1:
         raise UsageError(f"--jobs {jobs}: the worker count must be at least 1")
     if cluster is None:
-        yield LocalEngine(jobs)
+        with LocalEngine(jobs) as local:
+            yield local
         return
     if jobs is not None:
         raise UsageError("--jobs counts this machine's workers; a --cluster brings its own")

@@ -1,7 +1,9 @@
 """The wire between the engine and its worker processes.
 
-Messages are pickles framed by an 8-byte length: first the item list, then (task, job, tile)
-requests, each answered by (task, sizes) or (task, error text); None asks the worker to stop.
+Messages are pickles framed by an 8-byte length: an item list, then (task, job, tile)
+requests on those items, each answered by (task, sizes) or (task, error text); a later item list
+replaces the items for the requests after it (a worker serves one run after another); None asks
+the worker to stop.
 """
 
 from __future__ import annotations
@@ -41,6 +43,9 @@ def serve(source: IO[bytes], sink: IO[bytes]) -> None:
     try:
         items = receive(source)
         while (request := receive(source)) is not None:
+            if isinstance(request, list):
+                items = request
+                continue
             task, job, tile = request
             try:
                 send(sink, (task, run_tile(items, job, tile)))
