@@ -6,6 +6,7 @@ import lzma as stdlib_lzma
 import os
 import subprocess
 import sys
+import threading
 import time
 from pathlib import Path
 from typing import Any
@@ -267,7 +268,42 @@ def test_sizes_after_a_prefix_come_from_the_kept_state(
     short = [comp.after(b"a").sizes(xs)]
     monkeypatch.undo()
     assert short == [[comp.size(b"a" + x) for x in xs]]
-    assert any(h.process.poll() is None for h in kept._helpers.values())
+    assert any(h.process.poll() is None for found in kept._helpers.values() for h in found)
+
+
+@pytest.mark.skipif(not kept.AVAILABLE, reason="a state is kept (forked) only on Linux")
+def test_threads_after_other_prefixes_each_borrow_a_helper_of_their_own(
+    text_corpus: bytes, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    # lzma runs on the local engine's threads: with one helper a process, two threads took
+    # turns at it (one core of two) and made it feed their prefixes again at each turn.
+    monkeypatch.setattr(kept, "_helpers", {})  # this test's own helpers, gone with it
+    comp = compressor("lzma:level=6")
+    prefixes = [text_corpus[:60_000], text_corpus[100_000:160_000]]
+    xs = [text_corpus[200_000 + 3_000 * k :][:3_000] for k in range(6)]
+    readies = [comp.after(prefix) for prefix in prefixes]
+    start = threading.Barrier(2)
+    got: dict[int, list[list[int]]] = {}
+
+    def work(k: int) -> None:
+        start.wait()
+        got[k] = [readies[k].sizes(xs[:3]), readies[k].sizes(xs[3:])]
+
+    threads = [threading.Thread(target=work, args=(k,)) for k in range(2)]
+    for thread in threads:
+        thread.start()
+    for thread in threads:
+        thread.join()
+    for k, prefix in enumerate(prefixes):
+        assert got[k] == [[comp.size(prefix + x) for x in part] for part in (xs[:3], xs[3:])]
+    (found,) = kept._helpers.values()
+    assert len(found) == 2 and not any(h.busy for h in found)
+    # each prefix is held by a helper, which a later call on it borrows without feeding it again
+    assert {h.holding[0] for h in found} == set(readies)  # type: ignore[index]
+    held = next(h for h in found if h.holding[0] is readies[1])  # type: ignore[index]
+    ((_, recipe),) = kept._helpers.keys()
+    assert kept.borrow(recipe, held.holding) is held
+    kept.give_back(held)
 
 
 def test_the_kept_lzma_state_holds_its_prefix_encoded(text_corpus: bytes) -> None:
@@ -308,11 +344,12 @@ def test_sizes_come_whole_when_the_helper_is_gone(
     comp = compressor(spec)
     prefix, xs = text_corpus[:50_000], [text_corpus[60_000:64_000], text_corpus[70_000:71_000]]
     assert comp.prefixed_sizes(prefix, xs) == [comp.size(prefix + x) for x in xs]
-    (helper,) = kept._helpers.values()
+    ((helper,),) = kept._helpers.values()
     helper.process.kill()
     helper.process.wait()
     assert comp.prefixed_sizes(prefix, xs) == [comp.size(prefix + x) for x in xs]
-    assert helper.broken and all(kept.helper(r) is None for (_, r) in kept._helpers)
+    # a failed recipe starts no more helpers: its sizes come whole from then on
+    assert helper.broken and all(kept.borrow(r) is None for (_, r) in kept._helpers)
 
 
 @pytest.mark.skipif(not kept.AVAILABLE, reason="a state is kept (forked) only on Linux")
@@ -322,7 +359,7 @@ def test_ppmd_helper_ends_with_the_process_that_started_it(tmp_path: Path) -> No
     script = (
         "from kinpress.compressors import compressor, kept\n"
         "compressor('ppmd:order=4').prefixed_sizes(b'abc' * 1000, [b'x', b'y'])\n"
-        "print(next(iter(kept._helpers.values())).process.pid, flush=True)\n"
+        "print(next(iter(kept._helpers.values()))[0].process.pid, flush=True)\n"
         "import os, signal; os.kill(os.getpid(), signal.SIGKILL)\n"
     )
     done = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True)
