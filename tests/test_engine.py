@@ -110,6 +110,9 @@ def test_a_local_engine_keeps_its_worker_processes_from_run_to_run(text_corpus: 
         workers, pids = engine._workers, engine._workers.pids
         again = dict(engine.run(second, job, tiles))  # other items, same workers
         assert engine._workers is workers and workers.pids == pids
+        # idle, they hold no items: a tile asked of them directly finds none
+        with pytest.raises(WorkerError, match="IndexError"):
+            list(workers.run(job, [Tile((0,))]))
     for tile in tiles:
         assert np.array_equal(got[tile], run_tile(first, job, tile))
         assert np.array_equal(again[tile], run_tile(second, job, tile))

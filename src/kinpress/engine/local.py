@@ -36,8 +36,8 @@ class LocalEngine:
     kinpress, the compressor's helper processes) took about a third of a second each time, half
     of a small PPMd classification (benchmarks/bench_engine_runs.py). They end with `close` (or
     the `with` block), when the engine is collected, or when this process ends; a run left
-    before its end (an error, Ctrl-C) ends them at once, since they may still owe it answers. Kept
-    workers hold the last run's items until the next run replaces them.
+    before its end (an error, Ctrl-C) ends them at once, since they may still owe it answers. Idle
+    workers hold no items (each run sends its own and takes them back).
     """
 
     def __init__(self, jobs: int | None = None) -> None:
@@ -112,6 +112,7 @@ class LocalEngine:
             else:
                 self._workers.load(items)
             yield from self._workers.run(job, tiles)
+            self._workers.load([])  # idle workers hold no items
             finished = True
         finally:
             if not finished:  # left early or failed: answers may be owed, a worker may be gone
