@@ -299,11 +299,19 @@ def test_threads_after_other_prefixes_each_borrow_a_helper_of_their_own(
     (found,) = kept._helpers.values()
     assert len(found) == 2 and not any(h.busy for h in found)
     # each prefix is held by a helper, which a later call on it borrows without feeding it again
-    assert {h.holding[0] for h in found} == set(readies)  # type: ignore[index]
-    held = next(h for h in found if h.holding[0] is readies[1])  # type: ignore[index]
-    ((_, recipe),) = kept._helpers.keys()
-    assert kept.borrow(recipe, held.holding) is held
-    kept.give_back(held)
+    assert {h.holding[0] for h in found} == set(prefixes)  # type: ignore[index]
+    fed: list[bytes] = []
+    asked = kept.Helper.ask
+
+    def ask(helper: kept.Helper, message: bytes, answers: int) -> list[int]:
+        fed.append(message[:1])
+        return asked(helper, message, answers)
+
+    monkeypatch.setattr(kept.Helper, "ask", ask)
+    # a new state after an equal corpus (a run cut into tiles makes one per tile) feeds nothing
+    again = comp.after(bytes(bytearray(prefixes[1])))  # equal bytes, another object
+    assert again.sizes(xs[:2]) == [comp.size(prefixes[1] + x) for x in xs[:2]]
+    assert fed == [b"X"]
 
 
 def test_the_kept_lzma_state_holds_its_prefix_encoded(text_corpus: bytes) -> None:

@@ -239,12 +239,14 @@ class Kept(Continued):
                 give_back(helper)
 
     def _hold(self, helper: Helper, settings: tuple[int, ...]) -> None:
-        held = helper.holding
-        if not (isinstance(held, tuple) and held[0] is self and held[1] == settings):
+        # Held by the prefix's bytes, not by this object: a run cut into several tiles makes a
+        # new state after the same corpus for each (pip's vendored Pygments as a corpus, 4.6
+        # MB, fed again per tile). Equal bytes are mostly the same object: compared at once.
+        if helper.holding != (self._prefix, settings):
             head = [_number(len(settings)), *map(_number, settings)]
             message = b"".join([b"P", *head, _number(len(self._prefix)), self._prefix])
             if self._ask(helper, message, 1) is not None:
-                helper.holding = (self, settings)  # this object itself: an id could be reused
+                helper.holding = (self._prefix, settings)
 
     def _ask(self, helper: Helper, message: bytes, answers: int) -> list[int] | None:
         try:
@@ -259,7 +261,7 @@ class Kept(Continued):
         for k, data in enumerate(datas):
             groups.setdefault(self._settings(data), []).append(k)
         for settings, members in groups.items():
-            helper = borrow(self._recipe, (self, settings))
+            helper = borrow(self._recipe, (self._prefix, settings))
             if helper is None:
                 break
             parts: list[Any] = [b"X", _number(len(members))]
