@@ -240,8 +240,9 @@ class Kept(Continued):
 
     def _hold(self, helper: Helper, settings: tuple[int, ...]) -> None:
         # Held by the prefix's bytes, not by this object: a run cut into several tiles makes a
-        # new state after the same corpus for each (pip's vendored Pygments as a corpus, 4.6
-        # MB, fed again per tile). Equal bytes are mostly the same object: compared at once.
+        # new state after the same corpus for each, which fed it again (Rosetta's first round
+        # with PPMd: 60 feeds, now 50; a corpus of megabytes takes 1-2 s a feed). Equal bytes
+        # are mostly the same object, compared at once.
         if helper.holding != (self._prefix, settings):
             head = [_number(len(settings)), *map(_number, settings)]
             message = b"".join([b"P", *head, _number(len(self._prefix)), self._prefix])
