@@ -56,7 +56,8 @@ def classify_rows(
     sys.path.insert(0, str(Path(__file__).resolve().parent))
     import bench_origins as bench
 
-    from kinpress.calibration import calibrate, classify_unit, estimate_classify_seconds
+    from kinpress.calibration import calibrate, estimate_classify_seconds
+    from kinpress.calibration.job import candidate_seconds
     from kinpress.compressors import compressor
     from kinpress.origins import classify, reference_items
     from kinpress.origins.views import shape_share, shaped_items
@@ -86,17 +87,14 @@ def classify_rows(
         lengths, targets = [len(i.data) for i in ref], [len(t.data) for t in later]
         longest = max([*lengths, *targets])
         shape = shape_share([*ref, *later])
+        shaped = (shaped_items(ref), shaped_items(later)) if shape else None
         labels = len({i.label for i in ref})
         for result in report.compressors:
             comp = compressor(result.spec)
-            # as auto weighs it (calibration.job._within_budget)
             common = dict(primed=comp.primable or comp.continues, cores=cores, shape=shape)
             rate = estimate_classify_seconds(result, lengths, labels, targets, **common)
-            timed = classify_unit(comp, ref, later, longest)
-            shaped = shape and classify_unit(comp, shaped_items(ref), shaped_items(later), longest)
-            unit = estimate_classify_seconds(
-                result, lengths, labels, targets, **common, unit=timed, shape_unit=shaped or None
-            )
+            # as auto weighs it against the budget (calibration.job._within_budget)
+            unit = candidate_seconds(result, ref, later, cores, longest, shape, shaped)
             started = time.perf_counter()
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")

@@ -235,8 +235,6 @@ def _within_budget(
     classification fits the budget; why each other one is passed over goes to ``reasons``."""
     from ..origins.views import shape_share, shaped_items
 
-    labels = {item.label for item in items}
-    lengths = [len(item.data) for item in items]
     shape = shape_share([*items, *targets])
     shaped = (shaped_items(items), shaped_items(targets)) if shape else None
     timed = []
@@ -246,13 +244,7 @@ def _within_budget(
                 f"{result.spec}: passed over: cannot hold the largest item ({size_text(longest)})"
             )
             continue
-        comp = compressor(result.spec)
-        seconds = estimate_classify_seconds(
-            result, lengths, len(labels), [len(t.data) for t in targets],
-            primed=comp.primable or comp.continues, cores=cores, shape=shape,
-            unit=classify_unit(comp, items, targets, longest),
-            shape_unit=shaped and classify_unit(comp, *shaped, longest),
-        )  # fmt: skip
+        seconds = candidate_seconds(result, items, targets, cores, longest, shape, shaped)
         if seconds > budget_seconds:
             reasons.append(
                 f"{result.spec}: passed over: the job would take {_estimate(seconds)} on {cores}"
@@ -261,6 +253,29 @@ def _within_budget(
             continue
         timed.append((seconds, result.spec))
     return timed
+
+
+def candidate_seconds(
+    result: CompressorCalibration,
+    items: Sequence[Item],
+    targets: Sequence[Item],
+    cores: int,
+    longest: int,
+    shape: float,
+    shaped: tuple[list[Item], list[Item]] | None,
+) -> float:
+    """A labelled candidate's whole classification of `targets` against the reference `items`,
+    estimated as auto weighs it against the budget: from its unit of work timed on the job's
+    own corpus and items (:func:`classify_unit`), and, where the shape view joins in
+    (`shape`, its share; `shaped`, the reference and targets in that view), the shape view's
+    own unit, on `cores` cores."""
+    comp = compressor(result.spec)
+    return estimate_classify_seconds(
+        result, [len(item.data) for item in items], len({item.label for item in items}),
+        [len(t.data) for t in targets], primed=comp.primable or comp.continues, cores=cores,
+        shape=shape, unit=classify_unit(comp, items, targets, longest),
+        shape_unit=shaped and classify_unit(comp, *shaped, longest),
+    )  # fmt: skip
 
 
 UNIT_ITEMS = 3
