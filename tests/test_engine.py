@@ -153,3 +153,27 @@ def test_a_dead_kept_worker_raises_then_is_replaced(text_corpus: bytes) -> None:
         assert engine._workers is None
         got = dict(engine.run(items, job, tiles))
     assert all(np.array_equal(got[t], run_tile(items, job, t)) for t in tiles)
+
+
+def test_an_engine_with_kept_workers_copies_pickles_and_clones(text_corpus: bytes) -> None:
+    # cross-validation clones an estimator and its parameters, the engine among them (deepcopy):
+    # a copy carries the worker count, and starts workers of its own when it first needs them.
+    import copy
+    import pickle
+
+    from sklearn.base import clone
+
+    from kinpress import CompressionClassifier
+
+    items = [text_corpus[k * 3000 : k * 3000 + 2000] for k in range(6)]
+    job, tiles = _ppmd_tiles(items)
+    with LocalEngine(2) as engine:
+        dict(engine.run(items, job, tiles))
+        assert engine._workers is not None
+        for twin in (copy.deepcopy(engine), pickle.loads(pickle.dumps(engine))):
+            assert twin.jobs == 2 and twin._workers is None
+            with twin:
+                got = dict(twin.run(items, job, tiles))
+            assert all(np.array_equal(got[t], run_tile(items, job, t)) for t in tiles)
+        model = clone(CompressionClassifier(engine=engine))
+        assert isinstance(model.engine, LocalEngine) and model.engine is not engine

@@ -48,6 +48,14 @@ class LocalEngine:
         self._ending: weakref.finalize[[WorkerProcesses], LocalEngine] | None = None
         self._lock = threading.Lock()
 
+    def __getstate__(self) -> dict[str, int]:
+        """A copy or pickle carries the worker count only; its workers will be its own (so an
+        estimator holding an engine can be cloned, as cross-validation does)."""
+        return {"jobs": self.jobs}
+
+    def __setstate__(self, state: dict[str, int]) -> None:
+        self.__init__(state["jobs"])  # type: ignore[misc]
+
     def close(self) -> None:
         """End the worker processes kept for the next run, if any."""
         if self._ending is not None:
