@@ -177,3 +177,19 @@ def test_an_engine_with_kept_workers_copies_pickles_and_clones(text_corpus: byte
             assert all(np.array_equal(got[t], run_tile(items, job, t)) for t in tiles)
         model = clone(CompressionClassifier(engine=engine))
         assert isinstance(model.engine, LocalEngine) and model.engine is not engine
+
+
+def test_a_run_while_another_holds_the_kept_workers_gets_its_own(text_corpus: bytes) -> None:
+    items = [text_corpus[k * 3000 : k * 3000 + 2000] for k in range(6)]
+    job, tiles = _ppmd_tiles(items)
+    with LocalEngine(2) as engine:
+        first = engine.run(items, job, tiles)
+        got = dict([next(first)])  # the kept workers are this run's until it ends
+        kept = engine._workers
+        assert kept is not None
+        other = dict(engine.run(items, job, tiles))  # on processes of its own, then ended
+        assert engine._workers is kept
+        got.update(first)
+        assert engine._workers is kept
+    for run in (got, other):
+        assert all(np.array_equal(run[t], run_tile(items, job, t)) for t in tiles)
