@@ -41,6 +41,29 @@ def test_a_prefix_kept_for_its_run_is_counted_once_per_run() -> None:
         assert covered == list(zip(first, second, strict=True))
 
 
+def test_a_run_is_cut_only_where_its_items_pass_a_tile() -> None:
+    # Every tile that starts inside a run prepares its corpus again. One corpus of 1 MB and 100
+    # items of 1 kB on 2 workers: the items fit one tile, so the run stays whole (it was cut
+    # right after its first pair: the corpus alone filled a tile); 3 MB of items are cut into
+    # about as many pieces as a tile's bytes need, each piece its own tile.
+    items = [
+        bytes(1 << 20),
+        *(bytes(1000) for _ in range(100)),
+        *(bytes(30_000) for _ in range(100)),
+    ]
+    small = plan_tiles(items, [0] * 100, list(range(1, 101)), workers=2, prefix_once=True)
+    assert small == [Tile((0,) * 100, tuple(range(1, 101)))]
+    big = plan_tiles(items, [0] * 100, list(range(101, 201)), workers=2, prefix_once=True)
+    per_tile = (1 << 20) + 3_000_000  # the plan's bytes, over 4 tiles a worker
+    assert 2 <= len(big) <= 3_000_000 // (per_tile // 8) + 1
+    assert [s for t in big for s in t.second] == list(range(101, 201))
+    # several small runs share a tile, cut only between runs
+    firsts = [k for k in range(10) for _ in range(10)]
+    runs = plan_tiles(items, firsts, list(range(1, 101)), workers=2, prefix_once=True)
+    assert all(t.first[0] != u.first[-1] for t, u in zip(runs[1:], runs, strict=False))
+    assert [f for t in runs for f in t.first] == firsts
+
+
 def test_worker_processes_agree_with_running_tiles_here(text_corpus: bytes) -> None:
     items = [text_corpus[k * 3000 : k * 3000 + 2000] for k in range(8)]
     job = SizeJob("ppmd:order=6,memory=16")
