@@ -15,7 +15,8 @@ the compressors that keep their state after a corpus (lzma on threads, PPMd in p
 the number of workers is the goal. Each thread borrows a helper process of its own (see
 compressors.kept); with one helper a process, lzma's threads took turns at it (a small lzma 9
 classification took 10.1 s, then 5.9 s, as estimated). Measured 2026-12-05, 2 workers: lzma 9
-0.88 before, 1.68-1.75 after; PPMd order 32 1.2-1.6; kept workers 3.1-3.75 times quicker a run.
+0.88 before, 1.68-1.75 after, 2.21 once runs were cut only where their items pass a tile
+(engine.tiles._run_cuts); PPMd order 32 1.2-1.6; kept workers 3.1-3.75 times quicker a run.
 
     python benchmarks/bench_engine_runs.py [--runs N] [--jobs J]
 """
