@@ -193,7 +193,7 @@ def borrow(recipe: str, holding: object = None) -> Helper | None:
         found = _helpers.setdefault(key, [])
         if any(h.broken for h in found):  # one failed: the recipe's sizes come whole from now
             return None
-        free = [h for h in found if not h.busy and not h.broken]
+        free = [h for h in found if not h.busy]
         chosen = next((h for h in free if h.holding == holding), free[0] if free else None)
         if chosen is None:
             try:

@@ -39,7 +39,7 @@ def worker_command() -> list[str]:
 class WorkerProcesses:
     """`count` worker processes (see `worker_command`), each holding the items (replaced by
     `load`, so one set of workers serves run after run). A run left before its last answer
-    leaves answers in flight: the workers are then `stale` and serve no further run."""
+    leaves answers in flight: such workers must serve no further run (LocalEngine ends them)."""
 
     def __init__(self, count: int, items: Sequence[bytes]) -> None:
         self._procs = [
@@ -50,7 +50,6 @@ class WorkerProcesses:
         ]
         self._answers: queue.Queue[tuple[int, Any]] = queue.Queue()
         self._readers = []
-        self.stale = False
         payload = list(items)
         for index, proc in enumerate(self._procs):
             assert proc.stdout is not None
@@ -94,12 +93,9 @@ class WorkerProcesses:
 
     def run(self, job: SizeJob, tiles: Sequence[Tile]) -> Iterator[tuple[Tile, np.ndarray]]:
         """Yield (tile, sizes) as workers finish them, two tiles in flight per worker."""
-        if self.stale:
-            raise WorkerError("these workers still owe answers of a run that was left")
         waiting = list(enumerate(tiles))[::-1]
         load = [0] * len(self._procs)
         in_flight = 0
-        self.stale = bool(waiting)  # until every answer of this run is in
         while waiting or in_flight:
             for index in range(len(self._procs)):
                 while load[index] < 2 and waiting:
@@ -115,8 +111,6 @@ class WorkerProcesses:
                 raise WorkerError(f"a worker process failed:\n{result}")
             load[index] -= 1
             in_flight -= 1
-            if not waiting and not in_flight:
-                self.stale = False
             yield tiles[task], result
 
     def close(self) -> None:

@@ -146,22 +146,20 @@ def _run_cuts(
     each run cut into as few pieces of about equal seconds' bytes as keep those bytes within
     `per_tile` (its first counted again in each piece), and consecutive pieces packed into one
     tile while their cost, firsts and seconds, stays within `per_tile`."""
-    pieces: list[tuple[int, int]] = []
-    costs: list[int] = []
+    pieces: list[tuple[int, int]] = []  # (start, cost) of each piece, in order
     for f, lo, hi in _runs(first):
         seconds = lengths[second[lo:hi]]
-        count = min(hi - lo, max(1, -(-int(seconds.sum()) // per_tile)))
-        wanted = int(seconds.sum()) * np.arange(1, count) / count
-        inner = np.searchsorted(np.cumsum(seconds), wanted, side="left") + 1 + lo
-        bounds = [lo, *sorted(set(int(b) for b in inner if lo < b < hi)), hi]
+        total = int(seconds.sum())
+        count = min(hi - lo, max(1, -(-total // per_tile)))
+        inner = np.searchsorted(np.cumsum(seconds), total * np.arange(1, count) / count, "left")
+        bounds = [0, *sorted(set(int(b) + 1 for b in inner if 0 < b + 1 < hi - lo)), hi - lo]
         for a, b in itertools.pairwise(bounds):
-            pieces.append((a, b))
-            costs.append(int(lengths[f]) + int(lengths[second[a:b]].sum()))
+            pieces.append((lo + a, int(lengths[f]) + int(seconds[a:b].sum())))
     cuts = [0]
     load = 0
-    for (a, _), cost in zip(pieces, costs, strict=True):
+    for start, cost in pieces:
         if load and load + cost > per_tile:
-            cuts.append(a)
+            cuts.append(start)
             load = 0
         load += cost
     return [*cuts, len(first)]
