@@ -117,16 +117,25 @@ def test_threads_and_serial_give_identical_sizes(text_corpus: bytes) -> None:
     assert all(np.array_equal(threaded[t], serial[t]) for t in tiles)
 
 
-def _ppmd_tiles(items: list[bytes]) -> tuple[SizeJob, list[Tile]]:
-    return SizeJob("ppmd:order=6,memory=16"), [Tile((0, 1, 2), (3, 4, 5)), Tile((1,)), Tile((4,))]
+PPMD_JOB = SizeJob("ppmd:order=6,memory=16")  # run in worker processes (it holds the GIL)
+PPMD_TILES = [Tile((0, 1, 2), (3, 4, 5)), Tile((1,)), Tile((4,))]
+
+
+def _six_items(text_corpus: bytes) -> list[bytes]:
+    return [text_corpus[k * 3000 : k * 3000 + 2000] for k in range(6)]
+
+
+def _as_here(got: dict[Tile, np.ndarray], items: list[bytes]) -> bool:
+    """Whether the sizes of every PPMD_TILES tile are those run_tile gives here."""
+    return all(np.array_equal(got[t], run_tile(items, PPMD_JOB, t)) for t in PPMD_TILES)
 
 
 def test_a_local_engine_keeps_its_worker_processes_from_run_to_run(text_corpus: bytes) -> None:
     # A classification runs about ten phases on one engine; starting the workers anew for each
     # took a third of a second a phase (benchmarks/bench_engine_runs.py).
-    first = [text_corpus[k * 3000 : k * 3000 + 2000] for k in range(6)]
+    first = _six_items(text_corpus)
     second = [text_corpus[k * 5000 + 7 : k * 5000 + 1500] for k in range(6)]
-    job, tiles = _ppmd_tiles(first)
+    job, tiles = PPMD_JOB, PPMD_TILES
     with LocalEngine(2) as engine:
         got = dict(engine.run(first, job, tiles))
         assert engine._workers is not None
@@ -145,8 +154,8 @@ def test_a_local_engine_keeps_its_worker_processes_from_run_to_run(text_corpus: 
 def test_a_run_left_early_ends_the_kept_workers_and_the_next_starts_afresh(
     text_corpus: bytes,
 ) -> None:
-    items = [text_corpus[k * 3000 : k * 3000 + 2000] for k in range(6)]
-    job, tiles = _ppmd_tiles(items)
+    items = _six_items(text_corpus)
+    job, tiles = PPMD_JOB, PPMD_TILES
     engine = LocalEngine(2)
     run = engine.run(items, job, tiles)
     next(run)  # answers of the other tiles still owed
@@ -157,15 +166,15 @@ def test_a_run_left_early_ends_the_kept_workers_and_the_next_starts_afresh(
     assert all(proc.returncode is not None for proc in workers._procs)
     got = dict(engine.run(items, job, tiles))
     assert engine._workers is not None and engine._workers is not workers
-    assert all(np.array_equal(got[t], run_tile(items, job, t)) for t in tiles)
+    assert _as_here(got, items)
     kept = engine._workers
     del engine  # collected: its workers end too
     assert all(proc.returncode is not None for proc in kept._procs)
 
 
 def test_a_dead_kept_worker_raises_then_is_replaced(text_corpus: bytes) -> None:
-    items = [text_corpus[k * 3000 : k * 3000 + 2000] for k in range(6)]
-    job, tiles = _ppmd_tiles(items)
+    items = _six_items(text_corpus)
+    job, tiles = PPMD_JOB, PPMD_TILES
     with LocalEngine(2) as engine:
         dict(engine.run(items, job, tiles))
         assert engine._workers is not None
@@ -175,7 +184,7 @@ def test_a_dead_kept_worker_raises_then_is_replaced(text_corpus: bytes) -> None:
             dict(engine.run(items, job, tiles))
         assert engine._workers is None
         got = dict(engine.run(items, job, tiles))
-    assert all(np.array_equal(got[t], run_tile(items, job, t)) for t in tiles)
+    assert _as_here(got, items)
 
 
 def test_an_engine_with_kept_workers_copies_pickles_and_clones(text_corpus: bytes) -> None:
@@ -188,8 +197,8 @@ def test_an_engine_with_kept_workers_copies_pickles_and_clones(text_corpus: byte
 
     from kinpress import CompressionClassifier
 
-    items = [text_corpus[k * 3000 : k * 3000 + 2000] for k in range(6)]
-    job, tiles = _ppmd_tiles(items)
+    items = _six_items(text_corpus)
+    job, tiles = PPMD_JOB, PPMD_TILES
     with LocalEngine(2) as engine:
         dict(engine.run(items, job, tiles))
         assert engine._workers is not None
@@ -197,14 +206,14 @@ def test_an_engine_with_kept_workers_copies_pickles_and_clones(text_corpus: byte
             assert twin.jobs == 2 and twin._workers is None
             with twin:
                 got = dict(twin.run(items, job, tiles))
-            assert all(np.array_equal(got[t], run_tile(items, job, t)) for t in tiles)
+            assert _as_here(got, items)
         model = clone(CompressionClassifier(engine=engine))
         assert isinstance(model.engine, LocalEngine) and model.engine is not engine
 
 
 def test_a_run_while_another_holds_the_kept_workers_gets_its_own(text_corpus: bytes) -> None:
-    items = [text_corpus[k * 3000 : k * 3000 + 2000] for k in range(6)]
-    job, tiles = _ppmd_tiles(items)
+    items = _six_items(text_corpus)
+    job, tiles = PPMD_JOB, PPMD_TILES
     with LocalEngine(2) as engine:
         first = engine.run(items, job, tiles)
         got = dict([next(first)])  # the kept workers are this run's until it ends
@@ -215,4 +224,4 @@ def test_a_run_while_another_holds_the_kept_workers_gets_its_own(text_corpus: by
         got.update(first)
         assert engine._workers is kept
     for run in (got, other):
-        assert all(np.array_equal(run[t], run_tile(items, job, t)) for t in tiles)
+        assert _as_here(run, items)
