@@ -2,7 +2,8 @@
 
 For each round of bench_origins.py's protocols (time-ordered log chunks, code in name order,
 texts; --draws N adds random splits of the code sets), every labelled candidate of `-c auto`
-(AUTO_CANDIDATES["labelled"], or --specs) is measured as auto measures it on the round's
+(AUTO_CANDIDATES["labelled"] and the stacks of AUTO_STACKS, or --specs) is measured as auto
+measures it on the round's
 reference (calibration.job's held-out figures: accuracy, a missing origin's items refused, AUC,
 own score) and then classifies the round's later items with default options otherwise: known
 items named right and refused, a missing origin's items unknown. The rows go to --out as JSON
@@ -54,6 +55,7 @@ from bench_origins import (
 from kinpress import Item, SizeCache
 from kinpress.calibration.job import (
     LABELLED_CANDIDATES,
+    LABELLED_STACKS,
     TaskFigures,
     _labelled_figures,
     _pick_labelled,
@@ -86,7 +88,10 @@ def plans(args: argparse.Namespace) -> list[tuple[str, Plan]]:
 
 
 def measure(args: argparse.Namespace) -> list[dict[str, object]]:
-    specs = [compressor(s).spec for s in (args.specs or LABELLED_CANDIDATES)]
+    # a stack's spec as auto names it (its compressors' specs joined by +), its figures from
+    # its compressors' measuring (cached), as auto ranks it
+    given = args.specs or [*LABELLED_CANDIDATES, *LABELLED_STACKS]
+    specs = [s if s in LABELLED_STACKS else compressor(s).spec for s in given]
     rows: list[dict[str, object]] = []
     out = open(args.out, "a") if args.out else None  # noqa: SIM115 - closed below
     try:
@@ -108,6 +113,9 @@ def measure(args: argparse.Namespace) -> list[dict[str, object]]:
                             "spec": spec,
                             "origins": len(labels),
                             "figures": figures.as_json(),
+                            # the rows a stack is compared on (see job._better_than_stack)
+                            "measured_rows": figures.measured_rows,
+                            "right_rows": figures.right_rows,
                             "right": float(np.mean([p.predicted == t.label for t, p in known])),
                             "refused": float(np.mean([p.decision != "named" for _, p in known])),
                             "unknown": (
@@ -133,7 +141,11 @@ def measure(args: argparse.Namespace) -> list[dict[str, object]]:
 
 
 def figures_of(row: dict[str, object]) -> TaskFigures:
-    return TaskFigures(**row["figures"])  # type: ignore[arg-type]
+    rows: dict[str, tuple[int, ...]] = {
+        key: tuple(row.get(key) or ())  # type: ignore[arg-type]
+        for key in ("measured_rows", "right_rows")
+    }
+    return TaskFigures(**row["figures"], **rows)  # type: ignore[arg-type]
 
 
 def table(rows: list[dict[str, object]]) -> None:

@@ -13,11 +13,11 @@ from ..compressors import AUTO_CANDIDATES, compressor
 from ..engine import Engine
 from ..items import Item
 from ..measure import Progress
-from ..origins.scores import DEFAULT_SIGNIFICANCE
+from ..origins.scores import DEFAULT_SIGNIFICANCE, stacked
 from .choose import DEFAULT_BUDGET_SECONDS, calibrate, choose_compressor, holds
 from .controls import DEFAULT_SEED
 from .estimate import ProposedPairs
-from .job import LABELLED_JOBS, Choice, check_job_inputs, choose_for_job
+from .job import LABELLED_JOBS, LABELLED_STACKS, Choice, check_job_inputs, choose_for_job
 from .measure import (
     DEFAULT_MAX_BYTES,
     BlindSpot,
@@ -150,6 +150,7 @@ def _auto_key(
             for item in items
         ),
         *(compressor(spec).cache_key for spec in candidates),
+        *(f"stack {spec}" for spec in (LABELLED_STACKS if labelled else ())),
         f"seed={DEFAULT_SEED} budget={budget_seconds} cores={cores} strand={strand}"
         + (f" replicates={replicates} null_pairs={null_pairs}" if replicates or null_pairs else "")
         + ("" if proposed is None else f" proposed={proposed.pairs}:{proposed.fed}"),
@@ -168,7 +169,8 @@ def _choice_json(choice: Choice, items: Sequence[Item], labelled: bool) -> str:
     import json
 
     pair = int(sum(sorted((len(item.data) for item in items), reverse=True)[:2]))
-    result = choice.report.result(choice.spec)
+    # a stack's table row is its first compressor's (each holds the largest item: see holds)
+    result = choice.report.result(str(stacked(choice.spec)[0]))
     # A labelled choice leads with its task figures; an unlabelled one with the controls'
     # comparison when there was one, else with the time estimate that settled it.
     lead = labelled or " chosen over " in choice.reasons[0]

@@ -86,7 +86,8 @@ def measuring(
         default=DEFAULT_COMPRESSOR,
         metavar="SPEC",
         help=f"NAME[:key=value,...] or auto (calibrate on the inputs and choose); default "
-        f"{DEFAULT_COMPRESSOR}; see 'kinpress compressors'",
+        f"{DEFAULT_COMPRESSOR}; classify and report --reference also take a stack, SPEC+SPEC,"
+        " decided on the views of both; see 'kinpress compressors'",
     )
     budget(group)
     group.add_argument(

@@ -185,7 +185,7 @@ def _classification_text(found: Any, grouped: Any) -> str:
         " score is"
         " C(x | origin) / C(x), lower is better, made comparable across origins as the next"
         " line says.",
-        f"Scores: {found.scoring.description}.",
+        f"Scores: {found.scoring_words}.",
         f"Abstention: {found.abstention.guarantee}.",
         *(f"Warning: {note.words(found.abstention.significance)}." for note in found.concentrated),
         *([grouped.words] if grouped.words else []),
@@ -205,7 +205,7 @@ def _evaluation_text(result: Any) -> str:
         f"each origin missing from the reference in turn: its items refused"
         f" {result.left_out_unknown_rate:.3f} ({missing})",
         f"abstention: {result.abstention.guarantee}",
-        f"scores: {result.scoring.description}",
+        f"scores: {result.scoring_words}",
         *(
             f"warning: {origin}: {k} of its {n} held-out items were refused, more than a rate of"
             f" {result.abstention.significance:g} allows (binomial p = {p:.1g}): its blocks"

@@ -196,6 +196,7 @@ def _with_progress(console: Console, work: Callable[[Any], T]) -> T:
 
 def run(args: argparse.Namespace, console: Console) -> int:
     from ..compressors import compressor
+    from ..origins.scores import stacked
     from ..report import CompressorChoice, build_report, render_html
     from ..support import bootstrap_support
     from ..trees import Resampling, TreeResult, build_tree, outgroup_root
@@ -222,6 +223,10 @@ def run(args: argparse.Namespace, console: Console) -> int:
             job = "derived" if args.derived else "tree"
             spec, table = resolve_choice(args, items, recorder, job=job)
     command = rerun_command(args, spec)
+    # A stack (classify's -c auto may choose one) scores the classification; the matrix, the
+    # tree and derived findings are measured with its first compressor.
+    single = str(stacked(spec)[0])
+    args.compressor = single
     if not given:
         # the table behind the choice; a choice kept by an earlier version has none
         calibration = table or _calibration(args, reference or items, bool(reference))
@@ -232,7 +237,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
     if args.bootstrap:
         support = Resampling(args.bootstrap, args.block_fraction, args.seed)
         tree = _with_progress(console, lambda progress: bootstrap_support(
-            tree, items, compressor(spec), replicates=args.bootstrap,
+            tree, items, compressor(single), replicates=args.bootstrap,
             block_fraction=args.block_fraction, seed=args.seed, method=args.method,
             conditional=args.conditional, strand=args.strand, engine=args.engine,
             progress=progress,
@@ -246,7 +251,7 @@ def run(args: argparse.Namespace, console: Console) -> int:
 
         with opened_cache(args) as cache:
             derived = _with_progress(console, lambda progress: find_derived(
-                items, spec, seed=args.seed, engine=args.engine, cache=cache, progress=progress,
+                items, single, seed=args.seed, engine=args.engine, cache=cache, progress=progress,
             ))  # fmt: skip
     classification = grouped = None
     if reference and unknowns:

@@ -38,11 +38,20 @@ AUTO_CANDIDATES: dict[str, tuple[str, ...]] = {
 }
 """The specs ``-c auto`` calibrates, by kind of job (a labelled reference or not), in the order
 its reasons list them; the one list beside ``ADAPTERS`` a new compressor joins to be chosen."""
+AUTO_STACKS: dict[str, tuple[tuple[str, ...], ...]] = {
+    "labelled": (("zstd:level=19", "ppmd:order=32"),),
+}
+"""Stacks of candidates ``-c auto`` also ranks for a labelled job: each scores the items with
+all its compressors and decides on the views of all (see origins.classification), ranked by
+the held-out figures its members' measuring gives (no compression of its own). One of each
+kind of model: a long-window dictionary matcher (exact repeats) and a context model (symbol
+statistics), whose errors on data that has drifted differ (see calibration.job._pick_labelled)."""
 NAME_ALIASES = {"xz": "lzma", "deflate": "zlib", "bzip2": "bz2", "brotli": "brotli"}
 
 __all__ = [
     "ADAPTERS",
     "AUTO_CANDIDATES",
+    "AUTO_STACKS",
     "Compressor",
     "CompressorInfo",
     "Continued",
@@ -57,6 +66,11 @@ __all__ = [
 
 def parse_spec(text: str) -> tuple[type[Compressor], dict[str, int]]:
     """Split ``NAME[:key=value[,key=value]]`` into an adapter class and integer settings."""
+    if "+" in text:
+        raise SpecError(
+            f"{text!r}: a stack of compressors (specs joined by +) scores classify and report"
+            " --reference only; give one compressor here"
+        )
     name, _, rest = text.strip().partition(":")
     name = NAME_ALIASES.get(name.lower(), name.lower())
     cls = ADAPTERS.get(name)

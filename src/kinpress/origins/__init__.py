@@ -40,6 +40,13 @@ be divided by its background, the median score it gives other origins' held-out 
 (Background); and each item may also be scored in its shape view, letters and digits masked
 (views), the origin's score being the geometric mean of the two. The reference's held-out items
 decide both: each is kept when it names significantly more of them right.
+
+A stack of compressors (specs joined by STACK, "zstd:level=19+ppmd:order=32") scores every item
+with each and decides on the views of all as on one compressor's content and shape: each
+compressor's scores made comparable on its own footing, an origin's score the geometric mean over
+every view, the tests calibrated on the stack of held-out scores. Drift that one kind of model
+misses (a log's later chunks naming what its first ones never did) the other's views may still
+see; -c auto ranks stacks beside single compressors (calibration.job).
 """
 
 from __future__ import annotations
@@ -77,11 +84,13 @@ from .scores import (
     DEFAULT_BLOCKS,
     DEFAULT_SIGNIFICANCE,
     METHODS,
+    STACK,
     FoldScores,
     check_reference,
     corpus_bytes,
     fold_scores,
     reference_folds,
+    stacked,
 )
 from .unknowns import UnknownGroup, UnknownGroups, group_unknowns
 from .views import Scoring, shape
@@ -93,6 +102,7 @@ __all__ = [
     "DEFAULT_SIGNIFICANCE",
     "METHODS",
     "MIX",
+    "STACK",
     "TESTS",
     "Abstention",
     "Background",
@@ -125,4 +135,5 @@ __all__ = [
     "reference_folds",
     "reference_items",
     "shape",
+    "stacked",
 ]

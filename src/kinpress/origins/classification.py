@@ -20,10 +20,11 @@ from .conformal import Abstention, Conformity, _abstention, combined
 from .scores import (
     DEFAULT_BLOCKS,
     DEFAULT_SIGNIFICANCE,
+    STACK,
     FoldScores,
     _check_k,
     _fold_scores,
-    _measurement,
+    _measurements,
     _Reference,
     _score,
     _Scores,
@@ -170,6 +171,20 @@ def _decide(
     return out
 
 
+def scoring_words(scorings: Sequence[Scoring], compressors: Sequence[str]) -> str:
+    """Each compressor's scoring in words (Scoring.description); for a stack, named by
+    compressor, with how their views are joined."""
+    if len(scorings) == 1:
+        return scorings[0].description
+    each = "; ".join(
+        f"{spec}: {way.description}" for spec, way in zip(compressors, scorings, strict=True)
+    )
+    return (
+        f"a stack of {len(scorings)} compressors, an origin's score the geometric mean over the"
+        f" views of all and the tests weighing each view as one compressor's views: {each}"
+    )
+
+
 def _beyond_rate(refused: int, items: int, rate: float, origins: int) -> float | None:
     """The binomial chance of at least `refused` of `items` refused at `rate`
     (scipy.stats.binom.sf) where it is at most the rate shared among `origins` (Bonferroni: a
@@ -220,7 +235,10 @@ class Classification:
     deciding test's p-value of each (None with a given threshold; see Conformity).
     `concentrated` names origins whose best-fitting items were refused far beyond the rate
     while the separation test would take them (see Concentrated); empty when none were, when
-    separation decides, or with a threshold.
+    separation decides, or with a threshold. A stack of compressors (`compressor` their specs
+    joined by STACK) decides on the views of all (see _stacked_calibration): `scores` are the
+    geometric mean over them, `scorings` each compressor's scoring (`scoring` the first's),
+    and the nearest reference items are the first compressor's.
     """
 
     predictions: tuple[Prediction, ...]
@@ -234,6 +252,17 @@ class Classification:
     compressor: str
     conditional: str
     concentrated: tuple[Concentrated, ...] = ()
+    scorings: tuple[Scoring, ...] = ()
+
+    @property
+    def compressors(self) -> tuple[str, ...]:
+        """The spec of each compressor that scored the items (more than one for a stack)."""
+        return tuple(self.compressor.split(STACK))
+
+    @property
+    def scoring_words(self) -> str:
+        """How the scores were made, in words (see scoring_words)."""
+        return scoring_words(self.scorings or (self.scoring,), self.compressors)
 
     def as_json(self) -> list[dict[str, object]]:
         """One object per item (see Prediction.as_json)."""
@@ -313,6 +342,39 @@ def _calibration(
     return way, way.stack(held, held_shape), codes
 
 
+Views = tuple[FoldScores, FoldScores | None]
+"""A compressor's held-out scores of the content and, when measured, of the shape view."""
+
+
+def _stacked_calibration(
+    views: Sequence[Views], choose: bool
+) -> tuple[tuple[Scoring, ...], np.ndarray, np.ndarray]:
+    """_calibration of each compressor of a stack on the held-out rows all of them measured,
+    its decision scores joined as further views: (items, origins, views of every compressor).
+    The tests then weigh each compressor's views as they weigh one compressor's content and
+    shape, so that what one compressor misses on data that has drifted (its own scores far
+    above its held-out reference's) the other's views still count. One compressor: as
+    _calibration."""
+    if len(views) == 1:
+        way, calibration, codes = _calibration(*views[0], choose)
+        return (way,), calibration, codes
+    keep = np.logical_and.reduce([_both_measured(folds, shaped) for folds, shaped in views])
+    ways, stacks = [], []
+    codes = views[0][0].codes[keep]
+    for folds, shaped in views:
+        held = folds.scores[keep]
+        held_shape = None if shaped is None else shaped.scores[keep]
+        way = _scoring(held, held_shape, codes, folds.origins, choose)
+        ways.append(way)
+        stacks.append(_as_views(way.stack(held, held_shape)))
+    return tuple(ways), np.concatenate(stacks, axis=2), codes
+
+
+def _as_views(stack: np.ndarray) -> np.ndarray:
+    """Decision scores as an (items, origins, views) stack."""
+    return stack if stack.ndim == 3 else stack[:, :, None]
+
+
 def fold_report(
     folds: FoldScores,
     significance: float = DEFAULT_SIGNIFICANCE,
@@ -320,16 +382,23 @@ def fold_report(
     shaped: FoldScores | None = None,
     choose: bool = True,
     test: str | None = None,
+    stacked: Sequence[Views] = (),
 ) -> FoldReport:
     """Decide every measured held-out reference item as a new one would be (see FoldReport).
 
     With `choose` (the conditional method's scores) each decision also chooses the scoring (each
     view's footing, and whether the shape view's scores in `shaped` join in; see Scoring) from
     the items it calibrates on; `test` (one of DECIDERS) decides instead of the one each
-    calibration would choose."""
-    keep = _both_measured(folds, shaped)
-    scores, codes, fold_of = folds.scores[keep], folds.codes[keep], folds.folds[keep]
-    shapes = None if shaped is None else shaped.scores[keep]
+    calibration would choose. `stacked` holds the views of further compressors of a stack,
+    measured on the same folds, whose decision scores join the first's (see
+    _stacked_calibration)."""
+    views = [(folds, shaped), *stacked]
+    if stacked and threshold is not None:
+        raise ValueError("a given threshold cuts one compressor's scores: give one compressor")
+    keep = np.logical_and.reduce([_both_measured(f, s) for f, s in views])
+    codes, fold_of = folds.codes[keep], folds.folds[keep]
+    measured = [(f.scores[keep], None if s is None else s.scores[keep]) for f, s in views]
+    scores = measured[0][0]
     n, m = scores.shape
     origins = [folds.origins[o] for o in range(m)]
     choose = choose and threshold is None
@@ -337,17 +406,23 @@ def fold_report(
     def decide(train: np.ndarray, rows: np.ndarray, columns: list[int]) -> _Decisions:
         """Calibrate on rows `train`, decide rows `rows`, on the origins in `columns`."""
         names = [origins[o] for o in columns]
-        content = scores[:, columns]
-        shape = None if shapes is None else shapes[:, columns]
         relabel = np.searchsorted(columns, codes[train])
-        way = _scoring(
-            content[train], None if shape is None else shape[train], relabel, names, choose
-        )
+        calibrations, decisions = [], []
+        for view_scores, view_shapes in measured:
+            content = view_scores[:, columns]
+            shape = None if view_shapes is None else view_shapes[:, columns]
+            way = _scoring(
+                content[train], None if shape is None else shape[train], relabel, names, choose
+            )
+            calibrations.append(way.stack(content[train], None if shape is None else shape[train]))
+            decisions.append(way.stack(content[rows], None if shape is None else shape[rows]))
+        calibration, decided = calibrations[0], decisions[0]
+        if len(measured) > 1:
+            calibration = np.concatenate([_as_views(c) for c in calibrations], axis=2)
+            decided = np.concatenate([_as_views(d) for d in decisions], axis=2)
         conformity = None
         if threshold is None:
-            calibration = way.stack(content[train], None if shape is None else shape[train])
             conformity = Conformity.of(calibration, relabel, names, significance, test)
-        decided = way.stack(content[rows], None if shape is None else shape[rows])
         return _decisions(decided, conformity, threshold)
 
     confusion = np.zeros((m, m + 2), dtype=np.int64)
@@ -389,7 +464,8 @@ class Evaluation:
 
     `accuracy`, `refusal_rate` and `ambiguous_rate` are shares of all reference items;
     `left_out_unknown_rate` the mean over origins of the share of an origin's items refused when
-    that origin is missing from the reference.
+    that origin is missing from the reference. `scoring` is the (first) compressor's scoring,
+    `scorings` each compressor's of a stack (see Classification).
     """
 
     accuracy: float
@@ -401,6 +477,13 @@ class Evaluation:
     confusion: np.ndarray
     abstention: Abstention
     scoring: Scoring
+    scorings: tuple[Scoring, ...] = ()
+    compressor: str = ""
+
+    @property
+    def scoring_words(self) -> str:
+        """How the scores were made, in words (see scoring_words)."""
+        return scoring_words(self.scorings or (self.scoring,), tuple(self.compressor.split(STACK)))
 
     @property
     def drifting(self) -> tuple[tuple[str, int, int, float], ...]:
@@ -441,6 +524,7 @@ class Evaluation:
                     },
                     "abstention": self.abstention,
                     "scoring": self.scoring,
+                    "scorings": self.scorings,
                     "drifting": [
                         {"origin": o, "refused": k, "items": n, "p": p}
                         for o, k, n, p in self.drifting
@@ -457,8 +541,13 @@ class _Calibrated:
 
     abstention: Abstention
     conformity: Conformity | None
-    scoring: Scoring
+    scorings: tuple[Scoring, ...]
     separation: Conformity | None = None
+
+    @property
+    def scoring(self) -> Scoring:
+        """The first compressor's scoring (the only one but for a stack)."""
+        return self.scorings[0]
 
     def decide(self, scores: np.ndarray) -> _Decisions:
         """Decide items by what the decision tests (`scoring.stack`)."""
@@ -467,7 +556,7 @@ class _Calibrated:
 
 def _calibrate(
     reference: _Reference,
-    measurement: Measurement,
+    measurements: Sequence[Measurement],
     method: str,
     significance: float | None,
     threshold: float | None,
@@ -478,21 +567,28 @@ def _calibrate(
     if threshold is not None:
         if significance is not None:
             raise ValueError("give a significance or a threshold, not both")
+        _one_for_threshold(measurements)
         abstention = Abstention(None, float(threshold), blocks=blocks)
-        return _Calibrated(abstention, None, Scoring.as_measured(reference.origins))
+        return _Calibrated(abstention, None, (Scoring.as_measured(reference.origins),))
     significance = DEFAULT_SIGNIFICANCE if significance is None else significance
     if not 0 < significance < 1:
         raise ValueError(f"significance must lie between 0 and 1, got {significance}")
     reference.check(calibrate=True)
-    folds, shaped = _both_views(reference, measurement, method, blocks, longest)
-    way, calibration, codes = _calibration(folds, shaped, method == "conditional")
+    views = [_both_views(reference, m, method, blocks, longest) for m in measurements]
+    ways, calibration, codes = _stacked_calibration(views, method == "conditional")
     conformity = Conformity.of(calibration, codes, reference.origins, significance, test)
     separation = (
         None
         if conformity.test == "separation"
         else Conformity.of(calibration, codes, reference.origins, significance, "separation")
     )
-    return _Calibrated(_abstention(conformity, blocks), conformity, way, separation)
+    return _Calibrated(_abstention(conformity, blocks), conformity, ways, separation)
+
+
+def _one_for_threshold(measurements: Sequence[Measurement]) -> None:
+    """A given score cut applies to one compressor's scores; a stack has no single score."""
+    if len(measurements) > 1:
+        raise ValueError("a given threshold cuts one compressor's scores: give one compressor")
 
 
 def _concentrated(
@@ -564,6 +660,28 @@ def _decision_scores(
     return replace(measured, scores=common, picked=common.argmin(axis=1)), stack
 
 
+def _stacked_decision_scores(
+    targets: Sequence[Item],
+    reference: _Reference,
+    measurements: Sequence[Measurement],
+    method: str,
+    k: int,
+    longest: int,
+    scorings: Sequence[Scoring],
+) -> tuple[_Scores, np.ndarray]:
+    """_decision_scores of each compressor of a stack, joined as _stacked_calibration joins
+    them: origins picked by the geometric mean over every view (`combined`)."""
+    parts = [
+        _decision_scores(targets, reference, m, method, k, longest, way)
+        for m, way in zip(measurements, scorings, strict=True)
+    ]
+    if len(parts) == 1:
+        return parts[0]
+    stack = np.concatenate([_as_views(tested) for _, tested in parts], axis=2)
+    common = combined(stack)
+    return replace(parts[0][0], scores=common, picked=common.argmin(axis=1)), stack
+
+
 def classify(
     unknowns: Sequence[ItemLike],
     reference: Sequence[ItemLike],
@@ -602,13 +720,14 @@ def classify(
     ref.check(calibrate=False)
     if method == "knn":
         _check_k(k, ref)
-    measurement = _measurement(comp, method, conditional, engine, cache, progress)
+    measurements = _measurements(comp, method, conditional, engine, cache, progress)
     longest = max(len(i.data) for i in [*unknowns, *ref.items])
-    fitted = _calibrate(ref, measurement, method, significance, threshold, blocks, longest, test)
-    measured, stack = _decision_scores(
-        unknowns, ref, measurement, method, k, longest, fitted.scoring
+    fitted = _calibrate(ref, measurements, method, significance, threshold, blocks, longest, test)
+    measured, stack = _stacked_decision_scores(
+        unknowns, ref, measurements, method, k, longest, fitted.scorings
     )
-    nearest = measurement.staged("nearest reference items")
+    # the nearest reference item by the first compressor of a stack
+    nearest = measurements[0].staged("nearest reference items")
     scores = _with_nearest(measured, unknowns, ref, nearest, exclude_self=False)
     decided = fitted.decide(stack)
     concentrated, counted = _concentrated(decided, stack, fitted, ref.origins)
@@ -622,8 +741,9 @@ def classify(
         scoring=fitted.scoring,
         method=method,
         k=k,
-        compressor=measurement.compressor.spec,
-        conditional=measurement.conditional,
+        compressor=STACK.join(m.compressor.spec for m in measurements),
+        conditional=STACK.join(m.conditional for m in measurements),
+        scorings=fitted.scorings,
     )
 
 
@@ -652,17 +772,20 @@ def evaluate(
         raise ValueError("give a test or a threshold, not both")
     ref = _Reference.of(reference)
     ref.check(calibrate=True)
-    measurement = _measurement(comp, method, conditional, engine, cache, progress)
+    measurements = _measurements(comp, method, conditional, engine, cache, progress)
     longest = max(len(i.data) for i in ref.items)
     if threshold is None:
-        folds, shaped = _both_views(ref, measurement, method, blocks, longest)
+        views = [_both_views(ref, m, method, blocks, longest) for m in measurements]
     else:  # a given cut: scores as measured, no shape view to choose
-        held = measurement.staged("held-out reference")
-        folds, shaped = _fold_scores(ref, held, method, blocks, longest), None
+        _one_for_threshold(measurements)
+        held = measurements[0].staged("held-out reference")
+        views = [(_fold_scores(ref, held, method, blocks, longest), None)]
     rate = DEFAULT_SIGNIFICANCE if significance is None else significance
     choose = method == "conditional"
-    report = fold_report(folds, rate, threshold, shaped, choose, test)
-    way, calibration, codes = _calibration(folds, shaped, choose and threshold is None)
+    (folds, shaped), stacked = views[0], views[1:]
+    report = fold_report(folds, rate, threshold, shaped, choose, test, stacked)
+    ways, calibration, codes = _stacked_calibration(views, choose and threshold is None)
+    way = ways[0]
     abstention = (
         Abstention(None, float(threshold), blocks=blocks)
         if threshold is not None
@@ -678,4 +801,6 @@ def evaluate(
         confusion=report.confusion,
         abstention=abstention,
         scoring=way,
+        scorings=ways,
+        compressor=STACK.join(m.compressor.spec for m in measurements),
     )

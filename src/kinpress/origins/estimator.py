@@ -14,9 +14,9 @@ from ..cache import SizeCache
 from ..engine import Engine
 from ..items import ItemLike, as_items
 from ..measure import Measurement
-from .classification import _calibrate, _concentrated, _decision_scores
+from .classification import _calibrate, _concentrated, _stacked_decision_scores
 from .conformal import check_test
-from .scores import DEFAULT_BLOCKS, DEFAULT_SIGNIFICANCE, _measurement, _Reference
+from .scores import DEFAULT_BLOCKS, DEFAULT_SIGNIFICANCE, _measurements, _Reference
 
 
 class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[misc]
@@ -61,8 +61,8 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         self.engine = engine
         self.cache = cache
 
-    def _measurement(self, cache: SizeCache | None) -> Measurement:
-        return _measurement(
+    def _measurements(self, cache: SizeCache | None) -> tuple[Measurement, ...]:
+        return _measurements(
             self.compressor_, self.method, self.conditional, self.engine, cache, None
         )
 
@@ -101,7 +101,7 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
                 ).spec
             self.longest_ = max(len(i.data) for i in labelled)
             self.calibrated_ = _calibrate(
-                self.reference_, self._measurement(cache), self.method, self.significance,
+                self.reference_, self._measurements(cache), self.method, self.significance,
                 self.threshold, DEFAULT_BLOCKS, self.longest_, self.test,
             )  # fmt: skip
         finally:
@@ -115,9 +115,9 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
         cache = self._open_cache()
         try:
             longest = max([self.longest_, *(len(t.data) for t in targets)])
-            _, tested = _decision_scores(targets, self.reference_, self._measurement(cache),
-                                         self.method, self.k, longest,
-                                         self.calibrated_.scoring)  # fmt: skip
+            _, tested = _stacked_decision_scores(targets, self.reference_,
+                                                 self._measurements(cache), self.method, self.k,
+                                                 longest, self.calibrated_.scorings)  # fmt: skip
         finally:
             if cache is not None:
                 cache.close()

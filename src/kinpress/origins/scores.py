@@ -408,6 +408,40 @@ def _measurement(
     )
 
 
+STACK = "+"
+"""Joins the specs of a stack of compressors: "zstd:level=19+ppmd:order=32" scores each item with
+both and decides on the views of both (see classification._stacked_calibration)."""
+
+
+def stacked(comp: str | Compressor) -> tuple[str | Compressor, ...]:
+    """The compressors of a spec: those a stack joins with STACK, or the one given."""
+    if isinstance(comp, str) and STACK in comp:
+        return tuple(part.strip() for part in comp.split(STACK))
+    return (comp,)
+
+
+def _measurements(
+    comp: str | Compressor,
+    method: str,
+    conditional: str,
+    engine: Engine | None,
+    cache: SizeCache | None,
+    progress: Progress | None,
+) -> tuple[Measurement, ...]:
+    """One measurement per compressor of a stack (see `stacked`), each as `_measurement` makes
+    it; with more than one, each phase of the progress names its compressor."""
+    parts = stacked(comp)
+    if len(parts) > 1 and method != "conditional":
+        raise ValueError(f"a stack of compressors ({comp}) scores by the conditional method only")
+    if len(parts) == 1:
+        return (_measurement(comp, method, conditional, engine, cache, progress),)
+    out = []
+    for part in parts:
+        built = _measurement(part, method, conditional, engine, cache, progress)
+        out.append(built.staged(built.compressor.spec) if progress is not None else built)
+    return tuple(out)
+
+
 def _score(
     targets: Sequence[Item],
     reference: _Reference,

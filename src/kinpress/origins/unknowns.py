@@ -239,7 +239,7 @@ def group_unknowns(
 
     def measured(view: list[Item], name: str) -> np.ndarray:
         told = staged(progress, f"unknown items, {name}")
-        return distance_matrix(view, classification.compressor, engine=engine, cache=cache,
+        return distance_matrix(view, classification.compressors[0], engine=engine, cache=cache,
                                progress=told).distances  # fmt: skip
 
     if distances is None:

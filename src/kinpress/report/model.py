@@ -178,6 +178,8 @@ class Report:
                 "origins": c.origins,
                 "abstention": c.abstention,
                 "scoring": c.scoring,
+                "scorings": c.scorings or (c.scoring,),
+                "scoring_words": c.scoring_words,
                 "counts": c.counts(),
                 "concentrated": [
                     {**asdict(n), "words": n.words(c.abstention.significance or 0.0)}
@@ -215,7 +217,8 @@ def versions(spec: str) -> tuple[tuple[str, str], ...]:
 
     from ..compressors import ADAPTERS, compressor
 
-    used = compressor(spec).name if spec else ""
+    # a stack's first compressor (see origins.scores.stacked)
+    used = compressor(spec.split("+")[0]).name if spec else ""
     found = [("kinpress", __version__), ("python", platform.python_version())]
     found.append(("numpy", numpy.__version__))
     for name in sorted(ADAPTERS, key=lambda n: (n != used, n)):
