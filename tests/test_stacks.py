@@ -3,6 +3,7 @@
 
 from __future__ import annotations
 
+import json
 import random
 from pathlib import Path
 
@@ -200,3 +201,28 @@ def test_the_command_line_classifies_with_a_stack_and_refuses_one_elsewhere(
     err = capsys.readouterr().err.strip().splitlines()
     assert err[-1].startswith("kinpress: error:") and "classify and report --reference" in err[-1]
     assert "Traceback" not in "\n".join(err)
+
+
+def test_a_report_with_a_reference_classifies_with_the_stack_and_measures_with_its_first(
+    tmp_path: Path,
+) -> None:
+    known = tmp_path / "known"
+    for item in REFERENCE[::2]:
+        (known / str(item.label)).mkdir(parents=True, exist_ok=True)
+        (known / str(item.label) / f"{item.name}.log").write_bytes(item.data)
+    new = tmp_path / "new"
+    new.mkdir()
+    for item in UNKNOWNS[::3]:
+        (new / f"{item.name}.log").write_bytes(item.data)
+    data, page = tmp_path / "r.json", tmp_path / "r.html"
+    argv = ["report", "--reference", str(known), str(new), "-c", STACKED, "--no-cache",
+            "--quiet"]  # fmt: skip
+    assert cli.main([*argv, "--json", "-o", str(data)]) == 0
+    doc = json.loads(data.read_text())
+    assert doc["classification"]["compressor"] == STACKED
+    assert len(doc["classification"]["scorings"]) == 2
+    assert doc["matrix"]["compressor"] == "zstd:level=19"
+    assert cli.main([*argv, "-o", str(page)]) == 0
+    html = page.read_text()
+    assert "items compared by compression with\n    <code>zstd:level=19</code>" in html
+    assert "A stack of compressors: the origins are decided on the views of all" in html
