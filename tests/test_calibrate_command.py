@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import re
 from pathlib import Path
 
 import pytest
@@ -108,6 +109,11 @@ def test_classify_auto_chooses_by_the_task_and_says_why(
     assert cli.main(argv) == 0
     err = capsys.readouterr().err
     assert "auto: calibrating the compressors on these inputs for classify" in err
-    assert "tells the reference's 3 origins apart best on held-out items" in err
+    # a single compressor that separates best, or the stack none separates significantly better
+    assert re.search(
+        r"auto: chose \S+: (it tells the reference's 3 origins apart best|no single compressor"
+        r" separates the reference's 3 origins significantly better) on held-out items",
+        err,
+    ), err
     assert cli.main(argv) == 0
     assert "auto: the choice for these inputs is in the cache" in capsys.readouterr().err
