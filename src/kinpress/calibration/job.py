@@ -476,10 +476,10 @@ def _pick_labelled(figures: Sequence[TaskFigures], m: int, reasons: list[str]) -
             )
             return stack
         best = _pick_labelled(singles, m, reasons)
+        named = best.spec if best.spec in better else next(iter(better))
         reasons.extend(
-            f"{f.spec}: passed over: {best.spec if best.spec in better else 'a single compressor'}"
-            f" separates the origins significantly better"
-            f" ({better.get(best.spec, next(iter(better.values())))}); {f.summary()}"
+            f"{f.spec}: passed over: {named} separates the origins significantly better"
+            f" ({better[named]}); {f.summary()}"
             for f in stacks
         )
         return best
