@@ -24,7 +24,9 @@ class CompressionClassifier(ClassifierMixin, BaseEstimator):  # type: ignore[mis
 
     Parameters are stored as given. `fit` keeps the training items as the reference, chooses the
     compressor when `compressor` is "auto" (as the command line does for classify, within
-    `budget` seconds; kept in `compressor_`) and calibrates the conformal abstention at
+    `budget` seconds; kept in `compressor_`, possibly a stack such as
+    "zstd:level=19+ppmd:order=32,memory=256", whose compressors' views are decided on together;
+    a stack may be given too) and calibrates the conformal abstention at
     `significance` (unless a `threshold` is given), deciding by `test` (one of "fit",
     "separation", "contrast", "mix"; default: the one the reference chooses). `predict`
     returns the class, or `unknown_label` for an item no class accepts or several do;
