@@ -226,3 +226,14 @@ def test_a_report_with_a_reference_classifies_with_the_stack_and_measures_with_i
     html = page.read_text()
     assert "items compared by compression with\n    <code>zstd:level=19</code>" in html
     assert "A stack of compressors: the origins are decided on the views of all" in html
+
+
+def test_each_phase_of_a_stack_names_its_compressor() -> None:
+    phases: set[str] = set()
+    classify(UNKNOWNS, REFERENCE, STACKED, progress=lambda phase, done, total: phases.add(phase))
+    zstd, zlib = stacked(STACKED)
+    assert any(p.endswith(f"(held-out reference, content, {zstd})") for p in phases), phases
+    assert any(p.endswith(f"(held-out reference, shape, {zlib})") for p in phases), phases
+    assert any(p.startswith("pairs (items") and p.endswith(f", {zlib})") for p in phases), phases
+    assert any(p.endswith("(nearest reference items)") for p in phases), phases
+    assert not any("))" in p for p in phases), phases

@@ -574,7 +574,10 @@ def _calibrate(
     if not 0 < significance < 1:
         raise ValueError(f"significance must lie between 0 and 1, got {significance}")
     reference.check(calibrate=True)
-    views = [_both_views(reference, m, method, blocks, longest) for m in measurements]
+    views = [
+        _both_views(reference, m, method, blocks, longest, _tag(measurements, m))
+        for m in measurements
+    ]
     ways, calibration, codes = _stacked_calibration(views, method == "conditional")
     conformity = Conformity.of(calibration, codes, reference.origins, significance, test)
     separation = (
@@ -583,6 +586,12 @@ def _calibrate(
         else Conformity.of(calibration, codes, reference.origins, significance, "separation")
     )
     return _Calibrated(_abstention(conformity, blocks), conformity, ways, separation)
+
+
+def _tag(measurements: Sequence[Measurement], measurement: Measurement) -> str:
+    """How a phase's name ends for `measurement` among `measurements`: its compressor's spec
+    when they are a stack ("items, content, zstd:level=19"), nothing for one compressor."""
+    return f", {measurement.compressor.spec}" if len(measurements) > 1 else ""
 
 
 def _one_for_threshold(measurements: Sequence[Measurement]) -> None:
@@ -620,16 +629,22 @@ def _concentrated(
 
 
 def _both_views(
-    reference: _Reference, measurement: Measurement, method: str, blocks: int, longest: int
+    reference: _Reference,
+    measurement: Measurement,
+    method: str,
+    blocks: int,
+    longest: int,
+    tag: str = "",
 ) -> tuple[FoldScores, FoldScores | None]:
-    """Held-out scores of the content and, for the conditional method, of the shape view."""
+    """Held-out scores of the content and, for the conditional method, of the shape view; `tag`
+    ends each phase's name (a stack's compressor, see _tag)."""
     content = measurement.staged(
-        "held-out reference" + (", content" if method == "conditional" else "")
+        "held-out reference" + (", content" if method == "conditional" else "") + tag
     )
     folds = _fold_scores(reference, content, method, blocks, longest)
     if method != "conditional":
         return folds, None
-    shape = measurement.staged("held-out reference, shape")
+    shape = measurement.staged(f"held-out reference, shape{tag}")
     return folds, _fold_scores(reference.shaped(), shape, method, blocks, longest)
 
 
@@ -641,19 +656,22 @@ def _decision_scores(
     k: int,
     longest: int,
     scoring: Scoring,
+    tag: str = "",
 ) -> tuple[_Scores, np.ndarray]:
     """The targets' scores as the decision uses them (see Scoring): the scores an origin is
     picked by (the lowest is best), and what the decision tests, the content's on its footing
-    or, where the scoring uses the shape view, the stack of both views."""
+    or, where the scoring uses the shape view, the stack of both views; `tag` ends each phase's
+    name."""
     view = ", content" if scoring.uses_shape else ""
-    measured = _score(targets, reference, measurement.staged(f"items{view}"), method, k, longest)
+    told = measurement.staged(f"items{view}{tag}")
+    measured = _score(targets, reference, told, method, k, longest)
     if not scoring.content.divided and not scoring.uses_shape:
         return measured, measured.scores
     shaped = None
     if scoring.uses_shape:
         from .views import shaped_items
 
-        shape = measurement.staged("items, shape")
+        shape = measurement.staged(f"items, shape{tag}")
         shaped = _score(shaped_items(targets), reference.shaped(), shape, method, k, longest).scores
     stack = scoring.stack(measured.scores, shaped)
     common = combined(stack)
@@ -672,7 +690,7 @@ def _stacked_decision_scores(
     """_decision_scores of each compressor of a stack, joined as _stacked_calibration joins
     them: origins picked by the geometric mean over every view (`combined`)."""
     parts = [
-        _decision_scores(targets, reference, m, method, k, longest, way)
+        _decision_scores(targets, reference, m, method, k, longest, way, _tag(measurements, m))
         for m, way in zip(measurements, scorings, strict=True)
     ]
     if len(parts) == 1:
@@ -775,7 +793,10 @@ def evaluate(
     measurements = _measurements(comp, method, conditional, engine, cache, progress)
     longest = max(len(i.data) for i in ref.items)
     if threshold is None:
-        views = [_both_views(ref, m, method, blocks, longest) for m in measurements]
+        views = [
+            _both_views(ref, m, method, blocks, longest, _tag(measurements, m))
+            for m in measurements
+        ]
     else:  # a given cut: scores as measured, no shape view to choose
         _one_for_threshold(measurements)
         held = measurements[0].staged("held-out reference")

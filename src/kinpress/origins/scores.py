@@ -429,17 +429,11 @@ def _measurements(
     progress: Progress | None,
 ) -> tuple[Measurement, ...]:
     """One measurement per compressor of a stack (see `stacked`), each as `_measurement` makes
-    it; with more than one, each phase of the progress names its compressor."""
+    it."""
     parts = stacked(comp)
     if len(parts) > 1 and method != "conditional":
         raise ValueError(f"a stack of compressors ({comp}) scores by the conditional method only")
-    if len(parts) == 1:
-        return (_measurement(comp, method, conditional, engine, cache, progress),)
-    out = []
-    for part in parts:
-        built = _measurement(part, method, conditional, engine, cache, progress)
-        out.append(built.staged(built.compressor.spec) if progress is not None else built)
-    return tuple(out)
+    return tuple(_measurement(p, method, conditional, engine, cache, progress) for p in parts)
 
 
 def _score(
