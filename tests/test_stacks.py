@@ -116,7 +116,7 @@ def test_evaluate_and_the_estimator_take_a_stack() -> None:
     assert result.compressor == STACKED and len(result.scorings) == 2
     assert result.accuracy >= 0.9
     assert "a stack of 2 compressors" in result.scoring_words
-    assert result.as_json()["scorings"]
+    assert result.as_json()["compressor"] == STACKED and len(result.as_json()["scorings"]) == 2
     model = CompressionClassifier(compressor=STACKED, unknown_label="?")
     model.fit([i.data for i in REFERENCE], [i.label for i in REFERENCE])
     predicted = model.predict([i.data for i in UNKNOWNS])

@@ -505,12 +505,14 @@ class Evaluation:
 
     def as_json(self) -> dict[str, object]:
         """The rates, per origin its missing-origin refusal rate, the confusion table (rows:
-        true origins; columns: origins named, then ambiguous and unknown), the abstention and
-        the scoring (see Scoring: chosen on all held-out items, where each fold's decisions
-        chose it on the other folds)."""
+        true origins; columns: origins named, then ambiguous and unknown), the abstention, the
+        compressor (a stack's specs joined by +) and the scoring (see Scoring: chosen on all
+        held-out items, where each fold's decisions chose it on the other folds; `scorings`
+        each compressor's)."""
         return dict(
             json_ready(
                 {
+                    "compressor": self.compressor,
                     "accuracy": self.accuracy,
                     "refusal_rate": self.refusal_rate,
                     "ambiguous_rate": self.ambiguous_rate,
