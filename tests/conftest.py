@@ -6,9 +6,12 @@ import os
 import random
 import sysconfig
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pytest
+
+from kinpress import Item
 
 SHARED_DATA = Path(__file__).resolve().parents[2] / "shared" / "datasets-real"
 DATASETS = Path(__file__).resolve().parents[1] / "datasets"
@@ -63,6 +66,53 @@ _WORDS = [
     "read",
     "write",
 ]
+
+
+def origin_text(origin: int, seed: int, lines: int = 30) -> str:
+    """Log-like lines from a vocabulary of its own for each origin (fixed seeds)."""
+    words = random.Random(origin)
+    vocabulary = ["".join(words.choice("abcdefghijklmnop") for _ in range(6)) for _ in range(25)]
+    rng = random.Random(1000 * origin + seed)
+    rows = (
+        f"{n:03d} " + " ".join(rng.choice(vocabulary) for _ in range(rng.randint(4, 9)))
+        for n in range(lines)
+    )
+    return "\n".join(rows) + "\n"
+
+
+def origin_items(origins: range, seeds: range, prefix: str = "r") -> list[Item]:
+    """Items of origin_text, labelled o<origin>, named <prefix><origin>-<seed>."""
+    return [
+        Item(f"{prefix}{o}-{s}", origin_text(o, s).encode(), "generated", label=f"o{o}")
+        for o in origins
+        for s in seeds
+    ]
+
+
+def held_out_decision_scores(
+    reference: list[Item], spec: str, **options: Any
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """What a classification's calibration decides on, recomputed from kinpress's public
+    functions: each compressor of `spec` (a stack's specs joined by +) scores the reference
+    held out fold by fold (fold_scores, with `options`) in the content and shape views, on the
+    footing its Scoring chooses; a stack's views joined along the last axis. Returns the
+    scores, the origins' codes and the reference rows behind them."""
+    from kinpress.origins import Scoring, fold_scores, stacked
+    from kinpress.origins.views import shaped_items
+
+    views = [
+        [fold_scores(given, part, **options) for given in (reference, shaped_items(reference))]
+        for part in stacked(spec)
+    ]
+    keep = np.logical_and.reduce([c.measured & s.measured for c, s in views])
+    codes = views[0][0].codes[keep]
+    stacks = []
+    for content, shape in views:
+        way = Scoring.choose(content.scores[keep], shape.scores[keep], codes, content.origins)
+        stacks.append(way.stack(content.scores[keep], shape.scores[keep]))
+    if len(stacks) > 1:
+        stacks = [np.concatenate([v if v.ndim == 3 else v[:, :, None] for v in stacks], axis=2)]
+    return stacks[0], codes, np.flatnonzero(keep)
 
 
 def generated_text(seed: int, lines: int = 60) -> bytes:

@@ -32,6 +32,7 @@ from sklearn.utils.estimator_checks import (
     check_set_params,
 )
 
+from conftest import held_out_decision_scores, origin_items, origin_text
 from kinpress import (
     InputError,
     InputWarning,
@@ -61,7 +62,6 @@ from kinpress.origins import (
     corpus_bytes,
     evaluate,
     fold_report,
-    fold_scores,
     group_unknowns,
     novelty_aucs,
     novelty_detection,
@@ -70,29 +70,9 @@ from kinpress.origins import (
 )
 from kinpress.origins.conformal import _abstention, combined
 from kinpress.origins.unknowns import UnknownGroup, UnknownGroups, pair_allowance
-from kinpress.origins.views import Scoring, shaped_items
+from kinpress.origins.views import shaped_items
 
 SHARED_DATA = Path(__file__).resolve().parents[2] / "shared" / "datasets-real"
-
-
-def origin_text(origin: int, seed: int, lines: int = 30) -> str:
-    """Log-like lines from a vocabulary of its own for each origin (fixed seeds)."""
-    words = random.Random(origin)
-    vocabulary = ["".join(words.choice("abcdefghijklmnop") for _ in range(6)) for _ in range(25)]
-    rng = random.Random(1000 * origin + seed)
-    rows = (
-        f"{n:03d} " + " ".join(rng.choice(vocabulary) for _ in range(rng.randint(4, 9)))
-        for n in range(lines)
-    )
-    return "\n".join(rows) + "\n"
-
-
-def origin_items(origins: range, seeds: range, prefix: str = "r") -> list[Item]:
-    return [
-        Item(f"{prefix}{o}-{s}", origin_text(o, s).encode(), "generated", label=f"o{o}")
-        for o in origins
-        for s in seeds
-    ]
 
 
 @pytest.fixture(scope="module")
@@ -895,24 +875,15 @@ def test_auto_separates_the_reference_at_least_as_well_as_each_candidate_it_pass
     right: dict[str, set[int]] = {}
     missed: dict[str, tuple[int, int]] = {}
     for spec in measured:
-        views = []
-        for part in stacked(spec):
-            content, shaped = (
-                fold_scores(given, part, folds=MEASURED_FOLDS, longest=longest, cache=cache)
-                for given in (reference, shaped_items(reference))
-            )
-            keep = content.measured & shaped.measured
-            codes = content.codes[keep]
-            way = Scoring.choose(content.scores[keep], shaped.scores[keep], codes, content.origins)
-            view = way.stack(content.scores[keep], shaped.scores[keep])
-            views.append(view if view.ndim == 3 or len(stacked(spec)) == 1 else view[:, :, None])
-        scores = views[0] if len(views) == 1 else np.concatenate(views, axis=2)
+        scores, codes, rows = held_out_decision_scores(
+            reference, spec, folds=MEASURED_FOLDS, longest=longest, cache=cache
+        )
         auc = max(novelty_aucs(scores, codes))
         refused = max(novelty_detection(scores, codes, DEFAULT_SIGNIFICANCE).values())
         named = combined(scores).argmin(axis=1) == codes
         figures[spec] = np.mean(named) + (auc + refused) / 2
         assert figures[spec] == pytest.approx(measured[spec].merit)
-        right[spec] = set(np.flatnonzero(keep)[named].tolist())
+        right[spec] = set(rows[named].tolist())
         missed[spec] = round(refused * len(codes)), len(codes)
     band = TIE_ITEMS / measured[log_choice.spec].items
     singles = [spec for spec in figures if len(stacked(spec)) == 1]

@@ -4,13 +4,13 @@
 from __future__ import annotations
 
 import json
-import random
 from pathlib import Path
 
 import numpy as np
 import pytest
 
-from kinpress import Item, cli
+from conftest import held_out_decision_scores, origin_items
+from kinpress import cli
 from kinpress.calibration import choose_for_job
 from kinpress.calibration.job import LABELLED_STACKS, TaskFigures, _pick_labelled
 from kinpress.origins import (
@@ -19,37 +19,15 @@ from kinpress.origins import (
     Conformity,
     classify,
     evaluate,
-    fold_scores,
     stacked,
 )
-from kinpress.origins.views import Scoring, shaped_items
 
 STACKED = "zstd:level=19+zlib:level=9,window=15"
 """Two quick compressors of different windows: the stack the tests classify with."""
 
 
-def _text(origin: int, seed: int, lines: int = 30) -> str:
-    """Log-like lines from a vocabulary of each origin's own (fixed seeds)."""
-    words = random.Random(origin)
-    vocabulary = ["".join(words.choice("abcdefghijklmnop") for _ in range(6)) for _ in range(25)]
-    rng = random.Random(1000 * origin + seed)
-    rows = (
-        f"{n:03d} " + " ".join(rng.choice(vocabulary) for _ in range(rng.randint(4, 9)))
-        for n in range(lines)
-    )
-    return "\n".join(rows) + "\n"
-
-
-def _items(origins: range, seeds: range, prefix: str) -> list[Item]:
-    return [
-        Item(f"{prefix}{o}-{s}", _text(o, s).encode(), "generated", label=f"o{o}")
-        for o in origins
-        for s in seeds
-    ]
-
-
-REFERENCE = _items(range(4), range(6), "r")
-UNKNOWNS = _items(range(5), range(6, 9), "u")  # origin 4 is not in the reference
+REFERENCE = origin_items(range(4), range(6), "r")
+UNKNOWNS = origin_items(range(5), range(6, 9), "u")  # origin 4 is not in the reference
 
 
 def test_a_spec_splits_into_its_stack() -> None:
@@ -67,19 +45,8 @@ def test_a_stack_calibrates_on_the_views_of_each_of_its_compressors() -> None:
     # the footing each chooses (Scoring), joined as further views; the deciding test chosen on
     # that stack is the classification's, with the same share of left-out origins refused.
     longest = max(len(i.data) for i in [*UNKNOWNS, *REFERENCE])
-    stacks, codes = [], None
-    for spec in stacked(STACKED):
-        content, shape = (
-            fold_scores(given, spec, longest=longest)
-            for given in (REFERENCE, shaped_items(REFERENCE))
-        )
-        keep = content.measured & shape.measured
-        codes = content.codes[keep]
-        way = Scoring.choose(content.scores[keep], shape.scores[keep], codes, content.origins)
-        view = way.stack(content.scores[keep], shape.scores[keep])
-        stacks.append(view if view.ndim == 3 else view[:, :, None])
-    assert codes is not None
-    joined = np.concatenate(stacks, axis=2)
+    joined, codes, _ = held_out_decision_scores(REFERENCE, STACKED, longest=longest)
+    assert joined.shape[2] >= 2
     conformity = Conformity.of(joined, codes, found.origins, 0.05)
     assert found.abstention.test == conformity.test
     assert dict(found.abstention.detection) == pytest.approx(dict(conformity.detection))

@@ -330,18 +330,6 @@ def _both_measured(folds: FoldScores, shaped: FoldScores | None) -> np.ndarray:
     return folds.measured if shaped is None else folds.measured & shaped.measured
 
 
-def _calibration(
-    folds: FoldScores, shaped: FoldScores | None, choose: bool
-) -> tuple[Scoring, np.ndarray, np.ndarray]:
-    """The scoring chosen on all measured held-out rows (see _scoring), what the decision tests
-    of them (`Scoring.stack`) and their origins."""
-    keep = _both_measured(folds, shaped)
-    held, codes = folds.scores[keep], folds.codes[keep]
-    held_shape = None if shaped is None else shaped.scores[keep]
-    way = _scoring(held, held_shape, codes, folds.origins, choose)
-    return way, way.stack(held, held_shape), codes
-
-
 Views = tuple[FoldScores, FoldScores | None]
 """A compressor's held-out scores of the content and, when measured, of the shape view."""
 
@@ -349,15 +337,12 @@ Views = tuple[FoldScores, FoldScores | None]
 def _stacked_calibration(
     views: Sequence[Views], choose: bool
 ) -> tuple[tuple[Scoring, ...], np.ndarray, np.ndarray]:
-    """_calibration of each compressor of a stack on the held-out rows all of them measured,
-    its decision scores joined as further views: (items, origins, views of every compressor).
-    The tests then weigh each compressor's views as they weigh one compressor's content and
-    shape, so that what one compressor misses on data that has drifted (its own scores far
-    above its held-out reference's) the other's views still count. One compressor: as
-    _calibration."""
-    if len(views) == 1:
-        way, calibration, codes = _calibration(*views[0], choose)
-        return (way,), calibration, codes
+    """Each compressor's scoring chosen on the held-out rows all of them measured (see
+    _scoring), what the decision tests of them (`Scoring.stack`, joined by `_joined`) and their
+    origins. For a stack the tests then weigh each compressor's views as they weigh one
+    compressor's content and shape, so that what one compressor misses on data that has
+    drifted (its own scores far above its held-out reference's) the other's views still
+    count."""
     keep = np.logical_and.reduce([_both_measured(folds, shaped) for folds, shaped in views])
     ways, stacks = [], []
     codes = views[0][0].codes[keep]
@@ -366,13 +351,16 @@ def _stacked_calibration(
         held_shape = None if shaped is None else shaped.scores[keep]
         way = _scoring(held, held_shape, codes, folds.origins, choose)
         ways.append(way)
-        stacks.append(_as_views(way.stack(held, held_shape)))
-    return tuple(ways), np.concatenate(stacks, axis=2), codes
+        stacks.append(way.stack(held, held_shape))
+    return tuple(ways), _joined(stacks), codes
 
 
-def _as_views(stack: np.ndarray) -> np.ndarray:
-    """Decision scores as an (items, origins, views) stack."""
-    return stack if stack.ndim == 3 else stack[:, :, None]
+def _joined(stacks: Sequence[np.ndarray]) -> np.ndarray:
+    """The decision scores of a stack's compressors as one (items, origins, views) stack; one
+    compressor's as they are."""
+    if len(stacks) == 1:
+        return stacks[0]
+    return np.concatenate([s if s.ndim == 3 else s[:, :, None] for s in stacks], axis=2)
 
 
 def fold_report(
@@ -393,8 +381,8 @@ def fold_report(
     measured on the same folds, whose decision scores join the first's (see
     _stacked_calibration)."""
     views = [(folds, shaped), *stacked]
-    if stacked and threshold is not None:
-        raise ValueError("a given threshold cuts one compressor's scores: give one compressor")
+    if threshold is not None:
+        _one_for_threshold(views)
     keep = np.logical_and.reduce([_both_measured(f, s) for f, s in views])
     codes, fold_of = folds.codes[keep], folds.folds[keep]
     measured = [(f.scores[keep], None if s is None else s.scores[keep]) for f, s in views]
@@ -416,14 +404,10 @@ def fold_report(
             )
             calibrations.append(way.stack(content[train], None if shape is None else shape[train]))
             decisions.append(way.stack(content[rows], None if shape is None else shape[rows]))
-        calibration, decided = calibrations[0], decisions[0]
-        if len(measured) > 1:
-            calibration = np.concatenate([_as_views(c) for c in calibrations], axis=2)
-            decided = np.concatenate([_as_views(d) for d in decisions], axis=2)
         conformity = None
         if threshold is None:
-            conformity = Conformity.of(calibration, relabel, names, significance, test)
-        return _decisions(decided, conformity, threshold)
+            conformity = Conformity.of(_joined(calibrations), relabel, names, significance, test)
+        return _decisions(_joined(decisions), conformity, threshold)
 
     confusion = np.zeros((m, m + 2), dtype=np.int64)
     everyone = list(range(m))
@@ -596,9 +580,10 @@ def _tag(measurements: Sequence[Measurement], measurement: Measurement) -> str:
     return f", {measurement.compressor.spec}" if len(measurements) > 1 else ""
 
 
-def _one_for_threshold(measurements: Sequence[Measurement]) -> None:
-    """A given score cut applies to one compressor's scores; a stack has no single score."""
-    if len(measurements) > 1:
+def _one_for_threshold(compressors: Sequence[object]) -> None:
+    """A given score cut applies to one compressor's scores; a stack (one measurement or view
+    per compressor) has no single score."""
+    if len(compressors) > 1:
         raise ValueError("a given threshold cuts one compressor's scores: give one compressor")
 
 
@@ -697,7 +682,7 @@ def _stacked_decision_scores(
     ]
     if len(parts) == 1:
         return parts[0]
-    stack = np.concatenate([_as_views(tested) for _, tested in parts], axis=2)
+    stack = _joined([tested for _, tested in parts])
     common = combined(stack)
     return replace(parts[0][0], scores=common, picked=common.argmin(axis=1)), stack
 

@@ -216,9 +216,9 @@ def versions(spec: str) -> tuple[tuple[str, str], ...]:
     import numpy
 
     from ..compressors import ADAPTERS, compressor
+    from ..origins.scores import stacked
 
-    # a stack's first compressor (see origins.scores.stacked)
-    used = compressor(spec.split("+")[0]).name if spec else ""
+    used = compressor(stacked(spec)[0]).name if spec else ""  # a stack's first
     found = [("kinpress", __version__), ("python", platform.python_version())]
     found.append(("numpy", numpy.__version__))
     for name in sorted(ADAPTERS, key=lambda n: (n != used, n)):
